@@ -3,4 +3,36 @@
 // parallel evaluation over half-ensembles, checkpoints that resume bit for
 // bit, and convergence diagnostics. It knows nothing about spectra and
 // imports nothing of chord's.
+//
+// # Running a chain
+//
+// A Target gives the dimension, the number of extra (derived) values per
+// sample, and one Evaluator per worker goroutine. InitBall, InitPrior or
+// InitPositions make the initial State (checking that every walker has a
+// finite log density and that the ensemble spans the parameter space); Run
+// advances it under Settings, hands every Step to a Recorder, and returns
+// the final State and a Result saying which stopping rule ended the run.
+//
+// # Reproducibility
+//
+// Every random number is drawn from the State's PCG generator
+// (math/rand/v2) on the goroutine that called Run, in a fixed order; the
+// worker goroutines only evaluate log densities. The chain is therefore the
+// same for any Settings.Workers, and State.MarshalBinary captures everything
+// needed to continue it bit for bit.
+//
+// # Convergence
+//
+// The convergence rule estimates the integrated autocorrelation time from a
+// History, a bounded thinned copy of the positions (memory does not grow
+// with the chain). A caller that resumes in a new process replays its stored
+// chain into a fresh History; the previous estimate of tau travels in the
+// State, so the resumed run takes the same decisions as an uninterrupted
+// one.
+//
+// # Diagnostics
+//
+// Autocorr / IntegratedTime (FFT, Sokal's automatic window), SplitRhat and
+// BulkESS (Vehtari et al. 2021, Bayesian Analysis 16, 667), and
+// State.Acceptance with stuck-walker flags.
 package sampler
