@@ -1,0 +1,343 @@
+package opacity
+
+import (
+	"bufio"
+	"bytes"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"slices"
+	"strconv"
+	"strings"
+)
+
+// HITRAN line-list reading.
+//
+// Two layouts are accepted, told apart by the first record of a file:
+//
+//   - the 160-character fixed-width record of HITRAN 2004 and later
+//     (Rothman et al. 2005, JQSRT 96, 139, table 1; the 100-character 1996
+//     record of Rothman et al. 1998, JQSRT 60, 665 extended): molecule I2,
+//     isotopologue I1 (0 means 10, A 11, B 12, ...), wavenumber F12.6,
+//     intensity E10.3, Einstein A E10.3, gamma_air F5.4, gamma_self F5.3,
+//     E'' F10.4, n_air F4.2, delta_air F8.6, four 15-character quantum-number
+//     fields, error and reference codes, line-mixing flag, g' F7.1, g'' F7.1;
+//   - HITRANonline's tab-separated output with the nine columns molecule id,
+//     nu, S, A, gamma_air, gamma_self, E'', n_air, delta_air (no isotopologue
+//     column: the isotopologue is taken as 1, the most abundant). A first
+//     line holding only column names is skipped.
+//
+// Lines are streamed (bufio), never read whole; a trailing carriage return
+// (CRLF files) is removed before columns are sliced. Blank lines are
+// skipped.
+
+// HITRANRecordLen is the length of a HITRAN 2004+ fixed-width record.
+const HITRANRecordLen = 160
+
+// MoleculeNames are the HITRAN molecule names by HITRAN molecule id
+// (index 0 unused), as in HITRAN's molparam table (HITRAN2020 edition,
+// ids 1-55).
+var MoleculeNames = [...]string{"",
+	"H2O", "CO2", "O3", "N2O", "CO", "CH4", "O2", "NO", "SO2", "NO2",
+	"NH3", "HNO3", "OH", "HF", "HCl", "HBr", "HI", "ClO", "OCS", "H2CO",
+	"HOCl", "N2", "HCN", "CH3Cl", "H2O2", "C2H2", "C2H6", "PH3", "COF2", "SF6",
+	"H2S", "HCOOH", "HO2", "O", "ClONO2", "NO+", "HOBr", "C2H4", "CH3OH", "CH3Br",
+	"CH3CN", "CF4", "C4H2", "HC3N", "H2", "CS", "SO3", "C2N2", "COCl2", "SO",
+	"CH3F", "GeH4", "CS2", "CH3I", "NF3",
+}
+
+// MoleculeID returns the HITRAN id of a molecule name ("H2O" -> 1), or 0.
+func MoleculeID(name string) int {
+	for i, n := range MoleculeNames {
+		if i > 0 && n == name {
+			return i
+		}
+	}
+	return 0
+}
+
+// LineFilter selects lines while they are read. Its zero value keeps every
+// line.
+type LineFilter struct {
+	NuMin, NuMax float64 // wavenumber range in cm^-1, inclusive; NuMax 0 means no upper limit
+	SMin         float64 // minimum intensity at 296 K, cm^-1/(molecule cm^-2); 0 keeps all
+	Mol          int     // keep only this HITRAN molecule id; 0 keeps all
+	Iso          []int   // keep only these isotopologue numbers; empty keeps all
+}
+
+func (f *LineFilter) keep(l *Line) bool {
+	if l.Nu < f.NuMin || (f.NuMax > 0 && l.Nu > f.NuMax) || l.S < f.SMin {
+		return false
+	}
+	if f.Mol != 0 && l.Mol != f.Mol {
+		return false
+	}
+	return len(f.Iso) == 0 || slices.Contains(f.Iso, l.Iso)
+}
+
+// ReadLineFile reads a HITRAN line-list file (either layout) and returns the
+// lines that pass the filter.
+func ReadLineFile(path string, f LineFilter) ([]Line, error) {
+	fh, err := os.Open(path)
+	if err != nil {
+		return nil, fmt.Errorf("opacity: %w", err)
+	}
+	defer fh.Close()
+	return ReadLines(fh, path, f)
+}
+
+// ReadLines reads a HITRAN line list from r; name is used in error messages
+// (file name). Every record must parse: a malformed record is an error
+// naming the file, the line number and the field. An input without any
+// record is an error.
+func ReadLines(r io.Reader, name string, f LineFilter) ([]Line, error) {
+	sc := bufio.NewScanner(r)
+	sc.Buffer(make([]byte, 0, 4096), 1<<20)
+	var (
+		out     []Line
+		lineNo  int
+		records int
+		tsv     bool
+		decided bool
+	)
+	for sc.Scan() {
+		lineNo++
+		rec := bytes.TrimSuffix(sc.Bytes(), []byte{'\r'})
+		if len(bytes.TrimSpace(rec)) == 0 {
+			continue
+		}
+		if !decided {
+			decided = true
+			tsv = bytes.IndexByte(rec, '\t') >= 0
+			if tsv && isHeader(rec) {
+				continue
+			}
+		}
+		var (
+			l   Line
+			err error
+		)
+		if tsv {
+			err = parseTSV(&l, rec)
+		} else {
+			err = parseFixed(&l, rec)
+		}
+		if err != nil {
+			return nil, fmt.Errorf("opacity: %s:%d: %w", name, lineNo, err)
+		}
+		records++
+		if f.keep(&l) {
+			out = append(out, l)
+		}
+	}
+	if err := sc.Err(); err != nil {
+		if err == bufio.ErrTooLong {
+			return nil, fmt.Errorf("opacity: %s:%d: line longer than 1 MiB, not a HITRAN line list", name, lineNo+1)
+		}
+		return nil, fmt.Errorf("opacity: %s: %w", name, err)
+	}
+	if records == 0 {
+		return nil, fmt.Errorf("opacity: %s: no line records (empty file)", name)
+	}
+	return out, nil
+}
+
+// isHeader reports whether a tab-separated record holds only column names
+// (each field starts with a letter).
+func isHeader(rec []byte) bool {
+	for _, fld := range bytes.Split(rec, []byte{'\t'}) {
+		fld = bytes.TrimSpace(fld)
+		if len(fld) == 0 || !(fld[0] >= 'a' && fld[0] <= 'z' || fld[0] >= 'A' && fld[0] <= 'Z') {
+			return false
+		}
+	}
+	return true
+}
+
+// fixedField is one numeric column of the 160-character record (1-based
+// first column, width) with its meaning for error messages.
+type fixedField struct {
+	start, width int
+	name         string
+}
+
+var (
+	fNu        = fixedField{4, 12, "wavenumber (columns 4-15)"}
+	fS         = fixedField{16, 10, "intensity (columns 16-25)"}
+	fA         = fixedField{26, 10, "Einstein A (columns 26-35)"}
+	fGammaAir  = fixedField{36, 5, "gamma_air (columns 36-40)"}
+	fGammaSelf = fixedField{41, 5, "gamma_self (columns 41-45)"}
+	fElower    = fixedField{46, 10, "lower-state energy (columns 46-55)"}
+	fNAir      = fixedField{56, 4, "n_air (columns 56-59)"}
+	fDeltaAir  = fixedField{60, 8, "delta_air (columns 60-67)"}
+	fGUpper    = fixedField{147, 7, "g' (columns 147-153)"}
+	fGLower    = fixedField{154, 7, "g'' (columns 154-160)"}
+)
+
+func parseFixed(l *Line, rec []byte) error {
+	if len(rec) < HITRANRecordLen {
+		return fmt.Errorf("truncated record: %d characters, a HITRAN record has %d", len(rec), HITRANRecordLen)
+	}
+	if len(rec) > HITRANRecordLen {
+		return fmt.Errorf("record has %d characters, a HITRAN record has %d (tab-separated files must use tabs from the first line)", len(rec), HITRANRecordLen)
+	}
+	mol, err := strconv.Atoi(strings.TrimSpace(string(rec[0:2])))
+	if err != nil {
+		return fmt.Errorf("molecule id (columns 1-2) %q is not an integer", rec[0:2])
+	}
+	if err := checkMol(mol); err != nil {
+		return err
+	}
+	iso, err := isoNumber(rec[2])
+	if err != nil {
+		return err
+	}
+	l.Mol, l.Iso = mol, iso
+	dst := [...]*float64{&l.Nu, &l.S, &l.A, &l.GammaAir, &l.GammaSelf, &l.Elower, &l.NAir, &l.DeltaAir}
+	for i, fld := range [...]fixedField{fNu, fS, fA, fGammaAir, fGammaSelf, fElower, fNAir, fDeltaAir} {
+		v, err := parseNum(rec[fld.start-1:fld.start-1+fld.width], fld.name, false)
+		if err != nil {
+			return err
+		}
+		*dst[i] = v
+	}
+	// Statistical weights are blank in some older records: 0 means unknown.
+	if l.GUpper, err = parseNum(rec[fGUpper.start-1:fGUpper.start-1+fGUpper.width], fGUpper.name, true); err != nil {
+		return err
+	}
+	if l.GLower, err = parseNum(rec[fGLower.start-1:fGLower.start-1+fGLower.width], fGLower.name, true); err != nil {
+		return err
+	}
+	return checkLine(l)
+}
+
+var tsvNames = [...]string{"molecule id", "nu", "S", "A", "gamma_air", "gamma_self", "E''", "n_air", "delta_air"}
+
+func parseTSV(l *Line, rec []byte) error {
+	flds := bytes.Split(rec, []byte{'\t'})
+	if len(flds) != len(tsvNames) {
+		return fmt.Errorf("%d tab-separated fields, want %d (%s)", len(flds), len(tsvNames), strings.Join(tsvNames[:], ", "))
+	}
+	mol, err := strconv.Atoi(string(bytes.TrimSpace(flds[0])))
+	if err != nil {
+		return fmt.Errorf("field 1 (molecule id) %q is not an integer", flds[0])
+	}
+	if err := checkMol(mol); err != nil {
+		return err
+	}
+	l.Mol, l.Iso = mol, 1
+	dst := [...]*float64{&l.Nu, &l.S, &l.A, &l.GammaAir, &l.GammaSelf, &l.Elower, &l.NAir, &l.DeltaAir}
+	for i, p := range dst {
+		v, err := parseNum(flds[i+1], fmt.Sprintf("field %d (%s)", i+2, tsvNames[i+1]), false)
+		if err != nil {
+			return err
+		}
+		*p = v
+	}
+	return checkLine(l)
+}
+
+func checkMol(mol int) error {
+	if mol < 1 || mol >= len(MoleculeNames) {
+		return fmt.Errorf("unknown HITRAN molecule id %d (known: 1-%d)", mol, len(MoleculeNames)-1)
+	}
+	return nil
+}
+
+// isoNumber decodes HITRAN's one-character isotopologue code: 1-9, 0 for
+// 10, A for 11, B for 12, and so on.
+func isoNumber(c byte) (int, error) {
+	switch {
+	case c >= '1' && c <= '9':
+		return int(c - '0'), nil
+	case c == '0':
+		return 10, nil
+	case c >= 'A' && c <= 'Z':
+		return 11 + int(c-'A'), nil
+	}
+	return 0, fmt.Errorf("isotopologue code (column 3) %q is not 0-9 or A-Z", string(c))
+}
+
+// parseNum parses a Fortran-style number field. Blank fields are an error
+// unless blankOK (then 0). Only decimal notation is accepted (no hex, no
+// Inf or NaN).
+func parseNum(b []byte, name string, blankOK bool) (float64, error) {
+	s := strings.TrimSpace(string(b))
+	if s == "" {
+		if blankOK {
+			return 0, nil
+		}
+		return 0, fmt.Errorf("%s is blank", name)
+	}
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		if !(c >= '0' && c <= '9' || c == '.' || c == '-' || c == '+' || c == 'e' || c == 'E') {
+			return 0, fmt.Errorf("%s %q is not a number", name, s)
+		}
+	}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil || math.IsInf(v, 0) {
+		return 0, fmt.Errorf("%s %q is not a number", name, s)
+	}
+	return v, nil
+}
+
+// checkLine rejects physically impossible values: a line list with them is
+// corrupt, and they would poison every cross-section built from it.
+func checkLine(l *Line) error {
+	switch {
+	case !(l.Nu > 0):
+		return fmt.Errorf("wavenumber %g cm^-1 must be positive", l.Nu)
+	case l.S < 0:
+		return fmt.Errorf("intensity %g must not be negative", l.S)
+	case l.A < 0:
+		return fmt.Errorf("Einstein A %g must not be negative", l.A)
+	case l.GammaAir < 0 || l.GammaSelf < 0:
+		return fmt.Errorf("half-widths (%g, %g) must not be negative", l.GammaAir, l.GammaSelf)
+	case l.GUpper < 0 || l.GLower < 0:
+		return fmt.Errorf("statistical weights (%g, %g) must not be negative", l.GUpper, l.GLower)
+	}
+	return nil
+}
+
+// MergeLines merges line lists (for example from overlapping download
+// windows) into one list sorted by wavenumber, keeping one copy of lines
+// that appear in more than one list (same molecule, isotopologue,
+// wavenumber, intensity and lower-state energy).
+func MergeLines(lists ...[]Line) []Line {
+	var n int
+	for _, l := range lists {
+		n += len(l)
+	}
+	out := make([]Line, 0, n)
+	for _, l := range lists {
+		out = append(out, l...)
+	}
+	slices.SortStableFunc(out, compareLines)
+	return slices.CompactFunc(out, func(a, b Line) bool { return compareLines(a, b) == 0 })
+}
+
+func compareLines(a, b Line) int {
+	switch {
+	case a.Nu != b.Nu:
+		return cmpFloat(a.Nu, b.Nu)
+	case a.Mol != b.Mol:
+		return a.Mol - b.Mol
+	case a.Iso != b.Iso:
+		return a.Iso - b.Iso
+	case a.S != b.S:
+		return cmpFloat(a.S, b.S)
+	}
+	return cmpFloat(a.Elower, b.Elower)
+}
+
+func cmpFloat(a, b float64) int {
+	if a < b {
+		return -1
+	}
+	if a > b {
+		return 1
+	}
+	return 0
+}
