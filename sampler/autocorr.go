@@ -59,9 +59,12 @@ func fftLen(n int) int {
 
 // Time returns the integrated autocorrelation time, in steps, of the
 // walkers' series (each of the workspace's length) with window constant c
-// (Sokal: about 5). ok is false when no window M < n satisfies M >= c tau(M),
-// that is, when the series are too short for a reliable estimate; tau is
-// then the value at the largest lag, a lower bound. Series that never change
+// (Sokal: about 5). ok is false when no window M <= n/2 satisfies
+// M >= c tau(M), that is, when the series are too short for a reliable
+// estimate; tau is then tau(n/2). (Lags beyond n/2 are not searched: their
+// autocorrelations average few products, and since the mean-subtracted
+// estimates sum to zero over all lags, tau(M) always falls below M/c near
+// M = n, which would report a spurious small tau for a drifting chain.) Series that never change
 // carry no autocorrelation information and are left out of the average; if
 // all are constant, Time returns +Inf, false.
 func (a *Autocorr) Time(series [][]float64, c float64) (tau float64, ok bool) {
@@ -101,7 +104,7 @@ func (a *Autocorr) Time(series [][]float64, c float64) (tau float64, ok bool) {
 	}
 	inv := 1 / float64(used)
 	tau = 1
-	for m := 1; m < n; m++ {
+	for m := 1; m <= n/2; m++ {
 		tau += 2 * a.acf[m] * inv
 		if float64(m) >= c*tau {
 			return tau, true
