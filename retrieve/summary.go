@@ -46,9 +46,6 @@ const (
 	// largest autocorrelation time estimated on the whole chain (common
 	// practice: a few tau), at most half the chain.
 	AutoBurnTaus = 3.0
-	// StuckFraction: a walker is stuck when its acceptance fraction is
-	// below this fraction of the ensemble's median acceptance, or zero.
-	StuckFraction = 0.2
 )
 
 // GasParam marks a parameter column that is the log10 volume mixing ratio
@@ -235,7 +232,7 @@ func Summarize(c *Chains, opt SummaryOptions) (*Summary, error) {
 
 	s.Acceptance = acceptance(c)
 	if n := len(s.Acceptance.Stuck); n > 0 {
-		s.Warnings = append(s.Warnings, fmt.Sprintf("%d stuck walker(s) %v: acceptance below %.0f%% of the median %.2f; they may sit in a separate mode or a bad region (check the initial ball, or extend the burn-in)", n, s.Acceptance.Stuck, 100*StuckFraction, s.Acceptance.Median))
+		s.Warnings = append(s.Warnings, fmt.Sprintf("%d stuck walker(s) %v: acceptance far below the median %.2f (under half of it, and more than %d binomial standard deviations); they may sit in a separate mode or a bad region (check the initial ball, or extend the burn-in)", n, s.Acceptance.Stuck, s.Acceptance.Median, sampler.StuckSigma))
 	}
 
 	gases := make(map[string]GasParam, len(opt.Gases))
@@ -345,8 +342,12 @@ func acceptance(c *Chains) Acceptance {
 		Mean: stat.Mean(frac, nil), Min: sorted[0], Max: sorted[len(sorted)-1],
 		Median: stat.Quantile(0.5, stat.Empirical, sorted, nil), Stuck: []int{},
 	}
+	// The sampler's rule (sampler.State.Acceptance): below half the median
+	// and more than sampler.StuckSigma binomial standard deviations below it.
+	m, p := float64(n-1), a.Median
+	sd := math.Sqrt(m * p * (1 - p))
 	for k, f := range frac {
-		if f == 0 || f < StuckFraction*a.Median {
+		if f < p/2 && m*f < m*p-sampler.StuckSigma*sd {
 			a.Stuck = append(a.Stuck, k)
 		}
 	}
