@@ -324,22 +324,20 @@ func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
 	return nil
 }
 
-// addAbsorbed adds a (1 - exp(-tau[k])) to dst[k]: exactly a once tau
-// exceeds satTau, a short Taylor series below 1e-3 (exact to rounding;
-// the next term is below 1e-21 relative).
+// addAbsorbed adds a (1 - exp(-tau[k])) to dst[k], with the arithmetic of
+// oneMinusExpNeg written out (the compiler does not inline it).
 func addAbsorbed(dst []float64, a float64, tau []float64) {
 	tau = tau[:len(dst)]
 	for k, t := range tau {
-		var e float64
-		switch {
-		case t >= satTau:
-			e = 1
-		case t < 1e-3:
-			e = t * (1 - 0.5*t*(1-t/3*(1-0.25*t*(1-0.2*t))))
-		default:
-			e = 1 - math.Exp(-t)
+		if t > satTau { // a compare and move; the builtin min is slower here
+			t = satTau
 		}
-		dst[k] += a * e
+		q := (t*expInv + expRounds) - expRounds
+		r := (t - q*expLn2Hi) - q*expLn2Lo
+		iq := int(q)
+		r2 := r * r
+		p := (1 - r) + r2*(0.5-r*(1.0/6)) + r2*r2*(1.0/24-r*(1.0/120))
+		dst[k] += a * (1 - p*math.Float64frombits(uint64(1023-(iq>>6))<<52)*absorbedTable[iq&63])
 	}
 }
 
