@@ -359,8 +359,8 @@ func NewExoMolConverter(def *ExoMolDef, states *ExoMolStates, opt ExoMolOptions)
 	if !(opt.SMin >= 0) || opt.NuMin < 0 || opt.NuMax < 0 || (opt.NuMax > 0 && opt.NuMax < opt.NuMin) {
 		return nil, fmt.Errorf("exomol: bad selection: SMin %g, wavenumber window [%g, %g]", opt.SMin, opt.NuMin, opt.NuMax)
 	}
-	if !(c.Q296 > 0) {
-		return nil, errors.New("exomol: partition function at 296 K is not positive")
+	if !(c.Q296 > 0) || math.IsInf(c.Q296, 0) {
+		return nil, fmt.Errorf("exomol: partition function at 296 K is %g, must be positive and finite", c.Q296)
 	}
 	return c, nil
 }
@@ -447,6 +447,9 @@ func (c *ExoMolConverter) ScanExoMolTrans(r io.Reader, name string, fn func(Line
 		o := c.opt
 		if (o.NuMin == 0 || nu >= o.NuMin) && (o.NuMax == 0 || nu <= o.NuMax) {
 			l := c.Line(up, lo, a, nu)
+			if math.IsInf(l.S, 0) || math.IsNaN(l.S) {
+				return fmt.Errorf("exomol: %s:%d: line intensity is %g (A %g, wavenumber %g, g' %g)", name, n, l.S, a, nu, l.GUpper)
+			}
 			if l.S >= o.SMin {
 				if err := fn(l); err != nil {
 					return err
@@ -466,6 +469,8 @@ type ExoMolList struct {
 	Lines  []Line   // in file order
 	Files  []string // the .def, .states and .trans files read
 	Q296   float64  // partition function at 296 K summed from the states
+
+	abundance float64 // the weight applied to the intensities
 }
 
 // ReadExoMol reads a complete ExoMol line list given its .def file: the
@@ -498,7 +503,7 @@ func ReadExoMol(defPath string, opt ExoMolOptions) (*ExoMolList, error) {
 	if err != nil {
 		return nil, fmt.Errorf("%w (for %s)", err, defPath)
 	}
-	list := &ExoMolList{Def: def, States: states, Q296: conv.Q296, Files: []string{defPath, statesPath}}
+	list := &ExoMolList{Def: def, States: states, Q296: conv.Q296, Files: []string{defPath, statesPath}, abundance: conv.abund}
 	for _, p := range transPaths {
 		r, closeFn, err := exomolOpen(p)
 		if err != nil {
@@ -515,6 +520,20 @@ func ReadExoMol(defPath string, opt ExoMolOptions) (*ExoMolList, error) {
 		list.Files = append(list.Files, p)
 	}
 	return list, nil
+}
+
+// Isotopologue returns what the line-by-line engine needs of the list's
+// isotopologue: the .def file's mass, Q(296 K) and the partition function
+// summed from the states, and the abundance the intensities were weighted
+// with. Use it under the IsoKey the lines carry (ExoMolOptions Mol, Iso).
+func (l *ExoMolList) Isotopologue() *Isotopologue {
+	return &Isotopologue{
+		Name:      l.Def.IsoSlug + "__" + l.Def.Dataset,
+		Abundance: l.abundance,
+		Q296:      l.Q296,
+		Mass:      l.Def.MassDa,
+		Q:         l.States,
+	}
 }
 
 // exomolTransFiles finds the transition files of an ExoMol base path.
