@@ -82,6 +82,7 @@ func (l *ChainLayout) Validate() error {
 		return fmt.Errorf("chain layout: walkers %d, parameters %d, extras %d: need walkers >= 1, parameters >= 1", l.Walkers, l.Dim, l.NumExtra)
 	}
 	seen := map[string]bool{"step": true, "walker": true, "log_posterior": true}
+	stored := make([]bool, l.Dim)
 	for i, c := range l.Columns {
 		if c.Name == "" {
 			return fmt.Errorf("chain layout: column %d has no name", i)
@@ -100,6 +101,17 @@ func (l *ChainLayout) Validate() error {
 		}
 		if c.Source < 0 || c.Source >= n {
 			return fmt.Errorf("chain layout: column %q takes %s value %d of %d", c.Name, c.Role, c.Source, n)
+		}
+		if c.Role == RoleParameter {
+			if stored[c.Source] {
+				return fmt.Errorf("chain layout: parameter %d stored twice (column %q)", c.Source, c.Name)
+			}
+			stored[c.Source] = true
+		}
+	}
+	for j, ok := range stored {
+		if !ok {
+			return fmt.Errorf("chain layout: parameter %d has no column (every free parameter is stored)", j)
 		}
 	}
 	return nil
@@ -629,11 +641,43 @@ func ReadChains(dir string, parts []PartInfo, burn, thin int) (*Chains, error) {
 	if burn < 0 || thin < 1 {
 		return nil, fmt.Errorf("chains: burn-in %d and thinning %d: need burn >= 0, thin >= 1", burn, thin)
 	}
+	out := &Chains{}
+	total, err := scanParts(dir, parts, func(cols []ChainColumn, walkers int) {
+		out.Columns = cols[2:]
+		out.Values = make([][]float64, len(out.Columns))
+		out.Walkers = walkers
+	}, func(s, k int, row parquet.Row) error {
+		if s > burn && (s-burn)%thin == 0 {
+			if k == 0 {
+				out.Steps = append(out.Steps, s)
+			}
+			for c := range out.Columns {
+				out.Values[c] = append(out.Values[c], row[2+c].Double())
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	out.TotalSteps = total
+	if len(out.Steps) == 0 {
+		return nil, fmt.Errorf("chains: no steps left after burn-in %d and thinning %d of %d steps", burn, thin, out.TotalSteps)
+	}
+	return out, nil
+}
+
+// scanParts streams the rows of the given parts (all part files in dir when
+// parts is nil) to row, after calling start with the columns (fixed ones
+// included) and the walker count of the first part. It checks that the rows
+// are the consecutive steps 1, 2, ... each with every walker in order, and
+// that all parts share one set of columns; it returns the number of steps.
+func scanParts(dir string, parts []PartInfo, start func(cols []ChainColumn, walkers int), row func(step, walker int, r parquet.Row) error) (int, error) {
 	var names []string
 	if parts == nil {
 		var err error
 		if names, err = listParts(dir); err != nil {
-			return nil, err
+			return 0, err
 		}
 	} else {
 		for _, p := range parts {
@@ -641,10 +685,10 @@ func ReadChains(dir string, parts []PartInfo, burn, thin int) (*Chains, error) {
 		}
 	}
 	if len(names) == 0 {
-		return nil, fmt.Errorf("chains: no part files in %s", dir)
+		return 0, fmt.Errorf("chains: no part files in %s", dir)
 	}
-	out := &Chains{}
 	var colsJSON string
+	ncol, walkers := 0, 0
 	step, walker := 1, 0
 	buf := make([]parquet.Row, 1024)
 	for _, name := range names {
@@ -673,15 +717,15 @@ func ReadChains(dir string, parts []PartInfo, burn, thin int) (*Chains, error) {
 				if err := json.Unmarshal([]byte(cj), &all); err != nil || len(all) < 3 {
 					return fmt.Errorf("bad chord.columns metadata")
 				}
-				if len(pf.Schema().Columns()) != len(all) {
-					return fmt.Errorf("%d columns, metadata lists %d", len(pf.Schema().Columns()), len(all))
+				ncol = len(all)
+				if len(pf.Schema().Columns()) != ncol {
+					return fmt.Errorf("%d columns, metadata lists %d", len(pf.Schema().Columns()), ncol)
 				}
-				out.Columns = all[2:]
-				out.Values = make([][]float64, len(out.Columns))
 				ws, _ := pf.Lookup("chord.walkers")
-				if out.Walkers, err = strconv.Atoi(ws); err != nil || out.Walkers < 1 {
+				if walkers, err = strconv.Atoi(ws); err != nil || walkers < 1 {
 					return fmt.Errorf("bad chord.walkers metadata %q", ws)
 				}
+				start(all, walkers)
 			} else if cj != colsJSON {
 				return fmt.Errorf("columns differ from those of %s", names[0])
 			}
@@ -689,23 +733,18 @@ func ReadChains(dir string, parts []PartInfo, burn, thin int) (*Chains, error) {
 			defer r.Close()
 			for {
 				n, err := r.ReadRows(buf)
-				for _, row := range buf[:n] {
-					if len(row) != len(out.Columns)+2 {
-						return fmt.Errorf("row of %d values, want %d", len(row), len(out.Columns)+2)
+				for _, rw := range buf[:n] {
+					if len(rw) != ncol {
+						return fmt.Errorf("row of %d values, want %d", len(rw), ncol)
 					}
-					s, k := int(row[0].Int64()), int(row[1].Int64())
+					s, k := int(rw[0].Int64()), int(rw[1].Int64())
 					if s != step || k != walker {
 						return fmt.Errorf("found step %d walker %d where step %d walker %d was expected", s, k, step, walker)
 					}
-					if s > burn && (s-burn)%thin == 0 {
-						if k == 0 {
-							out.Steps = append(out.Steps, s)
-						}
-						for c := range out.Columns {
-							out.Values[c] = append(out.Values[c], row[2+c].Double())
-						}
+					if err := row(s, k, rw); err != nil {
+						return err
 					}
-					if walker++; walker == out.Walkers {
+					if walker++; walker == walkers {
 						walker, step = 0, step+1
 					}
 				}
@@ -718,17 +757,13 @@ func ReadChains(dir string, parts []PartInfo, burn, thin int) (*Chains, error) {
 			}
 		}()
 		if err != nil {
-			return nil, fmt.Errorf("chains: %s: %w", path, err)
+			return 0, fmt.Errorf("chains: %s: %w", path, err)
 		}
 	}
 	if walker != 0 {
-		return nil, fmt.Errorf("chains: %s ends inside step %d (walker %d of %d)", dir, step, walker, out.Walkers)
+		return 0, fmt.Errorf("chains: %s ends inside step %d (walker %d of %d)", dir, step, walker, walkers)
 	}
-	out.TotalSteps = step - 1
-	if len(out.Steps) == 0 {
-		return nil, fmt.Errorf("chains: no steps left after burn-in %d and thinning %d of %d steps", burn, thin, out.TotalSteps)
-	}
-	return out, nil
+	return step - 1, nil
 }
 
 // Walker returns column c of walker k over the kept steps, into dst.
