@@ -41,9 +41,9 @@ func w1CIA(a, b string, rng *rand.Rand) *opacity.CIATable {
 	for k := range nk {
 		t.Wavenumber = append(t.Wavenumber, 1/(13e-6)+float64(k)*(1/0.55e-6-1/13e-6)/float64(nk-1))
 	}
-	t.K = make([]float32, len(t.T)*nk)
+	t.K = make([]float64, len(t.T)*nk)
 	for i := range t.K {
-		t.K[i] = float32(1e-56 * math.Pow(10, 2*rng.Float64()))
+		t.K[i] = 1e-56 * math.Pow(10, 2*rng.Float64())
 	}
 	return t
 }

@@ -316,9 +316,9 @@ func equalAxis(a, b []float64) bool {
 	return true
 }
 
-// reverseRows converts rows of n float32 values on an ascending wavenumber
+// reverseRows converts rows of n float32 or float64 values on an ascending wavenumber
 // grid into float64 rows on the model's (ascending wavelength) order.
-func reverseRows(src []float32, n int) []float64 {
+func reverseRows[E float32 | float64](src []E, n int) []float64 {
 	dst := make([]float64, len(src))
 	for o := 0; o < len(src); o += n {
 		for k := range n {

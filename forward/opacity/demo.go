@@ -341,7 +341,7 @@ func (p *demoCIAPair) table(temps, nu []float64) *CIATable {
 		Pair:       p.Pair,
 		T:          append([]float64(nil), temps...),
 		Wavenumber: append([]float64(nil), nu...),
-		K:          make([]float32, len(temps)*len(nu)),
+		K:          make([]float64, len(temps)*len(nu)),
 		Meta:       demoMeta(),
 	}
 	t.Meta[MetaBuildSettings] = "demo CIA: exponential-wing bands at the H2 band centres (demo_cia.go); " + DemoNote

@@ -54,7 +54,7 @@ func (t *CIATable) CrossSectionTo(dst, nu []float64, _, temp float64) {
 }
 
 // rowAt interpolates one row linearly in wavenumber; 0 outside the axis.
-func rowAt(row []float32, x []float64, v float64) float64 {
+func rowAt[E float32 | float64](row []E, x []float64, v float64) float64 {
 	n := len(x)
 	if v < x[0] || v > x[n-1] {
 		return 0

@@ -29,14 +29,16 @@ type XSecTable struct {
 // one pair of gases. The absorption coefficient of a layer is
 // alpha = k n_A n_B, with number densities in m^-3, so k is in m^5.
 //
-// K is laid out with wavenumber fastest: K[iT*len(Wavenumber)+k].
+// K is laid out with wavenumber fastest: K[iT*len(Wavenumber)+k]. It is
+// float64, unlike cross-sections: CIA coefficients are about 1e-53 to 1e-65
+// m^5 (1e-43 to 1e-55 cm^5), below the smallest float32 (1.4e-45).
 // Where a temperature block of a source file does not cover a wavenumber,
 // the table holds 0 there.
 type CIATable struct {
 	Pair       [2]string // e.g. {"H2", "H2"}
 	T          []float64 // K, strictly ascending
 	Wavenumber []float64 // m^-1, strictly ascending
-	K          []float32 // m^5
+	K          []float64 // m^5
 	Meta       map[string]string
 }
 
@@ -144,7 +146,7 @@ func (t *XSecTable) Row(iP, iT int) []float32 {
 }
 
 // Row returns the coefficients at temperature index iT, aliasing K.
-func (t *CIATable) Row(iT int) []float32 {
+func (t *CIATable) Row(iT int) []float64 {
 	n := len(t.Wavenumber)
 	return t.K[iT*n : (iT+1)*n : (iT+1)*n]
 }
@@ -177,7 +179,7 @@ func (t *CIATable) Resample(nu []float64) *CIATable {
 		Pair:       t.Pair,
 		T:          append([]float64(nil), t.T...),
 		Wavenumber: append([]float64(nil), nu...),
-		K:          make([]float32, len(t.T)*len(nu)),
+		K:          make([]float64, len(t.T)*len(nu)),
 		Meta:       copyMeta(t.Meta),
 	}
 	for it := range t.T {
@@ -196,7 +198,7 @@ func (t *CIATable) Covers(lo, hi float64) bool {
 	return lo >= t.Wavenumber[0] && hi <= t.Wavenumber[len(t.Wavenumber)-1]
 }
 
-func resampleRow(dst []float32, nu []float64, src []float32, x []float64) {
+func resampleRow[E float32 | float64](dst []E, nu []float64, src []E, x []float64) {
 	n := len(x)
 	for k, v := range nu {
 		if v < x[0] || v > x[n-1] {
@@ -208,7 +210,7 @@ func resampleRow(dst []float32, nu []float64, src []float32, x []float64) {
 			dst[k] = src[0]
 			continue
 		}
-		dst[k] = float32((1-w)*float64(src[i]) + w*float64(src[i+1]))
+		dst[k] = E((1-w)*float64(src[i]) + w*float64(src[i+1]))
 	}
 }
 

@@ -26,7 +26,7 @@ import (
 // rows ordered as the in-memory layout (wavenumber fastest):
 //
 //	kind xsec: log10_pressure_pa DOUBLE, temperature_k DOUBLE, wavenumber_per_m DOUBLE, sigma_m2 FLOAT
-//	kind cia:  temperature_k DOUBLE, wavenumber_per_m DOUBLE, k_m5 FLOAT
+//	kind cia:  temperature_k DOUBLE, wavenumber_per_m DOUBLE, k_m5 DOUBLE
 //
 // The axis columns are dictionary encoded (so they cost almost nothing), the
 // data column is plain; all columns are zstd compressed and required. Any
@@ -93,7 +93,7 @@ const (
 )
 
 // maxTableValues bounds the number of grid points a table file may declare
-// (1 GiB of float32), so that a corrupted shape cannot exhaust memory.
+// (1 or 2 GiB of data), so that a corrupted shape cannot exhaust memory.
 const maxTableValues = 1 << 28
 
 // rowsPerGroup is the Parquet row-group size of written files.
@@ -109,7 +109,7 @@ type xsecRow struct {
 type ciaRow struct {
 	T  float64 `parquet:"temperature_k,dict,zstd"`
 	Nu float64 `parquet:"wavenumber_per_m,dict,zstd"`
-	K  float32 `parquet:"k_m5,zstd"`
+	K  float64 `parquet:"k_m5,zstd"`
 }
 
 // layout describes the columns of one kind of table file.
@@ -190,7 +190,7 @@ func WriteCIAFile(path string, t *CIATable, overwrite bool) error {
 
 // fileMeta returns the key-value metadata of a table file: the table's own
 // Meta plus the structural keys, nameKey (MetaGas or MetaPair) set to name.
-func fileMeta(kind, nameKey, name string, tm map[string]string, axes [][]float64, data []float32) (map[string]string, error) {
+func fileMeta[E float32 | float64](kind, nameKey, name string, tm map[string]string, axes [][]float64, data []E) (map[string]string, error) {
 	if tm[MetaProgramVersion] == "" {
 		return nil, fmt.Errorf("metadata key %q is missing (set it to the version of the program that built the table)", MetaProgramVersion)
 	}
@@ -237,9 +237,9 @@ func formatShape(shape []int) string {
 // contentChecksum is the SHA-256 (hex) of the metadata except
 // MetaContentSHA256 (sorted by key, each entry as the key's and the value's
 // lengths as uint64 little-endian followed by their bytes), then the axes as
-// float64 little-endian, slowest axis first, then the data as float32
-// little-endian. The axis lengths are in the metadata (MetaShape).
-func contentChecksum(meta map[string]string, axes [][]float64, data []float32) string {
+// float64 little-endian, slowest axis first, then the data little-endian
+// in its own type (float32 cross-sections, float64 CIA coefficients). The axis lengths are in the metadata (MetaShape).
+func contentChecksum[E float32 | float64](meta map[string]string, axes [][]float64, data []E) string {
 	h := sha256.New()
 	buf := make([]byte, 0, 1<<16)
 	keys := make([]string, 0, len(meta))
@@ -267,11 +267,16 @@ func contentChecksum(meta map[string]string, axes [][]float64, data []float32) s
 		}
 	}
 	for _, v := range data {
-		if len(buf)+4 > cap(buf) {
+		if len(buf)+8 > cap(buf) {
 			h.Write(buf)
 			buf = buf[:0]
 		}
-		buf = binary.LittleEndian.AppendUint32(buf, math.Float32bits(v))
+		switch x := any(v).(type) {
+		case float32:
+			buf = binary.LittleEndian.AppendUint32(buf, math.Float32bits(x))
+		case float64:
+			buf = binary.LittleEndian.AppendUint64(buf, math.Float64bits(x))
+		}
 	}
 	h.Write(buf)
 	return hex.EncodeToString(h.Sum(nil))
@@ -375,12 +380,18 @@ func ReadTableFile(path string) (*XSecTable, *CIATable, error) {
 }
 
 func readTableFile(path, want string) (*XSecTable, *CIATable, error) {
-	kind, meta, axes, data, err := readColumns(path, want)
+	o, err := openTable(path, want)
 	if err != nil {
 		return nil, nil, err
 	}
-	switch kind {
+	defer o.f.Close()
+	meta, axes := o.meta, o.axes
+	switch o.kind {
 	case KindXSec:
+		data, err := readData[float32](o)
+		if err != nil {
+			return nil, nil, err
+		}
 		t := &XSecTable{Gas: meta[MetaGas], Log10P: axes[0], T: axes[1], Wavenumber: axes[2], Sigma: data, Meta: meta}
 		if err := t.Validate(); err != nil {
 			return nil, nil, fmt.Errorf("opacity: table file %s: %w", path, err)
@@ -391,6 +402,10 @@ func readTableFile(path, want string) (*XSecTable, *CIATable, error) {
 		if !ok || a == "" || b == "" || strings.Contains(b, "-") {
 			return nil, nil, fmt.Errorf("opacity: table file %s: metadata key %q is %q, want \"A-B\"", path, MetaPair, meta[MetaPair])
 		}
+		data, err := readData[float64](o)
+		if err != nil {
+			return nil, nil, err
+		}
 		t := &CIATable{Pair: [2]string{a, b}, T: axes[0], Wavenumber: axes[1], K: data, Meta: meta}
 		if err := t.Validate(); err != nil {
 			return nil, nil, fmt.Errorf("opacity: table file %s: %w", path, err)
@@ -399,64 +414,85 @@ func readTableFile(path, want string) (*XSecTable, *CIATable, error) {
 	}
 }
 
-// readColumns opens a table file, checks its metadata against the schema
-// and reads its axes and data. want is the required kind ("" for either).
-func readColumns(path, want string) (kind string, meta map[string]string, axes [][]float64, data []float32, err error) {
-	fail := func(format string, a ...any) error {
-		return fmt.Errorf("opacity: table file %s: "+format, append([]any{path}, a...)...)
-	}
+// openedTable is a table file whose metadata and axes have been read and
+// checked.
+type openedTable struct {
+	path string
+	f    *os.File
+	pf   *parquet.File
+	kind string
+	lay  layout
+	meta map[string]string
+	axes [][]float64
+}
+
+func (o *openedTable) fail(format string, a ...any) error {
+	return fmt.Errorf("opacity: table file %s: "+format, append([]any{o.path}, a...)...)
+}
+
+// openTable opens a table file, checks its metadata against the schema and
+// reads its axes. want is the required kind ("" for either). The caller
+// closes o.f.
+func openTable(path, want string) (o *openedTable, err error) {
+	o = &openedTable{path: path}
+	fail := o.fail
 	f, err := os.Open(path)
 	if err != nil {
-		return "", nil, nil, nil, fmt.Errorf("opacity: %w", err)
+		return nil, fmt.Errorf("opacity: %w", err)
 	}
-	defer f.Close()
+	defer func() {
+		if err != nil {
+			f.Close()
+		}
+	}()
+	o.f = f
 	st, err := f.Stat()
 	if err != nil {
-		return "", nil, nil, nil, fmt.Errorf("opacity: %w", err)
+		return nil, fmt.Errorf("opacity: %w", err)
 	}
 	if st.IsDir() {
-		return "", nil, nil, nil, fail("is a directory, not a table file")
+		return nil, fail("is a directory, not a table file")
 	}
 	pf, err := parquet.OpenFile(f, st.Size(), parquet.SkipPageIndex(true), parquet.SkipBloomFilters(true))
 	if err != nil {
-		return "", nil, nil, nil, fail("not a readable Parquet file (truncated or corrupted?): %v", err)
+		return nil, fail("not a readable Parquet file (truncated or corrupted?): %v", err)
 	}
-	meta = map[string]string{}
+	meta := map[string]string{}
 	for _, kv := range pf.Metadata().KeyValueMetadata {
 		meta[kv.Key] = kv.Value
 	}
 	if meta[MetaFormat] != TableFormat {
-		return "", nil, nil, nil, fail("not a chord opacity table (metadata key %q is %q, want %q)", MetaFormat, meta[MetaFormat], TableFormat)
+		return nil, fail("not a chord opacity table (metadata key %q is %q, want %q)", MetaFormat, meta[MetaFormat], TableFormat)
 	}
 	if v := meta[MetaSchemaVersion]; v != strconv.Itoa(TableSchemaVersion) {
-		return "", nil, nil, nil, fail("schema version %q is not supported (this program reads version %d)", v, TableSchemaVersion)
+		return nil, fail("schema version %q is not supported (this program reads version %d)", v, TableSchemaVersion)
 	}
-	kind = meta[MetaKind]
+	kind := meta[MetaKind]
 	lay, ok := layouts[kind]
 	if !ok {
-		return "", nil, nil, nil, fail("metadata key %q is %q, want %q or %q", MetaKind, kind, KindXSec, KindCIA)
+		return nil, fail("metadata key %q is %q, want %q or %q", MetaKind, kind, KindXSec, KindCIA)
 	}
 	if want != "" && kind != want {
-		return "", nil, nil, nil, fail("holds a %s table, not a %s table", kind, want)
+		return nil, fail("holds a %s table, not a %s table", kind, want)
 	}
 	for k, v := range lay.units {
 		if meta[k] != v {
-			return "", nil, nil, nil, fail("metadata key %q is %q, want %q", k, meta[k], v)
+			return nil, fail("metadata key %q is %q, want %q", k, meta[k], v)
 		}
 	}
 	shape, err := parseShape(meta[MetaShape], len(lay.axes))
 	if err != nil {
-		return "", nil, nil, nil, fail("metadata key %q: %v", MetaShape, err)
+		return nil, fail("metadata key %q: %v", MetaShape, err)
 	}
 	total := 1
 	for _, n := range shape {
 		total *= n
 	}
 	if pf.NumRows() != int64(total) {
-		return "", nil, nil, nil, fail("%d rows, but the shape %s needs %d", pf.NumRows(), meta[MetaShape], total)
+		return nil, fail("%d rows, but the shape %s needs %d", pf.NumRows(), meta[MetaShape], total)
 	}
 
-	axes = make([][]float64, len(shape))
+	axes := make([][]float64, len(shape))
 	for j, name := range lay.axes {
 		axes[j] = make([]float64, shape[j])
 		stride := 1
@@ -464,17 +500,24 @@ func readColumns(path, want string) (kind string, meta map[string]string, axes [
 			stride *= n
 		}
 		if err := readAxisColumn(pf, name, axes[j], stride); err != nil {
-			return "", nil, nil, nil, fail("column %s: %v", name, err)
+			return nil, fail("column %s: %v", name, err)
 		}
 	}
-	data = make([]float32, total)
-	if err := readDataColumn(pf, lay.data, data); err != nil {
-		return "", nil, nil, nil, fail("column %s: %v", lay.data, err)
+	o.pf, o.kind, o.lay, o.meta, o.axes = pf, kind, lay, meta, axes
+	return o, nil
+}
+
+// readData reads the data column of an opened table and checks the content
+// checksum.
+func readData[E float32 | float64](o *openedTable) ([]E, error) {
+	data := make([]E, o.pf.NumRows())
+	if err := readDataColumn(o.pf, o.lay.data, data); err != nil {
+		return nil, o.fail("column %s: %v", o.lay.data, err)
 	}
-	if sum := contentChecksum(meta, axes, data); sum != meta[MetaContentSHA256] {
-		return "", nil, nil, nil, fail("content checksum %s does not match the stored %q (file corrupted or edited?)", sum, meta[MetaContentSHA256])
+	if sum := contentChecksum(o.meta, o.axes, data); sum != o.meta[MetaContentSHA256] {
+		return nil, o.fail("content checksum %s does not match the stored %q (file corrupted or edited?)", sum, o.meta[MetaContentSHA256])
 	}
-	return kind, meta, axes, data, nil
+	return data, nil
 }
 
 func parseShape(s string, dims int) ([]int, error) {
@@ -644,21 +687,32 @@ func outOfOrder(row int, v float64, i int, a float64) error {
 	return fmt.Errorf("row %d holds %g, but the axis value at index %d is %g (rows out of grid order)", row, v, i, a)
 }
 
-// readDataColumn reads the float32 data column into dst (len = rows).
-func readDataColumn(pf *parquet.File, name string, dst []float32) error {
-	col, err := leaf(pf, name, parquet.Float)
+// readDataColumn reads the data column (FLOAT for float32, DOUBLE for
+// float64) into dst (len = rows).
+func readDataColumn[E float32 | float64](pf *parquet.File, name string, dst []E) error {
+	kind, ekind := parquet.Double, encoding.Double
+	if _, ok := any(dst).([]float32); ok {
+		kind, ekind = parquet.Float, encoding.Float
+	}
+	col, err := leaf(pf, name, kind)
 	if err != nil {
 		return err
+	}
+	values := func(v encoding.Values) []E {
+		if ekind == encoding.Float {
+			return any(v.Float()).([]E)
+		}
+		return any(v.Double()).([]E)
 	}
 	row := 0
 	err = eachPage(pf, col, func(p parquet.Page) error {
 		if d := p.Dictionary(); d != nil {
 			dv := d.Page().Data()
 			idx := p.Data()
-			if dv.Kind() != encoding.Float || idx.Kind() != encoding.Int32 {
-				return fmt.Errorf("dictionary page of %v values with %v indexes, want FLOAT and INT32", dv.Kind(), idx.Kind())
+			if dv.Kind() != ekind || idx.Kind() != encoding.Int32 {
+				return fmt.Errorf("dictionary page of %v values with %v indexes, want %v and INT32", dv.Kind(), idx.Kind(), ekind)
 			}
-			dict, ix := dv.Float(), idx.Int32()
+			dict, ix := values(dv), idx.Int32()
 			if row+len(ix) > len(dst) {
 				return fmt.Errorf("more than %d values", len(dst))
 			}
@@ -672,10 +726,10 @@ func readDataColumn(pf *parquet.File, name string, dst []float32) error {
 			return nil
 		}
 		dv := p.Data()
-		if dv.Kind() != encoding.Float {
-			return fmt.Errorf("page holds %v values, want FLOAT", dv.Kind())
+		if dv.Kind() != ekind {
+			return fmt.Errorf("page holds %v values, want %v", dv.Kind(), ekind)
 		}
-		v := dv.Float()
+		v := values(dv)
 		if row+len(v) > len(dst) {
 			return fmt.Errorf("more than %d values", len(dst))
 		}

@@ -47,10 +47,14 @@ func testCIA(a, b string, nT, nW int, seed uint64) *CIATable {
 	for i := range nW {
 		t.Wavenumber = append(t.Wavenumber, 10+1e3*float64(i)+rng.Float64())
 	}
-	t.K = make([]float32, nT*nW)
+	t.K = make([]float64, nT*nW)
 	for i := range t.K {
-		if i%5 != 0 {
-			t.K[i] = float32(math.Pow(10, -60+8*rng.Float64()))
+		switch i % 5 {
+		case 0:
+		case 1:
+			t.K[i] = math.SmallestNonzeroFloat64 * float64(1+rng.IntN(1000))
+		default:
+			t.K[i] = math.Pow(10, -66+14*rng.Float64())
 		}
 	}
 	return t
@@ -154,7 +158,7 @@ func TestCIAFileRoundTrip(t *testing.T) {
 	}
 	equalF64(t, "T", got.T, want.T)
 	equalF64(t, "wavenumber", got.Wavenumber, want.Wavenumber)
-	equalF32(t, "k", got.K, want.K)
+	equalF64(t, "k", got.K, want.K)
 	if got.Meta[MetaDemo] != "false" || IsDemo(got.Meta) {
 		t.Errorf("demo = %q, want \"false\"", got.Meta[MetaDemo])
 	}
