@@ -108,8 +108,8 @@ func BenchmarkChainStore1e6(b *testing.B) {
 // the only cost.
 type trivialTarget struct{}
 
-func (trivialTarget) Dim() int                         { return runDim }
-func (trivialTarget) NumExtra() int                    { return runExtra }
+func (trivialTarget) Dim() int                        { return runDim }
+func (trivialTarget) NumExtra() int                   { return runExtra }
 func (trivialTarget) NewEvaluator() sampler.Evaluator { return trivialTarget{} }
 func (trivialTarget) LogProb(x, extra []float64) float64 {
 	s := 0.0
