@@ -3,7 +3,6 @@ package opacity
 import (
 	"bytes"
 	"math"
-	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -196,9 +195,6 @@ func FuzzReadLines(f *testing.F) {
 	f.Add([]byte(co2Record + "\r\n" + co2Record))
 	f.Add([]byte("2\t666.016232\t9.946e-29\t1.166\t0.0683\t0.086\t4690.5806\t0.76\t-0.000732\n"))
 	f.Add([]byte("molec_id\tnu\tsw\ta\tgamma_air\tgamma_self\telower\tn_air\tdelta_air\n"))
-	if b, err := os.ReadFile("testdata/fuzzseed.par"); err == nil {
-		f.Add(b)
-	}
 	f.Fuzz(func(t *testing.T, data []byte) {
 		ls, err := ReadLines(bytes.NewReader(data), "fuzz", LineFilter{})
 		if err != nil {

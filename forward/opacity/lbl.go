@@ -99,8 +99,9 @@ type XSecSettings struct {
 	// Workers is the number of goroutines; 0 means GOMAXPROCS. The result
 	// does not depend on it.
 	Workers int
-	// Progress receives a progress bar for long builds; nil means standard
-	// error when it is a terminal and no bar otherwise.
+	// Progress receives a progress bar; nil means standard error when it
+	// is a terminal and the build is long (over about a second), and no bar
+	// otherwise.
 	Progress io.Writer
 	// Quiet turns the progress bar off.
 	Quiet bool
@@ -295,18 +296,20 @@ func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
 		}
 	}
 	if !s.Quiet {
+		// Profile evaluations: each line on the grid points of its window.
+		work := float64(len(b.lines)) * float64(nPT) * math.Min(float64(len(b.nuCm)), 2*b.cut/b.spacing())
 		switch {
 		case s.Progress != nil:
 			b.bar = s.Progress
-		case term.IsTerminal(int(os.Stderr.Fd())):
+		case work > progressMinWork && term.IsTerminal(int(os.Stderr.Fd())):
 			b.bar = os.Stderr
 		}
 	}
 	return b, nil
 }
 
-// progressMinWork is the number of line x grid-point evaluations (roughly)
-// above which a build shows a progress bar: about a second of work.
+// progressMinWork is the number of profile evaluations above which a build
+// shows a progress bar on a terminal by itself: about a second of work.
 const progressMinWork = 1e8
 
 // buildSettings is what BuildXSec records in Meta["build_settings"] (JSON).
@@ -375,7 +378,7 @@ type task struct{ ip, it, k0, k1 int }
 
 func (b *lineBuild) run() {
 	s := b.s
-	nT, nNu := len(s.T), len(b.nuCm)
+	nNu := len(b.nuCm)
 	var tasks []task
 	for ip := range s.Log10P {
 		for it := range s.T {
@@ -385,7 +388,7 @@ func (b *lineBuild) run() {
 		}
 	}
 	var bar *progressbar.ProgressBar
-	if b.bar != nil && float64(len(b.lines))*float64(len(s.Log10P)*nT)*math.Min(float64(nNu), 2*b.cut/b.spacing()) > progressMinWork {
+	if b.bar != nil {
 		bar = progressbar.NewOptions(len(tasks),
 			progressbar.OptionSetWriter(b.bar),
 			progressbar.OptionSetDescription("cross-sections "+s.Gas),

@@ -303,3 +303,21 @@ func TestBuildBadInputs(t *testing.T) {
 		t.Error("nil settings accepted")
 	}
 }
+
+// TestProgress: a given Progress writer receives the bar; Quiet silences it.
+func TestProgress(t *testing.T) {
+	lines := []Line{{Mol: 5, Iso: 1, Nu: 2000, S: 1e-20, GammaAir: 0.05}}
+	var buf strings.Builder
+	s := &XSecSettings{Gas: "CO", Log10P: []float64{3, 5}, T: []float64{296, 400}, Wavenumber: uniformGrid(1990, 2010, 0.1), Progress: &buf}
+	if _, err := BuildXSec(lines, syntheticIso(), s); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(buf.String(), "cross-sections CO") {
+		t.Errorf("progress output %q", buf.String())
+	}
+	buf.Reset()
+	s.Quiet = true
+	if _, err := BuildXSec(lines, syntheticIso(), s); err != nil || buf.Len() != 0 {
+		t.Errorf("quiet build wrote %q (%v)", buf.String(), err)
+	}
+}
