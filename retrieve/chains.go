@@ -766,6 +766,27 @@ func scanParts(dir string, parts []PartInfo, start func(cols []ChainColumn, walk
 	return step - 1, nil
 }
 
+// Sample fills dst (len Dim, allocated if nil) with the free-parameter
+// vector of sample i (kept step i/Walkers, walker i%Walkers), placing each
+// parameter column at its Source index.
+func (c *Chains) Sample(dst []float64, i int) []float64 {
+	dim := 0
+	for _, col := range c.Columns {
+		if col.Role == RoleParameter {
+			dim = max(dim, col.Source+1)
+		}
+	}
+	if dst == nil {
+		dst = make([]float64, dim)
+	}
+	for j, col := range c.Columns {
+		if col.Role == RoleParameter {
+			dst[col.Source] = c.Values[j][i]
+		}
+	}
+	return dst
+}
+
 // Walker returns column c of walker k over the kept steps, into dst.
 func (c *Chains) Walker(dst []float64, col, k int) []float64 {
 	dst = dst[:0]

@@ -356,3 +356,57 @@ func TestKillChild(t *testing.T) {
 		t.Fatal(err)
 	}
 }
+
+// lineModel is a ReportModel: depth = 1000 + 10 a + b lambda at 20 bins.
+type lineModel struct{}
+
+func (lineModel) Data() (wl, half, depth, sigma []float64) {
+	for i := 0; i < 20; i++ {
+		wl = append(wl, 1+0.1*float64(i))
+		half = append(half, 0.05)
+		depth = append(depth, 1000+0.3*wl[i])
+		sigma = append(sigma, 2)
+	}
+	return
+}
+
+func (lineModel) ModelDepth(dst, x []float64) error {
+	for i := range dst {
+		dst[i] = 1000 + 10*x[0] + x[1]*(1+0.1*float64(i))
+	}
+	return nil
+}
+
+func TestWriteReport(t *testing.T) {
+	dir := t.TempDir()
+	if _, err := StartRun(context.Background(), dir, gaussSpec(8, 42, 0), RunOptions{Stop: StopRule{Steps: 300}, Workers: 1, CheckpointSteps: 100}); err != nil {
+		t.Fatal(err)
+	}
+	ck, err := ReadCheckpoint(filepath.Join(dir, CheckpointFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	s, err := WriteReport(dir, ck.Parts, ReportOptions{BurnAuto: true, Model: lineModel{}, Fill: func(s *Summary) { s.RunID = "test" }})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if s.Burn < 1 || s.Burn > 150 || len(s.Parameters) != 3 || len(s.Derived) != 2 || s.RunID != "test" {
+		t.Errorf("summary: burn %d, %d parameters, %d derived", s.Burn, len(s.Parameters), len(s.Derived))
+	}
+	// chi-square of the best sample, recomputed here from its max-posterior values.
+	a, b := s.Parameters[0].MaxPost, s.Parameters[1].MaxPost
+	want := 0.0
+	wl, _, d, sig := lineModel{}.Data()
+	for i := range d {
+		r := (d[i] - (1000 + 10*a + b*wl[i])) / sig[i]
+		want += r * r
+	}
+	if math.Abs(s.Best.ChiSquare-want) > 1e-9*want || s.Best.DataPoints != 20 || s.Best.FreeParameters != 3 {
+		t.Errorf("chi-square %v (%d points, %d parameters), want %v", s.Best.ChiSquare, s.Best.DataPoints, s.Best.FreeParameters, want)
+	}
+	for _, f := range []string{"summary.json", "summary.txt", "corner.png", "spectrum.png"} {
+		if st, err := os.Stat(filepath.Join(dir, f)); err != nil || st.Size() == 0 {
+			t.Errorf("%s: %v", f, err)
+		}
+	}
+}

@@ -1,10 +1,13 @@
 package retrieve
 
 import (
+	"bytes"
 	"encoding/json"
 	"fmt"
 	"io"
 	"math"
+	"math/rand/v2"
+	"path/filepath"
 	"slices"
 	"sort"
 	"strings"
@@ -486,3 +489,116 @@ func (s *Summary) WriteText(w io.Writer) error {
 
 // num formats a summary number with 4 significant digits.
 func num(x float64) string { return fmt.Sprintf("%.4g", x) }
+
+// ReportModel evaluates the model of a run for reports.
+type ReportModel interface {
+	// Data returns the observed bins: centres and half widths (um), transit
+	// depths and their errors (ppm), in the order ModelDepth fills.
+	Data() (wavelength, halfWidth, depth, sigma []float64)
+	// ModelDepth fills dst (ppm, one value per data bin, dataset offsets
+	// applied) with the model at the free-parameter vector x.
+	ModelDepth(dst, x []float64) error
+}
+
+// ReportOptions configures WriteReport.
+type ReportOptions struct {
+	Burn     int  // steps dropped from the start
+	BurnAuto bool // choose Burn by AutoBurn instead
+	Thin     int  // 0 means 1
+	Gases    []GasParam
+	// Model, if set, gives the chi-square of the best sample and
+	// spectrum.png; nil skips both.
+	Model ReportModel
+	// SpectrumSamples is the number of posterior samples drawn for the
+	// spectrum bands; 0 means 300.
+	SpectrumSamples int
+	Title           string
+	// Fill lets the caller complete the summary (run identity, demo flag,
+	// invalid-state counts, stopping reason) before it is written.
+	Fill func(*Summary)
+}
+
+// WriteReport reads the committed parts of the run in dir, and writes
+// summary.json, summary.txt, corner.png and (with a model) spectrum.png.
+func WriteReport(dir string, parts []PartInfo, opt ReportOptions) (*Summary, error) {
+	chainsDir := filepath.Join(dir, ChainsDir)
+	burn := opt.Burn
+	if opt.BurnAuto {
+		all, err := ReadChains(chainsDir, parts, 0, 1)
+		if err != nil {
+			return nil, err
+		}
+		burn = AutoBurn(all)
+	}
+	c, err := ReadChains(chainsDir, parts, burn, 1)
+	if err != nil {
+		return nil, err
+	}
+	thin := max(opt.Thin, 1)
+	s, err := Summarize(c, SummaryOptions{Burn: burn, BurnAuto: opt.BurnAuto, Thin: thin, Gases: opt.Gases})
+	if err != nil {
+		return nil, err
+	}
+	if opt.Fill != nil {
+		opt.Fill(s)
+	}
+	var spec *SpectrumPlot
+	if opt.Model != nil {
+		wl, half, depth, sigma := opt.Model.Data()
+		model := make([]float64, len(depth))
+		x := c.Sample(nil, (s.Best.Step-c.Steps[0])*c.Walkers+s.Best.Walker)
+		if err := opt.Model.ModelDepth(model, x); err != nil {
+			return nil, fmt.Errorf("report: model of the best sample: %w", err)
+		}
+		chi2 := 0.0
+		for i := range depth {
+			r := (depth[i] - model[i]) / sigma[i]
+			chi2 += r * r
+		}
+		s.SetChiSquare(chi2, len(depth))
+		spec = &SpectrumPlot{Wavelength: wl, HalfWidth: half, Depth: depth, Error: sigma, Title: opt.Title, Demo: s.DemoOpacities}
+		n := opt.SpectrumSamples
+		if n == 0 {
+			n = 300
+		}
+		rng := rand.New(rand.NewPCG(1, 2)) // fixed: a report is reproducible
+		total := len(c.Steps) * c.Walkers
+		for range min(n, total) {
+			x = c.Sample(x, rng.IntN(total))
+			m := make([]float64, len(depth))
+			if err := opt.Model.ModelDepth(m, x); err != nil {
+				continue // an invalid state has no spectrum; it is not in the posterior either
+			}
+			spec.Models = append(spec.Models, m)
+		}
+	}
+	if err := writeSummaryFiles(dir, s); err != nil {
+		return nil, err
+	}
+	if err := PlotCorner(filepath.Join(dir, "corner.png"), c, nil, thin, s.DemoOpacities); err != nil {
+		return nil, err
+	}
+	if spec != nil {
+		if err := PlotSpectrum(filepath.Join(dir, "spectrum.png"), spec); err != nil {
+			return nil, err
+		}
+	}
+	return s, nil
+}
+
+func writeSummaryFiles(dir string, s *Summary) error {
+	var js, txt bytes.Buffer
+	if err := s.WriteJSON(&js); err != nil {
+		return err
+	}
+	if err := s.WriteText(&txt); err != nil {
+		return err
+	}
+	if err := writeFileAtomic(osFS{}, filepath.Join(dir, "summary.json"), js.Bytes()); err != nil {
+		return fmt.Errorf("writing summary.json: %w", err)
+	}
+	if err := writeFileAtomic(osFS{}, filepath.Join(dir, "summary.txt"), txt.Bytes()); err != nil {
+		return fmt.Errorf("writing summary.txt: %w", err)
+	}
+	return nil
+}
