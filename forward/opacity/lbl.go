@@ -110,11 +110,12 @@ type XSecSettings struct {
 	// in the table's Meta under "lbl.warnings".
 	Log io.Writer
 
-	// Version is the program version, stored in Meta["program_version"];
+	// Version is the program version, stored in Meta[MetaProgramVersion];
 	// "" leaves it out.
 	Version string
-	// Sources is stored as it is in Meta["sources"] (the table files' JSON
-	// list of input files and checksums, see SourcesMeta); "" leaves it out.
+	// Sources is stored as it is in Meta[MetaSources] (the table files'
+	// JSON list of input files and checksums, see SourcesMeta); "" leaves
+	// it out.
 	Sources string
 }
 
@@ -308,11 +309,15 @@ func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
 	return b, nil
 }
 
+// MetaWarnings is the table metadata key under which BuildXSec records its
+// warnings (one per line), for example about approximate partition sums.
+const MetaWarnings = "warnings"
+
 // progressMinWork is the number of profile evaluations above which a build
 // shows a progress bar on a terminal by itself: about a second of work.
 const progressMinWork = 1e8
 
-// buildSettings is what BuildXSec records in Meta["build_settings"] (JSON).
+// buildSettings is what BuildXSec records in Meta[MetaBuildSettings] (JSON).
 type buildSettings struct {
 	Method          string            `json:"method"`
 	Profile         string            `json:"profile"`
@@ -360,15 +365,15 @@ func (b *lineBuild) meta(warnings []string) map[string]string {
 	if err != nil {
 		panic(err) // plain struct of strings and finite numbers
 	}
-	m := map[string]string{"build_settings": string(js)}
+	m := map[string]string{MetaBuildSettings: string(js)}
 	if len(warnings) > 0 {
-		m["warnings"] = strings.Join(warnings, "\n")
+		m[MetaWarnings] = strings.Join(warnings, "\n")
 	}
 	if s.Version != "" {
-		m["program_version"] = s.Version
+		m[MetaProgramVersion] = s.Version
 	}
 	if s.Sources != "" {
-		m["sources"] = s.Sources
+		m[MetaSources] = s.Sources
 	}
 	return m
 }

@@ -200,7 +200,8 @@ func TestBuildDeterministic(t *testing.T) {
 			NAir: 0.7, DeltaAir: -0.003, Elower: 10 * float64(i%40)})
 	}
 	set := func(w int) *XSecSettings {
-		return &XSecSettings{Gas: "CO", Log10P: []float64{0, 2, 4, 5}, T: []float64{200, 300, 700}, Wavenumber: uniformGrid(1990, 2120, 0.02), Workers: w, Quiet: true}
+		return &XSecSettings{Gas: "CO", Log10P: []float64{0, 2, 4, 5}, T: []float64{200, 300, 700}, Wavenumber: uniformGrid(1990, 2120, 0.02), Workers: w, Quiet: true,
+			Version: "test-1", Sources: `[{"file":"x.par","sha256":"00","bytes":1}]`}
 	}
 	// No partition table: BuildXSec falls back to the rigid rotor and warns.
 	iso := IsoData{{5, 1}: {Name: "CO_26", Q296: 107.42, Mass: 27.994915}}
@@ -226,8 +227,11 @@ func TestBuildDeterministic(t *testing.T) {
 		t.Error(err)
 	}
 	// The rigid rotor was used for lack of a table: said in Meta.
-	if !strings.Contains(ref.Meta["warnings"], "rigid-rotor") || !strings.Contains(log.String(), "warning: CO: no partition-function table for CO_26") ||
-		!strings.Contains(ref.Meta["build_settings"], `"wing_cutoff_cm-1":25`) {
+	if ref.Meta[MetaProgramVersion] != "test-1" || ref.Meta[MetaSources] == "" {
+		t.Errorf("provenance not recorded: %v", ref.Meta)
+	}
+	if !strings.Contains(ref.Meta[MetaWarnings], "rigid-rotor") || !strings.Contains(log.String(), "warning: CO: no partition-function table for CO_26") ||
+		!strings.Contains(ref.Meta[MetaBuildSettings], `"wing_cutoff_cm-1":25`) {
 		t.Errorf("meta %v, log %q", ref.Meta, log.String())
 	}
 }
