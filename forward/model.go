@@ -331,13 +331,13 @@ func reverseRows[E float32 | float64](src []E, n int) []float64 {
 func (m *Model) setScattering(cfg Config) error {
 	m.rayleigh = make([][]float64, len(m.species))
 	for _, g := range cfg.Rayleigh {
-		sp := m.speciesIndex(g)
-		if sp < 0 {
-			return fmt.Errorf("forward: Rayleigh scattering by %q, a gas not in the composition (%s)", g, m.composition())
-		}
 		r, err := opacity.NewRayleigh(g)
 		if err != nil {
 			return err
+		}
+		sp := m.speciesIndex(g)
+		if sp < 0 {
+			return fmt.Errorf("forward: Rayleigh scattering by %q, a gas not in the composition (%s)", g, m.composition())
 		}
 		if m.rayleigh[sp] != nil {
 			return fmt.Errorf("forward: Rayleigh scattering by %q listed twice", g)

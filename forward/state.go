@@ -65,6 +65,7 @@ var (
 // call with the same Workspace (copy it to keep it).
 type StateError struct {
 	Kind  error
+	Gas   string // the gas, for a bad mixing ratio
 	Param string
 	Value float64
 }
@@ -79,6 +80,9 @@ func (e *StateError) Error() string {
 		return fmt.Sprintf("forward: %v (cloud top %g bar)", e.Kind, e.Value/Bar)
 	case ErrTemperature:
 		return fmt.Sprintf("%v", e.Kind)
+	}
+	if e.Gas != "" {
+		return fmt.Sprintf("forward: %v: %s %s is %g", e.Kind, e.Gas, e.Param, e.Value)
 	}
 	return fmt.Sprintf("forward: %v: %s is %g", e.Kind, e.Param, e.Value)
 }

@@ -477,7 +477,9 @@ func (m *Model) checkState(s *State, w *Workspace) error {
 	sum := 0.0
 	for i, v := range s.VMR {
 		if bad(v) || v < 0 || v > 1 {
-			return w.fail(ErrInvalidState, m.gases[i]+" mixing ratio", v)
+			w.fail(ErrInvalidState, "mixing ratio", v)
+			w.err.Gas = m.gases[i]
+			return &w.err
 		}
 		sum += v
 	}
