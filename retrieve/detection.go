@@ -172,7 +172,8 @@ type EdgeDensity struct {
 // EstimateEdgeDensity estimates the marginal posterior density of samples at
 // low, the lower edge of their uniform prior on [low, high] (see the package
 // comment of this file for the method). ess is the effective sample size
-// of the chain (<= 0 or > len(samples) means the samples are independent).
+// of the chain (<= 0 or > len(samples) means the samples are independent;
+// NaN, an unknown one, is an error).
 // It returns an error for too few samples, samples outside the prior, or a
 // degenerate posterior.
 func EstimateEdgeDensity(samples []float64, low, high, ess float64) (EdgeDensity, error) {
@@ -180,6 +181,9 @@ func EstimateEdgeDensity(samples []float64, low, high, ess float64) (EdgeDensity
 		return EdgeDensity{}, fmt.Errorf("prior bounds [%g, %g] are not a finite interval", low, high)
 	}
 	n := float64(len(samples))
+	if math.IsNaN(ess) {
+		return EdgeDensity{}, fmt.Errorf("effective sample size unknown (no autocorrelation time): no density at the prior edge")
+	}
 	if ess <= 0 || ess > n {
 		ess = n
 	}
@@ -379,6 +383,10 @@ func ClassifyGas(samples []float64, low, high, ess float64) (GasDetection, error
 	d.EdgeMeansAbsent = low <= AbsentLog10 || median-low >= AbsentDecades
 
 	n := float64(len(x))
+	if math.IsNaN(ess) {
+		d.Note = "effective sample size unknown (no autocorrelation time): no significance"
+		return d, nil
+	}
 	if ess <= 0 || ess > n {
 		ess = n
 	}

@@ -324,6 +324,7 @@ func TestEdgeDensityBadInput(t *testing.T) {
 		{ok, -12, -1, 20, "effective samples"},
 		{append([]float64{math.NaN()}, ok...), -12, -1, 0, "NaN"},
 		{make([]float64, 500), -12, 0, 0, "all samples equal"},
+		{ok, -12, -1, math.NaN(), "unknown"},
 	} {
 		if _, err := EstimateEdgeDensity(c.x, c.low, c.high, c.ess); err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("case %d: error %v, want %q", i, err, c.want)
@@ -332,9 +333,11 @@ func TestEdgeDensityBadInput(t *testing.T) {
 	if _, err := ClassifyGas(ok, -10, -1, 0); err == nil {
 		t.Error("ClassifyGas accepted samples outside the prior")
 	}
-	d, err := ClassifyGas(ok, -12, -1, 50)
-	if err != nil || d.Class != Undetermined || d.Note == "" {
-		t.Errorf("few effective samples: %v, %+v", err, d)
+	for _, ess := range []float64{50, math.NaN()} {
+		d, err := ClassifyGas(ok, -12, -1, ess)
+		if err != nil || d.Class != Undetermined || d.Note == "" {
+			t.Errorf("ess %g: %v, %+v", ess, err, d)
+		}
 	}
 }
 
@@ -370,4 +373,28 @@ func TestGasClassText(t *testing.T) {
 	if err := g.UnmarshalText([]byte("maybe")); err == nil {
 		t.Error("unknown class accepted")
 	}
+}
+
+// FuzzClassifyGas: any samples and bounds give a verdict or an error, never
+// a panic, and a verdict's numbers are not NaN.
+func FuzzClassifyGas(f *testing.F) {
+	f.Add([]byte{0, 1, 2, 3, 200, 255}, -12.0, -1.0, 0.0)
+	f.Add(make([]byte, 300), -4.0, 0.0, 250.0)
+	f.Fuzz(func(t *testing.T, raw []byte, low, high, ess float64) {
+		x := make([]float64, 0, 4*len(raw))
+		for i, b := range raw {
+			// Spread the bytes over the prior, densest near the edge,
+			// repeated so that the effective-sample thresholds are reached.
+			for k := range 4 {
+				x = append(x, low+(high-low)*math.Pow(float64(b)/255, 1+float64((i+k)%3)))
+			}
+		}
+		d, err := ClassifyGas(x, low, high, ess)
+		if err != nil {
+			return
+		}
+		if math.IsNaN(d.Sigma) || math.IsNaN(d.LnB10) || d.Describe() == "" {
+			t.Fatalf("verdict %+v", d)
+		}
+	})
 }
