@@ -4,9 +4,11 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"maps"
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"time"
 )
 
@@ -204,7 +206,7 @@ func publishDir(tmp, dst string) error {
 // writeSet writes the tables of s as table files <gas>.parquet and
 // <A>-<B>.parquet in dir.
 func writeSet(dir string, s *Set, overwrite bool) error {
-	for _, gas := range sortedKeys(s.XSec) {
+	for _, gas := range slices.Sorted(maps.Keys(s.XSec)) {
 		if err := WriteXSecFile(filepath.Join(dir, gas+".parquet"), s.XSec[gas], overwrite); err != nil {
 			return err
 		}
@@ -217,9 +219,19 @@ func writeSet(dir string, s *Set, overwrite bool) error {
 	return nil
 }
 
-// WriteDemo builds the demo tables and writes them as table files into
-// dir, refusing to replace existing files unless overwrite is set.
+// WriteDemo builds the demo tables and writes them as table files
+// <gas>.parquet and <A>-<B>.parquet into dir (created if missing), refusing
+// to replace existing files unless overwrite is set; a refusal is found
+// before anything is built or written. It returns the files written.
 func WriteDemo(dir string, overwrite bool, progress io.Writer) ([]string, error) {
+	files := demoFileNames(dir)
+	if !overwrite {
+		for _, p := range files {
+			if _, err := os.Lstat(p); err == nil {
+				return nil, fmt.Errorf("opacity: %s exists; refusing to overwrite it (ask for overwrite to replace it)", p)
+			}
+		}
+	}
 	set, err := BuildDemo(progress)
 	if err != nil {
 		return nil, err
@@ -227,26 +239,20 @@ func WriteDemo(dir string, overwrite bool, progress io.Writer) ([]string, error)
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return nil, fmt.Errorf("opacity: %w", err)
 	}
-	if !overwrite {
-		// Check every file first, so a refusal writes nothing.
-		for _, p := range demoFileNames(dir, set) {
-			if _, err := os.Lstat(p); err == nil {
-				return nil, fmt.Errorf("opacity: %s exists; refusing to overwrite it (ask for overwrite to replace it)", p)
-			}
-		}
-	}
 	if err := writeSet(dir, set, overwrite); err != nil {
 		return nil, err
 	}
-	return demoFileNames(dir, set), nil
+	return files, nil
 }
 
-func demoFileNames(dir string, s *Set) []string {
+// demoFileNames returns the table files of the demo set in dir, in the
+// order writeSet writes them.
+func demoFileNames(dir string) []string {
 	var out []string
-	for _, gas := range sortedKeys(s.XSec) {
+	for _, gas := range slices.Sorted(slices.Values(DemoGases())) {
 		out = append(out, filepath.Join(dir, gas+".parquet"))
 	}
-	for _, c := range s.CIA {
+	for _, c := range demoCIA {
 		out = append(out, filepath.Join(dir, c.Pair[0]+"-"+c.Pair[1]+".parquet"))
 	}
 	return out
@@ -279,19 +285,6 @@ func loadDemoCache(dir string) (*Set, error) {
 	}
 	s.Demo = true
 	return s, nil
-}
-
-func sortedKeys[V any](m map[string]V) []string {
-	out := make([]string, 0, len(m))
-	for k := range m {
-		out = append(out, k)
-	}
-	for i := 1; i < len(out); i++ {
-		for j := i; j > 0 && out[j] < out[j-1]; j-- {
-			out[j], out[j-1] = out[j-1], out[j]
-		}
-	}
-	return out
 }
 
 // demoCIABand is one band of a demo CIA spectrum:
@@ -344,7 +337,7 @@ func (p *demoCIAPair) table(temps, nu []float64) *CIATable {
 		K:          make([]float64, len(temps)*len(nu)),
 		Meta:       demoMeta(),
 	}
-	t.Meta[MetaBuildSettings] = "demo CIA: exponential-wing bands at the H2 band centres (demo_cia.go); " + DemoNote
+	t.Meta[MetaBuildSettings] = "demo CIA: exponential-wing bands at the H2 band centres (demo.go); " + DemoNote
 	for it, T := range temps {
 		fillDemoCIA(t.Row(it), p.Bands, T, nu)
 	}
@@ -352,9 +345,8 @@ func (p *demoCIAPair) table(temps, nu []float64) *CIATable {
 }
 
 // fillDemoCIA evaluates the bands at temperature T into row (m^5) on the
-// wavenumbers nu (m^-1). It is generic in the element type so that it
-// stays right whichever float type CIATable.K uses.
-func fillDemoCIA[E float32 | float64](row []E, bands []demoCIABand, T float64, nu []float64) {
+// wavenumbers nu (m^-1).
+func fillDemoCIA(row []float64, bands []demoCIABand, T float64, nu []float64) {
 	s := math.Sqrt(T / 300)
 	for k, v := range nu {
 		cm := v / 100
@@ -362,6 +354,6 @@ func fillDemoCIA[E float32 | float64](row []E, bands []demoCIABand, T float64, n
 		for _, b := range bands {
 			sum += b.Peak / s * math.Exp(-math.Abs(cm-b.Nu0)/(b.Width*s))
 		}
-		row[k] = E(sum * 1e-10) // cm^5 -> m^5
+		row[k] = sum * 1e-10 // cm^5 -> m^5
 	}
 }

@@ -60,6 +60,26 @@ type ExoMolDef struct {
 	Gamma, N float64
 }
 
+// Molecule returns the chemical formula of the isotopologue without mass
+// numbers, from IsoFormula: "(12C)(16O)" gives "CO", "(1H)2(16O)" gives
+// "H2O". It is "" when the file gives no formula.
+func (d *ExoMolDef) Molecule() string {
+	var b strings.Builder
+	f := d.IsoFormula
+	for i := 0; i < len(f); i++ {
+		switch c := f[i]; {
+		case c == '(':
+			for i+1 < len(f) && f[i+1] >= '0' && f[i+1] <= '9' {
+				i++ // mass number
+			}
+		case c == ')':
+		default:
+			b.WriteByte(c)
+		}
+	}
+	return b.String()
+}
+
 // ReadExoMolDef reads an ExoMol .def file.
 func ReadExoMolDef(path string) (*ExoMolDef, error) {
 	f, err := os.Open(path)

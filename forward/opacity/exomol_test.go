@@ -57,6 +57,11 @@ func TestExoMolCORead(t *testing.T) {
 	if l.Def.MassDa != 27.9949 || l.Def.Gamma != 0.07 || l.Def.N != 0.5 || l.Def.IsoSlug != "12C-16O" || l.Def.MaxTemp != 9000 {
 		t.Errorf("def: %+v", l.Def)
 	}
+	for formula, want := range map[string]string{"(12C)(16O)": "CO", "(1H)2(16O)": "H2O", "(12C)(1H)4": "CH4", "(40Ca)(1H)": "CaH", "": ""} {
+		if got := (&ExoMolDef{IsoFormula: formula}).Molecule(); got != want {
+			t.Errorf("Molecule of %q = %q, want %q", formula, got, want)
+		}
+	}
 	iso := lblIsoData(t)[IsoKey{5, 1}]
 	if math.Abs(l.Q296/iso.Q296-1) > 0.01 {
 		t.Errorf("Q(296 K) summed from the states = %g, HITRAN molparam %g: differ by more than 1 %%", l.Q296, iso.Q296)
