@@ -44,11 +44,7 @@ func voigtRe(x, y float64) float64 {
 	s := ax + y
 	switch {
 	case s >= 15:
-		// Re[t c / (0.5 + t^2)] with t = y - i x: t^2 = y^2 - x^2 - 2 i x y.
-		dr := 0.5 + y*y - x*x
-		di := -2 * x * y
-		// numerator c (y - i x); Re(n/d) = (nr dr + ni di) / |d|^2.
-		return 0.5641896 * (y*dr + x*di*-1) / (dr*dr + di*di)
+		return 0.5641896 * y * wingRe(x, 0.5+y*y, y*y)
 	case s >= 5.5:
 		ur := y*y - x*x
 		ui := -2 * x * y
@@ -61,6 +57,15 @@ func voigtRe(x, y float64) float64 {
 		return (nr*dr + ni*di) / (dr*dr + di*di)
 	}
 	return real(Faddeeva(complex(x, y)))
+}
+
+// wingRe is Re w(x + i y) / (0.5641896 y) in Humlicek's region I, with
+// q = 0.5 + y^2 and y2 = y^2: Re[t c/(0.5 + t^2)], t = y - i x, is
+// c y (x^2 + q) / ((q - x^2)^2 + 4 x^2 y^2).
+func wingRe(x, q, y2 float64) float64 {
+	x2 := x * x
+	d := q - x2
+	return (x2 + q) / (d*d + 4*x2*y2)
 }
 
 // sqrtLn2 and sqrtLn2OverPi are the Voigt-profile normalisation constants.
