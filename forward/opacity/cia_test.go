@@ -535,3 +535,51 @@ func TestCIABadInput(t *testing.T) {
 		t.Errorf("missing file: err = %v", err)
 	}
 }
+
+// FuzzReadCIA feeds arbitrary text to the CIA reader: it must return an
+// error or blocks that keep the documented invariants (row counts as
+// declared, strictly ascending wavenumbers, finite non-negative values),
+// and blocks of one pair must always combine into a valid table.
+func FuzzReadCIA(f *testing.F) {
+	const hdr = "               H2-H2    20.000    22.000      3  300.0 3.000E-46 -.999                             1\n"
+	rows := "   20.0000  1.000E-46\n   21.0000 -2.000E-46\n   22.0000  3.000E-46\n"
+	f.Add([]byte(hdr + rows))
+	f.Add([]byte(hdr + rows + strings.Replace(hdr, "300.0", "500.0", 1) + rows))
+	f.Add([]byte(strings.ReplaceAll(hdr+rows, "\n", "\r\n")))
+	f.Add([]byte("H2-He 1 2 2 100 1e-45 -.999 comment 7\n1 1e-45 0.1\n2 2e-45 0.2\n"))
+	f.Add([]byte(hdr + rows + strings.Replace(hdr, "H2-H2", "H2-He", 1) + rows))
+	f.Add([]byte(""))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		blocks, err := ReadCIA(strings.NewReader(string(data)), "fuzz")
+		if err != nil {
+			if !strings.Contains(err.Error(), "fuzz") {
+				t.Fatalf("error %q does not name the input", err)
+			}
+			return
+		}
+		samePair := true
+		for _, b := range blocks {
+			if len(b.K) == 0 || len(b.K) != len(b.Wavenumber) {
+				t.Fatalf("block at line %d: %d values, %d wavenumbers", b.Line, len(b.K), len(b.Wavenumber))
+			}
+			for i, v := range b.K {
+				if !(v >= 0) || math.IsInf(v, 0) {
+					t.Fatalf("block at line %d: k[%d] = %g", b.Line, i, v)
+				}
+				if i > 0 && !(b.Wavenumber[i] > b.Wavenumber[i-1]) {
+					t.Fatalf("block at line %d: wavenumbers not ascending at %d", b.Line, i)
+				}
+			}
+			samePair = samePair && b.Pair == blocks[0].Pair
+		}
+		tab, err := CIAFromBlocks(blocks, nil)
+		if samePair && err != nil {
+			t.Fatalf("blocks of one pair did not combine: %v", err)
+		}
+		if err == nil {
+			if err := tab.Validate(); err != nil {
+				t.Fatal(err)
+			}
+		}
+	})
+}
