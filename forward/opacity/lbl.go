@@ -146,7 +146,18 @@ func BuildXSec(lines []Line, iso IsoData, s *XSecSettings) (*XSecTable, error) {
 		return nil, err
 	}
 	b.run()
-	return b.table, nil
+	// Absurd line data (a huge E'' with a sizeable S) can overflow; say so
+	// here rather than hand on a table that fails later.
+	t := b.table
+	for i, v := range t.Sigma {
+		if math.IsInf(float64(v), 0) || math.IsNaN(float64(v)) {
+			n := len(t.Wavenumber)
+			ip, it := i/n/len(t.T), i/n%len(t.T)
+			return nil, fmt.Errorf("opacity: BuildXSec %s: cross-section overflows at log10 P %g, T %g K, %g m^-1: check the line list's intensities and lower-state energies",
+				s.Gas, t.Log10P[ip], t.T[it], t.Wavenumber[i%n])
+		}
+	}
+	return t, nil
 }
 
 // lineBuild is the prepared state of one BuildXSec call.
