@@ -474,7 +474,6 @@ func (b *lineBuild) chunk(dst []float32, acc []float64, t task) {
 	// Lines whose window [Nu - cut, Nu + cut] meets the chunk.
 	lo := sort.Search(len(b.lines), func(i int) bool { return b.lines[i].Nu >= nu[0]-b.cut })
 	hi := sort.Search(len(b.lines), func(i int) bool { return b.lines[i].Nu > nu[len(nu)-1]+b.cut })
-	dopplerFac := math.Sqrt(2*math.Ln2*boltzmann*T/atomicMass) / speedOfLight
 	for i := lo; i < hi; i++ {
 		l := &b.lines[i]
 		st := b.lineIso[i]
@@ -490,7 +489,7 @@ func (b *lineBuild) chunk(dst []float32, acc []float64, t task) {
 		gammaSelf := l.GammaSelf * math.Exp(l.NAir*lnTr)
 		gammaL := gammaBg*pBg + gammaSelf*pSelf
 		nu0 := l.Nu + shiftOn*l.DeltaAir*pAtm
-		alphaD := l.Nu * dopplerFac / math.Sqrt(st.mass)
+		alphaD := DopplerHWHM(l.Nu, T, st.mass)
 		a := sort.SearchFloat64s(nu, l.Nu-b.cut)
 		z := sort.SearchFloat64s(nu, l.Nu+b.cut)
 		if z < len(nu) && nu[z] == l.Nu+b.cut {

@@ -130,6 +130,16 @@ func TestLineIntensity(t *testing.T) {
 	}
 }
 
+// TestDopplerHWHM: CO at 2143 cm^-1 and 296 K, m = 27.994915 u (molparam)
+// = 4.648665e-26 kg (CODATA 2018 m_u): sqrt(2 ln2 k T/m) =
+// sqrt(5.665398e-21/4.648665e-26) = 349.1010 m/s; / c = 1.164476e-6;
+// x 2143 = 0.002495471 cm^-1 (worked by hand, 7 digits).
+func TestDopplerHWHM(t *testing.T) {
+	if got := DopplerHWHM(2143, 296, 27.994915); math.Abs(got/0.002495471-1) > 1e-6 {
+		t.Errorf("Doppler HWHM %.7g cm^-1, hand-worked 0.002495471", got)
+	}
+}
+
 // syntheticIso is isotopologue data for the synthetic tests: CO 26
 // (mass 27.994915 g/mol, Q(296) 107.42, from molparam) with the rigid
 // rotor.
