@@ -257,28 +257,33 @@ func contentChecksum[E float32 | float64](meta map[string]string, axes [][]float
 		h.Write([]byte(k))
 		h.Write([]byte(meta[k]))
 	}
-	for _, a := range axes {
-		for _, v := range a {
-			if len(buf)+8 > cap(buf) {
-				h.Write(buf)
-				buf = buf[:0]
+	buf = buf[:cap(buf)]
+	put64 := func(x []float64) {
+		for len(x) > 0 {
+			n := min(len(x), len(buf)/8)
+			for i, v := range x[:n] {
+				binary.LittleEndian.PutUint64(buf[8*i:], math.Float64bits(v))
 			}
-			buf = binary.LittleEndian.AppendUint64(buf, math.Float64bits(v))
+			h.Write(buf[:8*n])
+			x = x[n:]
 		}
 	}
-	for _, v := range data {
-		if len(buf)+8 > cap(buf) {
-			h.Write(buf)
-			buf = buf[:0]
-		}
-		switch x := any(v).(type) {
-		case float32:
-			buf = binary.LittleEndian.AppendUint32(buf, math.Float32bits(x))
-		case float64:
-			buf = binary.LittleEndian.AppendUint64(buf, math.Float64bits(x))
+	for _, a := range axes {
+		put64(a)
+	}
+	switch d := any(data).(type) {
+	case []float64:
+		put64(d)
+	case []float32:
+		for len(d) > 0 {
+			n := min(len(d), len(buf)/4)
+			for i, v := range d[:n] {
+				binary.LittleEndian.PutUint32(buf[4*i:], math.Float32bits(v))
+			}
+			h.Write(buf[:4*n])
+			d = d[n:]
 		}
 	}
-	h.Write(buf)
 	return hex.EncodeToString(h.Sum(nil))
 }
 
