@@ -36,6 +36,10 @@ import (
 //	error                          1-sigma error, in the unit of the depth column
 //	error_plus and error_minus     asymmetric errors (magnitudes); their mean is used
 //
+// The error columns may repeat the depth column's unit (error_ppm with
+// depth_ppm, error_plus_percent with depth_percent); another unit is an
+// error.
+//
 // Every other column name is an error. An Rp/Rs error is propagated to
 // first order: sigma_D = 2 (Rp/Rs) sigma_(Rp/Rs) (fact of the trade).
 //
@@ -114,6 +118,9 @@ type header struct {
 	scale  [nColumns]float64 // wavelength factors to m
 	depth  string            // name of the depth column
 	factor float64           // depth factor to fraction (0 for radius_ratio)
+	// errUnit is the unit suffix of the error columns ("" when none) and
+	// errCol one such column, for messages.
+	errUnit, errCol string
 }
 
 func parseHeader(line string) (*header, error) {
@@ -143,12 +150,26 @@ func parseHeader(line string) (*header, error) {
 			}
 			h.depth, h.factor = name, depthKinds[name]
 			err = set(colDepth, i, name)
-		case name == "error":
-			err = set(colError, i, name)
-		case name == "error_plus":
-			err = set(colErrPlus, i, name)
-		case name == "error_minus":
-			err = set(colErrMinus, i, name)
+		case strings.HasPrefix(name, "error"):
+			base, unit := name, ""
+			for _, u := range []string{"_ppm", "_percent"} {
+				if strings.HasSuffix(name, u) {
+					base, unit = strings.TrimSuffix(name, u), u[1:]
+				}
+			}
+			c, ok := map[string]column{"error": colError, "error_plus": colErrPlus, "error_minus": colErrMinus}[base]
+			if !ok {
+				err = fmt.Errorf("unknown column %q (known: %s)", f, columnNames)
+				break
+			}
+			if unit != "" {
+				if h.errUnit != "" && h.errUnit != unit {
+					err = fmt.Errorf("error columns in two units, %s and %s", h.errUnit, unit)
+					break
+				}
+				h.errUnit, h.errCol = unit, f
+			}
+			err = set(c, i, name)
 		default:
 			base, unit, ok := cutLast(name, "_")
 			factor, known := wavelengthUnits[unit]
@@ -195,6 +216,9 @@ func parseHeader(line string) (*header, error) {
 	if h.depth == "" {
 		return nil, errors.New("no depth column (depth, depth_ppm, depth_percent or radius_ratio)")
 	}
+	if want := strings.TrimPrefix(strings.TrimPrefix(h.depth, "depth"), "_"); h.errUnit != "" && h.errUnit != want {
+		return nil, fmt.Errorf("column %q: errors are in the unit of the depth column %q; write %q or plain \"error\"", h.errCol, h.depth, errName(h.errCol, want))
+	}
 	sym, plus, minus := h.idx[colError] >= 0, h.idx[colErrPlus] >= 0, h.idx[colErrMinus] >= 0
 	switch {
 	case sym && (plus || minus):
@@ -205,6 +229,15 @@ func parseHeader(line string) (*header, error) {
 		return nil, errors.New("no error column (error, or error_plus and error_minus)")
 	}
 	return h, nil
+}
+
+// errName returns the error column name col with the unit suffix unit.
+func errName(col, unit string) string {
+	base := strings.TrimSuffix(strings.TrimSuffix(strings.ToLower(col), "_ppm"), "_percent")
+	if unit == "" || unit == "ratio" {
+		return base
+	}
+	return base + "_" + unit
 }
 
 func cutLast(s, sep string) (before, after string, ok bool) {
