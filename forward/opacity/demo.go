@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"maps"
 	"math"
 	"os"
@@ -104,9 +105,9 @@ func BuildDemo(progress io.Writer) (*Set, error) {
 		if err != nil {
 			return nil, err
 		}
+		// Each gas takes about a second: a line per gas is progress enough.
 		t, err := BuildXSec(lines, iso, &XSecSettings{
-			Gas: gas, Log10P: demoLog10P, T: demoT, Wavenumber: nu,
-			Progress: progress, Quiet: progress == nil,
+			Gas: gas, Log10P: demoLog10P, T: demoT, Wavenumber: nu, Quiet: true,
 		})
 		if err != nil {
 			return nil, fmt.Errorf("opacity: demo %s: %w", gas, err)
@@ -221,14 +222,15 @@ func writeSet(dir string, s *Set, overwrite bool) error {
 
 // WriteDemo builds the demo tables and writes them as table files
 // <gas>.parquet and <A>-<B>.parquet into dir (created if missing), refusing
-// to replace existing files unless overwrite is set; a refusal is found
-// before anything is built or written. It returns the files written.
+// to replace existing files unless overwrite is set; a refusal (an error
+// matching fs.ErrExist) is found before anything is built or written. It
+// returns the files written.
 func WriteDemo(dir string, overwrite bool, progress io.Writer) ([]string, error) {
 	files := demoFileNames(dir)
 	if !overwrite {
 		for _, p := range files {
 			if _, err := os.Lstat(p); err == nil {
-				return nil, fmt.Errorf("opacity: %s exists; refusing to overwrite it (ask for overwrite to replace it)", p)
+				return nil, &os.PathError{Op: "opacity: write demo table", Path: p, Err: fs.ErrExist}
 			}
 		}
 	}

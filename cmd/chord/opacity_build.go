@@ -1,0 +1,485 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"io/fs"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/urfave/cli/v2"
+
+	"chord/forward/opacity"
+	"chord/retrieve"
+)
+
+// opacityBuildCommand is the "build" subcommand of "chord opacity": line
+// lists, partition sums and CIA files plus a grid specification to table
+// files in a directory.
+var opacityBuildCommand = &cli.Command{
+	Name:      "build",
+	Usage:     "build opacity table files from line lists and CIA files (or the demo set)",
+	ArgsUsage: " ",
+	Description: "Builds one cross-section table file <gas>.parquet from the line lists given with --lines\n" +
+		"(HITRAN 160-character .par records or HITRAN's tab-separated download, or one ExoMol .def file\n" +
+		"whose .states and .trans files lie beside it, possibly .bz2), on the grid of --pressure,\n" +
+		"--temperature and --wavenumber or --wavelength, and one CIA table file <A>-<B>.parquet per pair\n" +
+		"from the HITRAN CIA files given with --cia, on the same wavenumber grid. HITRAN line lists need\n" +
+		"HITRAN's molparam table (--molparam) for masses, abundances and Q(296 K); partition sums come\n" +
+		"from --tips or --partition files, otherwise from a rigid-rotor approximation, with a warning.\n" +
+		"Existing files are not replaced unless --force is given. --demo writes the demo tables\n" +
+		"(synthetic bands; demo, not for science) instead. Progress goes to standard error.",
+	Flags: []cli.Flag{
+		&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "output `DIR` for the table files (created if missing)", Required: true},
+		&cli.BoolFlag{Name: "force", Usage: "replace existing table files"},
+		&cli.BoolFlag{Name: "demo", Usage: "write the demo opacity tables (demo, not for science)"},
+		&cli.StringSliceFlag{Name: "lines", Usage: "line-list `FILE` (HITRAN .par or .tsv, or an ExoMol .def); repeat for several files of one gas"},
+		&cli.StringFlag{Name: "gas", Usage: "gas `NAME` of the table (default: the HITRAN molecule of the lines, or the ExoMol formula)"},
+		&cli.StringFlag{Name: "molparam", Usage: "HITRAN molparam `FILE` (isotopologue masses, abundances, Q(296 K)); needed for HITRAN line lists"},
+		&cli.StringFlag{Name: "tips", Usage: "TIPS partition-sum table `FILE` (header Temp(K) NAME_code ...)"},
+		&cli.StringSliceFlag{Name: "partition", Usage: "two-column partition-sum file for one isotopologue, `MOL/ISO=FILE` (e.g. 1/1=q1.txt); repeatable"},
+		&cli.StringSliceFlag{Name: "cia", Usage: "HITRAN CIA `FILE`; repeat for several files and pairs (files of one pair are combined)"},
+		&cli.StringFlag{Name: "pressure", Value: "1e-7:100:13", Usage: "pressure grid `LO:HI:N` in bar, N points log-spaced"},
+		&cli.StringFlag{Name: "temperature", Value: "200,300,400,500,600,800,1000,1200,1400,1600,1800,2000", Usage: "temperature grid in K: `LIST` (T1,T2,...) or LO:HI:N evenly spaced"},
+		&cli.StringFlag{Name: "wavenumber", Usage: "wavenumber grid `LO:HI:STEP` in cm^-1"},
+		&cli.StringFlag{Name: "wavelength", Usage: "wavelength grid `LO:HI:R` in um, log-spaced at resolving power R"},
+		&cli.Float64Flag{Name: "cutoff", Value: opacity.DefaultWingCutoff, Usage: "line-wing cut-off in `CM-1` from the line centre"},
+		&cli.Float64Flag{Name: "min-intensity", Usage: "skip lines weaker than `S` at the table temperature, cm^-1/(molecule cm^-2)"},
+		&cli.Float64Flag{Name: "self-fraction", Usage: "volume mixing `RATIO` of the absorber for self-broadening (0: dilute)"},
+		&cli.StringFlag{Name: "broadener", Usage: "background gas `NAME` for provenance, with --broadener-scale (default air)"},
+		&cli.Float64Flag{Name: "broadener-scale", Usage: "background half-width = `SCALE` x air half-width (0: 1)"},
+		&cli.Float64Flag{Name: "broadener-n", Usage: "temperature `EXPONENT` of the background half-width (0: the lines' own)"},
+		&cli.BoolFlag{Name: "no-shift", Usage: "ignore the lines' pressure shifts"},
+		&cli.Float64Flag{Name: "abundance", Usage: "ExoMol: weight intensities by this isotopologue `FRACTION` (0: 1)"},
+		&cli.Float64Flag{Name: "exomol-gamma", Usage: "ExoMol: Lorentz half-width in `CM-1/BAR` at 296 K instead of the .def default"},
+		&cli.Float64Flag{Name: "exomol-n", Usage: "ExoMol: temperature `EXPONENT` of --exomol-gamma"},
+		&cli.IntFlag{Name: "workers", Aliases: []string{"j"}, Usage: "`N` worker goroutines (0: all cores)"},
+		&cli.BoolFlag{Name: "quiet", Aliases: []string{"q"}, Usage: "no progress output"},
+	},
+	Action: runOpacityBuild,
+}
+
+func init() {
+	opacityCommand.Subcommands = append(opacityCommand.Subcommands, opacityBuildCommand)
+}
+
+// maxBuildValues bounds the size of a table this command builds (float32
+// values; 1 GiB), so that a mistyped grid fails at once.
+const maxBuildValues = 1 << 28
+
+func runOpacityBuild(c *cli.Context) error {
+	if c.NArg() > 0 {
+		return fmt.Errorf("opacity build: unexpected argument %q (input files go with --lines and --cia)", c.Args().First())
+	}
+	out := c.String("output")
+	force := c.Bool("force")
+	var progress io.Writer = c.App.ErrWriter
+	if c.Bool("quiet") {
+		progress = nil
+	}
+	if c.Bool("demo") {
+		for _, f := range []string{"lines", "cia", "molparam", "tips", "partition", "wavenumber", "wavelength", "gas"} {
+			if c.IsSet(f) {
+				return fmt.Errorf("opacity build: --demo builds the fixed demo set; --%s cannot be used with it", f)
+			}
+		}
+		files, err := opacity.WriteDemo(out, force, progress)
+		if errors.Is(err, fs.ErrExist) {
+			return fmt.Errorf("%w (use --force to replace it)", err)
+		}
+		if err != nil {
+			return err
+		}
+		for _, f := range files {
+			fmt.Fprintln(c.App.Writer, f)
+		}
+		if progress != nil {
+			fmt.Fprintf(progress, "wrote %d demo table files to %s (%s)\n", len(files), out, opacity.DemoNote)
+		}
+		return nil
+	}
+	lineFiles, ciaFiles := c.StringSlice("lines"), c.StringSlice("cia")
+	if len(lineFiles) == 0 && len(ciaFiles) == 0 {
+		return errors.New("opacity build: nothing to build: give line lists (--lines), CIA files (--cia) or --demo")
+	}
+	nu, err := buildWavenumbers(c.String("wavenumber"), c.String("wavelength"), len(lineFiles) > 0)
+	if err != nil {
+		return err
+	}
+	if err := os.MkdirAll(out, 0o755); err != nil {
+		return fmt.Errorf("opacity build: %w", err)
+	}
+	if len(lineFiles) > 0 {
+		if err := buildLineTable(c, lineFiles, nu, out, force, progress); err != nil {
+			return err
+		}
+	}
+	if len(ciaFiles) > 0 {
+		if err := buildCIATables(c, ciaFiles, nu, out, force, progress); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// buildLineTable builds and writes the cross-section table of the line lists.
+func buildLineTable(c *cli.Context, files []string, nu []float64, out string, force bool, progress io.Writer) error {
+	logP, err := buildPressures(c.String("pressure"))
+	if err != nil {
+		return err
+	}
+	temps, err := buildTemperatures(c.String("temperature"))
+	if err != nil {
+		return err
+	}
+	if n := len(logP) * len(temps) * len(nu); n > maxBuildValues {
+		return fmt.Errorf("opacity build: grid of %d x %d x %d = %d values (%.1f GB) is too large; at most %d",
+			len(logP), len(temps), len(nu), n, float64(n)*4/1e9, maxBuildValues)
+	}
+	status := func(format string, a ...any) {
+		if progress != nil {
+			fmt.Fprintf(progress, format+"\n", a...)
+		}
+	}
+
+	var (
+		lines   []opacity.Line
+		iso     opacity.IsoData
+		gas     = c.String("gas")
+		sources []string
+	)
+	var exomol, hitran []string
+	for _, f := range files {
+		if strings.HasSuffix(f, ".def") {
+			exomol = append(exomol, f)
+		} else {
+			hitran = append(hitran, f)
+		}
+	}
+	switch {
+	case len(exomol) > 1 || (len(exomol) == 1 && len(hitran) > 0):
+		return fmt.Errorf("opacity build: one table is built from HITRAN line lists or from one ExoMol .def file, not both or several (%s)", strings.Join(exomol, ", "))
+	case len(exomol) == 1:
+		for _, f := range []string{"molparam", "tips", "partition"} {
+			if c.IsSet(f) {
+				return fmt.Errorf("opacity build: --%s applies to HITRAN line lists; ExoMol lists bring their own states", f)
+			}
+		}
+		def, err := opacity.ReadExoMolDef(exomol[0])
+		if err != nil {
+			return err
+		}
+		if gas == "" {
+			if gas = def.Molecule(); gas == "" {
+				return fmt.Errorf("opacity build: %s gives no IsoFormula; name the gas with --gas", exomol[0])
+			}
+		}
+		key := opacity.IsoKey{Mol: opacity.MoleculeID(gas), Iso: 1}
+		status("reading ExoMol line list %s", exomol[0])
+		start := time.Now()
+		list, err := opacity.ReadExoMol(exomol[0], opacity.ExoMolOptions{
+			Mol: key.Mol, Iso: key.Iso,
+			Abundance: c.Float64("abundance"),
+			Gamma:     c.Float64("exomol-gamma"), N: c.Float64("exomol-n"),
+			NuMin: nu[0]/100 - c.Float64("cutoff"), NuMax: nu[len(nu)-1]/100 + c.Float64("cutoff"),
+		})
+		if err != nil {
+			return err
+		}
+		status("  %d transitions in range, Q(296 K) = %.6g from %d states (%s)", len(list.Lines), list.Q296, len(list.States.ID), time.Since(start).Round(time.Millisecond))
+		lines, iso, sources = list.Lines, opacity.IsoData{key: list.Isotopologue()}, list.Files
+	default:
+		if c.IsSet("abundance") || c.IsSet("exomol-gamma") || c.IsSet("exomol-n") {
+			return errors.New("opacity build: --abundance, --exomol-gamma and --exomol-n apply to ExoMol line lists only")
+		}
+		mp := c.String("molparam")
+		if mp == "" {
+			return errors.New("opacity build: HITRAN line lists need HITRAN's molparam table (--molparam FILE) for masses, abundances and Q(296 K)")
+		}
+		if iso, err = opacity.ReadMolParam(mp); err != nil {
+			return err
+		}
+		sources = append(sources, mp)
+		if p := c.String("tips"); p != "" {
+			n, err := opacity.ReadTIPSTable(p, iso)
+			if err != nil {
+				return err
+			}
+			status("partition sums for %d isotopologues from %s", n, p)
+			sources = append(sources, p)
+		}
+		for _, spec := range c.StringSlice("partition") {
+			key, path, err := parseQSpec(spec)
+			if err != nil {
+				return err
+			}
+			d := iso[key]
+			if d == nil {
+				return fmt.Errorf("opacity build: --partition %s: %v is not in the molparam table %s", spec, key, mp)
+			}
+			if d.Q, err = opacity.ReadQFile(path); err != nil {
+				return err
+			}
+			sources = append(sources, path)
+		}
+		filter := opacity.LineFilter{NuMin: nu[0]/100 - c.Float64("cutoff"), NuMax: nu[len(nu)-1]/100 + c.Float64("cutoff")}
+		var lists [][]opacity.Line
+		for _, f := range hitran {
+			status("reading HITRAN line list %s", f)
+			l, err := opacity.ReadLineFile(f, filter)
+			if err != nil {
+				return err
+			}
+			lists = append(lists, l)
+			sources = append(sources, f)
+		}
+		lines = opacity.MergeLines(lists...) // files that overlap (e.g. downloads by window) share lines
+		mols := map[int]bool{}
+		for _, l := range lines {
+			mols[l.Mol] = true
+		}
+		if len(mols) > 1 {
+			return fmt.Errorf("opacity build: the line lists hold %d molecules (%s); a table is one gas", len(mols), moleculeList(mols))
+		}
+		if gas == "" {
+			for m := range mols {
+				gas = opacity.MoleculeNames[m]
+			}
+		}
+	}
+	if len(lines) == 0 {
+		return fmt.Errorf("opacity build: no lines within %g cm^-1 of the grid's wavenumber range %g-%g cm^-1", c.Float64("cutoff"), nu[0]/100, nu[len(nu)-1]/100)
+	}
+	if err := checkTableName(gas); err != nil {
+		return err
+	}
+	path := filepath.Join(out, gas+".parquet")
+	if !force {
+		if _, err := os.Lstat(path); err == nil {
+			return fmt.Errorf("opacity build: %s exists; refusing to overwrite it (use --force)", path)
+		}
+	}
+	src, err := opacity.SourcesMeta(sources...)
+	if err != nil {
+		return err
+	}
+	status("building %s: %d lines on %d pressures x %d temperatures x %d wavenumbers", gas, len(lines), len(logP), len(temps), len(nu))
+	start := time.Now()
+	t, err := opacity.BuildXSec(lines, iso, &opacity.XSecSettings{
+		Gas: gas, Log10P: logP, T: temps, Wavenumber: nu,
+		WingCutoff:   c.Float64("cutoff"),
+		MinIntensity: c.Float64("min-intensity"),
+		SelfFraction: c.Float64("self-fraction"),
+		Broadening: opacity.Broadening{
+			Name: c.String("broadener"), Scale: c.Float64("broadener-scale"), N: c.Float64("broadener-n"),
+		},
+		NoPressureShift: c.Bool("no-shift"),
+		Workers:         c.Int("workers"),
+		Quiet:           progress == nil, // else a bar on standard error when it is a terminal
+		Log:             c.App.ErrWriter,
+		Version:         retrieve.Version,
+		Sources:         src,
+	})
+	if err != nil {
+		return err
+	}
+	if err := opacity.WriteXSecFile(path, t, force); err != nil {
+		return err
+	}
+	status("wrote %s (%s)", path, time.Since(start).Round(time.Millisecond))
+	fmt.Fprintln(c.App.Writer, path)
+	return nil
+}
+
+// buildCIATables writes one CIA table file per pair of the CIA files, on
+// the wavenumber grid nu (nil: the union of the files' wavenumbers).
+func buildCIATables(c *cli.Context, files []string, nu []float64, out string, force bool, progress io.Writer) error {
+	byPair := map[string][]string{}
+	var pairs []string
+	for _, f := range files {
+		blocks, err := opacity.ReadHITRANCIA(f)
+		if err != nil {
+			return err
+		}
+		p := blocks[0].Pair
+		name := p[0] + "-" + p[1]
+		for _, b := range blocks[1:] {
+			if b.Pair != p {
+				return fmt.Errorf("opacity build: %s holds pairs %s and %s-%s; give one pair per file", f, name, b.Pair[0], b.Pair[1])
+			}
+		}
+		if byPair[name] == nil {
+			pairs = append(pairs, name)
+		}
+		byPair[name] = append(byPair[name], f)
+	}
+	for _, name := range pairs {
+		path := filepath.Join(out, name+".parquet")
+		if !force {
+			if _, err := os.Lstat(path); err == nil {
+				return fmt.Errorf("opacity build: %s exists; refusing to overwrite it (use --force)", path)
+			}
+		}
+		t, err := opacity.LoadHITRANCIA(nu, byPair[name]...)
+		if err != nil {
+			return err
+		}
+		t.Meta[opacity.MetaProgramVersion] = retrieve.Version
+		if err := opacity.WriteCIAFile(path, t, force); err != nil {
+			return err
+		}
+		if progress != nil {
+			fmt.Fprintf(progress, "wrote %s from %s\n", path, strings.Join(byPair[name], ", "))
+		}
+		fmt.Fprintln(c.App.Writer, path)
+	}
+	return nil
+}
+
+// checkTableName refuses gas names that cannot be file names.
+func checkTableName(gas string) error {
+	if gas == "" || strings.ContainsAny(gas, "/\\ \t") || gas == "." || gas == ".." {
+		return fmt.Errorf("opacity build: gas name %q cannot name a table file; give --gas", gas)
+	}
+	return nil
+}
+
+func moleculeList(mols map[int]bool) string {
+	var names []string
+	for m := range mols {
+		names = append(names, fmt.Sprintf("%s (%d)", opacity.MoleculeNames[m], m))
+	}
+	sort.Strings(names)
+	return strings.Join(names, ", ")
+}
+
+// parseQSpec reads "MOL/ISO=FILE".
+func parseQSpec(spec string) (opacity.IsoKey, string, error) {
+	k, path, ok := strings.Cut(spec, "=")
+	ms, is, ok2 := strings.Cut(k, "/")
+	mol, err1 := strconv.Atoi(ms)
+	iso, err2 := strconv.Atoi(is)
+	if !ok || !ok2 || err1 != nil || err2 != nil || path == "" {
+		return opacity.IsoKey{}, "", fmt.Errorf("opacity build: --partition %q: want MOL/ISO=FILE, e.g. 1/1=q1.txt", spec)
+	}
+	return opacity.IsoKey{Mol: mol, Iso: iso}, path, nil
+}
+
+// parseRange reads "LO:HI:N" (three numbers) for the flag named name.
+func parseRange(name, s string) (lo, hi, n float64, err error) {
+	f := strings.Split(s, ":")
+	if len(f) != 3 {
+		return 0, 0, 0, fmt.Errorf("opacity build: --%s %q: want LO:HI:N", name, s)
+	}
+	var v [3]float64
+	for i, x := range f {
+		if v[i], err = strconv.ParseFloat(strings.TrimSpace(x), 64); err != nil || math.IsNaN(v[i]) || math.IsInf(v[i], 0) {
+			return 0, 0, 0, fmt.Errorf("opacity build: --%s %q: %q is not a number", name, s, x)
+		}
+	}
+	return v[0], v[1], v[2], nil
+}
+
+// buildPressures parses "--pressure LO:HI:N" (bar) into log10 of Pa.
+func buildPressures(s string) ([]float64, error) {
+	lo, hi, n, err := parseRange("pressure", s)
+	if err != nil {
+		return nil, err
+	}
+	if !(lo > 0) || !(hi >= lo) || n != math.Trunc(n) || n < 1 || (n == 1) != (lo == hi) || n > 1000 {
+		return nil, fmt.Errorf("opacity build: --pressure %q: want 0 < LO < HI (bar) and 2 <= N <= 1000 points, or LO = HI with N = 1", s)
+	}
+	out := make([]float64, int(n))
+	a, b := math.Log10(lo*1e5), math.Log10(hi*1e5)
+	for i := range out {
+		out[i] = a
+		if n > 1 {
+			out[i] = a + (b-a)*float64(i)/(n-1)
+		}
+	}
+	return out, nil
+}
+
+// buildTemperatures parses "--temperature T1,T2,..." or "LO:HI:N" (K).
+func buildTemperatures(s string) ([]float64, error) {
+	var out []float64
+	if strings.Contains(s, ":") {
+		lo, hi, n, err := parseRange("temperature", s)
+		if err != nil {
+			return nil, err
+		}
+		if !(lo > 0) || !(hi > lo) || n != math.Trunc(n) || n < 2 || n > 1000 {
+			return nil, fmt.Errorf("opacity build: --temperature %q: want 0 < LO < HI (K) and 2 <= N <= 1000", s)
+		}
+		for i := 0; i < int(n); i++ {
+			out = append(out, lo+(hi-lo)*float64(i)/(n-1))
+		}
+		return out, nil
+	}
+	for _, x := range strings.Split(s, ",") {
+		v, err := strconv.ParseFloat(strings.TrimSpace(x), 64)
+		if err != nil || !(v > 0) || math.IsInf(v, 0) {
+			return nil, fmt.Errorf("opacity build: --temperature %q: %q is not a positive temperature in K", s, x)
+		}
+		if len(out) > 0 && !(v > out[len(out)-1]) {
+			return nil, fmt.Errorf("opacity build: --temperature %q: temperatures must be strictly ascending (%g after %g)", s, v, out[len(out)-1])
+		}
+		out = append(out, v)
+	}
+	return out, nil
+}
+
+// buildWavenumbers parses the wavenumber grid (m^-1) from "--wavenumber
+// LO:HI:STEP" (cm^-1) or "--wavelength LO:HI:R" (um). Without either it
+// returns nil, which is an error when a line table is to be built.
+func buildWavenumbers(wn, wl string, needed bool) ([]float64, error) {
+	switch {
+	case wn != "" && wl != "":
+		return nil, errors.New("opacity build: give --wavenumber or --wavelength, not both")
+	case wn != "":
+		lo, hi, step, err := parseRange("wavenumber", wn)
+		if err != nil {
+			return nil, err
+		}
+		if !(lo > 0) || !(hi > lo) || !(step > 0) {
+			return nil, fmt.Errorf("opacity build: --wavenumber %q: want 0 < LO < HI and STEP > 0 (cm^-1)", wn)
+		}
+		n := math.Floor((hi-lo)/step+1e-9) + 1
+		if n > maxBuildValues {
+			return nil, fmt.Errorf("opacity build: --wavenumber %q: %g points is too many", wn, n)
+		}
+		out := make([]float64, int(n))
+		for i := range out {
+			out[i] = 100 * (lo + step*float64(i))
+		}
+		return out, nil
+	case wl != "":
+		lo, hi, r, err := parseRange("wavelength", wl)
+		if err != nil {
+			return nil, err
+		}
+		if !(lo > 0) || !(hi > lo) || !(r > 0) {
+			return nil, fmt.Errorf("opacity build: --wavelength %q: want 0 < LO < HI (um) and R > 0", wl)
+		}
+		n := max(2, math.Round(r*math.Log(hi/lo))+1)
+		if n > maxBuildValues {
+			return nil, fmt.Errorf("opacity build: --wavelength %q: %g points is too many", wl, n)
+		}
+		out := make([]float64, int(n))
+		// Ascending wavenumber: from 1/hi to 1/lo, log-spaced.
+		a, b := 1e6/hi, 1e6/lo
+		for i := range out {
+			out[i] = a * math.Exp(float64(i)/(n-1)*math.Log(b/a))
+		}
+		return out, nil
+	case needed:
+		return nil, errors.New("opacity build: line lists need a wavenumber grid: --wavenumber LO:HI:STEP (cm^-1) or --wavelength LO:HI:R (um)")
+	}
+	return nil, nil
+}
