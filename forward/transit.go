@@ -3,8 +3,6 @@ package forward
 import (
 	"math"
 
-	"gonum.org/v1/gonum/blas"
-	"gonum.org/v1/gonum/blas/gonum"
 	"gonum.org/v1/gonum/floats"
 
 	"chord/forward/opacity"
@@ -19,8 +17,6 @@ const blockLen = 256
 // 1 in float64 (exp(-37.5) is below half an ulp of 1).
 const satTau = 38
 
-var impl gonum.Implementation
-
 // Workspace holds the scratch memory of Transit for one goroutine. Make it
 // with Model.NewWorkspace; it is not safe for concurrent use.
 type Workspace struct {
@@ -33,7 +29,8 @@ type Workspace struct {
 	r     []float64 // r per level
 	area  []float64 // r_{i+1}^2 - r_i^2 per ray
 	path  []float64 // N x N, row i = ray i, upper triangular
-	alpha []float64 // N x blockLen: absorption coefficients, then slant optical depths
+	alpha []float64 // N x blockLen: absorption coefficients
+	tau   []float64 // blockLen: slant optical depth of one ray
 	scat  []float64 // per point: sum of Rayleigh and haze cross-sections per molecule
 	fine  []float64 // transit depth on the model grid
 	acc   []float64 // per point of a block: rays above the cloud ray
@@ -78,6 +75,7 @@ func (m *Model) NewWorkspace() *Workspace {
 		area:  make([]float64, n),
 		path:  make([]float64, n*n),
 		alpha: make([]float64, n*blockLen),
+		tau:   make([]float64, blockLen),
 		scat:  make([]float64, M),
 		fine:  make([]float64, M),
 		acc:   make([]float64, blockLen),
@@ -282,25 +280,45 @@ func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
 		nb := k1 - k0
 		m.mixBlock(w, k0, k1)
 		m.alphaBlock(w, jlo, k0, k1)
-		// tau = ds alpha, in place, on the rays and layers from jlo up.
-		L := n - jlo
-		impl.Dtrmm(blas.Left, blas.Upper, blas.NoTrans, blas.NonUnit, L, nb, 1,
-			w.path[jlo*n+jlo:], n, w.alpha, blockLen)
 
 		acc, low, tkc := w.acc[:nb], w.low[:nb], w.tkc[:nb]
 		for k := range acc {
 			acc[k], low[k], tkc[k] = 0, 0, 0
 		}
+		tau := w.tau[:nb]
 		for i := jlo; i < n; i++ {
-			tau := w.alpha[(i-jlo)*blockLen : (i-jlo)*blockLen+nb]
-			a := w.area[i]
+			// tau_i = sum_{j>=i} ds_ij alpha_j, from the ray's own (densest)
+			// shell outwards. Every term is non-negative, so a partial sum
+			// is a lower bound: once it reaches satTau at every point of the
+			// block, 1 - exp(-tau) is exactly 1 there and the rest of the
+			// sum cannot change the depth. Checks at doubling intervals.
+			ds := w.path[i*n : (i+1)*n]
+			floats.ScaleTo(tau, ds[i], w.alpha[(i-jlo)*blockLen:(i-jlo)*blockLen+nb])
+			saturated := false
+			check := i + 1
+			for j := i + 1; j < n; j++ {
+				floats.AddScaled(tau, ds[j], w.alpha[(j-jlo)*blockLen:(j-jlo)*blockLen+nb])
+				if j == check {
+					if allSaturated(tau) {
+						saturated = true
+						break
+					}
+					check += check - i
+				}
+			}
+			a, dst := w.area[i], acc
 			switch {
-			case i > kc:
-				addAbsorbed(acc, a, tau)
 			case i == kc:
-				addAbsorbed(tkc, 1, tau)
-			default:
-				addAbsorbed(low, a, tau)
+				a, dst = 1, tkc
+			case i < kc:
+				dst = low
+			}
+			if saturated {
+				for k := range dst {
+					dst[k] += a
+				}
+			} else {
+				addAbsorbed(dst, a, tau)
 			}
 		}
 		out := dst[k0:k1]
@@ -322,6 +340,17 @@ func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
 		}
 	}
 	return nil
+}
+
+// allSaturated reports whether every tau[k] >= satTau; it stops at the
+// first point below, usually the first.
+func allSaturated(tau []float64) bool {
+	for _, t := range tau {
+		if !(t >= satTau) {
+			return false
+		}
+	}
+	return true
 }
 
 // addAbsorbed adds a (1 - exp(-tau[k])) to dst[k], with the arithmetic of
