@@ -505,32 +505,35 @@ func buildPrior(key, name string, pc ParameterConfig) (priors.Prior, error) {
 	return p, nil
 }
 
-// checkPriorRange rejects priors whose support reaches values the quantity
-// can never take, so that a run does not spend its time on -Inf.
+// checkPriorRange rejects priors that put more than a negligible
+// probability (1e-9 in either tail) on values the quantity can never take,
+// so that a run does not spend its time on -Inf. A normal prior on a
+// radius far from 0 is fine; a uniform one reaching 0 is not.
 func checkPriorRange(key, name string, q Quantity, p priors.Prior) error {
-	lo, hi := p.Support()
+	const tail = 1e-9
+	lo, hi := p.Quantile(tail), p.Quantile(1-tail)
+	if _, fixed := p.(priors.Fixed); fixed {
+		lo, hi = p.Quantile(0), p.Quantile(1)
+	}
 	bad := func(format string, a ...any) error {
 		return fmt.Errorf("%s: prior %v of %q: %s", key, p, name, fmt.Sprintf(format, a...))
 	}
 	switch q {
 	case QLog10VMR:
-		if lo > 0 {
-			return bad("a log10 mixing ratio above 0 is a mixing ratio above 1")
-		}
 		if hi > 0 {
-			return bad("reaches log10 mixing ratio %g > 0 (a mixing ratio above 1); end it at 0 or below", hi)
+			return bad("reaches log10 mixing ratio %.4g > 0 (a mixing ratio above 1); end it at 0 or below", hi)
 		}
 	case QTemperature, QTIrr, QRadiusRjup, QRadiusRearth, QMassMjup, QMassMearth:
 		if !(lo > 0) {
-			return bad("%s must be positive; the prior reaches %g (use a truncated-normal or a positive range)", q, lo)
+			return bad("%s must be positive; the prior reaches %.4g (use a truncated-normal or a positive range)", q, lo)
 		}
 	case QTInt, QErrorInflationPM:
 		if lo < 0 {
-			return bad("%s must not be negative; the prior reaches %g", q, lo)
+			return bad("%s must not be negative; the prior reaches %.4g", q, lo)
 		}
 	case QCloudFraction:
 		if lo < 0 || hi > 1 {
-			return bad("a cloud fraction lies in [0, 1]; the prior spans [%g, %g]", lo, hi)
+			return bad("a cloud fraction lies in [0, 1]; the prior reaches [%.4g, %.4g]", lo, hi)
 		}
 	}
 	return nil
