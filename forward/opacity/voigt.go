@@ -21,8 +21,8 @@ func Faddeeva(z complex128) complex128 {
 	t := complex(y, -x) // t = -i z
 	s := math.Abs(x) + y
 	switch {
-	case s >= 15: // region I
-		return t * 0.5641896 / (0.5 + t*t)
+	case s >= 15: // region I: t c/(0.5 + t^2), written so t^2 cannot overflow
+		return 0.5641896 / (t + 0.5/t)
 	case s >= 5.5: // region II
 		u := t * t
 		return t * (1.410474 + u*0.5641896) / (0.75 + u*(3+u))
@@ -43,6 +43,8 @@ func voigtRe(x, y float64) float64 {
 	ax := math.Abs(x)
 	s := ax + y
 	switch {
+	case ax > 1e150: // x^2 would overflow: the asymptote y/(sqrt(pi) x^2)
+		return 0.5641896 * y / ax / ax
 	case s >= 15:
 		return 0.5641896 * y * wingRe(x, 0.5+y*y, y*y)
 	case s >= 5.5:

@@ -61,6 +61,17 @@ func TestFaddeevaPublished(t *testing.T) {
 			t.Errorf("case %d (%s): w(%v) = %v, want %v", i, c.src, c.z, got, c.want)
 		}
 	}
+	// Far from the origin w(z) ~ i/(sqrt(pi) z) (A&S 7.1.23), also where
+	// z^2 overflows.
+	for _, z := range []complex128{complex(1e200, 1), complex(-3e160, 1e-3), complex(1e3, 1e200)} {
+		want := 1i / (complex(math.SqrtPi, 0) * z)
+		if got := Faddeeva(z); cmplx.Abs(got-want) > humlicekTol*cmplx.Abs(want) {
+			t.Errorf("w(%v) = %v, want %v", z, got, want)
+		}
+	}
+	if got := Voigt(1e200, 1, 1); !(got >= 0 && got < 1e-300) {
+		t.Errorf("Voigt far wing %g, want ~0", got)
+	}
 	if !cmplx.IsNaN(Faddeeva(cmplx.NaN())) {
 		t.Errorf("w(NaN) = %v, want NaN", Faddeeva(cmplx.NaN()))
 	}
