@@ -57,43 +57,48 @@ func benchLines(n int) []opacity.Line {
 
 var xsecSink *opacity.XSecTable
 
-// BenchmarkCrossSectionBuild builds one (P, T) point of a cross-section
-// table on a uniform grid over 2000-2400 cm^-1 with the default 25 cm^-1
-// cut-off, one worker. Reported: lines x grid points per second, and Voigt
-// evaluations per second (each line is evaluated only on the grid points
-// within its cut-off window, about 50 cm^-1 / step of them), which is what
-// the cost follows.
+// BenchmarkCrossSectionBuild builds cross-sections on a uniform grid over
+// 2000-2400 cm^-1 with the default 25 cm^-1 cut-off. Reported: lines x
+// grid points x (P, T) points per second, and Voigt evaluations per second
+// (each line is evaluated only on the grid points within its cut-off
+// window, about 50 cm^-1 / step of them), which is what the cost follows.
+// The pt=12 cases (4 pressures x 3 temperatures) show the speed-up with
+// workers.
 func BenchmarkCrossSectionBuild(b *testing.B) {
 	iso := opacity.IsoData{{Mol: 5, Iso: 1}: {Name: "CO_26", Q296: 107.42, Mass: 27.994915,
 		Q: &opacity.RigidRotor{Q296: 107.42, Exponent: 1}}}
-	for _, nl := range []int{1000, 4000} {
-		for _, step := range []float64{0.04, 0.01} {
-			for _, workers := range []int{1, 2} {
-				if workers == 2 && (nl != 4000 || step != 0.01) {
-					continue
-				}
-				lines := benchLines(nl)
-				npt := int(400/step) + 1
-				grid := make([]float64, npt)
-				for k := range grid {
-					grid[k] = (2000 + float64(k)*step) * 100
-				}
-				s := &opacity.XSecSettings{Gas: "CO", Log10P: []float64{5}, T: []float64{800}, Wavenumber: grid, Workers: workers, Quiet: true}
-				b.Run(fmt.Sprintf("lines=%d/points=%d/workers=%d", nl, npt, workers), func(b *testing.B) {
-					b.ReportAllocs()
-					for b.Loop() {
-						t, err := opacity.BuildXSec(lines, iso, s)
-						if err != nil {
-							b.Fatal(err)
-						}
-						xsecSink = t
-					}
-					sec := b.Elapsed().Seconds() / float64(b.N)
-					b.ReportMetric(float64(nl)*float64(npt)/sec, "line-points/s")
-					b.ReportMetric(float64(nl)*(2*opacity.DefaultWingCutoff/step)/sec, "evals/s")
-				})
-			}
+	for _, c := range []struct {
+		lines   int
+		step    float64
+		pt      int
+		workers int
+	}{
+		{1000, 0.04, 1, 1}, {4000, 0.04, 1, 1}, {1000, 0.01, 1, 1}, {4000, 0.01, 1, 1},
+		{1000, 0.04, 12, 1}, {1000, 0.04, 12, 2},
+	} {
+		lines := benchLines(c.lines)
+		npt := int(400/c.step) + 1
+		grid := make([]float64, npt)
+		for k := range grid {
+			grid[k] = (2000 + float64(k)*c.step) * 100
 		}
+		s := &opacity.XSecSettings{Gas: "CO", Log10P: []float64{5}, T: []float64{800}, Wavenumber: grid, Workers: c.workers, Quiet: true}
+		if c.pt == 12 {
+			s.Log10P, s.T = []float64{2, 3, 4, 5}, []float64{300, 800, 1500}
+		}
+		b.Run(fmt.Sprintf("lines=%d/points=%d/pt=%d/workers=%d", c.lines, npt, c.pt, c.workers), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				t, err := opacity.BuildXSec(lines, iso, s)
+				if err != nil {
+					b.Fatal(err)
+				}
+				xsecSink = t
+			}
+			sec := b.Elapsed().Seconds() / float64(b.N)
+			b.ReportMetric(float64(c.lines)*float64(npt)*float64(c.pt)/sec, "line-points/s")
+			b.ReportMetric(float64(c.lines)*float64(c.pt)*(2*opacity.DefaultWingCutoff/c.step)/sec, "evals/s")
+		})
 	}
 }
 
