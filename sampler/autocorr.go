@@ -24,11 +24,11 @@ import (
 // M >= c tau(M) (Sokal 1997, "Monte Carlo methods in statistical mechanics",
 // in Functional Integration, Springer, sec. 3).
 type Autocorr struct {
-	n    int
-	fft  *fourier.FFT
-	buf  []float64
-	coef []complex128
-	acf  []float64
+	n     int
+	fft   *fourier.FFT
+	buf   []float64
+	coef  []complex128
+	power []float64 // walker-averaged normalised power spectrum
 }
 
 // NewAutocorr returns a workspace for series of length n >= 2.
@@ -37,7 +37,7 @@ func NewAutocorr(n int) *Autocorr {
 		panic("sampler: autocorrelation of a series shorter than 2")
 	}
 	m := fftLen(2 * n)
-	return &Autocorr{n: n, fft: fourier.NewFFT(m), buf: make([]float64, m), coef: make([]complex128, m/2+1), acf: make([]float64, n)}
+	return &Autocorr{n: n, fft: fourier.NewFFT(m), buf: make([]float64, m), coef: make([]complex128, m/2+1), power: make([]float64, m/2+1)}
 }
 
 // fftLen returns the smallest 2^a 3^b 5^c >= n: zero padding to at least 2n
@@ -69,7 +69,7 @@ func fftLen(n int) int {
 // all are constant, Time returns +Inf, false.
 func (a *Autocorr) Time(series [][]float64, c float64) (tau float64, ok bool) {
 	n := a.n
-	clear(a.acf)
+	clear(a.power)
 	used := 0
 	for _, x := range series {
 		if len(x) != n {
@@ -80,32 +80,37 @@ func (a *Autocorr) Time(series [][]float64, c float64) (tau float64, ok bool) {
 			mean += v
 		}
 		mean /= float64(n)
+		var ss float64
 		for i, v := range x {
-			a.buf[i] = v - mean
+			d := v - mean
+			a.buf[i] = d
+			ss += d * d
 		}
-		clear(a.buf[n:])
-		a.fft.Coefficients(a.coef, a.buf)
-		for i, z := range a.coef {
-			a.coef[i] = complex(real(z)*real(z)+imag(z)*imag(z), 0)
-		}
-		a.fft.Sequence(a.buf, a.coef)
-		c0 := a.buf[0]
-		if !(c0 > 0) {
+		if !(ss > 0) {
 			continue
 		}
 		used++
-		inv := 1 / c0
-		for l := range a.acf {
-			a.acf[l] += a.buf[l] * inv
+		clear(a.buf[n:])
+		a.fft.Coefficients(a.coef, a.buf)
+		// The inverse transform is linear, so the walkers' normalised
+		// autocorrelations C_k(l)/C_k(0) (C_k(0) = ss) are averaged as power
+		// spectra and transformed back once.
+		w := 1 / ss
+		for i, z := range a.coef {
+			a.power[i] += w * (real(z)*real(z) + imag(z)*imag(z))
 		}
 	}
 	if used == 0 {
 		return math.Inf(1), false
 	}
-	inv := 1 / float64(used)
+	for i, p := range a.power {
+		a.coef[i] = complex(p, 0)
+	}
+	acf := a.fft.Sequence(a.buf, a.coef)
+	inv := 1 / acf[0]
 	tau = 1
 	for m := 1; m <= n/2; m++ {
-		tau += 2 * a.acf[m] * inv
+		tau += 2 * acf[m] * inv
 		if float64(m) >= c*tau {
 			return tau, true
 		}

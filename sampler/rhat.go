@@ -149,7 +149,7 @@ func ess(z []float64, m, n int) float64 {
 	fft := fourier.NewFFT(l)
 	buf := make([]float64, l)
 	coef := make([]complex128, l/2+1)
-	acov := make([]float64, n) // mean over chains of the biased autocovariance
+	power := make([]float64, l/2+1) // sum of the chains' power spectra
 	means := make([]float64, m)
 	var w float64
 	for j := range m {
@@ -162,12 +162,18 @@ func ess(z []float64, m, n int) float64 {
 		clear(buf[n:])
 		fft.Coefficients(coef, buf)
 		for i, q := range coef {
-			coef[i] = complex(real(q)*real(q)+imag(q)*imag(q), 0)
+			power[i] += real(q)*real(q) + imag(q)*imag(q)
 		}
-		fft.Sequence(buf, coef)
-		for t := range acov {
-			acov[t] += buf[t] / float64(l) / float64(n) / float64(m)
-		}
+	}
+	// One inverse transform of the summed spectra gives l times the sum of
+	// the chains' autocovariance sums; acov is the chains' mean biased
+	// autocovariance.
+	for i, p := range power {
+		coef[i] = complex(p, 0)
+	}
+	acov := fft.Sequence(buf, coef)[:n]
+	for t := range acov {
+		acov[t] /= float64(l) * float64(n) * float64(m)
 	}
 	w /= float64(m)
 	_, bOverN := meanVar(means)
