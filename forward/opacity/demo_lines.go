@@ -25,10 +25,12 @@ import (
 // masses are handbook values (Herzberg 1945, "Infrared and Raman Spectra of
 // Polyatomic Molecules"; Herzberg 1950, "Spectra of Diatomic Molecules";
 // NIST Chemistry WebBook), written here from memory, rounded. Band strengths
-// are from memory and rough (a factor of about 2); where the HITRAN data in
-// ../shared/data hold a whole band, the tests compare them with the sum of
-// its lines. Abundances are those of HITRAN's molparam table (main
-// isotopologue).
+// are from memory and rough (a factor of about 2), except those of CO, O2
+// and the CO2 1.6 um bands, which are the sums of the lines of those bands
+// in the HITRAN files in ../shared/data (comments give the sums); where
+// those files hold a whole band, the tests compare the demo strength with
+// the sum of its lines. Abundances and masses of the main isotopologues are
+// those of HITRAN's molparam table.
 
 // demoBand is one vibrational band of a demo gas.
 type demoBand struct {
@@ -50,8 +52,7 @@ type demoGas struct {
 }
 
 // demoGases lists the demo gases. Values from memory unless a comment says
-// otherwise; the band strengths marked "HITRAN2012 sum" agree with the sums
-// of the lines in the HITRAN files in ../shared/data within 10 %.
+// otherwise; the strengths whose comment gives a HITRAN sum were set to it.
 var demoGases = []demoGas{
 	{Name: "H2O", Mol: 1, B: 14.51, Mass: 18.010565, Abundance: 0.997317, Gamma: 0.08, N: 0.7, Bands: []demoBand{
 		{Nu0: 1594.7, Strength: 1.05e-17},  // nu2, 6.3 um
