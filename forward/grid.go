@@ -37,9 +37,9 @@ func PressureLevels(top, bottom float64, n int) ([]float64, error) {
 	return p, nil
 }
 
-// WavelengthGrid returns wavelengths (m) from lo to about hi at constant
-// resolving power R = lambda/dlambda, spaced evenly in ln lambda by 1/R;
-// the last point is the largest not above hi.
+// WavelengthGrid returns wavelengths (m) from lo to hi, both included,
+// evenly spaced in ln lambda at a resolving power lambda/dlambda of at
+// least resolvingPower: n = ceil(R ln(hi/lo)) + 1 points.
 func WavelengthGrid(lo, hi, resolvingPower float64) ([]float64, error) {
 	if !(lo > 0) || !(hi > lo) || math.IsInf(hi, 0) {
 		return nil, fmt.Errorf("forward: wavelength range %g-%g m: need 0 < low < high, finite", lo, hi)
@@ -47,18 +47,11 @@ func WavelengthGrid(lo, hi, resolvingPower float64) ([]float64, error) {
 	if !(resolvingPower > 0) || math.IsInf(resolvingPower, 0) {
 		return nil, fmt.Errorf("forward: resolving power %g, must be positive and finite", resolvingPower)
 	}
-	n := int(math.Floor(resolvingPower*math.Log(hi/lo)*(1+1e-12))) + 1
-	if n < 2 {
-		return nil, fmt.Errorf("forward: wavelength range %g-%g m at resolving power %g holds fewer than 2 points", lo, hi, resolvingPower)
+	steps := math.Ceil(resolvingPower*math.Log(hi/lo) - 1e-9)
+	if steps > 1e7 {
+		return nil, fmt.Errorf("forward: wavelength range %g-%g m at resolving power %g needs %g points, more than 1e7", lo, hi, resolvingPower, steps+1)
 	}
-	if n > 10_000_000 {
-		return nil, fmt.Errorf("forward: wavelength range %g-%g m at resolving power %g needs %d points, more than 1e7", lo, hi, resolvingPower, n)
-	}
-	w := make([]float64, n)
-	for k := range w {
-		w[k] = lo * math.Exp(float64(k)/resolvingPower)
-	}
-	return w, nil
+	return WavelengthGridN(lo, hi, max(int(steps), 1)+1)
 }
 
 // WavelengthGridN returns n wavelengths (m) log-spaced from lo to hi,
