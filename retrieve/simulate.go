@@ -1,11 +1,22 @@
 package retrieve
 
 import (
+	"bufio"
+	"bytes"
+	"errors"
 	"fmt"
+	"io"
 	"math"
 	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+
+	"github.com/BurntSushi/toml"
 
 	"chord/forward"
+	"chord/forward/opacity"
 )
 
 // Simulated observations (chord simulate, chord plan).
@@ -100,4 +111,395 @@ func AddNoise(depth, sigma []float64, rng *rand.Rand) {
 	for i := range depth {
 		depth[i] += sigma[i] * rng.NormFloat64()
 	}
+}
+
+// Scenario is an invented planet to observe and fit: a retrieval
+// configuration (Config, the schema of chord fit) without [[observations]].
+// Its model sections are the truth that Simulate observes, and [spectrum]
+// may give the instrument's bins; its [[parameters]] and [sampler] are
+// what a plan fits.
+type Scenario struct {
+	Path   string
+	Config Config // as decoded, BaseDir set
+}
+
+// LoadScenario reads a scenario file. Unknown keys, [[observations]] and
+// invalid model sections are errors naming the file and key.
+func LoadScenario(path string) (*Scenario, error) {
+	s := &Scenario{Path: path}
+	if _, err := DecodeStrict(path, &s.Config); err != nil {
+		return nil, fmt.Errorf("scenario %w", err)
+	}
+	if len(s.Config.Observations) > 0 {
+		return nil, fmt.Errorf("scenario %s: [[observations]] do not belong in a scenario: chord simulate makes the observation", path)
+	}
+	s.Config.BaseDir = filepath.Dir(path)
+	if err := s.Config.ModelConfig.Validate(); err != nil {
+		return nil, fmt.Errorf("scenario %s: %w", path, err)
+	}
+	return s, nil
+}
+
+// Bins returns the instrument bins of the scenario's [spectrum], or nil
+// when it gives none.
+func (s *Scenario) Bins() (*forward.Bins, error) {
+	b, err := s.Config.ModelConfig.bins()
+	if err != nil {
+		return nil, fmt.Errorf("scenario %s: %w", s.Path, err)
+	}
+	return b, nil
+}
+
+// Spectrum returns the scenario's true transit depth on bins, computed
+// with the tables of set.
+func (s *Scenario) Spectrum(set *opacity.Set, bins forward.Bins) ([]float64, error) {
+	fc, err := s.Config.ModelConfig.ForwardConfig(set, &bins)
+	if err != nil {
+		return nil, fmt.Errorf("scenario %s: %w", s.Path, err)
+	}
+	m, err := forward.NewModel(fc)
+	if err != nil {
+		return nil, fmt.Errorf("scenario %s: %w", s.Path, err)
+	}
+	st, err := s.Config.ModelConfig.State(m)
+	if err != nil {
+		return nil, fmt.Errorf("scenario %s: %w", s.Path, err)
+	}
+	depth := make([]float64, m.OutputLen())
+	if err := m.Transit(depth, &st, m.NewWorkspace()); err != nil {
+		return nil, fmt.Errorf("scenario %s: the true state: %w", s.Path, err)
+	}
+	return depth, nil
+}
+
+// Observation is a simulated observation, as WriteObservation writes it.
+type Observation struct {
+	Lo, Hi []float64 // bin edges, m
+	Depth  []float64 // transit depth, fraction
+	Sigma  []float64 // 1-sigma error, fraction
+	// Header lines (without "# ") saying how it was made.
+	Header []string
+}
+
+// SimulateOptions say how to observe a scenario.
+type SimulateOptions struct {
+	Noise Noise
+	// Scatter draws Gaussian noise with Seed; false writes the noise-free
+	// spectrum with its error bars (the usual choice for forecasts).
+	Scatter bool
+	Seed    uint64
+}
+
+// Simulate observes the scenario on bins: its true spectrum, error bars
+// from the noise model and, with Scatter, Gaussian noise drawn from a PCG
+// generator seeded with (Seed, 0).
+func (s *Scenario) Simulate(set *opacity.Set, bins forward.Bins, opt SimulateOptions) (*Observation, error) {
+	depth, err := s.Spectrum(set, bins)
+	if err != nil {
+		return nil, err
+	}
+	sigma := make([]float64, len(depth))
+	if err := opt.Noise.Errors(sigma); err != nil {
+		return nil, err
+	}
+	o := &Observation{Lo: bins.Lo, Hi: bins.Hi, Depth: depth, Sigma: sigma}
+	name := s.Config.Planet.Name
+	if name == "" {
+		name = "the planet"
+	}
+	o.Header = append(o.Header, fmt.Sprintf("simulated by chord %s from scenario %s (%s)", Version, s.Path, name))
+	o.Header = append(o.Header, "noise: "+opt.Noise.String())
+	if opt.Scatter {
+		AddNoise(o.Depth, sigma, rand.New(rand.NewPCG(opt.Seed, 0)))
+		o.Header = append(o.Header, fmt.Sprintf("Gaussian noise drawn with seed %d", opt.Seed))
+	} else {
+		o.Header = append(o.Header, "noise-free: the depths are the true model, the errors are the noise model's")
+	}
+	if set.Demo {
+		o.Header = append(o.Header, "demo opacity tables: NOT FOR SCIENCE")
+	}
+	return o, nil
+}
+
+// String describes the noise model, e.g. "60 ppm per bin for one transit,
+// / sqrt(4 transits) = 30 ppm".
+func (nz Noise) String() string {
+	n := max(nz.Transits, 1)
+	var s string
+	if nz.PerBinPPM != nil {
+		s = fmt.Sprintf("per-bin errors (median %.4g ppm) for one transit", NoiseLevel(nz.PerBinPPM))
+	} else {
+		s = fmt.Sprintf("%.4g ppm per bin for one transit", nz.PPM)
+	}
+	if n > 1 {
+		s += fmt.Sprintf(", / sqrt(%d transits)", n)
+		if nz.PerBinPPM == nil {
+			s += fmt.Sprintf(" = %.4g ppm", nz.PPM/math.Sqrt(float64(n)))
+		}
+	}
+	return s
+}
+
+// WriteObservation writes o as an observation file that ReadDataset
+// reads: CSV with columns edge_low_um, edge_high_um, depth_ppm and error
+// (ppm); edges in their shortest exact form, depths and errors to 12
+// significant digits. An existing file is an
+// error unless overwrite.
+func WriteObservation(path string, o *Observation, overwrite bool) error {
+	var b bytes.Buffer
+	for _, h := range o.Header {
+		b.WriteString("# " + h + "\n")
+	}
+	b.WriteString("edge_low_um,edge_high_um,depth_ppm,error\n")
+	g := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+	g12 := func(v float64) string { return strconv.FormatFloat(v, 'g', 12, 64) }
+	for i := range o.Depth {
+		fmt.Fprintf(&b, "%s,%s,%s,%s\n", g(o.Lo[i]/forward.Micron), g(o.Hi[i]/forward.Micron), g12(o.Depth[i]*1e6), g12(o.Sigma[i]*1e6))
+	}
+	return writeNewFile(path, b.Bytes(), overwrite)
+}
+
+// writeNewFile writes data to path atomically (the chain store's
+// temporary-file, sync and rename); an existing path is an error unless
+// overwrite.
+func writeNewFile(path string, data []byte, overwrite bool) error {
+	if !overwrite {
+		if _, err := os.Stat(path); err == nil {
+			return fmt.Errorf("%s exists (use --force to replace it)", path)
+		}
+	}
+	if err := writeFileAtomic(osFS{}, path, data); err != nil {
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	return nil
+}
+
+// FitConfig returns the retrieval configuration that fits the scenario to
+// the observation file obsPath: the scenario's sections with the bins
+// removed from [spectrum] (a fit takes the observation's), relative paths
+// made absolute, and one [[observations]] table.
+func (s *Scenario) FitConfig(obsPath string) (*Config, error) {
+	c := s.Config
+	sp := &c.Spectrum
+	sp.BinEdgesUm, sp.BinCentresUm, sp.BinWidthsUm, sp.BinResolvingPower = nil, nil, nil, nil
+	if c.Opacity.Dir != "" {
+		c.Opacity.Dir = c.abs(c.Opacity.Dir)
+	}
+	abs, err := filepath.Abs(obsPath)
+	if err != nil {
+		return nil, err
+	}
+	c.Observations = []ObservationConfig{{File: abs}}
+	c.BaseDir = filepath.Dir(abs)
+	return &c, nil
+}
+
+// WriteConfig writes c as a TOML retrieval configuration that chord fit -c
+// accepts, after a comment header.
+func WriteConfig(path string, c *Config, header []string, overwrite bool) error {
+	var b bytes.Buffer
+	for _, h := range header {
+		b.WriteString("# " + h + "\n")
+	}
+	if err := toml.NewEncoder(&b).Encode(c); err != nil {
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	return writeNewFile(path, b.Bytes(), overwrite)
+}
+
+// ReadBinsFile reads instrument bins, and optionally single-transit errors
+// per bin, from a table: CSV or whitespace-separated (a comma in the
+// header means CSV), '#' comments, a header naming the columns
+// edge_low_um and edge_high_um, or wavelength_um and width_um (the _nm
+// forms too), and optionally error_ppm. Errors name the file and line.
+// errPPM is nil when the file has no error column.
+func ReadBinsFile(path string) (bins forward.Bins, errPPM []float64, err error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return forward.Bins{}, nil, fmt.Errorf("bins: %w", err)
+	}
+	defer f.Close()
+	return parseBins(f, path)
+}
+
+func parseBins(r io.Reader, path string) (forward.Bins, []float64, error) {
+	sc := bufio.NewScanner(r)
+	var cols map[string]int
+	var csv bool
+	var lo, hi, errs []float64
+	unit := map[string]float64{}
+	line := 0
+	for sc.Scan() {
+		line++
+		text := strings.TrimSpace(sc.Text())
+		if text == "" || text[0] == '#' {
+			continue
+		}
+		where := fmt.Sprintf("%s:%d", path, line)
+		if cols == nil {
+			csv = strings.Contains(text, ",")
+			cols = map[string]int{}
+			for i, name := range splitFields(text, csv) {
+				base, u := name, 1.0
+				switch {
+				case name == "error_ppm":
+				case strings.HasSuffix(name, "_um"):
+					base, u = strings.TrimSuffix(name, "_um"), forward.Micron
+				case strings.HasSuffix(name, "_nm"):
+					base, u = strings.TrimSuffix(name, "_nm"), 1e-9
+				default:
+					base = ""
+				}
+				switch base {
+				case "edge_low", "edge_high", "wavelength", "width", "error_ppm":
+				default:
+					return forward.Bins{}, nil, fmt.Errorf("%s: unknown column %q (edge_low_um and edge_high_um, or wavelength_um and width_um; _nm also; optional error_ppm)", where, name)
+				}
+				if _, dup := cols[base]; dup {
+					return forward.Bins{}, nil, fmt.Errorf("%s: column %q given twice", where, base)
+				}
+				cols[base], unit[base] = i, u
+			}
+			_, el := cols["edge_low"]
+			_, eh := cols["edge_high"]
+			_, wc := cols["wavelength"]
+			_, ww := cols["width"]
+			if !((el && eh && !wc && !ww) || (wc && ww && !el && !eh)) {
+				return forward.Bins{}, nil, fmt.Errorf("%s: the header must name edge_low_um and edge_high_um, or wavelength_um and width_um", where)
+			}
+			continue
+		}
+		fields := splitFields(text, csv)
+		if len(fields) != len(cols) {
+			return forward.Bins{}, nil, fmt.Errorf("%s: %d fields, the header names %d", where, len(fields), len(cols))
+		}
+		v := map[string]float64{}
+		for name, i := range cols {
+			x, err := strconv.ParseFloat(fields[i], 64)
+			if err != nil || math.IsNaN(x) || math.IsInf(x, 0) {
+				return forward.Bins{}, nil, fmt.Errorf("%s: %s: %q is not a finite number", where, name, fields[i])
+			}
+			v[name] = x * unit[name]
+		}
+		a, b := v["edge_low"], v["edge_high"]
+		if _, ok := cols["wavelength"]; ok {
+			a, b = v["wavelength"]-v["width"]/2, v["wavelength"]+v["width"]/2
+		}
+		if !(a > 0) || !(b > a) {
+			return forward.Bins{}, nil, fmt.Errorf("%s: bin %g-%g um: need 0 < low < high", where, a/forward.Micron, b/forward.Micron)
+		}
+		if n := len(lo); n > 0 && a < hi[n-1]-1e-6*(b-a) {
+			return forward.Bins{}, nil, fmt.Errorf("%s: bin %g-%g um overlaps or precedes the previous bin (%g-%g um): list bins in order of wavelength", where, a/forward.Micron, b/forward.Micron, lo[n-1]/forward.Micron, hi[n-1]/forward.Micron)
+		}
+		if _, ok := cols["error_ppm"]; ok {
+			if !(v["error_ppm"] > 0) {
+				return forward.Bins{}, nil, fmt.Errorf("%s: error_ppm %g: must be positive", where, v["error_ppm"])
+			}
+			errs = append(errs, v["error_ppm"])
+		}
+		lo, hi = append(lo, a), append(hi, b)
+	}
+	if err := sc.Err(); err != nil {
+		return forward.Bins{}, nil, fmt.Errorf("%s: %w", path, err)
+	}
+	if len(lo) == 0 {
+		return forward.Bins{}, nil, errors.New(path + ": no bins")
+	}
+	return forward.Bins{Lo: lo, Hi: hi}, errs, nil
+}
+
+// ObservingSpec is how chord simulate and chord plan are told to observe:
+// the bins (a bins file; or a wavelength range with a resolving power; or,
+// when neither is given, the noise file's bins or else the scenario's
+// [spectrum] bins) and the noise (a constant, or the error_ppm column of a
+// noise file, for one transit, divided by sqrt(Transits)).
+type ObservingSpec struct {
+	BinsFile       string
+	RangeUm        [2]float64 // wavelength range, um; with ResolvingPower
+	ResolvingPower float64
+	NoiseFile      string  // a bins file with an error_ppm column
+	NoisePPM       float64 // constant single-transit error, ppm; with no NoiseFile
+	Transits       int     // 0 means 1
+}
+
+// Resolve returns the bins and the noise model of spec for the scenario,
+// or an error naming the option or file at fault.
+func (spec ObservingSpec) Resolve(sc *Scenario) (forward.Bins, Noise, error) {
+	var bins *forward.Bins
+	ways := 0
+	if spec.BinsFile != "" {
+		ways++
+		b, _, err := ReadBinsFile(spec.BinsFile)
+		if err != nil {
+			return forward.Bins{}, Noise{}, err
+		}
+		bins = &b
+	}
+	if spec.RangeUm != [2]float64{} || spec.ResolvingPower != 0 {
+		ways++
+		if spec.ResolvingPower == 0 || spec.RangeUm == [2]float64{} {
+			return forward.Bins{}, Noise{}, errors.New("a wavelength range needs a resolving power, and a resolving power a wavelength range")
+		}
+		b, err := ResolvingPowerBins(spec.RangeUm[0]*forward.Micron, spec.RangeUm[1]*forward.Micron, spec.ResolvingPower)
+		if err != nil {
+			return forward.Bins{}, Noise{}, err
+		}
+		bins = &b
+	}
+	if ways > 1 {
+		return forward.Bins{}, Noise{}, errors.New("give the bins one way: a bins file, or a wavelength range with a resolving power")
+	}
+	nz := Noise{PPM: spec.NoisePPM, Transits: spec.Transits}
+	if spec.Transits < 0 {
+		return forward.Bins{}, Noise{}, fmt.Errorf("%d transits: must be at least 1", spec.Transits)
+	}
+	switch {
+	case spec.NoiseFile != "" && spec.NoisePPM != 0:
+		return forward.Bins{}, Noise{}, errors.New("give the noise one way: a constant in ppm or a noise file")
+	case spec.NoiseFile != "":
+		nb, errs, err := ReadBinsFile(spec.NoiseFile)
+		if err != nil {
+			return forward.Bins{}, Noise{}, err
+		}
+		if errs == nil {
+			return forward.Bins{}, Noise{}, fmt.Errorf("%s: no error_ppm column: a noise file gives the single-transit error of each bin", spec.NoiseFile)
+		}
+		if bins == nil {
+			bins = &nb
+		} else if err := sameBins(*bins, nb); err != nil {
+			return forward.Bins{}, Noise{}, fmt.Errorf("%s: %w", spec.NoiseFile, err)
+		}
+		nz.PerBinPPM = errs
+	case !(spec.NoisePPM > 0) || math.IsInf(spec.NoisePPM, 0):
+		return forward.Bins{}, Noise{}, fmt.Errorf("noise %g ppm: must be positive and finite", spec.NoisePPM)
+	}
+	if bins == nil {
+		b, err := sc.Bins()
+		if err != nil {
+			return forward.Bins{}, Noise{}, err
+		}
+		if b == nil {
+			return forward.Bins{}, Noise{}, fmt.Errorf("no bins: give a bins file, a wavelength range with a resolving power, or bins in the scenario's [spectrum] (%s)", sc.Path)
+		}
+		bins = b
+	}
+	if err := nz.Errors(make([]float64, bins.Len())); err != nil {
+		return forward.Bins{}, Noise{}, err
+	}
+	return *bins, nz, nil
+}
+
+// sameBins checks that a noise file's bins are those being observed (to a
+// part in 1e9 of the bin width).
+func sameBins(want, got forward.Bins) error {
+	if want.Len() != got.Len() {
+		return fmt.Errorf("%d bins with errors, but %d bins are observed", got.Len(), want.Len())
+	}
+	for i := range want.Lo {
+		tol := 1e-9 * (want.Hi[i] - want.Lo[i])
+		if math.Abs(want.Lo[i]-got.Lo[i]) > tol || math.Abs(want.Hi[i]-got.Hi[i]) > tol {
+			return fmt.Errorf("bin %d is %g-%g um, but the observed bin is %g-%g um", i+1, got.Lo[i]/forward.Micron, got.Hi[i]/forward.Micron, want.Lo[i]/forward.Micron, want.Hi[i]/forward.Micron)
+		}
+	}
+	return nil
 }

@@ -1,0 +1,156 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"strconv"
+	"strings"
+
+	"github.com/urfave/cli/v2"
+
+	"chord/forward/opacity"
+	"chord/retrieve"
+)
+
+// observingFlags are the bin and noise options shared by simulate and plan.
+var observingFlags = []cli.Flag{
+	&cli.StringFlag{Name: "bins", Usage: "instrument bins from `FILE` (columns edge_low_um, edge_high_um or wavelength_um, width_um; optional error_ppm)"},
+	&cli.StringFlag{Name: "wavelength-range", Usage: "bins between `LO,HI` um at constant resolving power (with --resolving-power)"},
+	&cli.Float64Flag{Name: "resolving-power", Usage: "resolving power `R` = lambda/delta-lambda of the bins (with --wavelength-range)"},
+	&cli.StringFlag{Name: "noise-file", Usage: "single-transit error per bin from the error_ppm column of `FILE` (its bins are used unless others are given, which must match)"},
+	&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+}
+
+func init() {
+	commands = append(commands, &cli.Command{
+		Name:      "simulate",
+		Usage:     "simulate an observation of a scenario's true spectrum",
+		ArgsUsage: " ",
+		Description: "Computes the scenario's true transmission spectrum on the instrument bins and\n" +
+			"writes it as an observation file (edge_low_um, edge_high_um, depth_ppm, error) that\n" +
+			"chord fit reads. Bins come from --bins, or --wavelength-range with --resolving-power,\n" +
+			"or the --noise-file, or else the scenario's [spectrum]. The error of each bin is\n" +
+			"--noise PPM or the --noise-file's error_ppm for one transit, divided by\n" +
+			"sqrt(--transits N).\n\n" +
+			"--no-scatter writes the noise-free spectrum with its error bars: the usual choice\n" +
+			"for forecasts, since the posterior is then centred on the truth and its width is the\n" +
+			"expected one, without the luck of one noise draw. --seed N instead adds Gaussian\n" +
+			"noise drawn with seed N (the same seed gives the same file).",
+		Flags: append([]cli.Flag{
+			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "scenario `FILE` (TOML; see testdata/scenarios)", Required: true},
+			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "observation `FILE` to write (CSV)", Required: true},
+			&cli.Float64Flag{Name: "noise", Usage: "single-transit error per bin, `PPM` of transit depth"},
+			&cli.IntFlag{Name: "transits", Value: 1, Usage: "number of transits `N`: errors are divided by sqrt(N)"},
+			&cli.Uint64Flag{Name: "seed", Usage: "add Gaussian noise drawn with seed `N`"},
+			&cli.BoolFlag{Name: "no-scatter", Usage: "write the noise-free spectrum with error bars (the usual choice for forecasts)"},
+			&cli.StringFlag{Name: "fit-config", Usage: "also write to `FILE` the retrieval configuration that fits this observation with the scenario's parameters"},
+			&cli.BoolFlag{Name: "force", Usage: "replace existing output files"},
+		}, observingFlags...),
+		Action: runSimulate,
+	})
+}
+
+// observingSpec reads the bin and noise flags.
+func observingSpec(c *cli.Context) (retrieve.ObservingSpec, error) {
+	spec := retrieve.ObservingSpec{
+		BinsFile: c.String("bins"), NoiseFile: c.String("noise-file"),
+		ResolvingPower: c.Float64("resolving-power"),
+	}
+	if c.IsSet("resolving-power") && !(spec.ResolvingPower > 0) {
+		return spec, fmt.Errorf("--resolving-power %g: must be positive", spec.ResolvingPower)
+	}
+	if s := c.String("wavelength-range"); s != "" {
+		v, err := floatList(s)
+		if err != nil || len(v) != 2 {
+			return spec, fmt.Errorf("--wavelength-range %q: give LO,HI in um, e.g. 0.6,12", s)
+		}
+		spec.RangeUm = [2]float64{v[0], v[1]}
+	}
+	return spec, nil
+}
+
+func runSimulate(c *cli.Context) error {
+	if c.NArg() > 0 {
+		return fmt.Errorf("simulate: unexpected argument %q", c.Args().First())
+	}
+	scatter, noScatter := c.IsSet("seed"), c.Bool("no-scatter")
+	if scatter == noScatter {
+		return errors.New("simulate: give --seed N (Gaussian noise) or --no-scatter (the noise-free spectrum, the usual choice for forecasts)")
+	}
+	if !c.IsSet("noise") && !c.IsSet("noise-file") {
+		return errors.New("simulate: give the noise: --noise PPM or --noise-file FILE")
+	}
+	if c.IsSet("noise") && !(c.Float64("noise") > 0) {
+		return fmt.Errorf("simulate: --noise %g ppm: must be positive", c.Float64("noise"))
+	}
+	if n := c.Int("transits"); n < 1 {
+		return fmt.Errorf("simulate: --transits %d: must be at least 1", n)
+	}
+	spec, err := observingSpec(c)
+	if err != nil {
+		return fmt.Errorf("simulate: %w", err)
+	}
+	spec.NoisePPM, spec.Transits = c.Float64("noise"), c.Int("transits")
+	sc, err := retrieve.LoadScenario(c.String("config"))
+	if err != nil {
+		return err
+	}
+	bins, noise, err := spec.Resolve(sc)
+	if err != nil {
+		return fmt.Errorf("simulate: %w", err)
+	}
+	set, err := loadOpacity(c, &sc.Config.ModelConfig)
+	if err != nil {
+		return err
+	}
+	obs, err := sc.Simulate(set, bins, retrieve.SimulateOptions{Noise: noise, Scatter: scatter, Seed: c.Uint64("seed")})
+	if err != nil {
+		return err
+	}
+	out := c.String("output")
+	if err := retrieve.WriteObservation(out, obs, c.Bool("force")); err != nil {
+		return fmt.Errorf("simulate: %w", err)
+	}
+	fmt.Fprintf(c.App.ErrWriter, "chord simulate: %d bins, %s, written to %s\n", bins.Len(), noise, out)
+	if set.Demo {
+		fmt.Fprintln(c.App.ErrWriter, "chord simulate: computed with the demo opacity tables: not for science")
+	}
+	if p := c.String("fit-config"); p != "" {
+		fc, err := sc.FitConfig(out)
+		if err != nil {
+			return fmt.Errorf("simulate: %w", err)
+		}
+		hdr := []string{fmt.Sprintf("Retrieval configuration written by chord %s simulate: scenario %s fitted to %s.", retrieve.Version, sc.Path, out)}
+		if err := retrieve.WriteConfig(p, fc, hdr, c.Bool("force")); err != nil {
+			return fmt.Errorf("simulate: %w", err)
+		}
+		fmt.Fprintf(c.App.ErrWriter, "chord simulate: fit it with: chord fit -c %s -o RUNDIR\n", p)
+	}
+	return nil
+}
+
+// loadOpacity loads the tables a model configuration asks for, with the
+// demo cache of --demo-cache or the user cache directory.
+func loadOpacity(c *cli.Context, mc *retrieve.ModelConfig) (*opacity.Set, error) {
+	cache := c.String("demo-cache")
+	if cache == "" && mc.Opacity.Demo {
+		var err error
+		if cache, err = retrieve.DemoCacheDir(); err != nil {
+			return nil, err
+		}
+	}
+	return mc.LoadOpacity(cache, c.App.ErrWriter)
+}
+
+// floatList parses "a,b,c".
+func floatList(s string) ([]float64, error) {
+	var out []float64
+	for _, f := range strings.Split(s, ",") {
+		v, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, v)
+	}
+	return out, nil
+}
