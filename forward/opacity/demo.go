@@ -10,6 +10,7 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
+	"strings"
 	"time"
 )
 
@@ -134,14 +135,18 @@ func BuildDemo(progress io.Writer) (*Set, error) {
 // is rebuilt. The tables are written to a fresh temporary directory next to
 // cacheDir and renamed into place, so two processes building at once never
 // see each other's partial files: the first rename wins and the other
-// process uses its result. The returned Set has Demo set and lists the
-// cached files.
+// process uses its result. An existing cacheDir that holds anything but
+// demo table files is never replaced (an error says so). The returned Set
+// has Demo set and lists the cached files.
 func DemoSet(cacheDir string, progress io.Writer) (*Set, error) {
 	if cacheDir == "" {
 		return nil, errors.New("opacity: demo set: no cache directory given")
 	}
 	if s, err := loadDemoCache(cacheDir); err == nil {
 		return s, nil
+	}
+	if err := checkReplaceable(cacheDir); err != nil {
+		return nil, err
 	}
 	parent, base := filepath.Split(filepath.Clean(cacheDir))
 	if parent == "" {
@@ -190,6 +195,9 @@ func publishDir(tmp, dst string) error {
 	if _, lerr := loadDemoCache(dst); lerr == nil {
 		return nil // another process won the race with a good cache
 	}
+	if err := checkReplaceable(dst); err != nil {
+		return err
+	}
 	stale := tmp + ".stale"
 	if rerr := os.Rename(dst, stale); rerr != nil && !errors.Is(rerr, os.ErrNotExist) {
 		return fmt.Errorf("opacity: demo set cache: replace %s: %w (first error: %v)", dst, rerr, err)
@@ -200,6 +208,32 @@ func publishDir(tmp, dst string) error {
 			return nil
 		}
 		return fmt.Errorf("opacity: demo set cache: %w", err)
+	}
+	return nil
+}
+
+// checkReplaceable refuses to let a stale cache be replaced unless dir
+// holds nothing but demo table files and the writer's temporary files, so
+// that a cache directory pointed at the wrong place never deletes anything
+// else. A missing dir is fine.
+func checkReplaceable(dir string) error {
+	ents, err := os.ReadDir(dir)
+	if errors.Is(err, os.ErrNotExist) {
+		return nil
+	}
+	if err != nil {
+		return fmt.Errorf("opacity: demo set cache: %w", err)
+	}
+	names := map[string]bool{}
+	for _, p := range demoFileNames("") {
+		names[p] = true
+	}
+	for _, e := range ents {
+		n := e.Name()
+		if e.Type().IsRegular() && (names[n] || (strings.HasPrefix(n, ".") && strings.Contains(n, ".parquet.tmp-"))) {
+			continue
+		}
+		return fmt.Errorf("opacity: demo set cache %s holds %q, which is not a demo table: refusing to replace the directory (choose an empty or new cache directory)", dir, n)
 	}
 	return nil
 }

@@ -299,6 +299,20 @@ func TestDemoSetCache(t *testing.T) {
 	if _, err := loadDemoCache(stale); err == nil || !strings.Contains(err.Error(), "demo generator") {
 		t.Errorf("stale cache: error %v, want one naming the demo generator version", err)
 	}
+	// A cache directory that holds other files is never replaced.
+	other := t.TempDir()
+	writeTestFile(t, filepath.Join(other, "notes.txt"), "keep me")
+	if _, err := DemoSet(other, nil); err == nil || !strings.Contains(err.Error(), "not a demo table") {
+		t.Errorf("DemoSet on a directory with other files: %v, want a refusal", err)
+	}
+	src3 := filepath.Join(t.TempDir(), "complete")
+	copyDir(t, dir, src3)
+	if err := publishDir(src3, other); err == nil || !strings.Contains(err.Error(), "not a demo table") {
+		t.Errorf("publishDir onto a directory with other files: %v, want a refusal", err)
+	}
+	if b, err := os.ReadFile(filepath.Join(other, "notes.txt")); err != nil || string(b) != "keep me" {
+		t.Errorf("the other file was touched: %q, %v", b, err)
+	}
 	if _, err := DemoSet("", nil); err == nil {
 		t.Error("DemoSet with no cache directory: no error")
 	}
