@@ -310,6 +310,28 @@ func TestExoMolSmall(t *testing.T) {
 		t.Errorf("isotopologue %+v", iso)
 	}
 
+	// Sparse state ids (looked up by search) and a last row without a
+	// newline.
+	sparse, err := ParseExoMolStates(strings.NewReader("2 0 1 0\n7 10 3 1\n40 50 5 2"), "sparse.states")
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc, err := NewExoMolConverter(nil, sparse, ExoMolOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []float64
+	err = sc.ScanExoMolTrans(strings.NewReader("7 2 1.0\n40 7 1.0 40.0"), "sparse.trans", func(l Line) error {
+		got = append(got, l.Nu, l.Elower)
+		return nil
+	})
+	if err != nil || len(got) != 4 || got[0] != 10 || got[1] != 0 || got[2] != 40 || got[3] != 10 {
+		t.Errorf("sparse ids: %v, %v; want nu 10 (E'' 0) and 40 (E'' 10)", got, err)
+	}
+	if _, ok := sparse.Index(3); ok {
+		t.Error("state 3 found in a list without it")
+	}
+
 	// Split transitions files <base>__<range>.trans, bzip2-compressed states.
 	dir2 := t.TempDir()
 	base2 := filepath.Join(dir2, "1H-2H__Test")
