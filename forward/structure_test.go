@@ -208,3 +208,36 @@ func TestTableProfile(t *testing.T) {
 		}
 	}
 }
+
+// TestGrids: levels log-spaced from bottom to top; the wavelength grid
+// includes both ends at a resolving power of at least R.
+func TestGrids(t *testing.T) {
+	p, err := PressureLevels(1e-2, 1e7, 9)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i, v := range p {
+		if want := math.Pow(10, 7-float64(i)); math.Abs(v-want) > 1e-12*want {
+			t.Errorf("level %d: %g Pa, want %g", i, v, want)
+		}
+	}
+	wl, err := WavelengthGrid(0.6e-6, 12e-6, 1000)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// ceil(1000 ln 20) = 2996 steps.
+	if len(wl) != 2997 || wl[0] != 0.6e-6 || wl[len(wl)-1] != 12e-6 {
+		t.Errorf("grid of %d points from %g to %g", len(wl), wl[0], wl[len(wl)-1])
+	}
+	if r := 1 / math.Log(wl[1]/wl[0]); r < 1000 {
+		t.Errorf("resolving power %g, want at least 1000", r)
+	}
+	for _, bad := range [][3]float64{{0, 1, 10}, {2, 1, 10}, {1, 2, 0}, {1, 2, math.NaN()}} {
+		if _, err := WavelengthGrid(bad[0], bad[1], bad[2]); err == nil {
+			t.Errorf("WavelengthGrid%v: no error", bad)
+		}
+	}
+	if _, err := PressureLevels(1, 1, 10); err == nil {
+		t.Error("equal top and bottom: no error")
+	}
+}

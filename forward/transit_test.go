@@ -2,6 +2,7 @@ package forward
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"strings"
@@ -339,5 +340,42 @@ func TestBadStates(t *testing.T) {
 	}
 	if want := w.r[m.Layers()] * w.r[m.Layers()] / (s.StarRadius * s.StarRadius); d[0] != want {
 		t.Errorf("deck above the top: %g, want %g", d[0], want)
+	}
+}
+
+// TestConcurrentTransit: a Model is shared read-only by goroutines, each
+// with its own Workspace (run under -race in CI); results are identical.
+func TestConcurrentTransit(t *testing.T) {
+	m, s := testModel(t, nil)
+	want := make([]float64, m.OutputLen())
+	if err := m.Transit(want, &s, m.NewWorkspace()); err != nil {
+		t.Fatal(err)
+	}
+	errs := make(chan error, 4)
+	for g := range 4 {
+		go func() {
+			w := m.NewWorkspace()
+			st := s
+			st.VMR = append([]float64(nil), s.VMR...)
+			d := make([]float64, m.OutputLen())
+			for range 3 {
+				if err := m.Transit(d, &st, w); err != nil {
+					errs <- err
+					return
+				}
+				for k := range d {
+					if d[k] != want[k] {
+						errs <- fmt.Errorf("goroutine %d: point %d differs", g, k)
+						return
+					}
+				}
+			}
+			errs <- nil
+		}()
+	}
+	for range 4 {
+		if err := <-errs; err != nil {
+			t.Error(err)
+		}
 	}
 }

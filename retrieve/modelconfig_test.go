@@ -197,3 +197,42 @@ func TestModelConfigProfilesAndBins(t *testing.T) {
 		t.Errorf("%d constant-R bins, want 46", m.OutputLen())
 	}
 }
+
+// FuzzModelConfig: no configuration text makes decoding, building or one
+// spectrum panic; bad ones are errors.
+func FuzzModelConfig(f *testing.F) {
+	f.Add(greyConfig)
+	f.Add(strings.Replace(greyConfig, "temperature_k = 900", "profile = \"guillot\"\nt_irr_k = 1200", 1))
+	f.Add(strings.Replace(greyConfig, "[opacity]", "[clouds]\ntop_pressure_bar = 0.01\nfraction = 0.5\nhaze_factor = 3\n[opacity]", 1))
+	f.Add("[star]\nradius_m = 1\n")
+	dir := f.TempDir()
+	f.Fuzz(func(t *testing.T, text string) {
+		p := filepath.Join(dir, "fuzz.toml")
+		if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		c, err := DecodeModelConfig(p)
+		if err != nil {
+			return
+		}
+		// Keep each case fast: skip models with many layers or points.
+		s := c.Spectrum
+		pts := orDefault(s.ResolvingPower, 1000) * math.Log(*s.WavelengthMaxUm / *s.WavelengthMinUm)
+		if (c.Atmosphere.Layers != nil && *c.Atmosphere.Layers > 300) || pts > 5000 || c.Opacity.Demo || c.Opacity.Dir != "" {
+			return
+		}
+		m, st, err := c.Build(nil)
+		if err != nil {
+			return
+		}
+		d := make([]float64, m.OutputLen())
+		if err := m.Transit(d, &st, m.NewWorkspace()); err != nil {
+			return
+		}
+		for i, v := range d {
+			if math.IsNaN(v) || v < 0 {
+				t.Fatalf("bin %d: depth %g", i, v)
+			}
+		}
+	})
+}
