@@ -5,17 +5,17 @@ import (
 	"math"
 )
 
-// History is a bounded, thinned in-memory copy of the chain's positions, from
-// which the convergence rule estimates autocorrelation times. It holds at
-// most Cap samples per walker: when full, every second sample is dropped and
-// the stride between kept steps doubles, so its memory stays flat
-// (Cap*Walkers*Dim float64s) however long the chain runs.
+// History is a bounded, thinned in-memory copy of the chain's positions,
+// from which the convergence rule estimates autocorrelation times. It holds
+// at most capacity samples per walker: when full, every second sample is
+// dropped and the stride s between kept steps doubles, so its memory stays
+// flat (capacity x walkers x dim float64s) however long the chain runs.
 //
-// Tau estimated from a thinned history is tau_thin * stride. While the
-// stride is well below tau (about tau/20 or less when the chain is 50 tau
-// long with the default Cap) this is the tau of the full chain; for larger
-// strides it can only overestimate (tau_thin >= 1), so thinning never makes
-// the rule stop early.
+// Tau estimated from a thinned history is tau_thin * s. While s is well
+// below tau (tau/41 to tau/20 when the chain is 50 tau long with the
+// default capacity) this is the tau of the full chain. For larger strides it
+// overestimates: for an AR(1)-like chain tau_thin * s = s coth(s/tau) >= tau,
+// so thinning delays rather than hastens a convergence stop.
 //
 // A History is a Recorder. To continue toward convergence after a resume
 // in a new process, make a new History and replay the stored chain into it
@@ -23,8 +23,8 @@ import (
 // would hold), or replay any suffix of it, or pass an empty one, which then
 // judges convergence on the steps after the resume only (conservative).
 type History struct {
-	Walkers, Dim int
-	Cap          int // samples kept per walker, even
+	walkers, dim int
+	cap          int // samples kept per walker, even
 
 	first, last int // Index of the first and last step recorded; 0 if none
 	stride      int // steps between kept samples
@@ -47,13 +47,13 @@ func NewHistory(walkers, dim, capacity int) (*History, error) {
 	if walkers < 1 || dim < 1 || capacity < 16 || capacity%2 != 0 {
 		return nil, fmt.Errorf("sampler: history of %d walkers, %d parameters, capacity %d: want positive sizes and an even capacity of at least 16", walkers, dim, capacity)
 	}
-	return &History{Walkers: walkers, Dim: dim, Cap: capacity, stride: 1}, nil
+	return &History{walkers: walkers, dim: dim, cap: capacity, stride: 1}, nil
 }
 
 // Record appends a step; steps must arrive in order without gaps.
 func (h *History) Record(s *Step) error {
-	if s.Walkers != h.Walkers || s.Dim != h.Dim {
-		return fmt.Errorf("sampler: history of %d walkers x %d parameters given a step of %d x %d", h.Walkers, h.Dim, s.Walkers, s.Dim)
+	if s.Walkers != h.walkers || s.Dim != h.dim {
+		return fmt.Errorf("sampler: history of %d walkers x %d parameters given a step of %d x %d", h.walkers, h.dim, s.Walkers, s.Dim)
 	}
 	if h.last != 0 && s.Index != h.last+1 {
 		return fmt.Errorf("sampler: history holds steps up to %d, given step %d", h.last, s.Index)
@@ -66,14 +66,14 @@ func (h *History) Record(s *Step) error {
 		return nil
 	}
 	if h.buf == nil {
-		h.buf = make([]float64, h.Cap*h.Walkers*h.Dim)
+		h.buf = make([]float64, h.cap*h.walkers*h.dim)
 	}
-	row := h.Walkers * h.Dim
-	if h.n == h.Cap {
-		for j := 1; j < h.Cap/2; j++ {
+	row := h.walkers * h.dim
+	if h.n == h.cap {
+		for j := 1; j < h.cap/2; j++ {
 			copy(h.buf[j*row:(j+1)*row], h.buf[2*j*row:(2*j+1)*row])
 		}
-		h.n = h.Cap / 2
+		h.n = h.cap / 2
 		h.stride *= 2
 	}
 	copy(h.buf[h.n*row:(h.n+1)*row], s.Pos)
@@ -98,7 +98,7 @@ func (h *History) Last() int { return h.last }
 // Autocorr.Time) or the history holds fewer than 16 samples.
 func (h *History) Tau(dst []float64, c float64) (tau []float64, ok bool) {
 	if dst == nil {
-		dst = make([]float64, h.Dim)
+		dst = make([]float64, h.dim)
 	}
 	if h.n < 16 {
 		for i := range dst {
@@ -108,17 +108,17 @@ func (h *History) Tau(dst []float64, c float64) (tau []float64, ok bool) {
 	}
 	if h.ac == nil || h.ac.n != h.n {
 		h.ac = NewAutocorr(h.n)
-		h.series = make([][]float64, h.Walkers)
+		h.series = make([][]float64, h.walkers)
 		for k := range h.series {
 			h.series[k] = make([]float64, h.n)
 		}
 	}
 	ok = true
-	row := h.Walkers * h.Dim
-	for p := range h.Dim {
+	row := h.walkers * h.dim
+	for p := range h.dim {
 		for k, s := range h.series {
 			for j := range s {
-				s[j] = h.buf[j*row+k*h.Dim+p]
+				s[j] = h.buf[j*row+k*h.dim+p]
 			}
 		}
 		t, good := h.ac.Time(h.series, c)
@@ -171,8 +171,8 @@ func (c *Convergence) resolve(st *State) (convergence, error) {
 			return r, err
 		}
 	}
-	if r.h.Walkers != st.Walkers || r.h.Dim != st.Dim {
-		return r, fmt.Errorf("sampler: convergence history of %d walkers x %d parameters for a state of %d x %d", r.h.Walkers, r.h.Dim, st.Walkers, st.Dim)
+	if r.h.walkers != st.Walkers || r.h.dim != st.Dim {
+		return r, fmt.Errorf("sampler: convergence history of %d walkers x %d parameters for a state of %d x %d", r.h.walkers, r.h.dim, st.Walkers, st.Dim)
 	}
 	if r.h.last != 0 && r.h.last != st.Step {
 		return r, fmt.Errorf("sampler: convergence history ends at step %d but the state is at step %d", r.h.last, st.Step)
