@@ -347,10 +347,18 @@ func writeFile[R any](path string, overwrite bool, meta map[string]string, n int
 		// A hard link does not replace an existing file, so a file that
 		// appeared since the check above is not lost.
 		err = os.Link(tmpName, path)
-		if err == nil {
+		switch {
+		case err == nil:
 			err = os.Remove(tmpName)
-		} else if errors.Is(err, os.ErrExist) {
+		case errors.Is(err, os.ErrExist):
 			err = fmt.Errorf("%s exists; refusing to overwrite it (ask for overwrite to replace it)", path)
+		default:
+			// No hard links on this file system: check again and rename.
+			if _, serr := os.Lstat(path); serr == nil {
+				err = fmt.Errorf("%s exists; refusing to overwrite it (ask for overwrite to replace it)", path)
+			} else {
+				err = os.Rename(tmpName, path)
+			}
 		}
 	}
 	if err != nil {
@@ -384,7 +392,14 @@ func ReadTableFile(path string) (*XSecTable, *CIATable, error) {
 	return readTableFile(path, "")
 }
 
-func readTableFile(path, want string) (*XSecTable, *CIATable, error) {
+func readTableFile(path, want string) (x *XSecTable, c *CIATable, err error) {
+	// The Parquet decoder is not ours; a damaged file must give an error
+	// here, never a panic.
+	defer func() {
+		if r := recover(); r != nil {
+			x, c, err = nil, nil, fmt.Errorf("opacity: table file %s: unreadable (corrupted?): %v", path, r)
+		}
+	}()
 	o, err := openTable(path, want)
 	if err != nil {
 		return nil, nil, err
