@@ -187,7 +187,7 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 			Mol: key.Mol, Iso: key.Iso,
 			Abundance: c.Float64("abundance"),
 			Gamma:     c.Float64("exomol-gamma"), N: c.Float64("exomol-n"),
-			NuMin: nu[0]/100 - c.Float64("cutoff"), NuMax: nu[len(nu)-1]/100 + c.Float64("cutoff"),
+			NuMin: max(0, nu[0]/100-c.Float64("cutoff")), NuMax: nu[len(nu)-1]/100 + c.Float64("cutoff"),
 		})
 		if err != nil {
 			return err
@@ -228,7 +228,7 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 			}
 			sources = append(sources, path)
 		}
-		filter := opacity.LineFilter{NuMin: nu[0]/100 - c.Float64("cutoff"), NuMax: nu[len(nu)-1]/100 + c.Float64("cutoff")}
+		filter := opacity.LineFilter{NuMin: max(0, nu[0]/100-c.Float64("cutoff")), NuMax: nu[len(nu)-1]/100 + c.Float64("cutoff")}
 		var lists [][]opacity.Line
 		for _, f := range hitran {
 			status("reading HITRAN line list %s", f)
