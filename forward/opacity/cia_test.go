@@ -79,14 +79,18 @@ func TestCIARealFiles(t *testing.T) {
 		blocks   int
 		points   int
 		negative int
-		temps    []float64 // block temperatures in file order, where listed in full
-		nuLo     float64   // cm^-1, lowest wavenumber of any block
-		nuHi     float64
+		temps    []float64   // block temperatures in file order, where listed in full
+		nuLo     float64     // cm^-1, lowest wavenumber of any block
+		nuHi     float64     // cm^-1, highest
+		sizes    map[int]int // blocks by row count
 	}{
 		{"N2-N2_2011.cia", 20, 67565, 4813 + 923,
-			[]float64{40, 51.7, 66.7, 86.2, 111.3, 143.8, 185.7, 239.8, 309.7, 400}, 0.020, 3000.094},
-		{"CO2-CO2_2018.cia", 20, 19969, 574, nil, 1.0, 3249.583},
-		{"CO2-CO2_2024.cia", 37, 92469, 726, nil, 1.0, 4499.5952},
+			[]float64{40, 51.7, 66.7, 86.2, 111.3, 143.8, 185.7, 239.8, 309.7, 400}, 0.020, 3000.094,
+			map[int]int{582: 10, 9543: 5, 2806: 5}},
+		{"CO2-CO2_2018.cia", 20, 19969, 574, nil, 1.0, 3249.583,
+			map[int]int{750: 10, 801: 6, 1361: 2, 1411: 1, 3530: 1}},
+		{"CO2-CO2_2024.cia", 37, 92469, 726, nil, 1.0, 4499.5952,
+			map[int]int{750: 10, 2995: 9, 4357: 3, 5641: 6, 1361: 2, 1411: 1, 676: 3, 3530: 1, 359: 1, 1047: 1}},
 	}
 	for _, c := range cases {
 		t.Run(c.file, func(t *testing.T) {
@@ -143,6 +147,13 @@ func TestCIARealFiles(t *testing.T) {
 				negative += b.Clipped
 				lo, hi = min(lo, numin), max(hi, numax)
 			}
+			sizes := map[int]int{}
+			for _, b := range blocks {
+				sizes[len(b.K)]++
+			}
+			if fmt.Sprint(sizes) != fmt.Sprint(c.sizes) {
+				t.Errorf("blocks by row count %v, SOURCES.md lists %v", sizes, c.sizes)
+			}
 			if points != c.points {
 				t.Errorf("%d rows in all, SOURCES.md lists %d", points, c.points)
 			}
@@ -193,6 +204,18 @@ func TestCIARealFiles(t *testing.T) {
 			if zeros != c.negative {
 				t.Errorf("%d negative rows found as 0 in the table, want %d", zeros, c.negative)
 			}
+			// Through a table file and back, bit for bit.
+			tab.Meta[MetaProgramVersion] = "test"
+			tp := filepath.Join(t.TempDir(), "cia.parquet")
+			if err := WriteCIAFile(tp, tab, false); err != nil {
+				t.Fatal(err)
+			}
+			back, err := ReadCIAFile(tp)
+			if err != nil {
+				t.Fatal(err)
+			}
+			equalF64(t, "k", back.K, tab.K)
+			equalF64(t, "wavenumber", back.Wavenumber, tab.Wavenumber)
 			t.Logf("%d table values checked against the file (%d of them negative in the file, 0 in the table); table %d T x %d wavenumbers",
 				checked, zeros, len(tab.T), len(tab.Wavenumber))
 		})
