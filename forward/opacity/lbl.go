@@ -241,7 +241,7 @@ func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
 	for i := range b.lines {
 		l := &b.lines[i]
 		if err := checkLine(l); err != nil {
-			return nil, fmt.Errorf("opacity: BuildXSec %s: line %d at %g cm^-1: %w", s.Gas, i, l.Nu, err)
+			return nil, fmt.Errorf("opacity: BuildXSec %s: line of %v at %g cm^-1: %w", s.Gas, IsoKey{l.Mol, l.Iso}, l.Nu, err)
 		}
 		k := IsoKey{l.Mol, l.Iso}
 		st := byKey[k]
@@ -278,7 +278,12 @@ func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
 		b.qRatio[i] = make([]float64, len(s.T))
 		q296 := st.q.Q(TRef)
 		for j, T := range s.T {
-			b.qRatio[i][j] = q296 / st.q.Q(T)
+			qT := st.q.Q(T)
+			b.qRatio[i][j] = q296 / qT
+			if !(q296 > 0 && qT > 0) || math.IsInf(b.qRatio[i][j], 0) {
+				return nil, fmt.Errorf("opacity: BuildXSec %s: partition function of %v gives Q(296 K) = %g, Q(%g K) = %g; both must be positive",
+					s.Gas, st.key, q296, T, qT)
+			}
 		}
 	}
 	b.nuCm = make([]float64, len(s.Wavenumber))

@@ -300,7 +300,8 @@ func TestBuildBadInputs(t *testing.T) {
 		{func(s *XSecSettings) {}, []Line{{Mol: 6, Iso: 1, Nu: 2000, S: 1}}, nil, "no isotopologue data (mass, partition function) for CH4 (molecule 6) isotopologue 1"},
 		{func(s *XSecSettings) {}, line, IsoData{{5, 1}: {Name: "CO_26", Q296: 107}}, "mass 0"},
 		{func(s *XSecSettings) {}, line, IsoData{{5, 1}: {Name: "CO_26", Mass: 28}}, "neither a partition table nor Q(296 K)"},
-		{func(s *XSecSettings) {}, []Line{{Mol: 5, Iso: 1, Nu: 2000, S: -1}}, nil, "intensity -1 must not be negative"},
+		{func(s *XSecSettings) {}, []Line{{Mol: 5, Iso: 1, Nu: 2000, S: -1}}, nil, "line of CO (molecule 5) isotopologue 1 at 2000 cm^-1: intensity -1 must not be negative"},
+		{func(s *XSecSettings) {}, line, IsoData{{5, 1}: {Name: "CO_26", Mass: 28, Q: &RigidRotor{Q296: -1, Exponent: 1}}}, "gives Q(296 K) = -1"},
 		{func(s *XSecSettings) { s.T = []float64{3000} }, []Line{{Mol: 5, Iso: 1, Nu: 2000, S: 1e-20, Elower: 1e6, GammaAir: 0.05}}, nil,
 			"cross-section overflows at log10 P 5, T 3000 K"},
 	} {
