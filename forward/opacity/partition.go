@@ -53,7 +53,9 @@ func NewQTable(t, q []float64) (*QTable, error) {
 // Range returns the table's temperature span.
 func (p *QTable) Range() (lo, hi float64) { return p.T[0], p.T[len(p.T)-1] }
 
-// Q interpolates the table at T (K).
+// Q interpolates the table at T (K). Outside Range it extrapolates with
+// the end polynomial, which soon becomes meaningless: callers check Range
+// (BuildXSec does).
 func (p *QTable) Q(T float64) float64 {
 	i, _ := Weights(p.T, T)
 	// Four points i-1 .. i+2 around the bracket [i, i+1], shifted inside.
