@@ -56,7 +56,7 @@ func (m *moments) cov(i, j int) float64 {
 
 // TestGaussianMoments samples a correlated 10-d Gaussian whose covariance
 // has condition number 100 and checks the sample mean and covariance
-// against the exact values (exact by construction).
+// against the exact values (exact by construction), for every move.
 //
 // Error model: with N = walkers*steps draws and integrated autocorrelation
 // time tau (estimated by the sampler's own History), the Monte Carlo
@@ -74,33 +74,40 @@ func TestGaussianMoments(t *testing.T) {
 	const d, walkers, steps, burn = 10, 40, 12000, 1000
 	tg := testGaussian(t, d, 100)
 	cov := targets.RandomCovariance(d, 100, rand.New(rand.NewPCG(3, 4)))
-	m := newMoments(t, walkers, d, burn)
-	st := ball(t, tg, walkers, 11)
-	st, _, err := sampler.Run(context.Background(), tg, st, sampler.Settings{MaxSteps: steps}, m)
-	if err != nil {
-		t.Fatal(err)
-	}
-	tau, ok := m.hist.Tau(nil, 5)
-	if !ok {
-		t.Fatalf("tau %v has no reliable window", tau)
-	}
-	tmax := 0.0
-	for _, v := range tau {
-		tmax = max(tmax, v)
-	}
-	t.Logf("tau %.1f, acceptance %.3f", tau, st.Acceptance().Mean)
-	for i := range d {
-		se := math.Sqrt(cov.At(i, i) * tau[i] / m.n)
-		if got := m.mean(i); math.Abs(got) > 5*se {
-			t.Errorf("mean[%d] = %.4f, want 0 +- %.4f (5 se)", i, got, 5*se)
+	for _, mv := range []sampler.Move{
+		sampler.Stretch{},
+		sampler.Walk{},
+		sampler.DiffEvolution{JumpProb: 0.1},
+		sampler.Mixture{Moves: []sampler.Move{sampler.Stretch{}, sampler.Walk{Subset: 4}, sampler.DiffEvolution{}}, Weights: []float64{2, 1, 1}},
+	} {
+		m := newMoments(t, walkers, d, burn)
+		st := ball(t, tg, walkers, 11)
+		st, _, err := sampler.Run(context.Background(), tg, st, sampler.Settings{Move: mv, MaxSteps: steps}, m)
+		if err != nil {
+			t.Fatal(err)
 		}
-	}
-	for i := range d {
-		for j := i; j < d; j++ {
-			want := cov.At(i, j)
-			se := math.Sqrt((cov.At(i, i)*cov.At(j, j) + want*want) * tmax / m.n)
-			if got := m.cov(i, j); math.Abs(got-want) > 5*se {
-				t.Errorf("cov[%d,%d] = %.4f, want %.4f +- %.4f (5 se)", i, j, got, want, 5*se)
+		tau, ok := m.hist.Tau(nil, 5)
+		if !ok {
+			t.Fatalf("%v: tau %v has no reliable window", mv, tau)
+		}
+		tmax := 0.0
+		for _, v := range tau {
+			tmax = max(tmax, v)
+		}
+		t.Logf("%v: tau %.1f, acceptance %.3f", mv, tau, st.Acceptance().Mean)
+		for i := range d {
+			se := math.Sqrt(cov.At(i, i) * tau[i] / m.n)
+			if got := m.mean(i); math.Abs(got) > 5*se {
+				t.Errorf("%v: mean[%d] = %.4f, want 0 +- %.4f (5 se)", mv, i, got, 5*se)
+			}
+		}
+		for i := range d {
+			for j := i; j < d; j++ {
+				want := cov.At(i, j)
+				se := math.Sqrt((cov.At(i, i)*cov.At(j, j) + want*want) * tmax / m.n)
+				if got := m.cov(i, j); math.Abs(got-want) > 5*se {
+					t.Errorf("%v: cov[%d,%d] = %.4f, want %.4f +- %.4f (5 se)", mv, i, j, got, want, 5*se)
+				}
 			}
 		}
 	}
