@@ -159,3 +159,49 @@ func TestStuckWalker(t *testing.T) {
 		t.Errorf("median acceptance %v, want 0.4", a.Median)
 	}
 }
+
+// TestHistoryThinning feeds a History far more steps than it holds. The
+// kept samples, every s-th step of an AR(1) series with coefficient phi, are
+// themselves AR(1) with coefficient phi^s, whose integrated time is
+// (1 + phi^s)/(1 - phi^s) thinned steps (standard result), so the History
+// must report s (1 + phi^s)/(1 - phi^s) steps. Tolerance: 4 times Sokal's
+// relative standard deviation sqrt(2 (2M+1)/N) of the thinned estimate.
+func TestHistoryThinning(t *testing.T) {
+	const walkers, steps, capacity, phi = 64, 50000, 1024, 0.99
+	h, err := sampler.NewHistory(walkers, 1, capacity)
+	if err != nil {
+		t.Fatal(err)
+	}
+	series := ar1(walkers, steps, phi, 8)
+	pos := make([]float64, walkers)
+	for i := range steps {
+		for k := range pos {
+			pos[k] = series[k][i]
+		}
+		if err := h.Record(&sampler.Step{Index: i + 1, Walkers: walkers, Dim: 1, Pos: pos}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if h.Span() != steps || h.Last() != steps {
+		t.Fatalf("span %d, last %d, want %d", h.Span(), h.Last(), steps)
+	}
+	// 50000 steps into 1024 slots: the stride doubles until 50000/s <= 1024,
+	// so s = 64 (782 samples held).
+	const s = 64
+	ps := math.Pow(phi, s)
+	thin := (1 + ps) / (1 - ps)
+	want := s * thin
+	tau, ok := h.Tau(nil, 5)
+	if !ok {
+		t.Fatalf("tau %v: no window", tau)
+	}
+	held := float64((steps + s - 1) / s)
+	tol := 4 * math.Sqrt(2*(2*math.Ceil(5*thin)+1)/(walkers*held))
+	t.Logf("tau = %.1f steps, want %.1f (relative tolerance %.3f; unthinned tau %.0f)", tau[0], want, tol, (1+phi)/(1-phi))
+	if math.Abs(tau[0]/want-1) > tol {
+		t.Errorf("tau = %.1f steps, want %.1f (relative tolerance %.3f)", tau[0], want, tol)
+	}
+	if err := h.Record(&sampler.Step{Index: steps + 2, Walkers: walkers, Dim: 1, Pos: pos}); err == nil {
+		t.Error("gap in steps: no error")
+	}
+}
