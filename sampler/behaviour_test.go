@@ -187,6 +187,17 @@ func TestCancel(t *testing.T) {
 	}
 }
 
+func TestCancelledBeforeStart(t *testing.T) {
+	tg := targets.StdNormal{D: 3}
+	ctx, cancel := context.WithCancel(bg)
+	cancel()
+	rec := &memRec{}
+	st, res, err := sampler.Run(ctx, tg, ball(t, tg, 8, 1), sampler.Settings{}, rec)
+	if err != nil || res.Stop != sampler.StopCanceled || res.Steps != 0 || st.Step != 0 || rec.flushes != 1 {
+		t.Errorf("cancelled context: %v after %d steps, flushes %d, err %v", res.Stop, res.Steps, rec.flushes, err)
+	}
+}
+
 func TestBudget(t *testing.T) {
 	tg := targets.StdNormal{D: 3}
 	const budget = 30 * time.Millisecond

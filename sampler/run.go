@@ -13,7 +13,7 @@ import (
 // GOMAXPROCS workers until ctx is cancelled.
 type Settings struct {
 	Move    Move // proposal; nil means Stretch{A: 2}
-	Workers int  // goroutines evaluating the log density; 0 means GOMAXPROCS
+	Workers int  // goroutines evaluating the log density; 0 (or less) means GOMAXPROCS
 
 	// Stopping rules; whichever is met first stops the run.
 	MaxSteps    int           // stop once State.Step reaches this total (steps before a resume count); 0 means no limit
@@ -54,7 +54,7 @@ func (r StopReason) String() string {
 
 // Result describes how a run ended.
 type Result struct {
-	Stop    StopReason
+	Stop    StopReason    // zero when Run returns an error
 	Steps   int           // steps taken by this call
 	Elapsed time.Duration // wall-clock time of this call
 	// Tau is the integrated autocorrelation time per parameter (in steps)
@@ -80,7 +80,8 @@ type Result struct {
 // chain.
 //
 // When ctx is cancelled the current step completes and Run returns with
-// StopCanceled and a nil error. On every return the recorder is flushed (if
+// StopCanceled and a nil error (with no step taken if ctx is already
+// cancelled). On every return the recorder is flushed (if
 // it is a Flusher). On a recorder or checkpoint error the returned state
 // includes the failed step, which the recorder may not hold: resume from
 // the last checkpoint instead.
@@ -140,6 +141,9 @@ func Run(ctx context.Context, t Target, st *State, s Settings, rec Recorder) (*S
 	}
 	if s.MaxSteps > 0 && st.Step >= s.MaxSteps {
 		return finish(StopMaxSteps, nil)
+	}
+	if ctx.Err() != nil {
+		return finish(StopCanceled, nil)
 	}
 	for {
 		e.step()

@@ -43,7 +43,7 @@ type State struct {
 type InitSettings struct {
 	Walkers int    // ensemble size: even and at least 2(Dim+1)
 	Seed    uint64 // seed of the PCG generator that drives the whole chain
-	Workers int    // goroutines evaluating the initial ensemble; 0 means GOMAXPROCS
+	Workers int    // goroutines evaluating the initial ensemble; 0 (or less) means GOMAXPROCS
 }
 
 // seedStream is the fixed second PCG seed word; the user's seed is the first.
