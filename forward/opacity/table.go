@@ -32,8 +32,8 @@ type XSecTable struct {
 // K is laid out with wavenumber fastest: K[iT*len(Wavenumber)+k]. It is
 // float64, unlike cross-sections: CIA coefficients are about 1e-53 to 1e-65
 // m^5 (1e-43 to 1e-55 cm^5), below the smallest float32 (1.4e-45).
-// Where a temperature block of a source file does not cover a wavenumber,
-// the table holds 0 there.
+// Where no temperature block of the source files covers a wavenumber, the
+// table holds 0 there (CIAFromBlocks states how blocks are combined).
 type CIATable struct {
 	Pair       [2]string // e.g. {"H2", "H2"}
 	T          []float64 // K, strictly ascending
