@@ -119,8 +119,8 @@ func (r *CIAReader) Next() (*CIABlock, error) {
 			return nil, err
 		}
 		if !ok {
-			return nil, r.errorf(b.Line, "block %s at %g K declares %d rows, but the file ends after %d (truncated?)",
-				b.pairName(), b.T, n, i)
+			return nil, r.errorf(b.Line, "block %s at %g K declares %d rows, but the file ends at line %d after %d (truncated?)",
+				b.pairName(), b.T, n, r.line, i)
 		}
 		f := strings.Fields(s)
 		if len(f) > 3 || (len(f) >= 1 && !looksNumeric(f[0])) {
@@ -140,6 +140,8 @@ func (r *CIAReader) Next() (*CIABlock, error) {
 		}
 		nu *= perCmToPerM
 		k *= cm5ToM5
+		// 1 m^5 is far above any CIA coefficient (about 1e-53 m^5); the
+		// bound keeps every interpolated value finite.
 		if math.IsInf(nu, 0) || math.Abs(k) > 1 {
 			return nil, r.errorf(r.line, "row %s %s is out of range for a table", f[0], f[1])
 		}
