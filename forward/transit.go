@@ -270,11 +270,14 @@ func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
 	M := len(m.wl)
 	rs2 := s.StarRadius * s.StarRadius
 	r0sq := w.r[0] * w.r[0]
-	var kcArea, rcsq float64
+	// The cloud ray's annulus: above the deck (cloudy limb) and whole
+	// (clear limb); none when the deck lies above the model top.
+	var kcAbove, kcWhole float64
 	if kc >= 0 && kc < n {
-		kcArea = (w.r[kc+1] - rc) * (w.r[kc+1] + rc)
+		kcAbove = (w.r[kc+1] - rc) * (w.r[kc+1] + rc)
+		kcWhole = w.area[kc]
 	}
-	rcsq = rc * rc
+	rcsq := rc * rc
 	for k0 := 0; k0 < M; k0 += blockLen {
 		k1 := min(k0+blockLen, M)
 		nb := k1 - k0
@@ -329,10 +332,10 @@ func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
 			}
 		default:
 			for k := range out {
-				cloudy := rcsq + kcArea*tkc[k] + acc[k]
+				cloudy := rcsq + kcAbove*tkc[k] + acc[k]
 				d := phi * cloudy
 				if phi < 1 {
-					clear := r0sq + low[k] + w.area[kc]*tkc[k] + acc[k]
+					clear := r0sq + low[k] + kcWhole*tkc[k] + acc[k]
 					d += (1 - phi) * clear
 				}
 				out[k] = d / rs2

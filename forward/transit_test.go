@@ -341,6 +341,20 @@ func TestBadStates(t *testing.T) {
 	if want := w.r[m.Layers()] * w.r[m.Layers()] / (s.StarRadius * s.StarRadius); d[0] != want {
 		t.Errorf("deck above the top: %g, want %g", d[0], want)
 	}
+	// Patchy, with the deck above the top: the mix of that and the clear limb.
+	clear := make([]float64, len(d))
+	s.CloudTop = 0
+	_ = m.Transit(clear, &s, w)
+	s.CloudTop, s.CloudFraction = 1e-3, 0.25
+	if err := m.Transit(d, &s, w); err != nil {
+		t.Fatal(err)
+	}
+	top := w.r[m.Layers()] * w.r[m.Layers()] / (s.StarRadius * s.StarRadius)
+	for k := range d {
+		if want := 0.25*top + 0.75*clear[k]; math.Abs(d[k]-want) > 1e-14*want {
+			t.Fatalf("patchy deck above the top, point %d: %g, want %g", k, d[k], want)
+		}
+	}
 }
 
 // TestConcurrentTransit: a Model is shared read-only by goroutines, each
