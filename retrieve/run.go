@@ -1,17 +1,29 @@
 package retrieve
 
 import (
+	"bytes"
 	"context"
+	crand "crypto/rand"
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"fmt"
 	"io"
 	"math"
+	"os"
 	"path/filepath"
+	"slices"
+	"sort"
+	"strconv"
 	"strings"
 	"time"
 
+	"github.com/BurntSushi/toml"
 	"github.com/parquet-go/parquet-go"
 
+	"chord/forward"
+	"chord/forward/opacity"
+	"chord/priors"
 	"chord/sampler"
 )
 
@@ -61,10 +73,15 @@ type RunOptions struct {
 	// CheckpointSteps is the number of steps between checkpoints; 0 chooses
 	// it so that checkpoints come about every CheckpointInterval.
 	CheckpointSteps int
-	// Progress receives progress reports (nil: none). With Terminal set one
+	Progress        Progress
+}
+
+// Progress says where and how a run reports its progress.
+type Progress struct {
+	// Writer receives progress reports (nil: none). With Terminal set one
 	// status line is redrawn; otherwise a line is logged every LogInterval
 	// (0 means 30 s).
-	Progress    io.Writer
+	Writer      io.Writer
 	Terminal    bool
 	LogInterval time.Duration
 }
@@ -262,7 +279,7 @@ func (r *runner) newHistories(st *sampler.State) error {
 			return err
 		}
 	}
-	if r.opt.Progress != nil {
+	if r.opt.Progress.Writer != nil {
 		if r.progHist, err = sampler.NewHistory(st.Walkers, st.Dim, 256); err != nil {
 			return err
 		}
@@ -376,8 +393,8 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 	case r.stop.UntilConverged:
 		set.Convergence = &sampler.Convergence{Factor: ConvergedTaus, Window: SokalWindow, History: r.conv}
 	}
-	if r.opt.Progress != nil {
-		r.prog = newProgress(r.opt, r.stop, st, r.base, r.layoutLogLikelihood())
+	if r.opt.Progress.Writer != nil {
+		r.prog = newProgress(r.opt.Progress, r.stop, st, r.base, r.layoutLogLikelihood())
 	}
 	r.begin = time.Now()
 	first := st.Step
@@ -470,7 +487,7 @@ type progress struct {
 	drawn                   bool
 }
 
-func newProgress(opt RunOptions, stop StopRule, st *sampler.State, base time.Duration, ll int) *progress {
+func newProgress(opt Progress, stop StopRule, st *sampler.State, base time.Duration, ll int) *progress {
 	every := opt.LogInterval
 	if every == 0 {
 		every = 30 * time.Second
@@ -478,7 +495,7 @@ func newProgress(opt RunOptions, stop StopRule, st *sampler.State, base time.Dur
 	if opt.Terminal {
 		every = 500 * time.Millisecond
 	}
-	p := &progress{w: opt.Progress, terminal: opt.Terminal, every: every, stop: stop, base: base, llIndex: ll,
+	p := &progress{w: opt.Writer, terminal: opt.Terminal, every: every, stop: stop, base: base, llIndex: ll,
 		begin: time.Now(), first: st.Step, cur: st.Step, bestLL: math.Inf(-1), tau: math.NaN()}
 	p.lastOut = p.begin
 	for k := 0; k < st.Walkers && ll >= 0; k++ {
@@ -576,4 +593,561 @@ func (p *progress) finish() {
 	if p.cur > p.first || p.drawn {
 		p.print(true)
 	}
+}
+
+// Runs from configuration files: chord fit, resume and report.
+//
+// run.toml is the resolved configuration (Resolved.WriteTOML: every default
+// explicit, paths absolute, the seed included) followed by a [run] table
+// of our own: program version, run identity, the configuration file it
+// came from and the SHA-256 of every input file (the configuration, the
+// observations, the opacity tables). The checkpoint records a digest of
+// the resolved configuration and the inputs' digests; resume recomputes it
+// from run.toml and the files as they are now, and refuses to continue a
+// chain whose configuration or inputs changed, naming what changed.
+
+// RunInfo is the [run] table of run.toml.
+type RunInfo struct {
+	Version    string      `toml:"version"`     // program version that started the run
+	RunID      string      `toml:"run_id"`      // random identity, also in the chain parts and checkpoint
+	Created    string      `toml:"created"`     // UTC start time, RFC 3339
+	ConfigFile string      `toml:"config_file"` // the configuration file the run was started from
+	Demo       bool        `toml:"demo_opacities"`
+	Inputs     []InputFile `toml:"inputs"`
+}
+
+// InputFile is one input of a run with its digest.
+type InputFile struct {
+	Role   string `toml:"role"` // "configuration", "observations" or "opacity"
+	Path   string `toml:"path"`
+	SHA256 string `toml:"sha256"`
+}
+
+// runFile is run.toml as decoded.
+type runFile struct {
+	Config
+	Run RunInfo `toml:"run"`
+}
+
+func fileSHA256(path string) (string, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return "", err
+	}
+	defer f.Close()
+	h := sha256.New()
+	if _, err := io.Copy(h, f); err != nil {
+		return "", err
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// runInputs lists the inputs of a resolved configuration whose contents
+// the chain depends on, with their digests.
+func runInputs(r *Resolved, set *opacity.Set) ([]InputFile, error) {
+	var in []InputFile
+	add := func(role, path string) error {
+		h, err := fileSHA256(path)
+		if err != nil {
+			return fmt.Errorf("input file: %w", err)
+		}
+		in = append(in, InputFile{Role: role, Path: path, SHA256: h})
+		return nil
+	}
+	for _, o := range r.Config.Observations {
+		if err := add("observations", o.File); err != nil {
+			return nil, err
+		}
+	}
+	files := append([]string(nil), set.Files...)
+	sort.Strings(files)
+	for _, f := range files {
+		if err := add("opacity", f); err != nil {
+			return nil, err
+		}
+	}
+	return in, nil
+}
+
+// configDigest is the digest a checkpoint is bound to: the resolved
+// configuration (without the stopping rule and workers, which resume may
+// change) and the digests of the inputs.
+func configDigest(r *Resolved, inputs []InputFile) (string, error) {
+	c := r.Config
+	c.Sampler.Steps, c.Sampler.Budget, c.Sampler.UntilConverged, c.Sampler.Workers = nil, "", nil, nil
+	var b bytes.Buffer
+	if err := toml.NewEncoder(&b).Encode(c); err != nil {
+		return "", err
+	}
+	for _, in := range inputs {
+		fmt.Fprintf(&b, "\n%s %s", in.Role, in.SHA256)
+	}
+	sum := sha256.Sum256(b.Bytes())
+	return hex.EncodeToString(sum[:]), nil
+}
+
+// job is a resolved configuration made ready to run.
+type job struct {
+	res    *Resolved
+	set    *opacity.Set
+	prob   *Problem
+	spec   *RunSpec
+	inputs []InputFile
+}
+
+// quantityUnit is the unit of each quantity in chains and reports.
+var quantityUnit = map[Quantity]string{
+	QTemperature: "K", QTIrr: "K", QTInt: "K", QLog10KappaIR: "log10(m^2/kg)",
+	QRadiusRjup: "R_jup", QRadiusRearth: "R_earth", QMassMjup: "M_jup", QMassMearth: "M_earth",
+	QLog10CloudTop: "log10(bar)", QOffsetPPM: "ppm", QErrorInflationPM: "ppm",
+}
+
+// derivedInfo describes the Problem's extra values after the first.
+var derivedInfo = map[string][2]string{
+	"mean_molecular_weight": {"mean molecular weight", "u"},
+	"fill_vmr":              {"volume mixing ratio of the fill gas", ""},
+	"chi2":                  {"chi-square with the (inflated) errors", ""},
+}
+
+func newJob(r *Resolved, set *opacity.Set, runID string) (*job, error) {
+	prob, err := NewProblem(r, set)
+	if err != nil {
+		return nil, err
+	}
+	inputs, err := runInputs(r, set)
+	if err != nil {
+		return nil, err
+	}
+	digest, err := configDigest(r, inputs)
+	if err != nil {
+		return nil, err
+	}
+	extras := prob.ExtraNames()
+	if len(extras) == 0 || extras[0] != "log_likelihood" {
+		return nil, fmt.Errorf("run: the problem's first extra value is %v, want log_likelihood", extras)
+	}
+	l := ChainLayout{Walkers: r.Walkers, Dim: prob.Dim(), NumExtra: prob.NumExtra(),
+		Meta: map[string]string{"chord.version": Version, "chord.run_id": runID, "chord.seed": strconv.FormatUint(r.Seed, 10),
+			"chord.demo_opacities": strconv.FormatBool(set.Demo)}}
+	l.Columns = append(l.Columns, ChainColumn{Name: "log_likelihood", Role: RoleDerived, Source: 0, Quantity: "natural log of the likelihood, with its normalising term"})
+	for i, par := range r.Free {
+		q := string(par.Sets)
+		switch {
+		case par.Gas != "":
+			q += " of " + par.Gas
+		case par.Dataset >= 0 && (par.Sets == QOffsetPPM || par.Sets == QErrorInflationPM):
+			q += " of " + r.Datasets[par.Dataset].Name
+		}
+		l.Columns = append(l.Columns, ChainColumn{Name: par.Name, Role: RoleParameter, Source: i, Quantity: q, Unit: quantityUnit[par.Sets], Prior: fmt.Sprint(par.Prior)})
+	}
+	for j := 1; j < len(extras); j++ {
+		info := derivedInfo[extras[j]]
+		l.Columns = append(l.Columns, ChainColumn{Name: extras[j], Role: RoleDerived, Source: j, Quantity: info[0], Unit: info[1]})
+	}
+	var move sampler.Move
+	switch r.Move {
+	case "walk":
+		move = sampler.Walk{}
+	case "de":
+		move = sampler.DiffEvolution{}
+	default:
+		move = sampler.Stretch{A: 2}
+	}
+	spec := &RunSpec{
+		Target: prob, Layout: l, Move: move, Seed: r.Seed, RunID: runID, ConfigSHA256: digest,
+		Init: func(ctx context.Context, workers int) (*sampler.State, error) {
+			return sampler.InitPrior(ctx, prob, prob.DrawPrior, sampler.InitSettings{Walkers: r.Walkers, Seed: r.Seed, Workers: workers})
+		},
+	}
+	return &job{res: r, set: set, prob: prob, spec: spec, inputs: inputs}, nil
+}
+
+// gases lists the free log10 mixing ratios with a uniform prior, for the
+// detection verdicts.
+func (j *job) gases() []GasParam {
+	var g []GasParam
+	for _, par := range j.res.Free {
+		if u, ok := par.Prior.(priors.Uniform); ok && par.Sets == QLog10VMR {
+			g = append(g, GasParam{Column: par.Name, Gas: par.Gas, Low: u.Low, High: u.High})
+		}
+	}
+	return g
+}
+
+// reportModel is the ReportModel of a job.
+type reportModel struct {
+	j    *job
+	eval *PosteriorEvaluator
+	buf  []float64
+}
+
+func (m *reportModel) Data() (wl, half, depth, sigma []float64) {
+	for _, d := range m.j.res.Datasets {
+		for i := range d.Lo {
+			wl = append(wl, 0.5*(d.Lo[i]+d.Hi[i])/forward.Micron)
+			half = append(half, 0.5*(d.Hi[i]-d.Lo[i])/forward.Micron)
+			depth = append(depth, d.Depth[i]*1e6)
+			sigma = append(sigma, d.Sigma[i]*1e6)
+		}
+	}
+	return
+}
+
+func (m *reportModel) ModelDepth(dst, x []float64) error {
+	if m.eval == nil {
+		m.eval = m.j.prob.NewPosteriorEvaluator()
+		m.buf = make([]float64, m.j.prob.Model().OutputLen())
+	}
+	if err := m.eval.Spectrum(m.buf, x); err != nil {
+		return err
+	}
+	for i := range dst {
+		dst[i] = m.buf[i] * 1e6
+	}
+	return nil
+}
+
+// report writes the report of the job's run in dir.
+func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome) (*Summary, string, error) {
+	ck, err := ReadCheckpoint(filepath.Join(dir, CheckpointFile))
+	if err != nil {
+		return nil, "", err
+	}
+	if len(ck.Parts) == 0 {
+		return nil, "", fmt.Errorf("%s: the chain has no steps yet", dir)
+	}
+	title := j.res.Config.Planet.Name
+	s, err := WriteReport(dir, ck.Parts, ReportOptions{
+		Burn: burn, BurnAuto: auto, Thin: thin, Gases: j.gases(), Model: &reportModel{j: j}, Title: title,
+		Fill: func(s *Summary) {
+			s.RunID = ck.RunID
+			s.DemoOpacities = j.set.Demo
+			if s.DemoOpacities {
+				s.Warnings = append(s.Warnings, DemoWarning)
+			}
+			if out != nil {
+				s.Stop = out.Stop.String()
+				rej := j.prob.Rejections()
+				if len(rej) > 0 {
+					s.InvalidStates = map[string]int64{}
+					for _, r := range rej {
+						s.InvalidStates[r.Reason] = r.Count
+					}
+				}
+				if total, clamped := j.prob.Evaluations(); clamped > 0 {
+					s.Warnings = append(s.Warnings, fmt.Sprintf("%d of %d evaluations this session used opacity tables outside their pressure-temperature grid (edge values used); widen the tables or the temperature prior", clamped, total))
+				}
+			}
+			for _, n := range j.res.Notes {
+				s.Warnings = append(s.Warnings, "note: "+n)
+			}
+		},
+	})
+	if err != nil {
+		return nil, "", err
+	}
+	var txt bytes.Buffer
+	s.WriteText(&txt)
+	return s, txt.String(), nil
+}
+
+// FitOptions configures Fit.
+type FitOptions struct {
+	ConfigPath string
+	RunDir     string
+	Force      bool      // replace a run in a non-empty RunDir
+	Seed       *uint64   // overrides sampler.seed
+	Workers    *int      // overrides sampler.workers
+	Stop       StopRule  // overrides the configuration's rule when set
+	DemoCache  string    // where demo opacities are cached; "" means DemoCacheDir
+	Progress   Progress  // progress reports
+	Log        io.Writer // notes (opacity building, observation notes); nil means Progress.Writer
+	// Opacity, when not nil, are the tables already loaded for this
+	// configuration (a plan's fits share one set); nil loads them.
+	Opacity *opacity.Set
+}
+
+// RunReport is what Fit, Resume and Demo return.
+type RunReport struct {
+	Dir         string
+	Walkers     int
+	Outcome     *RunOutcome
+	Summary     *Summary // nil when the run was interrupted
+	SummaryText string
+	// ConfigFile and ObservationFile are the demo's files (Demo only).
+	ConfigFile, ObservationFile string
+}
+
+// runEntries are the names chord writes in a run directory.
+var runEntries = []string{RunFile, ChainsDir, CheckpointFile, CheckpointFile + ".tmp", "summary.json", "summary.txt", "corner.png", "spectrum.png", RunFile + ".tmp", "summary.json.tmp", "summary.txt.tmp", "corner.png.tmp", "spectrum.png.tmp"}
+
+// prepareRunDir makes dir ready for a new run: absent or empty, or with
+// force, cleared of a run's entries (other files are left alone, but any
+// make it refuse without force).
+func prepareRunDir(dir string, force bool) error {
+	ents, err := os.ReadDir(dir)
+	if errors.Is(err, os.ErrNotExist) {
+		return os.MkdirAll(dir, 0o755)
+	}
+	if err != nil {
+		return err
+	}
+	if len(ents) == 0 {
+		return nil
+	}
+	if !force {
+		return fmt.Errorf("run directory %s is not empty (it holds %s): choose another, or pass --force to replace the run in it", dir, ents[0].Name())
+	}
+	for _, name := range runEntries {
+		if err := os.RemoveAll(filepath.Join(dir, name)); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func demoCache(dir string, r *Resolved) (string, error) {
+	if dir != "" || !r.Config.Opacity.Demo {
+		return dir, nil
+	}
+	return DemoCacheDir()
+}
+
+func newRunID() string {
+	var b [8]byte
+	crand.Read(b[:])
+	return hex.EncodeToString(b[:])
+}
+
+// Fit validates a configuration, starts a run in opt.RunDir and reports it.
+func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
+	log := opt.Log
+	if log == nil {
+		log = opt.Progress.Writer
+	}
+	if log == nil {
+		log = io.Discard
+	}
+	r, err := LoadConfig(opt.ConfigPath)
+	if err != nil {
+		return nil, err
+	}
+	if opt.Seed != nil {
+		if *opt.Seed > math.MaxInt64 { // TOML integers are signed 64-bit
+			return nil, fmt.Errorf("--seed %d: must be below 2^63", *opt.Seed)
+		}
+		r.Seed = *opt.Seed
+		s := int64(*opt.Seed)
+		r.Config.Sampler.Seed = &s
+		r.Notes = slices.DeleteFunc(r.Notes, func(n string) bool { return strings.HasPrefix(n, "sampler.seed not given") })
+	}
+	if opt.Workers != nil {
+		if *opt.Workers < 0 {
+			return nil, fmt.Errorf("--workers %d: must not be negative", *opt.Workers)
+		}
+		r.Workers = *opt.Workers
+		w := r.Workers
+		r.Config.Sampler.Workers = &w
+	}
+	if opt.Stop != (StopRule{}) {
+		r.Stop = opt.Stop
+		sc := &r.Config.Sampler
+		sc.Steps, sc.Budget, sc.UntilConverged = nil, "", nil
+		switch {
+		case opt.Stop.Steps > 0:
+			n := opt.Stop.Steps
+			sc.Steps = &n
+		case opt.Stop.Budget > 0:
+			sc.Budget = secs(opt.Stop.Budget).String()
+		default:
+			t := true
+			sc.UntilConverged = &t
+		}
+	}
+	for _, n := range r.Notes {
+		fmt.Fprintln(log, "chord: note:", n)
+	}
+	if err := prepareRunDir(opt.RunDir, opt.Force); err != nil {
+		return nil, err
+	}
+	cache, err := demoCache(opt.DemoCache, r)
+	if err != nil {
+		return nil, err
+	}
+	set := opt.Opacity
+	if set == nil {
+		if set, err = r.Config.LoadOpacity(cache, log); err != nil {
+			return nil, fmt.Errorf("%s: %w", opt.ConfigPath, err)
+		}
+	}
+	if set.Demo {
+		fmt.Fprintln(log, "chord: "+DemoWarning)
+	}
+	runID := newRunID()
+	j, err := newJob(r, set, runID)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", opt.ConfigPath, err)
+	}
+	cfgHash, err := fileSHA256(opt.ConfigPath)
+	if err != nil {
+		return nil, err
+	}
+	abs, _ := filepath.Abs(opt.ConfigPath)
+	info := RunInfo{Version: Version, RunID: runID, Created: time.Now().UTC().Format(time.RFC3339), ConfigFile: abs, Demo: set.Demo,
+		Inputs: append([]InputFile{{Role: "configuration", Path: abs, SHA256: cfgHash}}, j.inputs...)}
+	var buf bytes.Buffer
+	if err := r.WriteTOML(&buf); err != nil {
+		return nil, err
+	}
+	buf.WriteString("\n# The run: program version, identity and the SHA-256 of every input file.\n")
+	if err := toml.NewEncoder(&buf).Encode(struct {
+		Run RunInfo `toml:"run"`
+	}{info}); err != nil {
+		return nil, err
+	}
+	if err := writeFileAtomic(osFS{}, filepath.Join(opt.RunDir, RunFile), buf.Bytes()); err != nil {
+		return nil, fmt.Errorf("writing %s: %w", RunFile, err)
+	}
+	fmt.Fprintf(log, "chord: run %s: %d free parameters, %d walkers, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.Walkers, r.Seed, describeStop(r.Stop))
+	out, err := StartRun(ctx, opt.RunDir, j.spec, RunOptions{Workers: r.Workers, Stop: r.Stop, Progress: opt.Progress})
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", opt.RunDir, err)
+	}
+	return j.finish(opt.RunDir, out)
+}
+
+func describeStop(s StopRule) string {
+	switch {
+	case s.Steps > 0:
+		return fmt.Sprintf("%d steps", s.Steps)
+	case s.Budget > 0:
+		return "a budget of " + secs(s.Budget).String()
+	}
+	return fmt.Sprintf("until converged (chain longer than %g tau, tau stable to 1%%)", ConvergedTaus)
+}
+
+// finish reports a run session unless it was interrupted.
+func (j *job) finish(dir string, out *RunOutcome) (*RunReport, error) {
+	rep := &RunReport{Dir: dir, Walkers: j.res.Walkers, Outcome: out}
+	if out.Stop == sampler.StopCanceled {
+		return rep, nil
+	}
+	s, txt, err := j.report(dir, 0, true, 1, out)
+	if err != nil {
+		return rep, fmt.Errorf("%s: report: %w", dir, err)
+	}
+	rep.Summary, rep.SummaryText = s, txt
+	return rep, nil
+}
+
+// loadRun reads run.toml of dir, resolves it, loads the opacities and
+// builds the job; it checks that the inputs are those the run started
+// with, naming any that changed.
+func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo, error) {
+	path := filepath.Join(dir, RunFile)
+	if _, err := os.Stat(path); err != nil {
+		return nil, nil, fmt.Errorf("%s is not a run directory: %w", dir, err)
+	}
+	rf := &runFile{}
+	if _, err := DecodeStrict(path, rf); err != nil {
+		return nil, nil, err
+	}
+	rf.Config.BaseDir = dir
+	r, err := rf.Config.Resolve()
+	if err != nil {
+		return nil, nil, fmt.Errorf("%s: %w", path, err)
+	}
+	for _, in := range rf.Run.Inputs {
+		if in.Role == "configuration" {
+			continue // the run uses run.toml, not the original file
+		}
+		h, err := fileSHA256(in.Path)
+		if err != nil {
+			return nil, nil, fmt.Errorf("%s: input %s of the run: %w", dir, in.Path, err)
+		}
+		if h != in.SHA256 {
+			return nil, nil, fmt.Errorf("%s: the %s file %s changed since the run started (SHA-256 %s, run.toml records %s): the chain cannot be continued or reported against it; restore the file, or start a new run with chord fit", dir, in.Role, in.Path, short(h), short(in.SHA256))
+		}
+	}
+	if cache, err = demoCache(cache, r); err != nil {
+		return nil, nil, err
+	}
+	if log == nil {
+		log = io.Discard
+	}
+	if set == nil {
+		if set, err = r.Config.LoadOpacity(cache, log); err != nil {
+			return nil, nil, fmt.Errorf("%s: %w", path, err)
+		}
+	}
+	j, err := newJob(r, set, rf.Run.RunID)
+	if err != nil {
+		return nil, nil, fmt.Errorf("%s: %w", path, err)
+	}
+	return j, &rf.Run, nil
+}
+
+// ResumeOptions configures Resume.
+type ResumeOptions struct {
+	Stop      StopRule // the zero rule keeps the run's
+	Workers   *int     // overrides the run's workers
+	DemoCache string
+	Progress  Progress
+	Log       io.Writer
+	// Opacity, when not nil, are the run's tables already loaded (a plan's
+	// fits share one set); nil loads them.
+	Opacity *opacity.Set
+}
+
+// Resume continues the run in dir from its checkpoint and reports it.
+func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, error) {
+	log := opt.Log
+	if log == nil {
+		log = opt.Progress.Writer
+	}
+	j, _, err := loadRun(dir, opt.DemoCache, opt.Opacity, log)
+	if err != nil {
+		return nil, err
+	}
+	if j.set.Demo && log != nil {
+		fmt.Fprintln(log, "chord: "+DemoWarning)
+	}
+	workers := j.res.Workers
+	if opt.Workers != nil {
+		if *opt.Workers < 0 {
+			return nil, fmt.Errorf("--workers %d: must not be negative", *opt.Workers)
+		}
+		workers = *opt.Workers
+	}
+	out, err := ContinueRun(ctx, dir, j.spec, RunOptions{Workers: workers, Stop: opt.Stop, Progress: opt.Progress})
+	if err != nil {
+		return nil, err
+	}
+	if log != nil {
+		if len(out.Removed) > 0 {
+			fmt.Fprintf(log, "chord: removed %s (rows written after the checkpoint; sampled again)\n", strings.Join(out.Removed, ", "))
+		}
+		if out.Recovered {
+			fmt.Fprintln(log, "chord: the newest chain part was damaged; resumed from the checkpoint's previous state, one part earlier")
+		}
+	}
+	return j.finish(dir, out)
+}
+
+// ReportRunOptions configures Report.
+type ReportRunOptions struct {
+	Burn      int
+	BurnAuto  bool
+	Thin      int
+	DemoCache string
+}
+
+// Report recomputes the summaries and plots of the run in dir; it returns
+// the summary and its text.
+func Report(dir string, opt ReportRunOptions) (*Summary, string, error) {
+	j, _, err := loadRun(dir, opt.DemoCache, nil, nil)
+	if err != nil {
+		return nil, "", err
+	}
+	return j.report(dir, opt.Burn, opt.BurnAuto, max(opt.Thin, 1), nil)
 }

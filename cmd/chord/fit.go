@@ -1,0 +1,137 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"os/signal"
+	"syscall"
+	"time"
+
+	"github.com/urfave/cli/v2"
+	"golang.org/x/term"
+
+	"chord/retrieve"
+	"chord/sampler"
+)
+
+// stopFlags are the stopping-rule options shared by fit and resume.
+var stopFlags = []cli.Flag{
+	&cli.IntFlag{Name: "steps", Usage: "stop when the chain holds `N` steps in total"},
+	&cli.DurationFlag{Name: "budget", Usage: "stop when the run has sampled for `DURATION` in total (e.g. 8h, 90m)"},
+	&cli.BoolFlag{Name: "until-converged", Usage: "stop when the chain is longer than 50 autocorrelation times, tau stable to 1%"},
+	&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior (default: the configuration's, else one per core)"},
+}
+
+func init() {
+	commands = append(commands, &cli.Command{
+		Name:      "fit",
+		Usage:     "sample the posterior of a retrieval configuration into a run directory",
+		ArgsUsage: " ",
+		Description: "Validates the configuration, observations, opacities, priors and initial walkers,\n" +
+			"then samples, writing chains, checkpoints and, at the end, summary.json, summary.txt,\n" +
+			"corner.png and spectrum.png to the run directory. Progress goes to stderr.\n" +
+			"SIGINT or SIGTERM finishes the current step, writes a checkpoint and exits with\n" +
+			"code 3; continue with `chord resume RUNDIR`.",
+		Flags: append([]cli.Flag{
+			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "retrieval configuration `FILE` (TOML)", Required: true},
+			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "run `DIR` to create (must be empty or absent)", Required: true},
+			&cli.Uint64Flag{Name: "seed", Usage: "random seed `N` (default: the configuration's, else a fresh one, recorded)"},
+			&cli.BoolFlag{Name: "force", Usage: "replace the run in a non-empty run directory"},
+			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+		}, stopFlags...),
+		Action: runFit,
+	})
+}
+
+// stopRule reads the stopping-rule flags; the zero rule means "not given".
+func stopRule(c *cli.Context) (retrieve.StopRule, error) {
+	var s retrieve.StopRule
+	n := 0
+	if c.IsSet("steps") {
+		n++
+		if s.Steps = c.Int("steps"); s.Steps < 1 {
+			return s, fmt.Errorf("--steps %d: must be at least 1", s.Steps)
+		}
+	}
+	if c.IsSet("budget") {
+		n++
+		d := c.Duration("budget")
+		if d <= 0 {
+			return s, fmt.Errorf("--budget %v: must be positive", d)
+		}
+		s.Budget = d.Seconds()
+	}
+	if c.Bool("until-converged") {
+		n++
+		s.UntilConverged = true
+	}
+	if n > 1 {
+		return s, fmt.Errorf("give at most one of --steps, --budget and --until-converged")
+	}
+	return s, nil
+}
+
+// session holds what fit, resume and demo share: the signal context and
+// the progress settings.
+func session(c *cli.Context) (context.Context, context.CancelFunc, retrieve.Progress) {
+	ctx, cancel := signal.NotifyContext(c.Context, os.Interrupt, syscall.SIGTERM)
+	p := retrieve.Progress{
+		Writer:   c.App.ErrWriter,
+		Terminal: term.IsTerminal(int(os.Stderr.Fd())) && c.App.ErrWriter == os.Stderr,
+	}
+	if s := os.Getenv("CHORD_LOG_INTERVAL"); s != "" {
+		if d, err := time.ParseDuration(s); err == nil {
+			p.LogInterval = d
+		}
+	}
+	return ctx, cancel, p
+}
+
+func runFit(c *cli.Context) error {
+	if c.NArg() > 0 {
+		return fmt.Errorf("fit: unexpected argument %q", c.Args().First())
+	}
+	stop, err := stopRule(c)
+	if err != nil {
+		return err
+	}
+	ctx, cancel, prog := session(c)
+	defer cancel()
+	opt := retrieve.FitOptions{
+		ConfigPath: c.String("config"), RunDir: c.String("output"), Force: c.Bool("force"),
+		Stop: stop, DemoCache: c.String("demo-cache"), Progress: prog,
+	}
+	if c.IsSet("seed") {
+		s := c.Uint64("seed")
+		opt.Seed = &s
+	}
+	if c.IsSet("workers") {
+		w := c.Int("workers")
+		opt.Workers = &w
+	}
+	rep, err := retrieve.Fit(ctx, opt)
+	return finishRun(c, rep, err)
+}
+
+// finishRun prints the end of a fit or resume and maps an interruption to
+// errInterrupted.
+func finishRun(c *cli.Context, rep *retrieve.RunReport, err error) error {
+	if err != nil {
+		return err
+	}
+	w := c.App.ErrWriter
+	out := rep.Outcome
+	fmt.Fprintf(w, "chord: %s: %d steps in the chain (%d this session, %s, %.0f evaluations/s); stopped: %v\n",
+		rep.Dir, out.Step, out.Steps, out.Elapsed.Round(time.Second), float64(out.Steps*rep.Walkers)/max(out.Elapsed.Seconds(), 1e-9), out.Stop)
+	if out.Stop == sampler.StopCanceled {
+		fmt.Fprintf(w, "chord: interrupted; the chain and a checkpoint at step %d are saved.\n", out.Step)
+		fmt.Fprintf(w, "chord: continue it with:  chord resume %s\n", rep.Dir)
+		return errInterrupted
+	}
+	if rep.Summary != nil {
+		fmt.Fprintf(c.App.Writer, "%s\n", rep.SummaryText)
+		fmt.Fprintf(w, "chord: summary.json, summary.txt, corner.png and spectrum.png written to %s\n", rep.Dir)
+	}
+	return nil
+}

@@ -1,0 +1,52 @@
+package main
+
+import (
+	"fmt"
+	"strconv"
+
+	"github.com/urfave/cli/v2"
+
+	"chord/retrieve"
+)
+
+func init() {
+	commands = append(commands, &cli.Command{
+		Name:      "report",
+		Usage:     "recompute a run's summaries and plots from its chains",
+		ArgsUsage: "RUNDIR",
+		Description: "Reads the checkpointed chain of RUNDIR and writes summary.json, summary.txt,\n" +
+			"corner.png and spectrum.png. --burn auto drops 3 autocorrelation times (at most half\n" +
+			"the chain).",
+		Flags: []cli.Flag{
+			&cli.StringFlag{Name: "burn", Value: "auto", Usage: "burn-in: `N` steps, or auto"},
+			&cli.IntFlag{Name: "thin", Value: 1, Usage: "keep every `N`-th step for the intervals and plots"},
+			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+		},
+		Action: runReport,
+	})
+}
+
+func runReport(c *cli.Context) error {
+	if c.NArg() != 1 {
+		return fmt.Errorf("report: give one run directory (got %d arguments)", c.NArg())
+	}
+	opt := retrieve.ReportRunOptions{Thin: c.Int("thin"), DemoCache: c.String("demo-cache")}
+	if b := c.String("burn"); b == "auto" {
+		opt.BurnAuto = true
+	} else {
+		n, err := strconv.Atoi(b)
+		if err != nil || n < 0 {
+			return fmt.Errorf("--burn %q: give a number of steps >= 0, or auto", b)
+		}
+		opt.Burn = n
+	}
+	if opt.Thin < 1 {
+		return fmt.Errorf("--thin %d: must be at least 1", opt.Thin)
+	}
+	_, text, err := retrieve.Report(c.Args().First(), opt)
+	if err != nil {
+		return err
+	}
+	fmt.Fprint(c.App.Writer, text)
+	return nil
+}

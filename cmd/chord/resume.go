@@ -1,0 +1,44 @@
+package main
+
+import (
+	"fmt"
+
+	"github.com/urfave/cli/v2"
+
+	"chord/retrieve"
+)
+
+func init() {
+	commands = append(commands, &cli.Command{
+		Name:      "resume",
+		Usage:     "continue a stopped or killed run from its checkpoint",
+		ArgsUsage: "RUNDIR",
+		Description: "Continues the very same chain, bit for bit, after an interruption, SIGKILL or power\n" +
+			"loss: rows written after the checkpoint are removed and sampled again. Without a\n" +
+			"stopping option it carries on toward the run's own rule; --steps N sets the run's total\n" +
+			"length and --budget its total sampling time, as in `chord fit`.",
+		Flags: append([]cli.Flag{
+			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+		}, stopFlags...),
+		Action: runResume,
+	})
+}
+
+func runResume(c *cli.Context) error {
+	if c.NArg() != 1 {
+		return fmt.Errorf("resume: give one run directory (got %d arguments)", c.NArg())
+	}
+	stop, err := stopRule(c)
+	if err != nil {
+		return err
+	}
+	ctx, cancel, prog := session(c)
+	defer cancel()
+	opt := retrieve.ResumeOptions{Stop: stop, DemoCache: c.String("demo-cache"), Progress: prog}
+	if c.IsSet("workers") {
+		w := c.Int("workers")
+		opt.Workers = &w
+	}
+	rep, err := retrieve.Resume(ctx, c.Args().First(), opt)
+	return finishRun(c, rep, err)
+}
