@@ -410,7 +410,7 @@ func (c *ExoMolConverter) Line(up, lo int, a, nu float64) Line {
 // error with file and line.
 func (c *ExoMolConverter) ScanExoMolTrans(r io.Reader, name string, fn func(Line) error) error {
 	br := bufio.NewReaderSize(r, 256*1024)
-	var fields []string
+	var fields [][]byte // aliases the reader's buffer: no allocation per row
 	n := 0
 	for {
 		raw, err := br.ReadSlice('\n')
@@ -424,7 +424,7 @@ func (c *ExoMolConverter) ScanExoMolTrans(r io.Reader, name string, fn func(Line
 			return fmt.Errorf("exomol: %s: line %d: %w", name, n+1, err)
 		}
 		n++
-		fields = exomolFields(fields[:0], string(raw))
+		fields = exomolFields(fields[:0], raw)
 		if len(fields) == 0 {
 			if err == io.EOF {
 				return nil
@@ -434,8 +434,8 @@ func (c *ExoMolConverter) ScanExoMolTrans(r io.Reader, name string, fn func(Line
 		if len(fields) < 3 {
 			return fmt.Errorf("exomol: %s:%d: %d columns, want at least 3 (i_upper, i_lower, A)", name, n, len(fields))
 		}
-		iu, e1 := strconv.ParseInt(fields[0], 10, 64)
-		il, e2 := strconv.ParseInt(fields[1], 10, 64)
+		iu, e1 := strconv.ParseInt(string(fields[0]), 10, 64)
+		il, e2 := strconv.ParseInt(string(fields[1]), 10, 64)
 		if e1 != nil || e2 != nil {
 			return fmt.Errorf("exomol: %s:%d: state ids %q %q are not integers", name, n, fields[0], fields[1])
 		}
@@ -448,13 +448,13 @@ func (c *ExoMolConverter) ScanExoMolTrans(r io.Reader, name string, fn func(Line
 			}
 			return fmt.Errorf("exomol: %s:%d: state id %d is not in the states file", name, n, bad)
 		}
-		a, perr := strconv.ParseFloat(fields[2], 64)
+		a, perr := strconv.ParseFloat(string(fields[2]), 64)
 		if perr != nil || !(a >= 0) || math.IsInf(a, 0) {
 			return fmt.Errorf("exomol: %s:%d: Einstein A %q is not a finite non-negative number", name, n, fields[2])
 		}
 		var nu float64
 		if len(fields) >= 4 {
-			nu, perr = strconv.ParseFloat(fields[len(fields)-1], 64)
+			nu, perr = strconv.ParseFloat(string(fields[len(fields)-1]), 64)
 			if perr != nil {
 				return fmt.Errorf("exomol: %s:%d: wavenumber %q is not a number", name, n, fields[len(fields)-1])
 			}
@@ -599,8 +599,9 @@ func exomolOpen(path string) (io.Reader, func(), error) {
 	return r, func() { f.Close() }, nil
 }
 
-// exomolFields appends the whitespace-separated fields of s to dst.
-func exomolFields(dst []string, s string) []string {
+// exomolFields appends the whitespace-separated fields of s to dst; the
+// fields alias s.
+func exomolFields[S string | []byte](dst []S, s S) []S {
 	i := 0
 	for i < len(s) {
 		for i < len(s) && exomolSpace(s[i]) {
