@@ -393,3 +393,36 @@ func TestConcurrentTransit(t *testing.T) {
 		}
 	}
 }
+
+// FuzzTransitState: no state makes Transit panic or return a depth that
+// is NaN or negative without an error.
+func FuzzTransitState(f *testing.F) {
+	m, s0 := testModel(f, nil)
+	w := m.NewWorkspace()
+	d := make([]float64, m.OutputLen())
+	f.Add(1e-3, 3e-4, 0.17, 1.0, 1.0, 0.0, 1.0, 0.0, -4.0, 1200.0)
+	f.Add(0.5, 0.4, 0.0, 0.2, 5.0, 1e-3, 0.3, 1e3, -10.0, 3000.0)
+	f.Add(0.0, 0.0, 1.0, 3.0, 0.05, 1e7, 0.0, 1.0, 2.0, 50.0)
+	f.Fuzz(func(t *testing.T, x0, x1, heh2, rad, mass, top, frac, haze, slope, temp float64) {
+		s := s0
+		s.VMR = []float64{x0, x1, 0}
+		s.HeH2 = heh2
+		s.RefRadius *= rad
+		s.Mass *= mass
+		s.CloudTop, s.CloudFraction = top, frac
+		s.HazeFactor, s.HazeSlope = haze, slope
+		s.Profile = &Isothermal{T: temp}
+		if err := m.Transit(d, &s, w); err != nil {
+			var se *StateError
+			if !errors.As(err, &se) {
+				t.Fatalf("error %v is not a *StateError", err)
+			}
+			return
+		}
+		for k, v := range d {
+			if math.IsNaN(v) || v < 0 {
+				t.Fatalf("point %d: depth %g", k, v)
+			}
+		}
+	})
+}
