@@ -36,7 +36,7 @@ const (
 )
 
 var (
-	demoLog10P = linspace(-2, 7, 13) // log10(P / Pa)
+	demoLog10P = demoLinspace(-2, 7, 13) // log10(P / Pa)
 	demoT      = []float64{200, 300, 400, 500, 600, 800, 1000, 1200, 1400, 1600, 1800, 2000}
 	demoCIAT   = []float64{200, 300, 400, 600, 800, 1000, 1500, 2000, 2500, 3000}
 )
@@ -74,7 +74,7 @@ func demoWavenumbers(r float64) []float64 {
 	return out
 }
 
-func linspace(a, b float64, n int) []float64 {
+func demoLinspace(a, b float64, n int) []float64 {
 	out := make([]float64, n)
 	for i := range out {
 		out[i] = a + (b-a)*float64(i)/float64(n-1)
