@@ -192,6 +192,13 @@ func EstimateEdgeDensity(samples []float64, low, high, ess float64) (EdgeDensity
 	}
 	x := slices.Clone(samples)
 	slices.Sort(x)
+	return edgeDensitySorted(x, low, high, ess)
+}
+
+// edgeDensitySorted is EstimateEdgeDensity on sorted samples, with bounds
+// checked and ess in [MinEffectiveSamples, len(x)].
+func edgeDensitySorted(x []float64, low, high, ess float64) (EdgeDensity, error) {
+	n := float64(len(x))
 	if math.IsNaN(x[0]) || math.IsNaN(x[len(x)-1]) {
 		return EdgeDensity{}, fmt.Errorf("samples contain NaN")
 	}
@@ -394,7 +401,7 @@ func ClassifyGas(samples []float64, low, high, ess float64) (GasDetection, error
 		d.Note = fmt.Sprintf("%.0f effective samples, fewer than %d: no significance", ess, MinEffectiveSamples)
 		return d, nil
 	}
-	e, err := EstimateEdgeDensity(x, low, high, ess)
+	e, err := edgeDensitySorted(x, low, high, ess)
 	if err != nil {
 		return GasDetection{}, err
 	}
