@@ -1,6 +1,7 @@
 package retrieve
 
 import (
+	"context"
 	"math"
 	"math/rand/v2"
 	"sync"
@@ -10,6 +11,7 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 
 	"chord/forward"
+	"chord/sampler"
 )
 
 // likelihoodX is a valid point of testdata/cfg/likelihood.toml, in
@@ -285,5 +287,52 @@ func TestConcurrentEvaluators(t *testing.T) {
 		if got[k] != want[k] {
 			t.Errorf("point %d: %g concurrently, %g alone", k, got[k], want[k])
 		}
+	}
+}
+
+// TestExampleRetrieval loads testdata/retrieval-example.toml of the
+// repository (the invented Quillon b, two data sets, demo opacities),
+// checks the posterior at the truth its observations were simulated from
+// (testdata/gen-retrieval-example) and takes a few ensemble steps from
+// prior draws. At the truth the chi-square of N bins with correct errors
+// is N ± sqrt(2N) (chi-square distribution, fact of statistics); 5 sqrt(2N)
+// allows for the one noise draw. The demo tables are built on first use
+// and cached (retrieve.DemoCacheDir).
+func TestExampleRetrieval(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds or loads the demo opacities")
+	}
+	r, err := LoadConfig("../testdata/retrieval-example.toml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	cache, err := DemoCacheDir()
+	if err != nil {
+		t.Skip(err)
+	}
+	set, err := r.Config.LoadOpacity(cache, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	p, err := NewProblem(r, set)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The truth of testdata/gen-retrieval-example/main.go.
+	truth := []float64{-3, -5, math.Log10(5e-4), -6, 1300, 1.05, -2, 0.6, math.Log10(5), 120, 0}
+	extra := make([]float64, p.NumExtra())
+	if lp := p.NewEvaluator().LogProb(truth, extra); math.IsInf(lp, -1) {
+		t.Fatalf("truth rejected: %v", p.Rejections())
+	}
+	n := float64(p.Model().OutputLen())
+	if chi2 := extra[3]; math.Abs(chi2-n) > 5*math.Sqrt(2*n) {
+		t.Errorf("chi2 at the truth %g for %g bins", chi2, n)
+	}
+	st, err := sampler.InitPrior(context.Background(), p, p.DrawPrior, sampler.InitSettings{Walkers: r.Walkers, Seed: r.Seed})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, _, err := sampler.Run(context.Background(), p, st, sampler.Settings{MaxSteps: 3}, nil); err != nil {
+		t.Fatal(err)
 	}
 }
