@@ -316,6 +316,13 @@ func TestBuildBadInputs(t *testing.T) {
 			t.Errorf("case %d: error %v, want one containing %q", i, err, c.want)
 		}
 	}
+	// A grid far coarser than the lines is built, with a warning.
+	s := ok()
+	s.Wavenumber = uniformGrid(1990, 2010, 2)
+	tab, err := BuildXSec(line, syntheticIso(), s)
+	if err != nil || !strings.Contains(tab.Meta[MetaWarnings], "opacity sampling") {
+		t.Errorf("coarse grid: %v, warnings %q", err, tab.Meta[MetaWarnings])
+	}
 	if _, err := BuildXSec(line, syntheticIso(), nil); err == nil {
 		t.Error("nil settings accepted")
 	}
