@@ -69,7 +69,10 @@ func TestGreyRadiusHengKitzmann(t *testing.T) {
 			if layers >= 200 && math.Abs(diff) > 0.02 {
 				t.Errorf("n=%g, %d layers: R differs from the formula by %.4f H, want under 0.02 H", n, layers, diff)
 			}
-			_ = prev
+			// Refining the layers must bring the model closer to the formula.
+			if layers > 50 && math.Abs(diff) > math.Abs(prev) {
+				t.Errorf("n=%g: difference grew from %.4f H to %.4f H at %d layers", n, prev, diff, layers)
+			}
 			prev = diff
 		}
 	}
