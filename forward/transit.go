@@ -13,6 +13,14 @@ import (
 // the core's L2 cache while the triangular path matrix is applied.
 const blockLen = 256
 
+// Panic messages for programmer errors (user input never reaches them).
+const (
+	badOutputLen = "forward: Transit: dst length differs from Model.OutputLen"
+	badFineLen   = "forward: TransitFine: dst length differs from the model grid"
+	badWorkspace = "forward: workspace belongs to another model"
+	badVMRLen    = "forward: State.VMR length differs from Model.Gases"
+)
+
 // satTau is the slant optical depth beyond which 1 - exp(-tau) rounds to
 // 1 in float64 (exp(-37.5) is below half an ulp of 1).
 const satTau = 38
@@ -121,7 +129,7 @@ func (w *Workspace) fail(kind error, param string, v float64) error {
 // clouds mix cloudy and clear limbs.
 func (m *Model) Transit(dst []float64, s *State, w *Workspace) error {
 	if len(dst) != m.nOut {
-		panic("forward: Transit: dst length differs from Model.OutputLen")
+		panic(badOutputLen)
 	}
 	if m.bins == nil {
 		return m.TransitFine(dst, s, w)
@@ -137,13 +145,13 @@ func (m *Model) Transit(dst []float64, s *State, w *Workspace) error {
 // depth on the model grid, unbinned.
 func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
 	if w.m != m {
-		panic("forward: workspace belongs to another model")
+		panic(badWorkspace)
 	}
 	if len(dst) != len(m.wl) {
-		panic("forward: TransitFine: dst length differs from the model grid")
+		panic(badFineLen)
 	}
 	if len(s.VMR) != len(m.gases) {
-		panic("forward: State.VMR length differs from Model.Gases")
+		panic(badVMRLen)
 	}
 	w.Clamped = false
 	if err := m.checkState(s, w); err != nil {
