@@ -35,7 +35,24 @@ type Config struct {
 	ModelConfig
 	Observations []ObservationConfig `toml:"observations"`
 	Parameters   []ParameterConfig   `toml:"parameters"`
+	Composition  CompositionConfig   `toml:"composition"`
 	Sampler      SamplerConfig       `toml:"sampler"`
+}
+
+// CompositionConfig is [composition]: the joint prior of the mixing
+// ratios. The default, "independent", gives each log10_vmr parameter its
+// own prior, the fill gas making up the rest (trace gases summing above 1
+// are rejected). "clr" is the centred-log-ratio prior of Benneke & Seager
+// (2012, ApJ 753, 100) for atmospheres whose dominant gas is unknown: the
+// gases listed and the fill gas (atmosphere.fill, one component) are
+// treated alike, the free parameters are the centred-log-ratio coordinates
+// xi_g = ln(X_g / geometric mean of X) of the listed gases (named clr_<gas>),
+// and the prior is uniform in them wherever every mixing ratio, the fill
+// gas's included, is at least min_vmr (see priors.CLR).
+type CompositionConfig struct {
+	Prior  string   `toml:"prior"`   // "independent" (default) or "clr"
+	Gases  []string `toml:"gases"`   // clr: the gases besides the fill gas, at least one
+	MinVMR *float64 `toml:"min_vmr"` // clr: lowest mixing ratio of every gas; default 1e-12
 }
 
 // ObservationConfig is one [[observations]] table.
@@ -111,6 +128,9 @@ const (
 	QHazeSlope        Quantity = "haze_slope"          // haze power-law slope gamma
 	QOffsetPPM        Quantity = "offset_ppm"          // depth offset of Dataset, ppm (model + offset)
 	QErrorInflationPM Quantity = "error_inflation_ppm" // s of sigma_eff^2 = sigma^2 + s^2, ppm
+	// QCLR is a centred-log-ratio coordinate of Gas; these parameters come
+	// from [composition] prior = "clr", not from [[parameters]].
+	QCLR Quantity = "clr"
 )
 
 // Quantities lists every quantity, in the order of the README.
@@ -145,11 +165,15 @@ type Resolved struct {
 	Datasets []*Dataset
 	Free     []Param // sampled, in parameter-vector order
 	Fixed    []Param // held at their Fixed value
-	Walkers  int
-	Seed     uint64
-	Stop     StopRule
-	Workers  int
-	Move     string
+	// CLR is the joint prior of the clr parameters, which are the last
+	// len(CLR.Gases)-1 free parameters; nil without [composition] prior =
+	// "clr".
+	CLR     *priors.CLR
+	Walkers int
+	Seed    uint64
+	Stop    StopRule
+	Workers int
+	Move    string
 	// Notes are remarks for the run's log (sorted observations, averaged
 	// asymmetric errors, a generated seed).
 	Notes []string
@@ -270,6 +294,9 @@ func (c *Config) Resolve() (*Resolved, error) {
 	if err := r.resolveParams(c, &full); err != nil {
 		return nil, err
 	}
+	if err := r.resolveComposition(c, &full); err != nil {
+		return nil, err
+	}
 	if len(r.Free) == 0 {
 		return nil, errors.New("parameters: no free parameter (every [[parameters]] table is fixed, or there are none)")
 	}
@@ -291,6 +318,67 @@ func (c *Config) Resolve() (*Resolved, error) {
 	}
 	r.Config = full
 	return r, nil
+}
+
+// resolveComposition adds the centred-log-ratio parameters of
+// [composition] prior = "clr" at the end of the free parameters.
+func (r *Resolved) resolveComposition(c *Config, full *Config) error {
+	cc := c.Composition
+	switch cc.Prior {
+	case "", "independent":
+		if cc.Gases != nil || cc.MinVMR != nil {
+			return keyErr("composition.prior", "composition.gases and composition.min_vmr apply only to prior = \"clr\"")
+		}
+		full.Composition = CompositionConfig{Prior: "independent"}
+		return nil
+	case "clr":
+	default:
+		return keyErr("composition.prior", "unknown composition prior %q (independent, clr)", cc.Prior)
+	}
+	if len(cc.Gases) == 0 {
+		return errors.New("missing key: composition.gases (the gases of the centred-log-ratio prior besides the fill gas)")
+	}
+	minVMR := 1e-12
+	if cc.MinVMR != nil {
+		minVMR = *cc.MinVMR
+	}
+	names := append(append([]string(nil), cc.Gases...), c.fillName())
+	for _, g := range cc.Gases {
+		if _, err := forward.MolecularMass(g); err != nil {
+			return keyErr("composition.gases", "unknown gas %q (known: %s)", g, strings.Join(forward.KnownGases(), ", "))
+		}
+		for _, f := range c.fillSpecies() {
+			if f == g {
+				return keyErr("composition.gases", "%q is the fill gas (%s), the last component of the prior; list the others", g, c.fillName())
+			}
+		}
+		for _, p := range append(append([]Param(nil), r.Free...), r.Fixed...) {
+			if p.Sets == QLog10VMR && p.Gas == g {
+				return keyErr(p.key+".gas", "the mixing ratio of %q is set by the centred-log-ratio prior (composition.gases)", g)
+			}
+		}
+		if _, ok := full.Atmosphere.Gases[g]; !ok {
+			full.Atmosphere.Gases[g] = 0 // set by the prior's parameters
+		}
+	}
+	clr, err := priors.NewCLR(names, minVMR)
+	if err != nil {
+		return keyErr("composition", "%v", err)
+	}
+	r.CLR = clr
+	box := priors.Uniform{Low: clr.XiLow, High: clr.XiHigh}
+	for _, g := range cc.Gases {
+		name := "clr_" + g
+		for _, p := range append(append([]Param(nil), r.Free...), r.Fixed...) {
+			if p.Name == name {
+				return keyErr(p.key+".name", "%q is the name of a centred-log-ratio parameter of composition.gases", name)
+			}
+		}
+		r.Free = append(r.Free, Param{Name: name, Sets: QCLR, Gas: g, Dataset: -1, Prior: box, key: "composition.gases"})
+	}
+	mv := minVMR
+	full.Composition = CompositionConfig{Prior: "clr", Gases: append([]string(nil), cc.Gases...), MinVMR: &mv}
+	return nil
 }
 
 // overlapping rejects two data sets with a bin in common: the same
@@ -328,6 +416,9 @@ func (r *Resolved) resolveParams(c *Config, full *Config) error {
 		known := false
 		for _, k := range Quantities {
 			known = known || k == q
+		}
+		if q == QCLR {
+			return keyErr(key+".sets", "centred-log-ratio coordinates are not set by [[parameters]]: give [composition] prior = \"clr\" with its gases")
 		}
 		if !known {
 			return keyErr(key+".sets", "unknown quantity %q (known: %s)", pc.Sets, quantityNames())

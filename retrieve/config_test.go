@@ -51,7 +51,7 @@ func TestConfigResolve(t *testing.T) {
 // TestResolvedRoundTrip: the resolved configuration written as TOML decodes
 // to the same resolved configuration (what a run directory relies on).
 func TestResolvedRoundTrip(t *testing.T) {
-	for _, name := range []string{"good.toml", "two-datasets.toml"} {
+	for _, name := range []string{"good.toml", "two-datasets.toml", "clr.toml", "likelihood.toml"} {
 		r := loadGood(t, name)
 		var buf bytes.Buffer
 		if err := r.WriteTOML(&buf); err != nil {
@@ -158,6 +158,13 @@ func TestBadConfigs(t *testing.T) {
 		{"cfg-reserved-name.toml", `parameters[1].name: "step"`},
 		{"cfg-syntax.toml", "line 27: expected value"},
 		{"cfg-model-invalid.toml", `atmosphere.temperature.t_irr_k: does not apply to profile "isothermal"`},
+		{"cfg-clr-and-vmr.toml", `parameters[3].gas: the mixing ratio of "H2O" is set by the centred-log-ratio prior (composition.gases)`},
+		{"cfg-clr-unknown-prior.toml", `composition.prior: unknown composition prior "dirichlet"`},
+		{"cfg-clr-fill-in-gases.toml", `composition.gases: "N2" is the fill gas (N2)`},
+		{"cfg-clr-no-gases.toml", "missing key: composition.gases"},
+		{"cfg-clr-in-parameters.toml", "parameters[3].sets: centred-log-ratio coordinates are not set by [[parameters]]"},
+		{"cfg-clr-min-vmr.toml", "composition: priors: centred-log-ratio prior: lowest mixing ratio 0.5 must lie in (0, 1/3)"},
+		{"cfg-clr-keys-independent.toml", "composition.prior: composition.gases and composition.min_vmr apply only to prior"},
 		{"cfg-inflation-twice.toml", "parameters[3].dataset: an error_inflation_ppm parameter for every data set is given too (parameters[2])"},
 	}
 	// Errors found only once the model and opacities are known.

@@ -53,6 +53,13 @@ type Problem struct {
 	lnVarSum float64
 	inflate  bool // some error_inflation_ppm parameter is free or fixed
 
+	// clr is the centred-log-ratio prior of the last clrN free
+	// parameters (nil for none); clrGas are their gases' indices in
+	// State.VMR.
+	clr    *priors.CLR
+	clrN   int
+	clrGas []int
+
 	counts [numReasons]atomic.Int64
 	evals  atomic.Int64
 	clamp  atomic.Int64
@@ -163,6 +170,12 @@ func NewProblem(r *Resolved, set *opacity.Set) (*Problem, error) {
 	}
 	for _, par := range r.Free {
 		p.free = append(p.free, bind(par))
+		if par.Sets == QCLR {
+			p.clrGas = append(p.clrGas, p.gasIndex[par.Gas])
+		}
+	}
+	if r.CLR != nil {
+		p.clr, p.clrN = r.CLR, r.CLR.Dim()
 	}
 	for _, par := range r.Fixed {
 		p.fixed = append(p.fixed, bind(par))
@@ -222,7 +235,9 @@ func (p *Problem) ParamNames() []string {
 // chi-square with the (inflated) errors.
 func (p *Problem) ExtraNames() []string { return append([]string(nil), extraNames...) }
 
-// Priors returns the free parameters' priors, in vector order.
+// Priors returns the free parameters' priors, in vector order. For the
+// centred-log-ratio parameters it is the uniform box [XiLow, XiHigh] that
+// holds their joint prior (Resolved.CLR), not their marginal.
 func (p *Problem) Priors() []priors.Prior {
 	out := make([]priors.Prior, len(p.free))
 	for i, b := range p.free {
@@ -276,6 +291,7 @@ type PosteriorEvaluator struct {
 	spec  []float64 // model depth per bin
 	off   []float64 // offset per data set, fraction
 	s2    []float64 // inflation variance per data set, fraction^2
+	xvmr  []float64 // mixing ratios of the centred-log-ratio prior's gases
 	count bool      // count rejections (false for initial draws)
 }
 
@@ -289,6 +305,9 @@ func (p *Problem) NewPosteriorEvaluator() *PosteriorEvaluator {
 		off:   make([]float64, p.nDS),
 		s2:    make([]float64, p.nDS),
 		count: true,
+	}
+	if p.clr != nil {
+		e.xvmr = make([]float64, p.clrN+1)
 	}
 	e.state.VMR = append([]float64(nil), p.base.VMR...)
 	switch pr := p.base.Profile.(type) {
@@ -371,8 +390,12 @@ func (e *PosteriorEvaluator) LogProb(x, extra []float64) float64 {
 		p.evals.Add(1)
 	}
 	lp := 0.0
-	for i := range p.free {
+	nIndep := len(p.free) - p.clrN
+	for i := range nIndep {
 		lp += p.free[i].prior.LogProb(x[i])
+	}
+	if p.clr != nil {
+		lp += p.clr.LogProb(x[nIndep:], e.xvmr)
 	}
 	if math.IsInf(lp, -1) || math.IsNaN(lp) {
 		return e.reject(ReasonPrior, extra)
@@ -402,8 +425,17 @@ func (e *PosteriorEvaluator) evaluate(x []float64) (ll, chi2, fill float64, err 
 	for i := range p.fixed {
 		e.set(&p.fixed[i], p.fixed[i].value)
 	}
-	for i := range p.free {
+	nIndep := len(p.free) - p.clrN
+	for i := range nIndep {
 		e.set(&p.free[i], x[i])
+	}
+	if p.clr != nil {
+		// Mixing ratios from the clr coordinates; the fill gas is the last
+		// component and comes out as 1 - sum of the others.
+		p.clr.VMR(e.xvmr, x[nIndep:])
+		for j, gi := range p.clrGas {
+			s.VMR[gi] = e.xvmr[j]
+		}
 	}
 	fill = 1
 	for _, v := range s.VMR {
@@ -483,9 +515,15 @@ func (p *Problem) DrawPrior(dst []float64, rng *rand.Rand) error {
 		p.initEval.count = false
 	})
 	extra := make([]float64, len(extraNames))
+	nIndep := len(p.free) - p.clrN
 	for range 10000 {
-		for i := range p.free {
+		for i := range nIndep {
 			dst[i] = p.free[i].prior.Rand(rng)
+		}
+		if p.clr != nil {
+			if err := p.clr.Rand(dst[nIndep:], p.initEval.xvmr, rng); err != nil {
+				return err
+			}
 		}
 		if lp := p.initEval.LogProb(dst, extra); !math.IsInf(lp, -1) && !math.IsNaN(lp) {
 			return nil

@@ -11,6 +11,7 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 
 	"chord/forward"
+	"chord/priors"
 	"chord/sampler"
 )
 
@@ -334,5 +335,67 @@ func TestExampleRetrieval(t *testing.T) {
 	}
 	if _, _, err := sampler.Run(context.Background(), p, st, sampler.Settings{MaxSteps: 3}, nil); err != nil {
 		t.Fatal(err)
+	}
+}
+
+// TestCLRRetrieval: with [composition] prior = "clr" the last free
+// parameters are centred-log-ratio coordinates (Benneke & Seager 2012,
+// ApJ 753, 100); the mixing ratios they map to, the fill gas included,
+// are the composition whose coordinates they are (clr definition), and
+// prior draws are valid compositions.
+func TestCLRRetrieval(t *testing.T) {
+	r, p := loadProblem(t, "clr.toml")
+	names := p.ParamNames()
+	if len(names) != 4 || names[2] != "clr_CO2" || names[3] != "clr_H2O" || r.CLR == nil || len(r.CLR.Gases) != 3 || r.CLR.Gases[2] != "N2" {
+		t.Fatalf("parameters %v, clr prior %+v", names, r.CLR)
+	}
+	comp := []float64{0.3, 0.1, 0.6} // CO2, H2O, N2 (the fill)
+	xi := make([]float64, 2)
+	priors.CLRCoords(xi, comp)
+	x := []float64{500, 1.5, xi[0], xi[1]}
+	e := p.NewPosteriorEvaluator()
+	extra := make([]float64, p.NumExtra())
+	if lp := e.LogProb(x, extra); math.IsInf(lp, -1) {
+		t.Fatalf("valid composition rejected: %v", p.Rejections())
+	}
+	vmr := map[string]float64{}
+	for i, g := range p.Model().Gases() {
+		vmr[g] = e.state.VMR[i]
+	}
+	if !scalar.EqualWithinAbsOrRel(vmr["CO2"], 0.3, 0, 1e-14) || !scalar.EqualWithinAbsOrRel(vmr["H2O"], 0.1, 0, 1e-14) ||
+		!scalar.EqualWithinAbsOrRel(extra[2], 0.6, 0, 1e-14) {
+		t.Errorf("mixing ratios %v, fill %g; want CO2 0.3, H2O 0.1, N2 0.6", vmr, extra[2])
+	}
+	// Mean molecular weight 0.3 44.009 + 0.1 18.015 + 0.6 28.014 u
+	// (handbook masses, from memory; 1e-3 relative).
+	if mu := 0.3*44.009 + 0.1*18.015 + 0.6*28.014; !scalar.EqualWithinAbsOrRel(extra[1], mu, 0, 1e-3) {
+		t.Errorf("mean molecular weight %g, want %g", extra[1], mu)
+	}
+	// A composition with a gas below min_vmr is outside the prior.
+	priors.CLRCoords(xi, []float64{1e-11, 0.5, 0.5 - 1e-11})
+	if lp := e.LogProb([]float64{500, 1.5, xi[0], xi[1]}, extra); !math.IsInf(lp, -1) {
+		t.Errorf("composition with 1e-11 CO2 (min_vmr 1e-10) has log posterior %g", lp)
+	}
+	rng := rand.New(rand.NewPCG(9, 9))
+	d := make([]float64, p.Dim())
+	var lp0 float64
+	for k := range 50 {
+		if err := p.DrawPrior(d, rng); err != nil {
+			t.Fatal(err)
+		}
+		lp := 0.0
+		for i := range 2 {
+			lp += p.Priors()[i].LogProb(d[i])
+		}
+		full := e.LogProb(d, extra)
+		if math.IsInf(full, -1) {
+			t.Fatalf("draw %d rejected", k)
+		}
+		// The clr prior is flat: log prior minus the 1-D priors is constant.
+		if k == 0 {
+			lp0 = full - extra[0] - lp
+		} else if c := full - extra[0] - lp; !scalar.EqualWithinAbsOrRel(c, lp0, 1e-12, 1e-12) {
+			t.Errorf("draw %d: clr log prior %g, first draw %g", k, c, lp0)
+		}
 	}
 }
