@@ -37,7 +37,8 @@ func init() {
 			"expected one, without the luck of one noise draw. --seed N instead adds Gaussian\n" +
 			"noise drawn with seed N (the same seed gives the same file).",
 		Flags: append([]cli.Flag{
-			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "scenario `FILE` (TOML; see testdata/scenarios)", Required: true},
+			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "scenario `FILE` (TOML; see testdata/scenarios)"},
+			&cli.BoolFlag{Name: "demo", Usage: "observe the demo's scenario, the invented warm sub-Neptune Ossery b (demo opacities: not for science)"},
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "observation `FILE` to write (CSV)", Required: true},
 			&cli.Float64Flag{Name: "noise", Usage: "single-transit error per bin, `PPM` of transit depth"},
 			&cli.IntFlag{Name: "transits", Value: 1, Usage: "number of transits `N`: errors are divided by sqrt(N)"},
@@ -91,7 +92,17 @@ func runSimulate(c *cli.Context) error {
 		return fmt.Errorf("simulate: %w", err)
 	}
 	spec.NoisePPM, spec.Transits = c.Float64("noise"), c.Int("transits")
-	sc, err := retrieve.LoadScenario(c.String("config"))
+	var sc *retrieve.Scenario
+	switch {
+	case c.Bool("demo") && c.IsSet("config"):
+		return errors.New("simulate: give -c SCENARIO or --demo, not both")
+	case c.Bool("demo"):
+		sc, err = retrieve.DemoScenario()
+	case c.IsSet("config"):
+		sc, err = retrieve.LoadScenario(c.String("config"))
+	default:
+		return errors.New("simulate: give the scenario: -c SCENARIO or --demo")
+	}
 	if err != nil {
 		return err
 	}

@@ -1,0 +1,62 @@
+package main
+
+import (
+	"fmt"
+	"path/filepath"
+	"strings"
+
+	"github.com/urfave/cli/v2"
+
+	"chord/retrieve"
+)
+
+func init() {
+	commands = append(commands, &cli.Command{
+		Name:      "compare",
+		Usage:     "compare posterior widths of runs side by side",
+		ArgsUsage: "RUNDIR...",
+		Description: "For every free parameter the runs have in common: the 68% width (84th-16th\n" +
+			"percentile) and the 95% width (97.5th-2.5th) in each run, their ratio to the first\n" +
+			"run's, each run's noise level (the median error of its observations, ppm) and the gas\n" +
+			"verdicts (detected with sigma, constrained, upper limit). Parameters missing from some\n" +
+			"runs are dropped and named. Reads each run's summary.json (chord report makes it).",
+		Flags: []cli.Flag{
+			&cli.BoolFlag{Name: "json", Usage: "write the comparison as JSON instead of a table"},
+			&cli.StringFlag{Name: "plot", Usage: "draw the 68% width against noise (log-log, with the width-proportional-to-noise line) to `FILE`.png"},
+		},
+		Action: runCompare,
+	})
+}
+
+func runCompare(c *cli.Context) error {
+	if c.NArg() == 0 {
+		return fmt.Errorf("compare: give at least one run directory")
+	}
+	for _, a := range c.Args().Slice() {
+		if strings.HasPrefix(a, "-") {
+			return fmt.Errorf("compare: %q after the run directories: give the options first (chord compare --plot w.png RUNDIR...)", a)
+		}
+	}
+	if p := c.String("plot"); p != "" && filepath.Ext(p) != ".png" {
+		return fmt.Errorf("compare: --plot %s: the plot is a PNG file; name it FILE.png", p)
+	}
+	cmp, err := retrieve.CompareDirs(c.Args().Slice())
+	if err != nil {
+		return err
+	}
+	if c.Bool("json") {
+		err = cmp.WriteJSON(c.App.Writer)
+	} else {
+		err = cmp.WriteTable(c.App.Writer)
+	}
+	if err != nil {
+		return err
+	}
+	if p := c.String("plot"); p != "" {
+		if err := cmp.WritePlot(p); err != nil {
+			return err
+		}
+		fmt.Fprintf(c.App.ErrWriter, "chord compare: plot written to %s\n", p)
+	}
+	return nil
+}

@@ -1,0 +1,113 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"strconv"
+	"strings"
+
+	"github.com/urfave/cli/v2"
+
+	"chord/retrieve"
+)
+
+func init() {
+	commands = append(commands, &cli.Command{
+		Name:      "plan",
+		Usage:     "simulate, fit and compare a scenario at several noise levels or numbers of transits",
+		ArgsUsage: " ",
+		Description: "For each level, simulates the scenario's observation, fits it into a normal run\n" +
+			"directory (PLANDIR/<level>/run, which chord resume can continue) and finally compares\n" +
+			"the posterior widths (PLANDIR/comparison.txt, comparison.json, widths.png; the table\n" +
+			"also goes to stdout). --noise 30,60,120 gives one fit per noise level (ppm per bin);\n" +
+			"--transits 1,4,16 one fit per number of transits, with the single-transit noise from\n" +
+			"--noise PPM or --noise-file. Observations are noise-free with error bars unless --seed\n" +
+			"N asks for Gaussian noise (level i drawn with seed N+i). The fits run one after\n" +
+			"another with every worker and share one load of the opacity tables.\n\n" +
+			"A plan stopped by SIGINT/SIGTERM (exit code 3), killed, or cut by a power loss resumes\n" +
+			"where it stopped: run `chord plan -o PLANDIR` (or the same command again).",
+		Flags: append(append([]cli.Flag{
+			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "scenario `FILE` (TOML; see testdata/scenarios); omit it to resume the plan in PLANDIR"},
+			&cli.BoolFlag{Name: "demo", Usage: "plan with the demo's scenario, the invented warm sub-Neptune Ossery b (demo opacities: not for science)"},
+			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "plan `DIR`", Required: true},
+			&cli.StringFlag{Name: "noise", Usage: "noise levels `PPM,...` (one fit each), or with --transits the one single-transit level"},
+			&cli.StringFlag{Name: "transits", Usage: "numbers of transits `N,...` (one fit each)"},
+			&cli.Uint64Flag{Name: "seed", Usage: "draw Gaussian noise, level i with seed `N`+i (default: noise-free observations)"},
+		}, observingFlags...), stopFlags...),
+		Action: runPlan,
+	})
+}
+
+func runPlan(c *cli.Context) error {
+	if c.NArg() > 0 {
+		return fmt.Errorf("plan: unexpected argument %q", c.Args().First())
+	}
+	stop, err := stopRule(c)
+	if err != nil {
+		return err
+	}
+	opt := retrieve.PlanOptions{Dir: c.String("output"), ScenarioPath: c.String("config"), DemoCache: c.String("demo-cache")}
+	if c.Bool("demo") {
+		if opt.ScenarioPath != "" {
+			return errors.New("plan: give -c SCENARIO or --demo, not both")
+		}
+		opt.ScenarioPath = retrieve.DemoScenarioName
+	}
+	if opt.ScenarioPath == "" {
+		for _, f := range []string{"noise", "transits", "seed", "bins", "wavelength-range", "resolving-power", "noise-file", "steps", "budget", "until-converged"} {
+			if c.IsSet(f) {
+				return fmt.Errorf("plan: --%s without -c or --demo: a plan is resumed as it was asked (its plan.toml); give -c SCENARIO to start a new plan", f)
+			}
+		}
+	} else {
+		obs, err := observingSpec(c)
+		if err != nil {
+			return fmt.Errorf("plan: %w", err)
+		}
+		spec := retrieve.PlanSpec{
+			BinsFile: obs.BinsFile, RangeUm: obs.RangeUm, ResolvingPower: obs.ResolvingPower, NoiseFile: obs.NoiseFile,
+			Scatter: c.IsSet("seed"), NoiseSeed: c.Uint64("seed"),
+			Steps: stop.Steps, Budget: stop.Budget, UntilConverged: stop.UntilConverged,
+		}
+		noise, err := floatList(c.String("noise"))
+		if c.IsSet("noise") && err != nil {
+			return fmt.Errorf("plan: --noise %q: give ppm values separated by commas, e.g. 30,60,120", c.String("noise"))
+		}
+		if c.IsSet("transits") {
+			for _, f := range strings.Split(c.String("transits"), ",") {
+				n, err := strconv.Atoi(strings.TrimSpace(f))
+				if err != nil {
+					return fmt.Errorf("plan: --transits %q: give whole numbers separated by commas, e.g. 1,4,16", c.String("transits"))
+				}
+				spec.Transits = append(spec.Transits, n)
+			}
+			if len(noise) > 1 {
+				return errors.New("plan: with --transits, --noise is the one single-transit level")
+			}
+			if len(noise) == 1 {
+				spec.SingleNoisePPM = noise[0]
+			}
+		} else if c.IsSet("noise") {
+			spec.NoisePPM = noise
+		}
+		opt.Spec = spec
+	}
+	if c.IsSet("workers") {
+		w := c.Int("workers")
+		opt.Workers = &w
+	}
+	ctx, cancel, prog := session(c)
+	defer cancel()
+	opt.Progress = prog
+	rep, err := retrieve.RunPlan(ctx, opt)
+	if err != nil {
+		return err
+	}
+	if rep.Interrupted {
+		fmt.Fprintf(c.App.ErrWriter, "chord: plan interrupted; every finished step is saved.\nchord: continue it with:  chord plan -o %s\n", rep.Dir)
+		return errInterrupted
+	}
+	fmt.Fprint(c.App.Writer, rep.Table)
+	fmt.Fprintf(c.App.ErrWriter, "chord plan: comparison.txt, comparison.json and widths.png written to %s\n", rep.Dir)
+	return nil
+}
