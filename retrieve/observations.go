@@ -271,7 +271,11 @@ func ParseDataset(r io.Reader, path, name string) (*Dataset, error) {
 	vals := make([]float64, 0, 8)
 	for sc.Scan() {
 		line++
-		text := strings.TrimSpace(sc.Text())
+		text := sc.Text()
+		if line == 1 {
+			text = strings.TrimPrefix(text, "\ufeff") // a UTF-8 byte-order mark
+		}
+		text = strings.TrimSpace(text)
 		if text == "" || text[0] == '#' {
 			continue
 		}

@@ -201,3 +201,16 @@ func FuzzParseDataset(f *testing.F) {
 		}
 	})
 }
+
+// TestByteOrderMarkAndCRLF: files saved by spreadsheet programs start with
+// a UTF-8 byte-order mark and end lines with CR LF.
+func TestByteOrderMarkAndCRLF(t *testing.T) {
+	in := "\ufeffwavelength_um,width_um,depth,error\r\n1.0,0.1,0.01,0.001\r\n"
+	d, err := ParseDataset(strings.NewReader(in), "bom.csv", "bom")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if d.Len() != 1 || d.Depth[0] != 0.01 {
+		t.Errorf("read %+v", d)
+	}
+}
