@@ -292,3 +292,29 @@ func TestShippedScenarios(t *testing.T) {
 		}
 	}
 }
+
+// FuzzParseBins: any bins file gives bins or an error naming the file,
+// never a panic; accepted bins are positive, ordered and have matching
+// error counts.
+func FuzzParseBins(f *testing.F) {
+	f.Add("edge_low_um,edge_high_um\n1,2\n2,3\n")
+	f.Add("wavelength_nm width_nm error_ppm\n1000 10 40\n1010 10 45\n")
+	f.Add("# c\nedge_low_um,edge_high_um,error_ppm\n1,NaN,3\n")
+	f.Fuzz(func(t *testing.T, text string) {
+		b, e, err := parseBins(strings.NewReader(text), "f.csv")
+		if err != nil {
+			if !strings.Contains(err.Error(), "f.csv") {
+				t.Fatalf("error without the file name: %v", err)
+			}
+			return
+		}
+		if e != nil && len(e) != b.Len() {
+			t.Fatalf("%d errors for %d bins", len(e), b.Len())
+		}
+		for i := range b.Lo {
+			if !(b.Lo[i] > 0 && b.Hi[i] > b.Lo[i]) {
+				t.Fatalf("bin %d: %g-%g", i, b.Lo[i], b.Hi[i])
+			}
+		}
+	})
+}
