@@ -10,6 +10,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"slices"
@@ -756,10 +757,169 @@ func newJob(r *Resolved, set *opacity.Set, runID string) (*job, error) {
 	spec := &RunSpec{
 		Target: prob, Layout: l, Move: move, Seed: r.Seed, RunID: runID, ConfigSHA256: digest,
 		Init: func(ctx context.Context, workers int) (*sampler.State, error) {
-			return sampler.InitPrior(ctx, prob, prob.DrawPrior, sampler.InitSettings{Walkers: r.Walkers, Seed: r.Seed, Workers: workers})
+			pos, err := startBall(prob, r.Walkers, r.Seed)
+			if err != nil {
+				return nil, err
+			}
+			return sampler.InitPositions(ctx, prob, pos, sampler.InitSettings{Walkers: r.Walkers, Seed: r.Seed, Workers: workers})
 		},
 	}
 	return &job{res: r, set: set, prob: prob, spec: spec, inputs: inputs}, nil
+}
+
+// Start of a chain. Walkers drawn from the whole prior can stay stuck in
+// poor local modes (a walker whose proposals come from walkers far away
+// rarely moves), so the initial ensemble is a small ball around a good
+// point instead, found before the first step:
+//
+//  1. StartDraws x walkers draws from the prior (Problem.DrawPrior, valid
+//     states only); the one of highest posterior is kept;
+//  2. a Nelder-Mead search of at most StartEvaluations x dim evaluations
+//     from it;
+//  3. walkers at that point plus N(0, (StartScale w_k)^2) per parameter,
+//     w_k being the prior's central 68% width, redrawn where the
+//     posterior is zero (next to a prior edge, say), up to 1000 times.
+//
+// Everything is drawn from the run's seed (its own PCG stream), so a fit is
+// reproducible from its seed; the ensemble then spreads over the posterior
+// during the burn-in. Common practice for ensemble samplers.
+const (
+	StartDraws       = 8
+	StartEvaluations = 150
+	StartScale       = 0.01
+)
+
+func startBall(prob *Problem, walkers int, seed uint64) ([]float64, error) {
+	rng := rand.New(rand.NewPCG(seed, 0x9e3779b97f4a7c15))
+	dim := prob.Dim()
+	eval := prob.NewPosteriorEvaluator()
+	extra := make([]float64, prob.NumExtra())
+	x := make([]float64, dim)
+	best, bestLP := make([]float64, dim), math.Inf(-1)
+	for range StartDraws * walkers {
+		if err := prob.DrawPrior(x, rng); err != nil {
+			return nil, fmt.Errorf("initial walkers: %w", err)
+		}
+		if lp := eval.LogProb(x, extra); lp > bestLP {
+			bestLP = lp
+			copy(best, x)
+		}
+	}
+	scale := make([]float64, dim)
+	for k, pr := range prob.Priors() {
+		w := pr.Quantile(0.84) - pr.Quantile(0.16)
+		if !(w > 0) || math.IsInf(w, 0) {
+			w = 1
+		}
+		scale[k] = StartScale * w
+	}
+	negLP := func(x []float64) float64 {
+		lp := eval.LogProb(x, extra)
+		if math.IsNaN(lp) || math.IsInf(lp, -1) {
+			return math.Inf(1)
+		}
+		return -lp
+	}
+	nelderMead(best, negLP, scale, StartEvaluations*dim)
+	pos := make([]float64, walkers*dim)
+	for k := range walkers {
+		w := pos[k*dim : (k+1)*dim]
+		ok := false
+		for try := 0; try < 1000 && !ok; try++ {
+			for i := range w {
+				w[i] = best[i] + scale[i]*rng.NormFloat64()
+			}
+			lp := eval.LogProb(w, extra)
+			ok = !math.IsNaN(lp) && !math.IsInf(lp, 0)
+		}
+		if !ok {
+			return nil, fmt.Errorf("initial walkers: no valid point in 1000 draws around the best start %v", best)
+		}
+	}
+	return pos, nil
+}
+
+// nelderMead minimises f from x (overwritten with the best point) with the
+// simplex method of Nelder & Mead (1965, Comput. J. 7, 308; standard
+// coefficients: reflection 1, expansion 2, contraction 1/2, shrink 1/2),
+// the initial simplex stepping 10 step[k] along each axis, for at most
+// maxEval evaluations.
+func nelderMead(x []float64, f func([]float64) float64, step []float64, maxEval int) {
+	n := len(x)
+	pts := make([][]float64, n+1)
+	val := make([]float64, n+1)
+	for i := range pts {
+		pts[i] = slices.Clone(x)
+		if i > 0 {
+			pts[i][i-1] += 10 * step[i-1]
+		}
+		val[i] = f(pts[i])
+	}
+	evals := n + 1
+	cen, xr, xe := make([]float64, n), make([]float64, n), make([]float64, n)
+	along := func(dst []float64, t float64, worst []float64) {
+		for k := range dst {
+			dst[k] = cen[k] + t*(worst[k]-cen[k])
+		}
+	}
+	for evals < maxEval {
+		idx := make([]int, n+1)
+		for i := range idx {
+			idx[i] = i
+		}
+		sort.Slice(idx, func(a, b int) bool { return val[idx[a]] < val[idx[b]] })
+		lo, hi, second := idx[0], idx[n], idx[n-1]
+		if val[hi]-val[lo] < 1e-6 {
+			break
+		}
+		for k := range cen {
+			cen[k] = 0
+			for _, i := range idx[:n] {
+				cen[k] += pts[i][k] / float64(n)
+			}
+		}
+		along(xr, -1, pts[hi])
+		fr := f(xr)
+		evals++
+		switch {
+		case fr < val[lo]:
+			along(xe, -2, pts[hi])
+			fe := f(xe)
+			evals++
+			if fe < fr {
+				copy(pts[hi], xe)
+				val[hi] = fe
+			} else {
+				copy(pts[hi], xr)
+				val[hi] = fr
+			}
+		case fr < val[second]:
+			copy(pts[hi], xr)
+			val[hi] = fr
+		default:
+			along(xe, 0.5, pts[hi])
+			if fc := f(xe); fc < val[hi] {
+				copy(pts[hi], xe)
+				val[hi] = fc
+			} else {
+				for _, i := range idx[1:] {
+					for k := range pts[i] {
+						pts[i][k] = pts[lo][k] + 0.5*(pts[i][k]-pts[lo][k])
+					}
+					val[i] = f(pts[i])
+				}
+				evals += n
+			}
+			evals++
+		}
+	}
+	b := 0
+	for i := range val {
+		if val[i] < val[b] {
+			b = i
+		}
+	}
+	copy(x, pts[b])
 }
 
 // gases lists the free log10 mixing ratios with a uniform prior, for the

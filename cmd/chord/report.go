@@ -22,7 +22,7 @@ func init() {
 			&cli.IntFlag{Name: "thin", Value: 1, Usage: "keep every `N`-th step for the intervals and plots"},
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		},
-		Action: runReport,
+		Action: interspersed(runReport),
 	})
 }
 

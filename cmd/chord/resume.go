@@ -20,7 +20,7 @@ func init() {
 		Flags: append([]cli.Flag{
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		}, stopFlags...),
-		Action: runResume,
+		Action: interspersed(runResume),
 	})
 }
 
