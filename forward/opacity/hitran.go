@@ -182,7 +182,7 @@ func parseFixed(l *Line, rec []byte) error {
 	if len(rec) > HITRANRecordLen {
 		return fmt.Errorf("record has %d characters, a HITRAN record has %d (tab-separated files must use tabs from the first line)", len(rec), HITRANRecordLen)
 	}
-	mol, err := strconv.Atoi(strings.TrimSpace(string(rec[0:2])))
+	mol, err := strconv.Atoi(string(bytes.TrimSpace(rec[0:2])))
 	if err != nil {
 		return fmt.Errorf("molecule id (columns 1-2) %q is not an integer", rec[0:2])
 	}
@@ -212,7 +212,16 @@ func parseFixed(l *Line, rec []byte) error {
 	return checkLine(l)
 }
 
-var tsvNames = [...]string{"molecule id", "nu", "S", "A", "gamma_air", "gamma_self", "E''", "n_air", "delta_air"}
+var (
+	tsvNames = [...]string{"molecule id", "nu", "S", "A", "gamma_air", "gamma_self", "E''", "n_air", "delta_air"}
+	// tsvFields names the numeric fields 2-9 in error messages.
+	tsvFields = func() (f [8]string) {
+		for i := range f {
+			f[i] = fmt.Sprintf("field %d (%s)", i+2, tsvNames[i+1])
+		}
+		return f
+	}()
+)
 
 func parseTSV(l *Line, rec []byte) error {
 	flds := bytes.Split(rec, []byte{'\t'})
@@ -229,7 +238,7 @@ func parseTSV(l *Line, rec []byte) error {
 	l.Mol, l.Iso = mol, 1
 	dst := [...]*float64{&l.Nu, &l.S, &l.A, &l.GammaAir, &l.GammaSelf, &l.Elower, &l.NAir, &l.DeltaAir}
 	for i, p := range dst {
-		v, err := parseNum(flds[i+1], fmt.Sprintf("field %d (%s)", i+2, tsvNames[i+1]), false)
+		v, err := parseNum(flds[i+1], tsvFields[i], false)
 		if err != nil {
 			return err
 		}
@@ -263,22 +272,21 @@ func isoNumber(c byte) (int, error) {
 // unless blankOK (then 0). Only decimal notation is accepted (no hex, no
 // Inf or NaN).
 func parseNum(b []byte, name string, blankOK bool) (float64, error) {
-	s := strings.TrimSpace(string(b))
-	if s == "" {
+	b = bytes.TrimSpace(b)
+	if len(b) == 0 {
 		if blankOK {
 			return 0, nil
 		}
 		return 0, fmt.Errorf("%s is blank", name)
 	}
-	for i := 0; i < len(s); i++ {
-		c := s[i]
+	for _, c := range b {
 		if !(c >= '0' && c <= '9' || c == '.' || c == '-' || c == '+' || c == 'e' || c == 'E') {
-			return 0, fmt.Errorf("%s %q is not a number", name, s)
+			return 0, fmt.Errorf("%s %q is not a number", name, b)
 		}
 	}
-	v, err := strconv.ParseFloat(s, 64)
+	v, err := strconv.ParseFloat(string(b), 64) // no copy: strconv does not keep its argument
 	if err != nil || math.IsInf(v, 0) {
-		return 0, fmt.Errorf("%s %q is not a number", name, s)
+		return 0, fmt.Errorf("%s %q is not a number", name, b)
 	}
 	return v, nil
 }
