@@ -1,0 +1,256 @@
+package retrieve
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// A small scenario for fits in tests: the demo's Ossery b with a coarse
+// model (20 layers, R = 120) and coarse bins (R = 20, 43 bins), four free
+// parameters.
+const smallTruth = `
+[star]
+name = "Ossery"
+radius_rsun = 0.42
+[planet]
+name = "Ossery b"
+radius_rearth = 2.45
+mass_mearth = 6.8
+[atmosphere]
+top_pressure_bar = 1e-6
+bottom_pressure_bar = 10
+layers = 20
+[atmosphere.gases]
+H2O = 3e-3
+CH4 = 1e-3
+CO2 = 1e-4
+[atmosphere.temperature]
+profile = "isothermal"
+temperature_k = 520
+[clouds]
+haze_factor = 100
+[opacity]
+demo = true
+cia = ["H2-H2", "H2-He"]
+rayleigh = ["H2", "He"]
+[spectrum]
+wavelength_min_um = 0.6
+wavelength_max_um = 5.2
+resolving_power = 120
+bin_resolving_power = 20
+`
+
+// smallFit is the retrieval configuration of smallTruth (%d: steps, %d: seed).
+const smallFit = `
+[star]
+radius_rsun = 0.42
+[planet]
+mass_mearth = 6.8
+[atmosphere]
+top_pressure_bar = 1e-6
+bottom_pressure_bar = 10
+layers = 20
+[atmosphere.gases]
+CO2 = 1e-4
+[atmosphere.temperature]
+profile = "isothermal"
+[clouds]
+haze_factor = 100
+[opacity]
+demo = true
+cia = ["H2-H2", "H2-He"]
+rayleigh = ["H2", "He"]
+[spectrum]
+wavelength_min_um = 0.6
+wavelength_max_um = 5.2
+resolving_power = 120
+[[observations]]
+file = "obs.csv"
+[[parameters]]
+sets = "log10_vmr"
+gas = "H2O"
+prior = "uniform"
+low = -10
+high = -0.5
+[[parameters]]
+sets = "log10_vmr"
+gas = "CH4"
+prior = "uniform"
+low = -10
+high = -0.5
+[[parameters]]
+sets = "temperature_k"
+prior = "uniform"
+low = 250
+high = 1000
+[[parameters]]
+sets = "radius_rearth"
+prior = "uniform"
+low = 2
+high = 3
+[sampler]
+walkers = 16
+steps = %d
+seed = %d
+workers = 2
+`
+
+// smallTruthValues are the free parameters' true values, in order.
+var smallTruthValues = map[string]float64{
+	"log10_vmr_H2O": math.Log10(3e-3), "log10_vmr_CH4": -3, "temperature_k": 520, "radius_rearth": 2.45,
+}
+
+// testDemoCache is the demo opacity cache the tests share (built once).
+func testDemoCache(t *testing.T) string {
+	t.Helper()
+	cache, err := DemoCacheDir()
+	if err != nil {
+		t.Skip(err)
+	}
+	return cache
+}
+
+// setupSmall writes the small scenario's observation (noise seed, or
+// noise-free) and its retrieval configuration to a new directory and
+// returns the configuration's path.
+func setupSmall(t *testing.T, dir string, steps int, seed uint64, noisy bool) string {
+	t.Helper()
+	truthPath := filepath.Join(dir, "truth.toml")
+	if err := os.WriteFile(truthPath, []byte(smallTruth), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	truth, err := DecodeModelConfig(truthPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := SimulateObservation(filepath.Join(dir, "obs.csv"), truth, testDemoCache(t), nil, 35, noisy, seed); err != nil {
+		t.Fatal(err)
+	}
+	cfg := filepath.Join(dir, "fit.toml")
+	if err := os.WriteFile(cfg, []byte(fmt.Sprintf(smallFit, steps, seed)), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return cfg
+}
+
+// Injection and recovery: observations simulated from known parameters
+// with the demo opacities and 35 ppm noise (three noise seeds), fitted;
+// the 95% credible intervals must contain the truth for at least 90% of
+// the 3 x 4 = 12 parameter fits (a calibrated posterior misses 5% on
+// average: about 0.6 of 12; 90% allows one miss; fact of statistics).
+// With noise-free data the medians lie within one posterior standard
+// deviation of the truth (the posterior is then centred on the truth up to
+// prior and sampling effects; common practice for forecasts).
+func TestInjectionRecovery(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits several simulated observations")
+	}
+	const steps = 500
+	inside, total := 0, 0
+	for _, seed := range []uint64{1, 2, 3} {
+		dir := t.TempDir()
+		cfg := setupSmall(t, dir, steps, seed, true)
+		rep, err := Fit(context.Background(), FitOptions{ConfigPath: cfg, RunDir: filepath.Join(dir, "run"), DemoCache: testDemoCache(t)})
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, p := range rep.Summary.Parameters {
+			truth := smallTruthValues[p.Name]
+			total++
+			if p.P2_5 <= truth && truth <= p.P97_5 {
+				inside++
+			} else {
+				t.Logf("seed %d: %s = %.3f outside the 95%% interval [%.3f, %.3f]", seed, p.Name, truth, p.P2_5, p.P97_5)
+			}
+		}
+	}
+	t.Logf("injection and recovery: truth inside the 95%% interval for %d of %d parameter fits", inside, total)
+	if float64(inside) < 0.9*float64(total) {
+		t.Errorf("truth inside the 95%% interval for %d of %d parameter fits, want at least 90%%", inside, total)
+	}
+
+	dir := t.TempDir()
+	cfg := setupSmall(t, dir, steps, 4, false)
+	rep, err := Fit(context.Background(), FitOptions{ConfigPath: cfg, RunDir: filepath.Join(dir, "run"), DemoCache: testDemoCache(t)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range rep.Summary.Parameters {
+		if d := math.Abs(p.Median - smallTruthValues[p.Name]); d > p.StdDev {
+			t.Errorf("noise-free: %s median %.4f, truth %.4f, posterior sd %.4f", p.Name, p.Median, smallTruthValues[p.Name], p.StdDev)
+		}
+	}
+	// The chain files read back with the independent reader: walkers x
+	// steps rows, the configuration's parameter names as columns.
+	cols, rows := readIndependent(t, filepath.Join(dir, "run", ChainsDir))
+	if len(rows) != 16*steps {
+		t.Errorf("%d rows, want 16 x %d", len(rows), steps)
+	}
+	want := "step,walker,log_posterior,log_likelihood,log10_vmr_H2O,log10_vmr_CH4,temperature_k,radius_rearth,mean_molecular_weight,fill_vmr,chi2"
+	if got := strings.Join(cols, ","); got != want {
+		t.Errorf("columns %s, want %s", got, want)
+	}
+}
+
+// Bad inputs of runs: a missing configuration or observation file, a
+// non-empty run directory, a run whose observation changed (resume refuses
+// it, naming the file), a resume of a directory that is no run.
+func TestRunBadInputs(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds or loads the demo opacities")
+	}
+	ctx := context.Background()
+	dir := t.TempDir()
+	if _, err := Fit(ctx, FitOptions{ConfigPath: filepath.Join(dir, "nope.toml"), RunDir: filepath.Join(dir, "run")}); err == nil || !strings.Contains(err.Error(), "nope.toml") {
+		t.Errorf("missing configuration: %v", err)
+	}
+	cfg := setupSmall(t, dir, 12, 1, true)
+	obs := filepath.Join(dir, "obs.csv")
+	data, _ := os.ReadFile(obs)
+	os.Rename(obs, obs+".away")
+	if _, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: filepath.Join(dir, "run")}); err == nil || !strings.Contains(err.Error(), "obs.csv") {
+		t.Errorf("missing observation: %v", err)
+	}
+	os.Rename(obs+".away", obs)
+	runDir := filepath.Join(dir, "run")
+	os.MkdirAll(runDir, 0o755)
+	os.WriteFile(filepath.Join(runDir, "notes.txt"), []byte("mine"), 0o644)
+	if _, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "not empty") || !strings.Contains(err.Error(), "--force") {
+		t.Errorf("non-empty run directory: %v", err)
+	}
+	rep, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, Force: true, DemoCache: testDemoCache(t), Stop: StopRule{Steps: 6}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Outcome.Step != 6 {
+		t.Errorf("--steps 6 override: %d steps", rep.Outcome.Step)
+	}
+	if _, err := os.Stat(filepath.Join(runDir, "notes.txt")); err != nil {
+		t.Errorf("--force removed a file that is not chord's: %v", err)
+	}
+	// The observation changes: resume refuses, naming it.
+	os.WriteFile(obs, append(data, []byte("# edited\n")...), 0o644)
+	if _, err := Resume(ctx, runDir, ResumeOptions{Stop: StopRule{Steps: 10}, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "obs.csv changed since the run started") {
+		t.Errorf("changed observation: %v", err)
+	}
+	os.WriteFile(obs, data, 0o644)
+	// run.toml edited (the configuration no longer matches the checkpoint).
+	rt := filepath.Join(runDir, RunFile)
+	text, _ := os.ReadFile(rt)
+	os.WriteFile(rt, []byte(strings.Replace(string(text), "low = 250.0", "low = 260.0", 1)), 0o644)
+	if _, err := Resume(ctx, runDir, ResumeOptions{Stop: StopRule{Steps: 10}, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "changed since the run started") {
+		t.Errorf("edited run.toml: %v", err)
+	}
+	os.WriteFile(rt, text, 0o644)
+	if rep, err := Resume(ctx, runDir, ResumeOptions{Stop: StopRule{Steps: 10}, DemoCache: testDemoCache(t)}); err != nil || rep.Outcome.Step != 10 {
+		t.Errorf("resume after restoring: %v", err)
+	}
+	if _, err := Resume(ctx, dir, ResumeOptions{}); err == nil || !strings.Contains(err.Error(), "not a run directory") {
+		t.Errorf("resume of a non-run: %v", err)
+	}
+}
