@@ -399,3 +399,20 @@ func TestCLRRetrieval(t *testing.T) {
 		}
 	}
 }
+
+// TestFixedParameter: a fixed parameter sets its quantity on every call
+// without being sampled (good.toml holds the mass at 0.7 Jupiter masses).
+func TestFixedParameter(t *testing.T) {
+	_, p := loadProblem(t, "good.toml")
+	if p.Dim() != 4 {
+		t.Fatalf("dim %d, want 4 (the fixed mass is not sampled)", p.Dim())
+	}
+	e := p.NewPosteriorEvaluator()
+	extra := make([]float64, p.NumExtra())
+	if lp := e.LogProb([]float64{1000, 1.1, -2, 10}, extra); math.IsInf(lp, -1) {
+		t.Fatalf("rejected: %v", p.Rejections())
+	}
+	if e.state.Mass != 0.7*forward.JupiterMass {
+		t.Errorf("mass %g, want %g", e.state.Mass, 0.7*forward.JupiterMass)
+	}
+}
