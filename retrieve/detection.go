@@ -173,7 +173,9 @@ type EdgeDensity struct {
 // low, the lower edge of their uniform prior on [low, high] (see the package
 // comment of this file for the method). ess is the effective sample size
 // of the chain (<= 0 or > len(samples) means the samples are independent;
-// NaN, an unknown one, is an error).
+// NaN, an unknown one, is an error: pass it when the autocorrelation time
+// is not reliable, since the ESS from a lower bound on tau overstates the
+// significance).
 // It returns an error for too few samples, samples outside the prior, or a
 // degenerate posterior.
 func EstimateEdgeDensity(samples []float64, low, high, ess float64) (EdgeDensity, error) {
@@ -182,7 +184,7 @@ func EstimateEdgeDensity(samples []float64, low, high, ess float64) (EdgeDensity
 	}
 	n := float64(len(samples))
 	if math.IsNaN(ess) {
-		return EdgeDensity{}, fmt.Errorf("effective sample size unknown (no autocorrelation time): no density at the prior edge")
+		return EdgeDensity{}, fmt.Errorf("effective sample size unknown (the chain is too short for a reliable autocorrelation time): no density at the prior edge")
 	}
 	if ess <= 0 || ess > n {
 		ess = n
@@ -391,7 +393,7 @@ func ClassifyGas(samples []float64, low, high, ess float64) (GasDetection, error
 
 	n := float64(len(x))
 	if math.IsNaN(ess) {
-		d.Note = "effective sample size unknown (no autocorrelation time): no significance"
+		d.Note = "effective sample size unknown (the chain is too short for a reliable autocorrelation time): no significance"
 		return d, nil
 	}
 	if ess <= 0 || ess > n {

@@ -277,6 +277,11 @@ func Summarize(c *Chains, opt SummaryOptions) (*Summary, error) {
 		}
 		if g, ok := gases[col.Name]; ok {
 			ess := math.Min(float64(cs.ESS), float64(len(buf)))
+			if !cs.TauReliable {
+				// tau is then only a lower bound, so this ESS is an upper
+				// bound, and a significance from it would be overstated.
+				ess = math.NaN()
+			}
 			d, err := ClassifyGas(buf, g.Low, g.High, ess)
 			if err != nil {
 				return nil, fmt.Errorf("summary: parameter %s: %w", col.Name, err)
