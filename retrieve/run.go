@@ -21,6 +21,7 @@ import (
 
 	"github.com/BurntSushi/toml"
 	"github.com/parquet-go/parquet-go"
+	"gonum.org/v1/gonum/mat"
 
 	"chord/forward"
 	"chord/forward/opacity"
@@ -776,9 +777,13 @@ func newJob(r *Resolved, set *opacity.Set, runID string) (*job, error) {
 //     states only); the one of highest posterior is kept;
 //  2. a Nelder-Mead search of at most StartEvaluations x dim evaluations
 //     from it;
-//  3. walkers at that point plus N(0, (StartScale w_k)^2) per parameter,
-//     w_k being the prior's central 68% width, redrawn where the
-//     posterior is zero (next to a prior edge, say), up to 1000 times.
+//  3. walkers drawn from the Laplace approximation there, N(x, H^-1) with H
+//     the Hessian of -ln p by finite differences (so that the ensemble
+//     starts with about the posterior's spread and correlations, and the
+//     burn-in is short), or, where H is not positive definite, from
+//     x + N(0, (StartScale w_k)^2), w_k being the prior's central 68%
+//     width; each walker redrawn where the posterior is zero (next to a
+//     prior edge, say), up to 1000 times.
 //
 // Everything is drawn from the run's seed (its own PCG stream), so a fit is
 // reproducible from its seed; the ensemble then spreads over the posterior
@@ -821,13 +826,29 @@ func startBall(prob *Problem, walkers int, seed uint64) ([]float64, error) {
 		return -lp
 	}
 	nelderMead(best, negLP, scale, StartEvaluations*dim)
+	u := laplaceFactor(best, negLP, scale)
 	pos := make([]float64, walkers*dim)
+	z := make([]float64, dim)
 	for k := range walkers {
 		w := pos[k*dim : (k+1)*dim]
 		ok := false
 		for try := 0; try < 1000 && !ok; try++ {
-			for i := range w {
-				w[i] = best[i] + scale[i]*rng.NormFloat64()
+			for i := range z {
+				z[i] = rng.NormFloat64()
+			}
+			if u != nil {
+				// w = best + U^-1 z (back substitution): covariance (U^T U)^-1.
+				for i := dim - 1; i >= 0; i-- {
+					v := z[i]
+					for j := i + 1; j < dim; j++ {
+						v -= u.At(i, j) * (w[j] - best[j])
+					}
+					w[i] = best[i] + v/u.At(i, i)
+				}
+			} else {
+				for i := range w {
+					w[i] = best[i] + scale[i]*z[i]
+				}
 			}
 			lp := eval.LogProb(w, extra)
 			ok = !math.IsNaN(lp) && !math.IsInf(lp, 0)
@@ -837,6 +858,52 @@ func startBall(prob *Problem, walkers int, seed uint64) ([]float64, error) {
 		}
 	}
 	return pos, nil
+}
+
+// laplaceFactor returns the upper Cholesky factor U of the Hessian H = U^T U
+// of f (the negative log posterior) at its minimum x, from central finite
+// differences with steps 0.1 step[k], or nil when H is not positive
+// definite or its implied standard deviations exceed 100 step[k] (then the
+// plain ball is used). N(x, H^-1) is the Laplace approximation of the
+// posterior (a normal with the curvature at the mode; standard result).
+func laplaceFactor(x []float64, f func([]float64) float64, step []float64) *mat.TriDense {
+	n := len(x)
+	f0 := f(x)
+	if math.IsInf(f0, 0) || math.IsNaN(f0) {
+		return nil
+	}
+	y := slices.Clone(x)
+	at := func(i int, di float64, j int, dj float64) float64 {
+		copy(y, x)
+		y[i] += di
+		y[j] += dj
+		return f(y)
+	}
+	h := mat.NewSymDense(n, nil)
+	for i := range n {
+		hi := 0.1 * step[i]
+		h.SetSym(i, i, (at(i, hi, i, 0)-2*f0+at(i, -hi, i, 0))/(hi*hi))
+		for j := i + 1; j < n; j++ {
+			hj := 0.1 * step[j]
+			h.SetSym(i, j, (at(i, hi, j, hj)-at(i, hi, j, -hj)-at(i, -hi, j, hj)+at(i, -hi, j, -hj))/(4*hi*hj))
+		}
+	}
+	var ch mat.Cholesky
+	if !ch.Factorize(h) {
+		return nil
+	}
+	var cov mat.SymDense
+	if err := ch.InverseTo(&cov); err != nil {
+		return nil
+	}
+	for i := range n {
+		if sd := math.Sqrt(cov.At(i, i)); !(sd > 0) || sd > 100*step[i] {
+			return nil
+		}
+	}
+	u := mat.NewTriDense(n, mat.Upper, nil)
+	ch.UTo(u)
+	return u
 }
 
 // nelderMead minimises f from x (overwritten with the best point) with the
@@ -1022,6 +1089,9 @@ type FitOptions struct {
 	DemoCache  string    // where demo opacities are cached; "" means DemoCacheDir
 	Progress   Progress  // progress reports
 	Log        io.Writer // notes (opacity building, observation notes); nil means Progress.Writer
+	// CheckpointSteps is the number of steps between checkpoints; 0 means
+	// about one every CheckpointInterval.
+	CheckpointSteps int
 	// Opacity, when not nil, are the tables already loaded for this
 	// configuration (a plan's fits share one set); nil loads them.
 	Opacity *opacity.Set
@@ -1169,7 +1239,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 		return nil, fmt.Errorf("writing %s: %w", RunFile, err)
 	}
 	fmt.Fprintf(log, "chord: run %s: %d free parameters, %d walkers, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.Walkers, r.Seed, describeStop(r.Stop))
-	out, err := StartRun(ctx, opt.RunDir, j.spec, RunOptions{Workers: r.Workers, Stop: r.Stop, Progress: opt.Progress})
+	out, err := StartRun(ctx, opt.RunDir, j.spec, RunOptions{Workers: r.Workers, Stop: r.Stop, Progress: opt.Progress, CheckpointSteps: opt.CheckpointSteps})
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", opt.RunDir, err)
 	}
@@ -1254,6 +1324,8 @@ type ResumeOptions struct {
 	DemoCache string
 	Progress  Progress
 	Log       io.Writer
+	// CheckpointSteps as in FitOptions.
+	CheckpointSteps int
 	// Opacity, when not nil, are the run's tables already loaded (a plan's
 	// fits share one set); nil loads them.
 	Opacity *opacity.Set
@@ -1279,7 +1351,7 @@ func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, err
 		}
 		workers = *opt.Workers
 	}
-	out, err := ContinueRun(ctx, dir, j.spec, RunOptions{Workers: workers, Stop: opt.Stop, Progress: opt.Progress})
+	out, err := ContinueRun(ctx, dir, j.spec, RunOptions{Workers: workers, Stop: opt.Stop, Progress: opt.Progress, CheckpointSteps: opt.CheckpointSteps})
 	if err != nil {
 		return nil, err
 	}

@@ -23,6 +23,7 @@ var stopFlags = []cli.Flag{
 	&cli.DurationFlag{Name: "budget", Usage: "stop when the run has sampled for `DURATION` in total (e.g. 8h, 90m)"},
 	&cli.BoolFlag{Name: "until-converged", Usage: "stop when the chain is longer than 50 autocorrelation times, tau stable to 1%"},
 	&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior (default: the configuration's, else one per core)"},
+	&cli.IntFlag{Name: "checkpoint-every", Usage: "write a checkpoint every `N` steps (default: about one a minute)"},
 }
 
 func init() {
@@ -71,6 +72,9 @@ func stopRule(c *cli.Context) (retrieve.StopRule, error) {
 	if n > 1 {
 		return s, fmt.Errorf("give at most one of --steps, --budget and --until-converged")
 	}
+	if c.Int("checkpoint-every") < 0 {
+		return s, fmt.Errorf("--checkpoint-every %d: must be positive", c.Int("checkpoint-every"))
+	}
 	return s, nil
 }
 
@@ -102,7 +106,7 @@ func runFit(c *cli.Context) error {
 	defer cancel()
 	opt := retrieve.FitOptions{
 		ConfigPath: c.String("config"), RunDir: c.String("output"), Force: c.Bool("force"),
-		Stop: stop, DemoCache: c.String("demo-cache"), Progress: prog,
+		Stop: stop, DemoCache: c.String("demo-cache"), Progress: prog, CheckpointSteps: c.Int("checkpoint-every"),
 	}
 	if c.IsSet("seed") {
 		s := c.Uint64("seed")
