@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
 	"path/filepath"
 	"regexp"
 	"strings"
@@ -150,7 +151,7 @@ func quantityNames() string {
 type Param struct {
 	Name    string
 	Sets    Quantity
-	Gas     string // log10_vmr
+	Gas     string // log10_vmr and clr
 	Dataset int    // offset_ppm, error_inflation_ppm: index in Resolved.Datasets; -1 means all
 	Prior   priors.Prior
 	key     string // "parameters[i]" for messages
@@ -180,13 +181,17 @@ type Resolved struct {
 }
 
 // LoadConfig reads, validates and resolves a retrieval configuration,
-// reading its observation files.
+// reading its observation files. It decodes with DecodeConfig, the path
+// the fuzz test exercises.
 func LoadConfig(path string) (*Resolved, error) {
-	c := &Config{}
-	if _, err := DecodeStrict(path, c); err != nil {
+	text, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("configuration: %w", err)
+	}
+	c, err := DecodeConfig(string(text), path, filepath.Dir(path))
+	if err != nil {
 		return nil, err
 	}
-	c.BaseDir = filepath.Dir(path)
 	r, err := c.Resolve()
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", path, err)

@@ -239,3 +239,9 @@ func FuzzDecodeConfig(f *testing.F) {
 		}
 	})
 }
+
+func TestMissingConfigFile(t *testing.T) {
+	if _, err := LoadConfig("testdata/cfg/nowhere.toml"); err == nil || !strings.Contains(err.Error(), "testdata/cfg/nowhere.toml") {
+		t.Errorf("missing file: %v", err)
+	}
+}
