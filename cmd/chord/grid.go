@@ -1,0 +1,344 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"slices"
+	"strconv"
+	"strings"
+	"text/tabwriter"
+
+	"github.com/urfave/cli/v2"
+
+	"chord/retrieve"
+)
+
+// slurmFlags are the resources of each array task; they override the
+// grid file's [slurm].
+var slurmFlags = []cli.Flag{
+	&cli.StringFlag{Name: "time", Usage: "time limit per task, Slurm's `FORM` (minutes, H:MM:SS or D-HH:MM:SS)"},
+	&cli.IntFlag{Name: "cpus-per-task", Usage: "`N` cores per task (the fit's workers)"},
+	&cli.StringFlag{Name: "mem", Usage: "memory per task, e.g. 2G"},
+	&cli.StringFlag{Name: "partition", Usage: "Slurm `PARTITION`"},
+	&cli.IntFlag{Name: "max-running", Usage: "at most `N` tasks at once"},
+	&cli.BoolFlag{Name: "submit", Usage: "submit the script with sbatch and print the job id"},
+}
+
+func init() {
+	commands = append(commands, &cli.Command{
+		Name:      "grid",
+		Usage:     "expand a grid of fits (scenarios or configurations x axes) and run it here or as a Slurm job array",
+		ArgsUsage: " ",
+		Description: "Expands the grid file (-c) into GRIDDIR (-o): one run directory per point of the\n" +
+			"axes' cartesian product, an index (index.csv, index.parquet) and the grid's identity.\n" +
+			"Running it again with the same grid changes nothing; a different grid is refused.\n" +
+			"Then --local runs the points here (--jobs at a time, sharing the opacity tables), or\n" +
+			"--slurm writes a job-array script (one task per point, each running\n" +
+			"`chord grid run-point GRIDDIR INDEX`, which fits the point or resumes it from its\n" +
+			"checkpoint) and --submit submits it. GRIDDIR must be on a filesystem the compute nodes\n" +
+			"share. Follow with `chord grid status`, `chord grid resubmit` and `chord grid collect`.",
+		Flags: append([]cli.Flag{
+			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "grid `FILE` (TOML); omit it to run a grid already in GRIDDIR"},
+			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "grid `DIR` (required)"},
+			&cli.BoolFlag{Name: "local", Usage: "run the unfinished points on this machine"},
+			&cli.IntFlag{Name: "jobs", Value: 1, Usage: "with --local, `N` points at once"},
+			&cli.IntFlag{Name: "workers", Usage: "with --local, `N` workers per fit (default: the cores divided among the jobs)"},
+			&cli.BoolFlag{Name: "slurm", Usage: "write a Slurm job-array script for every point"},
+			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables"},
+		}, slurmFlags...),
+		Action: runGrid,
+		Subcommands: []*cli.Command{
+			{
+				Name: "run-point", Usage: "fit one point of a grid, or resume it from its checkpoint (what each array task runs)",
+				ArgsUsage: "GRIDDIR INDEX",
+				Description: "Does nothing when the point is done. Workers: --workers, else $SLURM_CPUS_PER_TASK,\n" +
+					"else the configuration's. SIGTERM (a time limit, scancel) writes a checkpoint and\n" +
+					"exits with code 3.",
+				Flags: []cli.Flag{
+					&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior"},
+					&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables"},
+				},
+				Action: gridInterspersed(runGridPoint),
+			},
+			{
+				Name: "status", Usage: "show each point's state: not started, running, stopped with a checkpoint at step k, done",
+				ArgsUsage: "GRIDDIR", Action: runGridStatus,
+			},
+			{
+				Name: "resubmit", Usage: "write (and with --submit submit) a job array of the unfinished points, continuing from their checkpoints",
+				ArgsUsage: "GRIDDIR", Flags: slurmFlags, Action: gridInterspersed(runGridResubmit),
+			},
+			{
+				Name: "collect", Usage: "one summary table (summary.csv, summary.parquet) of every point, and the width-against-noise comparison",
+				ArgsUsage: "GRIDDIR", Action: runGridCollect,
+			},
+		},
+	})
+}
+
+func runGrid(c *cli.Context) error {
+	if c.NArg() > 0 {
+		return fmt.Errorf("grid: unexpected argument %q (subcommands: run-point, status, resubmit, collect)", c.Args().First())
+	}
+	if c.Bool("local") && c.Bool("slurm") {
+		return errors.New("grid: give --local or --slurm, not both")
+	}
+	if !c.Bool("slurm") {
+		for _, f := range []string{"time", "cpus-per-task", "mem", "partition", "max-running", "submit"} {
+			if c.IsSet(f) {
+				return fmt.Errorf("grid: --%s belongs with --slurm", f)
+			}
+		}
+	}
+	if !c.Bool("local") && (c.IsSet("jobs") || c.IsSet("workers")) {
+		return errors.New("grid: --jobs and --workers belong with --local")
+	}
+	dir := c.String("output")
+	if dir == "" {
+		return errors.New("grid: give the grid directory with -o GRIDDIR (and a grid file with -c to expand one)")
+	}
+	var g *retrieve.Grid
+	var err error
+	if c.IsSet("config") {
+		g, err = retrieve.CreateGrid(c.String("config"), dir, retrieve.GridOptions{DemoCache: c.String("demo-cache"), Log: c.App.ErrWriter})
+		if err == nil {
+			fmt.Fprintf(c.App.ErrWriter, "chord grid: %d points in %s (identity %s); index in index.csv\n", len(g.Points), g.Dir, g.Identity()[:12])
+		}
+	} else {
+		g, err = retrieve.OpenGrid(dir)
+	}
+	if err != nil {
+		return err
+	}
+	switch {
+	case c.Bool("local"):
+		if c.Int("jobs") < 1 {
+			return fmt.Errorf("grid: --jobs %d: must be at least 1", c.Int("jobs"))
+		}
+		opt := retrieve.LocalOptions{Jobs: c.Int("jobs"), DemoCache: c.String("demo-cache"), Log: c.App.ErrWriter}
+		if c.IsSet("workers") {
+			w := c.Int("workers")
+			if w < 1 {
+				return fmt.Errorf("grid: --workers %d: must be at least 1", w)
+			}
+			opt.Workers = &w
+		}
+		ctx, cancel, _ := session(c)
+		defer cancel()
+		rep, err := g.RunLocal(ctx, opt)
+		if err != nil {
+			return err
+		}
+		fmt.Fprintf(c.App.ErrWriter, "chord grid: %d points done, %d stopped, %d failed\n", len(rep.Done), len(rep.Stopped), len(rep.Failed))
+		if len(rep.Failed) > 0 {
+			return fmt.Errorf("grid: %d points failed; first: %w", len(rep.Failed), rep.Errors[0])
+		}
+		if len(rep.Stopped) > 0 {
+			fmt.Fprintf(c.App.ErrWriter, "chord: continue with:  chord grid -o %s --local\n", g.Dir)
+			return errInterrupted
+		}
+		fmt.Fprintf(c.App.ErrWriter, "chord grid: collect the results with:  chord grid collect %s\n", g.Dir)
+	case c.Bool("slurm"):
+		return writeSlurm(c, g, nil)
+	}
+	return nil
+}
+
+// slurmSettings are the grid file's [slurm] with the flags applied.
+func slurmSettings(c *cli.Context, g *retrieve.Grid) retrieve.SlurmSettings {
+	return g.Slurm().Merge(retrieve.SlurmSettings{Time: c.String("time"), CPUsPerTask: c.Int("cpus-per-task"),
+		Memory: c.String("mem"), Partition: c.String("partition"), MaxRunning: c.Int("max-running")})
+}
+
+// chordBinary is the absolute path of this chord binary, which the array
+// tasks run.
+func chordBinary() (string, error) {
+	exe, err := os.Executable()
+	if err != nil {
+		return "", fmt.Errorf("grid: cannot find the chord binary: %w", err)
+	}
+	if r, err := filepath.EvalSymlinks(exe); err == nil {
+		exe = r
+	}
+	return filepath.Abs(exe)
+}
+
+func writeSlurm(c *cli.Context, g *retrieve.Grid, points []int) error {
+	exe, err := chordBinary()
+	if err != nil {
+		return err
+	}
+	script, err := g.WriteSlurmScript(points, slurmSettings(c, g), exe)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(c.App.ErrWriter, "chord grid: job-array script %s\n", script)
+	if !c.Bool("submit") {
+		fmt.Fprintf(c.App.ErrWriter, "chord grid: submit it with:  sbatch %s\n", script)
+		return nil
+	}
+	id, err := g.SubmitSlurm(script)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintln(c.App.Writer, id)
+	fmt.Fprintf(c.App.ErrWriter, "chord grid: submitted job %s; follow it with:  chord grid status %s\n", id, g.Dir)
+	return nil
+}
+
+func runGridPoint(c *cli.Context) error {
+	if c.NArg() != 2 {
+		return fmt.Errorf("grid run-point: give GRIDDIR and INDEX (got %d arguments)", c.NArg())
+	}
+	g, err := retrieve.OpenGrid(c.Args().Get(0))
+	if err != nil {
+		return err
+	}
+	i, err := strconv.Atoi(c.Args().Get(1))
+	if err != nil {
+		return fmt.Errorf("grid run-point: INDEX %q: give a point number", c.Args().Get(1))
+	}
+	ctx, cancel, prog := session(c)
+	defer cancel()
+	host, _ := os.Hostname()
+	holder := fmt.Sprintf("host %s, pid %d", host, os.Getpid())
+	if j := os.Getenv("SLURM_ARRAY_JOB_ID"); j != "" {
+		holder += fmt.Sprintf(", Slurm job %s_%s", j, os.Getenv("SLURM_ARRAY_TASK_ID"))
+	}
+	opt := retrieve.PointOptions{DemoCache: c.String("demo-cache"), Progress: prog, Log: c.App.ErrWriter, Holder: holder}
+	w, set := 0, false
+	if c.IsSet("workers") {
+		w, set = c.Int("workers"), true
+	} else if s := os.Getenv("SLURM_CPUS_PER_TASK"); s != "" {
+		if n, err := strconv.Atoi(s); err == nil && n > 0 {
+			w, set = n, true
+		}
+	}
+	if set {
+		opt.Workers = &w
+	}
+	fmt.Fprintf(c.App.ErrWriter, "chord grid: point %d of %s (%s)\n", i, g.Dir, settingsOrEmpty(g, i))
+	rep, err := g.RunPoint(ctx, i, opt)
+	if err != nil {
+		return err
+	}
+	if rep.Outcome == nil {
+		return nil // done before; kept
+	}
+	return finishRun(c, rep, nil)
+}
+
+func settingsOrEmpty(g *retrieve.Grid, i int) string {
+	if i < 0 || i >= len(g.Points) {
+		return "no such point"
+	}
+	return g.Settings(i)
+}
+
+func oneGridDir(c *cli.Context, cmd string) (*retrieve.Grid, error) {
+	if c.NArg() != 1 {
+		return nil, fmt.Errorf("grid %s: give one grid directory (got %d arguments)", cmd, c.NArg())
+	}
+	return retrieve.OpenGrid(c.Args().First())
+}
+
+func runGridStatus(c *cli.Context) error {
+	g, err := oneGridDir(c, "status")
+	if err != nil {
+		return err
+	}
+	st, err := g.Status()
+	if err != nil {
+		return err
+	}
+	tw := tabwriter.NewWriter(c.App.Writer, 0, 0, 2, ' ', 0)
+	fmt.Fprintln(tw, "point\tdir\tsettings\tstate")
+	count := map[retrieve.PointState]int{}
+	for _, s := range st {
+		count[s.State]++
+		fmt.Fprintf(tw, "%d\tpoints/%s\t%s\t%s\n", s.Index, g.Points[s.Index].Name, g.Settings(s.Index), s)
+	}
+	tw.Flush()
+	var parts []string
+	for _, k := range []retrieve.PointState{retrieve.PointDone, retrieve.PointRunning, retrieve.PointStopped, retrieve.PointNotStarted} {
+		if count[k] > 0 {
+			parts = append(parts, fmt.Sprintf("%d %s", count[k], k))
+		}
+	}
+	fmt.Fprintf(c.App.Writer, "%d points: %s\n", len(st), strings.Join(parts, ", "))
+	return nil
+}
+
+func runGridResubmit(c *cli.Context) error {
+	g, err := oneGridDir(c, "resubmit")
+	if err != nil {
+		return err
+	}
+	pts, err := g.Unfinished()
+	if err != nil {
+		return err
+	}
+	if len(pts) == 0 {
+		fmt.Fprintf(c.App.ErrWriter, "chord grid: every point of %s is done or running: nothing to resubmit\n", g.Dir)
+		return nil
+	}
+	fmt.Fprintf(c.App.ErrWriter, "chord grid: %d unfinished points: %v\n", len(pts), pts)
+	return writeSlurm(c, g, pts)
+}
+
+func runGridCollect(c *cli.Context) error {
+	g, err := oneGridDir(c, "collect")
+	if err != nil {
+		return err
+	}
+	col, err := g.CollectGrid()
+	if err != nil {
+		return err
+	}
+	fmt.Fprint(c.App.Writer, col.Table)
+	fmt.Fprintf(c.App.ErrWriter, "chord grid: summary.csv and summary.parquet (%d rows), comparison.txt and comparison.json written to %s\n", col.Rows, g.Dir)
+	return nil
+}
+
+// gridInterspersed lets a grid subcommand take flags after its arguments
+// (chord grid resubmit GRIDDIR --submit), as interspersed does for
+// top-level commands: urfave/cli v2 stops parsing flags at the first
+// argument, so the subcommand is run again with its flags first.
+func gridInterspersed(action cli.ActionFunc) cli.ActionFunc {
+	return func(c *cli.Context) error {
+		i := slices.Index(os.Args, c.Command.Name)
+		if i < 0 || !slices.ContainsFunc(c.Args().Slice(), func(a string) bool { return strings.HasPrefix(a, "-") && a != "-" }) {
+			return action(c)
+		}
+		boolFlag := map[string]bool{}
+		for _, f := range c.Command.Flags {
+			if _, ok := f.(*cli.BoolFlag); ok {
+				for _, n := range f.Names() {
+					boolFlag[n] = true
+				}
+			}
+		}
+		var flags, pos []string
+		args := os.Args[i+1:]
+		for k := 0; k < len(args); k++ {
+			a := args[k]
+			switch {
+			case a == "--":
+				pos = append(pos, args[k+1:]...)
+				k = len(args)
+			case !strings.HasPrefix(a, "-") || a == "-":
+				pos = append(pos, a)
+			default:
+				flags = append(flags, a)
+				if name := strings.TrimLeft(a, "-"); !strings.Contains(name, "=") && !boolFlag[name] && k+1 < len(args) {
+					flags = append(flags, args[k+1])
+					k++
+				}
+			}
+		}
+		argv := append([]string{c.App.Name, "grid", c.Command.Name}, flags...)
+		return c.App.RunContext(c.Context, append(append(argv, "--"), pos...))
+	}
+}
