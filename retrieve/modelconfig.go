@@ -124,6 +124,10 @@ type SpectrumConfig struct {
 	MinBinPoints      *int      `toml:"min_bin_points"` // default 2
 }
 
+// maxModelPoints bounds the model grid: every opacity table is resampled
+// onto it as float64, about 1.2 kB per point per gas on a 13 x 12 grid.
+const maxModelPoints = 200000
+
 // DecodeStrict decodes the TOML file at path into v and rejects keys v does
 // not have, naming each (e.g. "planet.mas_mjup"). Retrieval configurations
 // use it with a struct that embeds ModelConfig.
@@ -361,6 +365,10 @@ func (c *ModelConfig) Validate() error {
 	}
 	if !(*s.WavelengthMaxUm > *s.WavelengthMinUm) {
 		return keyErr("spectrum.wavelength_max_um", "%g um must be above spectrum.wavelength_min_um (%g um)", *s.WavelengthMaxUm, *s.WavelengthMinUm)
+	}
+	if pts := orDefault(s.ResolvingPower, 1000) * math.Log(*s.WavelengthMaxUm / *s.WavelengthMinUm); pts > maxModelPoints {
+		return keyErr("spectrum.resolving_power", "%g over %g-%g um needs %.0f model points, more than the %d supported (each opacity table is held on the model grid)",
+			orDefault(s.ResolvingPower, 1000), *s.WavelengthMinUm, *s.WavelengthMaxUm, pts, maxModelPoints)
 	}
 	if s.MinBinPoints != nil && *s.MinBinPoints < 1 {
 		return keyErr("spectrum.min_bin_points", "must be at least 1, got %d", *s.MinBinPoints)

@@ -121,6 +121,7 @@ func TestModelConfigErrors(t *testing.T) {
 		{"cloud fraction", "[opacity]", "[clouds]\ntop_pressure_bar = 0.1\nfraction = 1.5\n[opacity]", "clouds.fraction: must be in [0, 1]"},
 		{"missing wavelength", "wavelength_min_um = 0.5", "", "missing key: spectrum.wavelength_min_um"},
 		{"reversed wavelengths", "wavelength_max_um = 5", "wavelength_max_um = 0.4", "spectrum.wavelength_max_um"},
+		{"too many points", "resolving_power = 300", "resolving_power = 1e6", "spectrum.resolving_power: 1e+06 over 0.5-5 um needs"},
 		{"two kinds of bins", "resolving_power = 300", "resolving_power = 300\nbin_resolving_power = 10", "give bins one way"},
 		{"bad edges", "bin_edges_um = [0.6, 1.0, 2.0, 4.0]", "bin_edges_um = [0.6, 0.5]", "spectrum.bin_edges_um"},
 		{"bad Rayleigh gas", "[opacity]", "[opacity]\nrayleigh = [\"Ar\"]", "opacity.rayleigh"},
