@@ -267,8 +267,8 @@ func (c *ModelConfig) Validate() error {
 	if !(bot > top) {
 		return keyErr("atmosphere.bottom_pressure_bar", "%g bar must be above atmosphere.top_pressure_bar (%g bar)", bot, top)
 	}
-	if a.Layers != nil && (*a.Layers < 1 || *a.Layers > 10000) {
-		return keyErr("atmosphere.layers", "must be between 1 and 10000, got %d", *a.Layers)
+	if a.Layers != nil && (*a.Layers < 1 || *a.Layers > 2000) {
+		return keyErr("atmosphere.layers", "must be between 1 and 2000, got %d", *a.Layers)
 	}
 	ref := orDefault(c.Planet.ReferencePressureBar, forward.DefaultRefPressure/forward.Bar)
 	if ref < top || ref > bot {
