@@ -99,3 +99,26 @@ func TestCheckpointFullDisk(t *testing.T) {
 		t.Errorf("temporary file left: %v", err)
 	}
 }
+
+// FuzzCheckpoint: any bytes decode to a checkpoint or an error, never a
+// panic; what decodes re-encodes to a checkpoint that decodes.
+func FuzzCheckpoint(f *testing.F) {
+	good, _ := testCheckpoint().MarshalBinary()
+	f.Add(good)
+	f.Add(good[:40])
+	f.Add([]byte("CHORDCKP"))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		var c Checkpoint
+		if err := c.UnmarshalBinary(data); err != nil {
+			return
+		}
+		again, err := c.MarshalBinary()
+		if err != nil {
+			t.Fatal(err)
+		}
+		var d Checkpoint
+		if err := d.UnmarshalBinary(again); err != nil {
+			t.Fatalf("re-encoded checkpoint does not decode: %v", err)
+		}
+	})
+}
