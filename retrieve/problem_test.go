@@ -326,6 +326,7 @@ func TestExampleRetrieval(t *testing.T) {
 		t.Fatalf("truth rejected: %v", p.Rejections())
 	}
 	n := float64(p.Model().OutputLen())
+	t.Logf("chi2 at the truth %.1f for %g bins", extra[3], n)
 	if chi2 := extra[3]; math.Abs(chi2-n) > 5*math.Sqrt(2*n) {
 		t.Errorf("chi2 at the truth %g for %g bins", chi2, n)
 	}
