@@ -79,9 +79,11 @@ type PlanSpec struct {
 // PlanOptions configures RunPlan.
 type PlanOptions struct {
 	Dir string
-	// ScenarioPath is the scenario of a new plan (DemoScenarioName for
-	// the demo's); empty resumes the plan in Dir from its plan.toml.
+	// ScenarioPath is the scenario of a new plan; with Demo set, the
+	// demo's scenario (DemoScenario) is used instead. Neither resumes the
+	// plan in Dir from its plan.toml.
 	ScenarioPath string
+	Demo         bool
 	Spec         PlanSpec // ignored when resuming from plan.toml
 	Workers      *int     // overrides the scenario's sampler.workers
 	DemoCache    string
@@ -324,7 +326,10 @@ func openPlan(opt PlanOptions) (*PlanSpec, error) {
 			return nil, fmt.Errorf("%s: %w", planPath, err)
 		}
 	}
-	if opt.ScenarioPath == "" {
+	if opt.Demo && opt.ScenarioPath != "" {
+		return nil, errors.New("plan: a scenario file and the demo scenario both given; use one")
+	}
+	if opt.ScenarioPath == "" && !opt.Demo {
 		if stored == nil {
 			return nil, fmt.Errorf("plan: %s holds no plan (%s); give a scenario with -c to start one", opt.Dir, PlanFile)
 		}
@@ -333,7 +338,7 @@ func openPlan(opt PlanOptions) (*PlanSpec, error) {
 	// Check the scenario before anything is written.
 	var text []byte
 	scDir := ""
-	if opt.ScenarioPath == DemoScenarioName {
+	if opt.Demo {
 		sc, err := DemoScenario()
 		if err != nil {
 			return nil, err
@@ -387,7 +392,11 @@ func openPlan(opt PlanOptions) (*PlanSpec, error) {
 		return nil, err
 	}
 	var b bytes.Buffer
-	fmt.Fprintf(&b, "# Plan written by chord %s from scenario %s. Resume it with: chord plan -o %s\n", Version, opt.ScenarioPath, opt.Dir)
+	name := opt.ScenarioPath
+	if opt.Demo {
+		name = DemoScenarioName
+	}
+	fmt.Fprintf(&b, "# Plan written by chord %s from scenario %s. Resume it with: chord plan -o %s\n", Version, name, opt.Dir)
 	if err := toml.NewEncoder(&b).Encode(&spec); err != nil {
 		return nil, err
 	}
@@ -511,8 +520,8 @@ func CompareDirs(dirs []string) (*Comparison, error) {
 	return Compare(runs)
 }
 
-// DemoScenarioName is how the demo's scenario is named in plans.
-const DemoScenarioName = "the demo scenario (Ossery b)"
+// DemoScenarioName names the demo's scenario in outputs.
+const DemoScenarioName = "the chord demo scenario"
 
 // DemoScenario returns the scenario of chord demo: the invented warm
 // sub-Neptune Ossery b, its truth (DemoTruth, with the bins of the demo

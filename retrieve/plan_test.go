@@ -222,6 +222,9 @@ func TestPlanBadInput(t *testing.T) {
 			t.Errorf("case %d: a refused plan left files in %s", i, p)
 		}
 	}
+	if _, err := RunPlan(context.Background(), PlanOptions{Dir: filepath.Join(dir, "both"), ScenarioPath: sc, Demo: true, Spec: PlanSpec{NoisePPM: []float64{30}}}); err == nil || !strings.Contains(err.Error(), "both given") {
+		t.Errorf("scenario and demo: %v", err)
+	}
 	// A non-empty directory that is not a plan is refused.
 	if _, err := RunPlan(context.Background(), PlanOptions{Dir: dir, ScenarioPath: sc, Spec: PlanSpec{NoisePPM: []float64{30}}}); err == nil || !strings.Contains(err.Error(), "not empty") {
 		t.Errorf("non-empty directory: %v", err)

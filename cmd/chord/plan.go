@@ -51,9 +51,9 @@ func runPlan(c *cli.Context) error {
 		if opt.ScenarioPath != "" {
 			return errors.New("plan: give -c SCENARIO or --demo, not both")
 		}
-		opt.ScenarioPath = retrieve.DemoScenarioName
+		opt.Demo = true
 	}
-	if opt.ScenarioPath == "" {
+	if opt.ScenarioPath == "" && !opt.Demo {
 		for _, f := range []string{"noise", "transits", "seed", "bins", "wavelength-range", "resolving-power", "noise-file", "steps", "budget", "until-converged"} {
 			if c.IsSet(f) {
 				return fmt.Errorf("plan: --%s without -c or --demo: a plan is resumed as it was asked (its plan.toml); give -c SCENARIO to start a new plan", f)
