@@ -726,18 +726,32 @@ func (g *Grid) pointConfig(i int, baseText []byte) (*Config, ObservingSpec, Simu
 	if err != nil {
 		return nil, ObservingSpec{}, SimulateOptions{}, err
 	}
-	o := id.Observe
-	noiseSeed := int64(i)
-	if o.NoiseSeed != nil {
-		noiseSeed += *o.NoiseSeed
-	}
 	for _, st := range id.Set {
 		if err := setConfigKey(c, st.Key, st.Value); err != nil {
 			return nil, ObservingSpec{}, SimulateOptions{}, err
 		}
 	}
 	for k, a := range id.Axes {
-		v := g.Points[i].Values[k]
+		if !strings.HasPrefix(a.Key, "observe.") {
+			if err := setConfigKey(c, a.Key, g.Points[i].Values[k]); err != nil {
+				return nil, ObservingSpec{}, SimulateOptions{}, err
+			}
+		}
+	}
+	obs, sim := observePoint(id.Observe, id.Axes, g.Points[i])
+	return c, obs, sim, nil
+}
+
+// observePoint is how a point is observed: [observe] with the point's
+// observation-axis values; the noise seed is noise_seed plus the point's
+// index unless an axis gives it.
+func observePoint(o GridObserve, axes []GridAxis, p GridPoint) (ObservingSpec, SimulateOptions) {
+	noiseSeed := int64(p.Index)
+	if o.NoiseSeed != nil {
+		noiseSeed += *o.NoiseSeed
+	}
+	for k, a := range axes {
+		v := p.Values[k]
 		switch a.Key {
 		case AxisNoisePPM:
 			f, _ := toFloat(v)
@@ -747,10 +761,6 @@ func (g *Grid) pointConfig(i int, baseText []byte) (*Config, ObservingSpec, Simu
 			o.Transits = &n
 		case AxisNoiseSeed:
 			noiseSeed = v.(int64)
-		default:
-			if err := setConfigKey(c, a.Key, v); err != nil {
-				return nil, ObservingSpec{}, SimulateOptions{}, err
-			}
 		}
 	}
 	obs := ObservingSpec{BinsFile: o.BinsFile, NoiseFile: o.NoiseFile}
@@ -766,7 +776,26 @@ func (g *Grid) pointConfig(i int, baseText []byte) (*Config, ObservingSpec, Simu
 	if o.Transits != nil {
 		obs.Transits = int(*o.Transits)
 	}
-	return c, obs, SimulateOptions{Scatter: o.Scatter, Seed: uint64(noiseSeed)}, nil
+	return obs, SimulateOptions{Scatter: o.Scatter, Seed: uint64(noiseSeed)}
+}
+
+// simulatePoint observes the scenario as obs and sim say and returns the
+// observation and the configuration that fits it from obsPath.
+func simulatePoint(sc *Scenario, set *opacity.Set, obs ObservingSpec, sim SimulateOptions, obsPath string) (*Observation, *Config, error) {
+	bins, noise, err := obs.Resolve(sc)
+	if err != nil {
+		return nil, nil, err
+	}
+	sim.Noise = noise
+	o, err := sc.Simulate(set, bins, sim)
+	if err != nil {
+		return nil, nil, err
+	}
+	c, err := sc.FitConfig(obsPath)
+	if err != nil {
+		return nil, nil, err
+	}
+	return o, c, nil
 }
 
 // opacityKey identifies the tables a configuration loads.
@@ -811,8 +840,7 @@ func (g *Grid) build(demoCache string, log io.Writer) ([]builtPoint, error) {
 		pd := g.PointDir(i)
 		if id.Kind == "scenario" {
 			sc := &Scenario{Path: id.Base, Config: *c}
-			bins, noise, err := obs.Resolve(sc)
-			if err != nil {
+			if _, _, err := obs.Resolve(sc); err != nil {
 				return nil, fmt.Errorf("%s: %w", at, err)
 			}
 			k := opacityKey(c)
@@ -826,8 +854,7 @@ func (g *Grid) build(demoCache string, log io.Writer) ([]builtPoint, error) {
 				}
 				sets[k] = set
 			}
-			sim.Noise = noise
-			if b.obs, err = sc.Simulate(set, bins, sim); err != nil {
+			if b.obs, c, err = simulatePoint(sc, set, obs, sim, filepath.Join(pd, "observation.csv")); err != nil {
 				return nil, fmt.Errorf("%s: %w", at, err)
 			}
 			e := make([]float64, len(b.obs.Sigma))
@@ -835,9 +862,6 @@ func (g *Grid) build(demoCache string, log io.Writer) ([]builtPoint, error) {
 				e[j] = s * 1e6
 			}
 			b.noise = roundPPM(NoiseLevel(e))
-			if c, err = sc.FitConfig(filepath.Join(pd, "observation.csv")); err != nil {
-				return nil, err
-			}
 		} else {
 			for j := range c.Observations {
 				c.Observations[j].File = c.abs(c.Observations[j].File)
@@ -1072,26 +1096,27 @@ func (g *Grid) RunPoint(ctx context.Context, i int, opt PointOptions) (*RunRepor
 	if log == nil {
 		log = io.Discard
 	}
-	return fitOrResume(ctx, filepath.Join(g.PointDir(i), "fit.toml"), g.RunDir(i), opt.Opacity, StopRule{}, opt.Workers, opt.DemoCache, opt.Progress, log)
+	return fitOrResume(ctx, "chord grid", filepath.Join(g.PointDir(i), "fit.toml"), g.RunDir(i), opt.Opacity, StopRule{}, opt.Workers, opt.DemoCache, opt.Progress, log)
 }
 
-// fitOrResume starts, resumes or keeps the fit of cfg in run: a run with
+// fitOrResume starts, resumes or keeps the fit of cfg in run (who names
+// the command in log lines): a run with
 // a summary is kept, one with a checkpoint resumed, any other started
 // afresh (replacing what a run killed before its first checkpoint left).
-func fitOrResume(ctx context.Context, cfg, run string, set *opacity.Set, stop StopRule, workers *int, cache string, prog Progress, log io.Writer) (*RunReport, error) {
+func fitOrResume(ctx context.Context, who, cfg, run string, set *opacity.Set, stop StopRule, workers *int, cache string, prog Progress, log io.Writer) (*RunReport, error) {
 	if _, err := os.Stat(filepath.Join(run, "summary.json")); err == nil {
 		s, err := ReadSummary(run)
 		if err != nil {
 			return nil, err
 		}
-		fmt.Fprintf(log, "chord: %s is done; kept\n", run)
+		fmt.Fprintf(log, "%s: %s is done; kept\n", who, run)
 		return &RunReport{Dir: run, Summary: s}, nil
 	}
 	if _, err := os.Stat(filepath.Join(run, CheckpointFile)); err == nil {
-		fmt.Fprintf(log, "chord: resuming %s\n", run)
+		fmt.Fprintf(log, "%s: resuming %s\n", who, run)
 		return Resume(ctx, run, ResumeOptions{Stop: stop, Workers: workers, Opacity: set, DemoCache: cache, Progress: prog, Log: log})
 	}
-	fmt.Fprintf(log, "chord: fitting %s\n", run)
+	fmt.Fprintf(log, "%s: fitting %s\n", who, run)
 	return Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: run, Force: true, Workers: workers, Stop: stop, Opacity: set, DemoCache: cache, Progress: prog, Log: log})
 }
 

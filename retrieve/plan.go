@@ -16,7 +16,6 @@ import (
 
 	"github.com/BurntSushi/toml"
 
-	"chord/forward/opacity"
 	"chord/sampler"
 )
 
@@ -33,7 +32,9 @@ import (
 //	                 continues it like any other run)
 //	comparison.txt, comparison.json, widths.png   the comparison, when every fit is done
 //
-// with <level> "noise-0030ppm" or "transits-0004". The fits run one after
+// with <level> "noise-0030ppm" or "transits-0004". A plan is a grid of one
+// axis (see grid.go): its levels are the points of that axis, observed and
+// fitted by the grid's code. The fits run one after
 // another, each with every worker (the sampler already spreads one fit's
 // walkers over the cores), and share one set of opacity tables, loaded
 // once. A plan stopped at any point (SIGINT, SIGKILL) resumes where it
@@ -156,14 +157,24 @@ func (p *PlanSpec) levelName(i int) string {
 	return fmt.Sprintf("transits-%04d", p.Transits[i])
 }
 
-func (p *PlanSpec) observing(i int) ObservingSpec {
-	o := ObservingSpec{BinsFile: p.BinsFile, RangeUm: p.RangeUm, ResolvingPower: p.ResolvingPower, NoiseFile: p.NoiseFile, NoisePPM: p.SingleNoisePPM}
-	if len(p.NoisePPM) > 0 {
-		o.NoisePPM = p.NoisePPM[i]
-	} else {
-		o.Transits = p.Transits[i]
+// grid is the plan as a grid of one axis (chord grid): the noise levels
+// or numbers of transits over the plan's observing settings, level i's
+// noise drawn with seed NoiseSeed + i.
+func (p *PlanSpec) grid() (GridObserve, GridAxis) {
+	rp, single, seed := p.ResolvingPower, p.SingleNoisePPM, int64(p.NoiseSeed)
+	o := GridObserve{BinsFile: p.BinsFile, WavelengthRangeUm: p.RangeUm[:], ResolvingPower: &rp, NoiseFile: p.NoiseFile,
+		NoisePPM: &single, Scatter: p.Scatter, NoiseSeed: &seed}
+	a := GridAxis{Key: AxisNoisePPM}
+	for _, v := range p.NoisePPM {
+		a.Values = append(a.Values, v)
 	}
-	return o
+	if len(p.Transits) > 0 {
+		a = GridAxis{Key: AxisTransits}
+		for _, n := range p.Transits {
+			a.Values = append(a.Values, int64(n))
+		}
+	}
+	return o, a
 }
 
 func (p *PlanSpec) stop() StopRule {
@@ -196,14 +207,17 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 	type level struct {
 		name, dir, obs, cfg, run string
 		obsSpec                  ObservingSpec
+		sim                      SimulateOptions
 	}
-	lv := make([]level, spec.levels())
+	obs, axis := spec.grid()
+	points := expandAxes([]GridAxis{axis})
+	lv := make([]level, len(points))
 	for i := range lv {
 		l := &lv[i]
 		l.name = spec.levelName(i)
 		l.dir = filepath.Join(opt.Dir, l.name)
 		l.obs, l.cfg, l.run = filepath.Join(l.dir, "observation.csv"), filepath.Join(l.dir, "fit.toml"), filepath.Join(l.dir, "run")
-		l.obsSpec = spec.observing(i)
+		l.obsSpec, l.sim = observePoint(obs, []GridAxis{axis}, points[i])
 		if _, _, err := l.obsSpec.Resolve(sc); err != nil {
 			return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
 		}
@@ -222,17 +236,12 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 		if err := os.MkdirAll(l.dir, 0o755); err != nil {
 			return nil, err
 		}
-		bins, noise, _ := l.obsSpec.Resolve(sc)
-		o, err := sc.Simulate(set, bins, SimulateOptions{Noise: noise, Scatter: spec.Scatter, Seed: spec.NoiseSeed + uint64(i)})
+		o, fc, err := simulatePoint(sc, set, l.obsSpec, l.sim, l.obs)
 		if err != nil {
 			return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
 		}
 		if err := keepOrWriteObservation(l.obs, o); err != nil {
 			return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
-		}
-		fc, err := sc.FitConfig(l.obs)
-		if err != nil {
-			return nil, err
 		}
 		hdr := []string{fmt.Sprintf("Retrieval configuration of plan %s, level %s (chord %s).", opt.Dir, l.name, Version)}
 		if _, err := os.Stat(l.cfg); errors.Is(err, os.ErrNotExist) {
@@ -244,7 +253,7 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 	rep := &PlanReport{Dir: opt.Dir}
 	for i := range lv {
 		l := &lv[i]
-		r, err := planFit(ctx, l.cfg, l.run, set, spec.stop(), opt, log)
+		r, err := fitOrResume(ctx, "chord plan", l.cfg, l.run, set, spec.stop(), opt.Workers, opt.DemoCache, opt.Progress, log)
 		if err != nil {
 			return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
 		}
@@ -430,24 +439,6 @@ func keepOrWriteObservation(path string, o *Observation) error {
 		return fmt.Errorf("%s differs from the observation this plan simulates now (the scenario's opacity tables or the program changed?); remove the plan's level directory to simulate and fit it again", path)
 	}
 	return nil
-}
-
-// planFit starts, resumes or keeps the fit of one level.
-func planFit(ctx context.Context, cfg, run string, set *opacity.Set, stop StopRule, opt PlanOptions, log io.Writer) (*RunReport, error) {
-	if _, err := os.Stat(filepath.Join(run, "summary.json")); err == nil {
-		s, err := ReadSummary(run)
-		if err != nil {
-			return nil, err
-		}
-		fmt.Fprintf(log, "chord plan: %s is done; kept\n", run)
-		return &RunReport{Dir: run, Summary: s}, nil
-	}
-	if _, err := os.Stat(filepath.Join(run, CheckpointFile)); err == nil {
-		fmt.Fprintf(log, "chord plan: resuming %s\n", run)
-		return Resume(ctx, run, ResumeOptions{Stop: stop, Workers: opt.Workers, Opacity: set, Progress: opt.Progress, Log: log})
-	}
-	fmt.Fprintf(log, "chord plan: fitting %s\n", run)
-	return Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: run, Force: true, Workers: opt.Workers, Stop: stop, Opacity: set, Progress: opt.Progress, Log: log})
 }
 
 func sha256Sum(b []byte) []byte { s := sha256.Sum256(b); return s[:] }

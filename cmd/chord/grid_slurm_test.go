@@ -197,7 +197,7 @@ func TestGridOnSlurm(t *testing.T) {
 	log := taskLog(t, cut, job2, 0)
 	// Resumed, not restarted: the session sampled the 1500-k steps after
 	// the checkpoint.
-	if !strings.Contains(log, "chord: resuming") || !strings.Contains(log, "1500 steps in the chain ("+strconv.Itoa(1500-k)+" this session") {
+	if !strings.Contains(log, "chord grid: resuming") || !strings.Contains(log, "1500 steps in the chain ("+strconv.Itoa(1500-k)+" this session") {
 		t.Fatalf("point 0 was not resumed from step %d; log:\n%s", k, log)
 	}
 	t.Logf("task 0 cancelled with a checkpoint at step %d, resumed for the remaining %d steps", k, 1500-k)
