@@ -14,10 +14,11 @@ import (
 	"time"
 )
 
-// DemoVersion identifies the demo generator: its line lists, grid and CIA
-// shapes. Change it whenever any of them changes, so cached demo tables
-// are rebuilt. Callers put it in the cache directory name.
-const DemoVersion = "1"
+// DemoVersion identifies the demo generator: its line lists, grid, build
+// settings and CIA shapes. Change it whenever any of them changes, so
+// cached demo tables are rebuilt. Callers put it in the cache directory
+// name. Version 2: cell means (CellAverage) instead of point values.
+const DemoVersion = "2"
 
 // MetaDemoVersion is the metadata key that carries DemoVersion in every
 // demo table.
@@ -93,8 +94,10 @@ func demoMeta() map[string]string {
 }
 
 // BuildDemo builds the demo tables in memory: one cross-section table per
-// demo gas from its synthetic line list through BuildXSec (point values on
-// the demo grid, 25 cm^-1 wing cut-off, air broadening), and the demo CIA
+// demo gas from its synthetic line list through BuildXSec (cell means on
+// the demo grid, CellAverage, so that lines far narrower than the grid
+// spacing at low pressure keep their intensity; 25 cm^-1 wing cut-off,
+// air broadening), and the demo CIA
 // tables of H2-H2 and H2-He. Progress lines go to progress (nil: none).
 // Every table's Meta says "demo, not for science".
 func BuildDemo(progress io.Writer) (*Set, error) {
@@ -108,7 +111,7 @@ func BuildDemo(progress io.Writer) (*Set, error) {
 		}
 		// Each gas takes about a second: a line per gas is progress enough.
 		t, err := BuildXSec(lines, iso, &XSecSettings{
-			Gas: gas, Log10P: demoLog10P, T: demoT, Wavenumber: nu, Quiet: true,
+			Gas: gas, Log10P: demoLog10P, T: demoT, Wavenumber: nu, Quiet: true, CellAverage: true,
 		})
 		if err != nil {
 			return nil, fmt.Errorf("opacity: demo %s: %w", gas, err)
