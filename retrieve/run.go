@@ -1287,6 +1287,19 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 	if err != nil {
 		return nil, nil, fmt.Errorf("%s: %w", path, err)
 	}
+	if cache, err = demoCache(cache, r); err != nil {
+		return nil, nil, err
+	}
+	if log == nil {
+		log = io.Discard
+	}
+	if set == nil {
+		if set, err = r.Config.LoadOpacity(cache, log); err != nil {
+			return nil, nil, fmt.Errorf("%s: %w", path, err)
+		}
+	}
+	// After loading: loading the demo tables rebuilds them when their
+	// generator changed, which must count as a change too.
 	for _, in := range rf.Run.Inputs {
 		if in.Role == "configuration" {
 			continue // the run uses run.toml, not the original file
@@ -1297,17 +1310,6 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 		}
 		if h != in.SHA256 {
 			return nil, nil, fmt.Errorf("%s: the %s file %s changed since the run started (SHA-256 %s, run.toml records %s): the chain cannot be continued or reported against it; restore the file, or start a new run with chord fit", dir, in.Role, in.Path, short(h), short(in.SHA256))
-		}
-	}
-	if cache, err = demoCache(cache, r); err != nil {
-		return nil, nil, err
-	}
-	if log == nil {
-		log = io.Discard
-	}
-	if set == nil {
-		if set, err = r.Config.LoadOpacity(cache, log); err != nil {
-			return nil, nil, fmt.Errorf("%s: %w", path, err)
 		}
 	}
 	j, err := newJob(r, set, rf.Run.RunID)
