@@ -108,6 +108,14 @@ func TestPlanWidthsScaleWithNoise(t *testing.T) {
 	if _, err := CompareDirs([]string{dir}); err == nil || !strings.Contains(err.Error(), "summary.json") {
 		t.Errorf("not a run directory: %v", err)
 	}
+	// A plan's run is a normal run directory: chord resume extends it.
+	r, err := Resume(context.Background(), runs[0], ResumeOptions{Stop: StopRule{Steps: 1600}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Summary == nil || r.Summary.Steps != 1600 {
+		t.Fatalf("resumed plan run: %+v", r.Outcome)
+	}
 }
 
 // cancelOnProgress cancels a context at the first progress line after the
