@@ -75,6 +75,9 @@ import (
 // GridFileName is the resolved grid in a grid directory.
 const GridFileName = "resolved-grid.toml"
 
+// MaxGridPoints bounds the points of one grid.
+const MaxGridPoints = 100000
+
 // GridSpec is a grid file as written by the user.
 type GridSpec struct {
 	Base    string         `toml:"base"`    // base scenario or retrieval configuration; required
@@ -341,6 +344,12 @@ func resolveGrid(specPath string, s *GridSpec) (*gridIdentity, *Config, []byte, 
 			if err := setConfigKey(probe, a.Key, v); err != nil {
 				return nil, nil, nil, where("%s: %v", at, err)
 			}
+		}
+	}
+	n := 1
+	for _, a := range s.Axes {
+		if n *= len(a.Values); n > MaxGridPoints {
+			return nil, nil, nil, where("more than %d points: split the grid", MaxGridPoints)
 		}
 	}
 	if seen[AxisNoisePPM] && seen[AxisTransits] {
@@ -709,9 +718,15 @@ func OpenGrid(dir string) (*Grid, error) {
 	if h, err := g.rec.gridIdentity.hash(); err != nil || h != g.rec.Identity {
 		return nil, fmt.Errorf("grid: %s was edited (its identity does not match its contents): restore it", path)
 	}
+	n := 1
 	for _, a := range g.rec.Axes {
-		if len(a.Values) == 0 {
-			return nil, fmt.Errorf("%s: axis %s: empty", path, a.Key)
+		if n *= len(a.Values); len(a.Values) == 0 || n > MaxGridPoints {
+			return nil, fmt.Errorf("%s: axis %s: empty or too long", path, a.Key)
+		}
+		if strings.HasPrefix(a.Key, "observe.") {
+			if err := checkObserveAxis(a); err != nil {
+				return nil, fmt.Errorf("%s: axis %s: %w", path, a.Key, err)
+			}
 		}
 	}
 	g.Points = expandAxes(g.rec.Axes)

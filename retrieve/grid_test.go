@@ -372,3 +372,39 @@ func TestGridStoppedAndResumedEqualsUninterrupted(t *testing.T) {
 		}
 	}
 }
+
+// Grid files never panic: any text either is refused with an error or
+// expands into points whose configurations can be built.
+func FuzzGridSpec(f *testing.F) {
+	f.Add(grid3x4)
+	f.Add(grid2)
+	f.Add("base = \"scenario.toml\"\n[set]\natmosphere.gases.H2O = 1e-3\n[[axis]]\nkey = \"atmosphere.temperature.temperatures_k\"\nvalues = [[1, 2], [3]]\n")
+	f.Add("base = \"scenario.toml\"\n[[axis]]\nkey = \"observe.transits\"\nvalues = [1, 4]\n[[axis]]\nkey = \"sampler.seed\"\nvalues = [1, 2]\n")
+	f.Add("base = \"scenario.toml\"\n[[axis]]\nkey = \"opacity.cia\"\nvalues = [[\"H2-H2\"], []]\n")
+	dir := f.TempDir()
+	if err := os.WriteFile(filepath.Join(dir, "scenario.toml"), []byte(gridScenario), 0o644); err != nil {
+		f.Fatal(err)
+	}
+	baseText := []byte(gridScenario)
+	f.Fuzz(func(t *testing.T, text string) {
+		p := filepath.Join(t.TempDir(), "grid.toml")
+		os.WriteFile(p, []byte(strings.ReplaceAll(text, "scenario.toml", filepath.Join(dir, "scenario.toml"))), 0o644)
+		s, err := LoadGridSpec(p)
+		if err != nil {
+			return
+		}
+		id, _, _, err := resolveGrid(p, s)
+		if err != nil {
+			return
+		}
+		if _, err := id.hash(); err != nil {
+			t.Fatalf("identity of a valid grid: %v", err)
+		}
+		g := &Grid{Dir: dir, rec: gridRecord{gridIdentity: *id}}
+		g.Points = expandAxes(id.Axes)
+		for i := range min(len(g.Points), 4) {
+			g.pointConfig(i, baseText)
+			g.Settings(i)
+		}
+	})
+}
