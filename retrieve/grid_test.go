@@ -408,3 +408,44 @@ func FuzzGridSpec(f *testing.F) {
 		}
 	})
 }
+
+// A grid over a retrieval configuration (which has its observations)
+// varies its keys; the observations are the configuration's, by absolute
+// path, and the seeds are the axis's.
+func TestGridOverRetrievalConfig(t *testing.T) {
+	dir := t.TempDir()
+	os.WriteFile(filepath.Join(dir, "obs.csv"), []byte("wavelength_um,width_um,depth_ppm,error_ppm\n1.0,0.1,5000,50\n1.2,0.1,5010,50\n1.4,0.1,5005,50\n"), 0o644)
+	fit := strings.Replace(gridScenario, "bin_resolving_power = 20\n", "", 1) + "\n[[observations]]\nfile = \"obs.csv\"\n"
+	os.WriteFile(filepath.Join(dir, "fit.toml"), []byte(fit), 0o644)
+	spec := filepath.Join(dir, "grid.toml")
+	os.WriteFile(spec, []byte("base = \"fit.toml\"\n[[axis]]\nkey = \"sampler.seed\"\nvalues = [11, 12]\n[[axis]]\nkey = \"atmosphere.layers\"\nvalues = [20, 40]\n"), 0o644)
+	g, err := CreateGrid(spec, filepath.Join(dir, "out"), GridOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(g.Points) != 4 {
+		t.Fatalf("%d points", len(g.Points))
+	}
+	r, err := LoadConfig(filepath.Join(g.PointDir(3), "fit.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Seed != 12 || *r.Config.Atmosphere.Layers != 40 || r.Config.Observations[0].File != filepath.Join(dir, "obs.csv") {
+		t.Errorf("point 3: seed %d, layers %d, observations %s", r.Seed, *r.Config.Atmosphere.Layers, r.Config.Observations[0].File)
+	}
+	if _, err := os.Stat(filepath.Join(g.PointDir(3), "observation.csv")); err == nil {
+		t.Error("a retrieval grid simulated an observation")
+	}
+	idx, _ := os.ReadFile(filepath.Join(g.Dir, "index.csv"))
+	if !strings.Contains(string(idx), "3,points/p0003,12,40,12,50\n") {
+		t.Errorf("index.csv:\n%s", idx)
+	}
+	// A bad value of the retrieval's schema is caught before anything is written.
+	os.WriteFile(spec, []byte("base = \"fit.toml\"\n[[axis]]\nkey = \"atmosphere.layers\"\nvalues = [20, -1]\n"), 0o644)
+	if _, err := CreateGrid(spec, filepath.Join(dir, "bad"), GridOptions{}); err == nil || !strings.Contains(err.Error(), "point 1") {
+		t.Errorf("negative layers: %v", err)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "bad")); err == nil {
+		t.Error("a refused grid left files")
+	}
+}
