@@ -56,6 +56,8 @@ var opacityBuildCommand = &cli.Command{
 		&cli.Float64Flag{Name: "broadener-scale", Usage: "background half-width = `SCALE` x air half-width (0: 1)"},
 		&cli.Float64Flag{Name: "broadener-n", Usage: "temperature `EXPONENT` of the background half-width (0: the lines' own)"},
 		&cli.BoolFlag{Name: "no-shift", Usage: "ignore the lines' pressure shifts"},
+		&cli.BoolFlag{Name: "cell-average", Usage: "store the mean cross-section over each grid cell instead of the value at the grid point " +
+			"(default: on when the grid spacing exceeds twice the median line half-width at the lowest pressure and temperature; --cell-average=false for point values)"},
 		&cli.Float64Flag{Name: "abundance", Usage: "ExoMol: weight intensities by this isotopologue `FRACTION` (0: 1)"},
 		&cli.Float64Flag{Name: "exomol-gamma", Usage: "ExoMol: Lorentz half-width in `CM-1/BAR` at 296 K instead of the .def default"},
 		&cli.Float64Flag{Name: "exomol-n", Usage: "ExoMol: temperature `EXPONENT` of --exomol-gamma"},
@@ -84,7 +86,7 @@ func runOpacityBuild(c *cli.Context) error {
 		progress = nil
 	}
 	if c.Bool("demo") {
-		for _, f := range []string{"lines", "cia", "molparam", "tips", "partition", "wavenumber", "wavelength", "gas"} {
+		for _, f := range []string{"lines", "cia", "molparam", "tips", "partition", "wavenumber", "wavelength", "gas", "cell-average"} {
 			if c.IsSet(f) {
 				return fmt.Errorf("opacity build: --demo builds the fixed demo set; --%s cannot be used with it", f)
 			}
@@ -269,9 +271,7 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 	if err != nil {
 		return err
 	}
-	status("building %s: %d lines on %d pressures x %d temperatures x %d wavenumbers", gas, len(lines), len(logP), len(temps), len(nu))
-	start := time.Now()
-	t, err := opacity.BuildXSec(lines, iso, &opacity.XSecSettings{
+	settings := &opacity.XSecSettings{
 		Gas: gas, Log10P: logP, T: temps, Wavenumber: nu,
 		WingCutoff:   c.Float64("cutoff"),
 		MinIntensity: c.Float64("min-intensity"),
@@ -285,7 +285,24 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 		Log:             c.App.ErrWriter,
 		Version:         retrieve.Version,
 		Sources:         src,
-	})
+	}
+	settings.CellAverage = c.Bool("cell-average")
+	if !c.IsSet("cell-average") {
+		// The default: cell means when the grid does not resolve the lines.
+		// A one-point grid has no cells, and lines without isotopologue
+		// data are reported by BuildXSec: both keep point values here.
+		if r, err := opacity.GridCoarseness(lines, iso, settings); err == nil && r > opacity.CoarseGridRatio {
+			settings.CellAverage = true
+			status("grid spacing is %.3g times the median line half-width at the lowest pressure and temperature: storing cell means (--cell-average=false for point values)", r)
+		}
+	}
+	sampling := "point values"
+	if settings.CellAverage {
+		sampling = "cell means"
+	}
+	status("building %s: %d lines on %d pressures x %d temperatures x %d wavenumbers, %s", gas, len(lines), len(logP), len(temps), len(nu), sampling)
+	start := time.Now()
+	t, err := opacity.BuildXSec(lines, iso, settings)
 	if err != nil {
 		return err
 	}

@@ -286,3 +286,24 @@ func TestCellAverageWorkers(t *testing.T) {
 		t.Errorf("one-point grid: error %v", err)
 	}
 }
+
+// TestGridCoarseness: a CO line at 2000 cm^-1, 296 K, 1e-3 atm has the
+// Doppler HWHM 0.0023290 cm^-1 (TestDopplerHWHM's hand-worked 0.002495471
+// at 2143 cm^-1, scaled by 2000/2143) and a Lorentz HWHM of 6e-5 cm^-1,
+// so its Voigt HWHM is 0.0023612 (Olivero & Longbothum 1977, worked by
+// hand: 0.5346 x 6e-5 + sqrt(0.2166 x 3.6e-9 + 0.0023290^2)); on a 2 cm^-1
+// grid the ratio is 847.0. A missing isotopologue is an error.
+func TestGridCoarseness(t *testing.T) {
+	l := []Line{{Mol: 5, Iso: 1, Nu: 2000, S: 1e-20, GammaAir: 0.06}}
+	s := &XSecSettings{Gas: "CO", Log10P: []float64{math.Log10(1e-3 * atmPa)}, T: []float64{TRef, 500}, Wavenumber: uniformGrid(1990, 2010, 2)}
+	r, err := GridCoarseness(l, syntheticIso(), s)
+	if err != nil || math.Abs(r/847.0-1) > 2e-4 { // hand-worked to 4-5 digits
+		t.Errorf("ratio %g (%v), hand-worked 847.0", r, err)
+	}
+	if _, err := GridCoarseness([]Line{{Mol: 6, Iso: 1, Nu: 2000}}, syntheticIso(), s); err == nil || !strings.Contains(err.Error(), "no isotopologue mass for CH4") {
+		t.Errorf("missing isotopologue: %v", err)
+	}
+	if _, err := GridCoarseness(l, syntheticIso(), nil); err == nil {
+		t.Error("nil settings accepted")
+	}
+}

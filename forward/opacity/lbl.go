@@ -3,6 +3,7 @@ package opacity
 import (
 	"cmp"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -361,36 +362,78 @@ func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
 
 // samplingWarning says when the grid is coarse against the lines: if the
 // largest grid spacing exceeds twice the median Voigt half-width at the
-// lowest pressure and temperature (Olivero & Longbothum 1977, JQSRT 17,
-// 233: HWHM ~ 0.5346 gL + sqrt(0.2166 gL^2 + aD^2), good to 0.02 %), line
-// cores fall between grid points and the table holds samples of a
-// spiky function, not averages over the spacing.
+// lowest pressure and temperature (see GridCoarseness), line cores fall
+// between grid points and point values are samples of a spiky function,
+// not averages over the spacing.
 func (b *lineBuild) samplingWarning() string {
 	s := b.s
-	var dmax float64
-	for k := 1; k < len(b.nuCm); k++ {
-		dmax = max(dmax, b.nuCm[k]-b.nuCm[k-1])
-	}
-	if dmax == 0 {
-		return ""
-	}
-	pAtm := math.Pow(10, s.Log10P[0]) / atmPa
-	T := s.T[0]
-	hw := make([]float64, len(b.lines))
-	for i := range b.lines {
-		l := &b.lines[i]
-		gL := b.bgScale * l.GammaAir * math.Pow(TRef/T, l.NAir) * pAtm
-		aD := DopplerHWHM(l.Nu, T, b.lineIso[i].mass)
-		hw[i] = 0.5346*gL + math.Sqrt(0.2166*gL*gL+aD*aD)
-	}
-	slices.Sort(hw)
-	med := hw[len(hw)/2]
-	if dmax <= 2*med {
+	dmax, med := spacingAndWidth(b.nuCm, b.lines, func(i int) float64 { return b.lineIso[i].mass }, b.bgScale, s.Log10P[0], s.T[0])
+	if dmax == 0 || dmax <= CoarseGridRatio*med {
 		return ""
 	}
 	return fmt.Sprintf("grid spacing up to %.3g cm^-1 is %.0f times the median line half-width at %g Pa and %g K (%.3g cm^-1): "+
-		"the table holds point samples of the cross-section (opacity sampling), not averages over the spacing; use a finer grid where that matters",
-		dmax, dmax/med, math.Pow(10, s.Log10P[0]), T, med)
+		"the table holds point samples of the cross-section (opacity sampling), not averages over the spacing; use a finer grid or cell averaging where that matters",
+		dmax, dmax/med, math.Pow(10, s.Log10P[0]), s.T[0], med)
+}
+
+// CoarseGridRatio is the ratio of grid spacing to median line half-width
+// (GridCoarseness) above which BuildXSec warns that point values sample
+// the lines rather than resolve them: 2, i.e. fewer than about one grid
+// point per line full width.
+const CoarseGridRatio = 2.0
+
+// GridCoarseness returns the largest spacing of the grid s.Wavenumber
+// divided by the median Voigt half-width of the lines at the lowest
+// pressure and temperature of s (Lorentz width from gamma_air and the
+// broadening scale; HWHM ~ 0.5346 gL + sqrt(0.2166 gL^2 + aD^2), Olivero &
+// Longbothum 1977, JQSRT 17, 233, good to 0.02 %). Above CoarseGridRatio
+// the grid does not resolve the lines, and cell averaging
+// (XSecSettings.CellAverage) is the sounder choice. It needs the mass of
+// every line's isotopologue in iso.
+func GridCoarseness(lines []Line, iso IsoData, s *XSecSettings) (float64, error) {
+	if s == nil || len(s.Log10P) == 0 || len(s.T) == 0 || len(s.Wavenumber) < 2 || len(lines) == 0 {
+		return 0, errors.New("opacity: GridCoarseness needs lines, a pressure, a temperature and at least 2 wavenumbers")
+	}
+	mass := make([]float64, len(lines))
+	for i := range lines {
+		k := IsoKey{lines[i].Mol, lines[i].Iso}
+		d := iso[k]
+		if d == nil || !(d.Mass > 0) {
+			return 0, fmt.Errorf("opacity: GridCoarseness %s: no isotopologue mass for %v", s.Gas, k)
+		}
+		mass[i] = d.Mass
+	}
+	nuCm := make([]float64, len(s.Wavenumber))
+	for k, v := range s.Wavenumber {
+		nuCm[k] = v / 100
+	}
+	scale := s.Broadening.Scale
+	if scale == 0 {
+		scale = 1
+	}
+	dmax, med := spacingAndWidth(nuCm, lines, func(i int) float64 { return mass[i] }, scale, slices.Min(s.Log10P), slices.Min(s.T))
+	if !(med > 0) {
+		return math.Inf(1), nil
+	}
+	return dmax / med, nil
+}
+
+// spacingAndWidth returns the largest spacing of nuCm and the median Voigt
+// half-width (cm^-1) of the lines at log10 P (Pa) and T.
+func spacingAndWidth(nuCm []float64, lines []Line, mass func(i int) float64, bgScale, log10P, T float64) (dmax, med float64) {
+	for k := 1; k < len(nuCm); k++ {
+		dmax = max(dmax, nuCm[k]-nuCm[k-1])
+	}
+	pAtm := math.Pow(10, log10P) / atmPa
+	hw := make([]float64, len(lines))
+	for i := range lines {
+		l := &lines[i]
+		gL := bgScale * l.GammaAir * math.Pow(TRef/T, l.NAir) * pAtm
+		aD := DopplerHWHM(l.Nu, T, mass(i))
+		hw[i] = 0.5346*gL + math.Sqrt(0.2166*gL*gL+aD*aD)
+	}
+	slices.Sort(hw)
+	return dmax, hw[len(hw)/2]
 }
 
 // MetaWarnings is the table metadata key under which BuildXSec records its
