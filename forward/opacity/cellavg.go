@@ -51,6 +51,8 @@ type cellProfile struct {
 	eta, g    float64 // pseudo-Voigt mixing and half-width f/2
 	ug        float64 // sqrt(ln2)/g
 	scale     float64 // core scale, (1/2 - tail(X)) / pV CDF(X)
+
+	memoX, memoH [2]float64 // the last two edges of tailDiff and their terms
 }
 
 // set prepares the profile of a line with Doppler half-width alphaD > 0
@@ -58,6 +60,7 @@ type cellProfile struct {
 func (p *cellProfile) set(alphaD, gammaL float64) {
 	p.gamma = gammaL
 	p.s2 = alphaD * alphaD / (2 * math.Ln2)
+	p.memoX = [2]float64{math.NaN(), math.NaN()} // matches no edge
 	p.x = math.Sqrt(max(0, cellCoreSigmas*cellCoreSigmas*p.s2-gammaL*gammaL))
 	if p.x == 0 {
 		return
@@ -111,11 +114,37 @@ func (p *cellProfile) integral(a, b float64) float64 {
 
 // tailDiff is tail(a) - tail(b) for X <= a <= b, with
 // atan(gamma/a) - atan(gamma/b) = atan(gamma (b - a)/(a b + gamma^2)).
+// Neighbouring cells share an edge, so the last edge term is kept.
 func (p *cellProfile) tailDiff(a, b float64) float64 {
 	g := p.gamma
 	if g == 0 {
 		return 0 // pure Gaussian beyond 13 sigma: below 1e-36
 	}
-	da, db := a*a+g*g, b*b+g*g
-	return math.Atan(g*(b-a)/(a*b+g*g))/math.Pi + p.s2*g/math.Pi*(a/(da*da)-b/(db*db))
+	return (atanSmall(g*(b-a)/(a*b+g*g)) + p.s2*g*(p.edge(a)-p.edge(b))) * (1 / math.Pi)
+}
+
+// edge is x/(x^2 + gamma^2)^2, remembered for the last two x.
+func (p *cellProfile) edge(x float64) float64 {
+	switch x {
+	case p.memoX[0]:
+		return p.memoH[0]
+	case p.memoX[1]:
+		return p.memoH[1]
+	}
+	d := x*x + p.gamma*p.gamma
+	h := x / (d * d)
+	p.memoX[1], p.memoH[1] = p.memoX[0], p.memoH[0]
+	p.memoX[0], p.memoH[0] = x, h
+	return h
+}
+
+// atanSmall is atan(u) for u >= 0, by its Taylor series u - u^3/3 + u^5/5
+// below 0.05 (truncation error below u^7/7 < 1.2e-10 relative; fact of
+// calculus), which covers most far-wing cells at a fraction of the cost.
+func atanSmall(u float64) float64 {
+	if u < 0.05 {
+		u2 := u * u
+		return u * (1 - u2*(1.0/3-u2/5))
+	}
+	return math.Atan(u)
 }

@@ -183,6 +183,7 @@ type lineBuild struct {
 	nuCm    []float64   // grid wavenumbers, cm^-1
 	edges   []float64   // CellAverage: cell edges, cm^-1 (len(nuCm)+1)
 	widths  []float64   // CellAverage: cell widths, cm^-1
+	invW    []float64   // CellAverage: 1/widths
 	cut     float64
 	bgScale float64
 	qRatio  [][]float64
@@ -319,8 +320,10 @@ func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
 		for k := 1; k < n; k++ {
 			b.edges[k] = (b.nuCm[k-1] + b.nuCm[k]) / 2
 		}
+		b.invW = make([]float64, n)
 		for k := range b.widths {
 			b.widths[k] = b.edges[k+1] - b.edges[k]
+			b.invW[k] = 1 / b.widths[k]
 		}
 	} else if w := b.samplingWarning(); w != "" {
 		warnings = append(warnings, w)
@@ -700,6 +703,7 @@ func (b *lineBuild) cellChunk(acc []float64, t task) {
 	nu := b.nuCm[t.k0:t.k1]
 	e := b.edges[t.k0 : t.k1+1]
 	w := b.widths[t.k0:t.k1]
+	invW := b.invW[t.k0:t.k1]
 	ps := b.pt(t)
 	n := len(nu)
 	// Lines whose window (Nu - cut, Nu + cut) meets the cells (e[0], e[n]).
@@ -727,9 +731,9 @@ func (b *lineBuild) cellChunk(acc []float64, t task) {
 		for k := a; k < z; k++ {
 			c0, c1 := max(e[k], wl), min(e[k+1], wh)
 			if w[k] < thr {
-				acc[k] += amp * voigtRe((nu[k]-ls.nu0)*r, y) * ((c1 - c0) / w[k])
+				acc[k] += amp * voigtRe((nu[k]-ls.nu0)*r, y) * ((c1 - c0) * invW[k])
 			} else {
-				acc[k] += ls.S * p.integral(c0-ls.nu0, c1-ls.nu0) / w[k]
+				acc[k] += ls.S * p.integral(c0-ls.nu0, c1-ls.nu0) * invW[k]
 			}
 		}
 	}
