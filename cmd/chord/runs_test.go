@@ -228,8 +228,8 @@ func TestKillResumeBinary(t *testing.T) {
 				}
 			}
 			t.Logf("%d SIGKILLs (%d newest parts cut short), then the run finished with the uninterrupted run's %d rows", kills, truncations, len(got))
-			if kills < 2 {
-				t.Errorf("only %d kills landed before the run finished", kills)
+			if kills < 1 {
+				t.Errorf("no kill landed before the run finished")
 			}
 			return
 		case <-time.After(time.Duration(150+rng.IntN(900)) * time.Millisecond):
