@@ -664,7 +664,19 @@ func CreateGrid(specPath, dir string, opt GridOptions) (*Grid, error) {
 	if err := os.MkdirAll(filepath.Join(dir, "points"), 0o755); err != nil {
 		return nil, err
 	}
+	// The record first: an expansion cut short is completed by running
+	// it again.
 	if !exists {
+		var b bytes.Buffer
+		fmt.Fprintf(&b, "# Grid expanded by chord %s from %s; %d points. Do not edit: the identity\n# is the SHA-256 of the resolved grid, and chord grid refuses a different grid here.\n", Version, src, len(g.Points))
+		if err := toml.NewEncoder(&b).Encode(&g.rec); err != nil {
+			return nil, err
+		}
+		if err := writeNewFile(recPath, b.Bytes(), false); err != nil {
+			return nil, err
+		}
+	}
+	if _, err := os.Stat(filepath.Join(dir, "base.toml")); errors.Is(err, os.ErrNotExist) {
 		if err := writeNewFile(filepath.Join(dir, "base.toml"), baseText, false); err != nil {
 			return nil, err
 		}
@@ -687,16 +699,6 @@ func CreateGrid(specPath, dir string, opt GridOptions) (*Grid, error) {
 	}
 	if err := g.writeIndex(built); err != nil {
 		return nil, err
-	}
-	if !exists {
-		var b bytes.Buffer
-		fmt.Fprintf(&b, "# Grid expanded by chord %s from %s; %d points. Do not edit: the identity\n# is the SHA-256 of the resolved grid, and chord grid refuses a different grid here.\n", Version, src, len(g.Points))
-		if err := toml.NewEncoder(&b).Encode(&g.rec); err != nil {
-			return nil, err
-		}
-		if err := writeNewFile(recPath, b.Bytes(), false); err != nil {
-			return nil, err
-		}
 	}
 	return g, nil
 }
@@ -872,6 +874,9 @@ func (g *Grid) build(demoCache string, log io.Writer) ([]builtPoint, error) {
 			if b.obs, c, err = simulatePoint(sc, set, obs, sim, filepath.Join(pd, "observation.csv")); err != nil {
 				return nil, fmt.Errorf("%s: %w", at, err)
 			}
+			if err := checkFit(c, b.obs); err != nil {
+				return nil, fmt.Errorf("%s: %w", at, err)
+			}
 			e := make([]float64, len(b.obs.Sigma))
 			for j, s := range b.obs.Sigma {
 				e[j] = s * 1e6
@@ -906,6 +911,25 @@ func (g *Grid) build(demoCache string, log io.Writer) ([]builtPoint, error) {
 		b.fit = t.Bytes()
 	}
 	return out, nil
+}
+
+// checkFit resolves the fit configuration of a scenario point against
+// its observation (written to a temporary file), so that what the fit
+// would refuse (walkers, priors, parameters) is refused at expansion.
+func checkFit(c *Config, o *Observation) error {
+	tmp, err := os.MkdirTemp("", "chord-grid-check-")
+	if err != nil {
+		return err
+	}
+	defer os.RemoveAll(tmp)
+	p := filepath.Join(tmp, "observation.csv")
+	if err := WriteObservation(p, o, false); err != nil {
+		return err
+	}
+	cc := *c
+	cc.Observations = []ObservationConfig{{File: p}}
+	_, err = cc.Resolve()
+	return err
 }
 
 // tableCol is a column of a table written as CSV and Parquet: kind 'i'
@@ -1021,13 +1045,18 @@ const (
 	PointRunning                      // a chord process holds the point's lock
 	PointStopped                      // a checkpoint, no summary: resumable
 	PointDone                         // summary.json written
+	PointFailed                       // the last attempt ended in an error (error.txt)
 )
 
 func (s PointState) String() string {
-	return [...]string{"not started", "running", "stopped", "done"}[s]
+	return [...]string{"not started", "running", "stopped", "done", "failed"}[s]
 }
 
-// PointStatus is the state of one point.
+// pointErrorFile holds the error that ended a point's last attempt.
+const pointErrorFile = "error.txt"
+
+// PointStatus is the state of one point. A failed point with a
+// checkpoint shows as stopped, with the error.
 type PointStatus struct {
 	Index int
 	State PointState
@@ -1036,6 +1065,8 @@ type PointStatus struct {
 	Step, Steps int
 	// Holder says which process runs the point (host, pid, Slurm job).
 	Holder string
+	// Error is the error of a failed point's last attempt.
+	Error string
 }
 
 // String describes the status, e.g. "stopped with checkpoint at step 120
@@ -1049,9 +1080,14 @@ func (p PointStatus) String() string {
 	case PointRunning:
 		return fmt.Sprintf("running (%s; checkpoint at step %d%s)", p.Holder, p.Step, of)
 	case PointStopped:
+		if p.Error != "" {
+			return fmt.Sprintf("stopped with checkpoint at step %d%s, after an error: %s", p.Step, of, p.Error)
+		}
 		return fmt.Sprintf("stopped with checkpoint at step %d%s", p.Step, of)
 	case PointDone:
 		return fmt.Sprintf("done (%d steps)", p.Step)
+	case PointFailed:
+		return "failed: " + p.Error
 	}
 	return "not started"
 }
@@ -1078,6 +1114,11 @@ func (g *Grid) Status() ([]PointStatus, error) {
 				return nil, err
 			}
 			s.State, s.Step = PointDone, sum.Steps
+		} else if b, err := os.ReadFile(filepath.Join(g.PointDir(i), pointErrorFile)); err == nil {
+			s.Error = strings.TrimSpace(string(b))
+			if s.State != PointStopped {
+				s.State = PointFailed
+			}
 		}
 	}
 	return st, nil
@@ -1111,7 +1152,16 @@ func (g *Grid) RunPoint(ctx context.Context, i int, opt PointOptions) (*RunRepor
 	if log == nil {
 		log = io.Discard
 	}
-	return fitOrResume(ctx, "chord grid", filepath.Join(g.PointDir(i), "fit.toml"), g.RunDir(i), opt.Opacity, StopRule{}, opt.Workers, opt.DemoCache, opt.Progress, log)
+	ef := filepath.Join(g.PointDir(i), pointErrorFile)
+	if err := os.Remove(ef); err != nil && !errors.Is(err, os.ErrNotExist) {
+		return nil, err
+	}
+	r, err := fitOrResume(ctx, "chord grid", filepath.Join(g.PointDir(i), "fit.toml"), g.RunDir(i), opt.Opacity, StopRule{}, opt.Workers, opt.DemoCache, opt.Progress, log)
+	if err != nil {
+		// Kept for chord grid status; the next attempt removes it.
+		writeNewFile(ef, []byte(strings.ReplaceAll(err.Error(), "\n", " ")+"\n"), true)
+	}
+	return r, err
 }
 
 // fitOrResume starts, resumes or keeps the fit of cfg in run (who names
@@ -1175,7 +1225,11 @@ func (g *Grid) RunLocal(ctx context.Context, opt LocalOptions) (*LocalReport, er
 			return nil, err
 		}
 		for _, s := range st {
-			if s.State != PointDone && s.State != PointRunning {
+			switch s.State {
+			case PointRunning:
+				fmt.Fprintf(log, "chord grid: point %d is %s: left alone\n", s.Index, s)
+			case PointDone:
+			default:
 				pts = append(pts, s.Index)
 			}
 		}

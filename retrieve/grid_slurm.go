@@ -194,7 +194,8 @@ func (g *Grid) SubmitSlurm(script string) (string, error) {
 	return id, err
 }
 
-// Unfinished lists the points that are neither done nor running.
+// Unfinished lists the points that are neither done nor running (not
+// started, stopped or failed).
 func (g *Grid) Unfinished() ([]int, error) {
 	st, err := g.Status()
 	if err != nil {
@@ -202,7 +203,7 @@ func (g *Grid) Unfinished() ([]int, error) {
 	}
 	var pts []int
 	for _, s := range st {
-		if s.State == PointNotStarted || s.State == PointStopped {
+		if s.State != PointDone && s.State != PointRunning {
 			pts = append(pts, s.Index)
 		}
 	}

@@ -191,6 +191,7 @@ func TestGridBadInput(t *testing.T) {
 		{"base = \"missing.toml\"\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "missing.toml"},
 		{"base = \"scenario.toml\"\ncolour = 1\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "unknown key colour"},
 		{"base = \"scenario.toml\"\n[set]\n\"sampler.stepz\" = 1\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", `sampler has no key "stepz"`},
+		{"base = \"scenario.toml\"\n[set]\n\"sampler.walkers\" = 3\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "walkers"},
 		{"base = \"scenario.toml\"\n[slurm]\ntime = \"two hours\"\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "slurm.time"},
 	}
 	for i, c := range cases {
@@ -447,5 +448,42 @@ func TestGridOverRetrievalConfig(t *testing.T) {
 	}
 	if _, err := os.Stat(filepath.Join(dir, "bad")); err == nil {
 		t.Error("a refused grid left files")
+	}
+}
+
+// A point whose fit fails is "failed" with its error until an attempt
+// succeeds; expanding the grid again restores a deleted observation.
+func TestGridFailedPoint(t *testing.T) {
+	spec := writeGridFiles(t, strings.Replace(grid2, "300", "40", 1))
+	g, err := CreateGrid(spec, filepath.Join(t.TempDir(), "grid"), GridOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	obs := filepath.Join(g.PointDir(0), "observation.csv")
+	os.Remove(obs)
+	if _, err := g.RunPoint(context.Background(), 0, PointOptions{}); err == nil {
+		t.Fatal("fit without its observation succeeded")
+	}
+	st, err := g.Status()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if st[0].State != PointFailed || !strings.Contains(st[0].String(), "observation.csv") {
+		t.Fatalf("status %v", st[0])
+	}
+	if un, _ := g.Unfinished(); len(un) != 2 {
+		t.Errorf("unfinished %v: a failed point is unfinished", un)
+	}
+	if _, err := CreateGrid(spec, g.Dir, GridOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := os.Stat(obs); err != nil {
+		t.Fatal("observation not restored")
+	}
+	if r, err := g.RunPoint(context.Background(), 0, PointOptions{}); err != nil || r.Summary == nil {
+		t.Fatalf("second attempt: %v", err)
+	}
+	if st, _ := g.Status(); st[0].State != PointDone || st[0].Error != "" {
+		t.Errorf("status after success: %v", st[0])
 	}
 }

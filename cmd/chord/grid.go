@@ -133,9 +133,9 @@ func runGrid(c *cli.Context) error {
 		}
 		fmt.Fprintf(c.App.ErrWriter, "chord grid: %d points done, %d stopped, %d failed\n", len(rep.Done), len(rep.Stopped), len(rep.Failed))
 		if len(rep.Failed) > 0 {
-			return fmt.Errorf("grid: %d points failed; first: %w", len(rep.Failed), rep.Errors[0])
+			return fmt.Errorf("grid: %d points failed (chord grid status %s lists them); first: %w", len(rep.Failed), g.Dir, rep.Errors[0])
 		}
-		if len(rep.Stopped) > 0 {
+		if len(rep.Stopped) > 0 || ctx.Err() != nil {
 			fmt.Fprintf(c.App.ErrWriter, "chord: continue with:  chord grid -o %s --local\n", g.Dir)
 			return errInterrupted
 		}
@@ -262,7 +262,7 @@ func runGridStatus(c *cli.Context) error {
 	}
 	tw.Flush()
 	var parts []string
-	for _, k := range []retrieve.PointState{retrieve.PointDone, retrieve.PointRunning, retrieve.PointStopped, retrieve.PointNotStarted} {
+	for _, k := range []retrieve.PointState{retrieve.PointDone, retrieve.PointRunning, retrieve.PointStopped, retrieve.PointFailed, retrieve.PointNotStarted} {
 		if count[k] > 0 {
 			parts = append(parts, fmt.Sprintf("%d %s", count[k], k))
 		}
