@@ -233,6 +233,16 @@ func TestRunBadInputs(t *testing.T) {
 	if _, err := os.Stat(filepath.Join(runDir, "notes.txt")); err != nil {
 		t.Errorf("--force removed a file that is not chord's: %v", err)
 	}
+	// --force with a broken configuration keeps the run it would replace.
+	broken := filepath.Join(dir, "broken.toml")
+	text0, _ := os.ReadFile(cfg)
+	os.WriteFile(broken, append(text0, []byte("\n[extra]\nkey = 1\n")...), 0o644)
+	if _, err := Fit(ctx, FitOptions{ConfigPath: broken, RunDir: runDir, Force: true, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "extra") {
+		t.Errorf("broken configuration: %v", err)
+	}
+	if _, err := os.Stat(filepath.Join(runDir, CheckpointFile)); err != nil {
+		t.Errorf("a failed --force fit removed the old run: %v", err)
+	}
 	// The observation changes: resume refuses, naming it.
 	os.WriteFile(obs, append(data, []byte("# edited\n")...), 0o644)
 	if _, err := Resume(ctx, runDir, ResumeOptions{Stop: StopRule{Steps: 10}, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "obs.csv changed since the run started") {

@@ -1111,22 +1111,28 @@ type RunReport struct {
 // runEntries are the names chord writes in a run directory.
 var runEntries = []string{RunFile, ChainsDir, CheckpointFile, CheckpointFile + ".tmp", "summary.json", "summary.txt", "corner.png", "spectrum.png", RunFile + ".tmp", "summary.json.tmp", "summary.txt.tmp", "corner.png.tmp", "spectrum.png.tmp"}
 
-// prepareRunDir makes dir ready for a new run: absent or empty, or with
-// force, cleared of a run's entries (other files are left alone, but any
-// make it refuse without force).
-func prepareRunDir(dir string, force bool) error {
+// checkRunDir refuses a non-empty dir unless force: a new run needs an
+// absent or empty directory.
+func checkRunDir(dir string, force bool) error {
 	ents, err := os.ReadDir(dir)
 	if errors.Is(err, os.ErrNotExist) {
-		return os.MkdirAll(dir, 0o755)
+		return nil
 	}
 	if err != nil {
 		return err
 	}
-	if len(ents) == 0 {
-		return nil
-	}
-	if !force {
+	if len(ents) > 0 && !force {
 		return fmt.Errorf("run directory %s is not empty (it holds %s): choose another, or pass --force to replace the run in it", dir, ents[0].Name())
+	}
+	return nil
+}
+
+// prepareRunDir creates dir, or clears it of a run's entries (files that
+// are not chord's are left alone). Called once everything is validated, so
+// that --force with a broken configuration keeps the old run.
+func prepareRunDir(dir string) error {
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return err
 	}
 	for _, name := range runEntries {
 		if err := os.RemoveAll(filepath.Join(dir, name)); err != nil {
@@ -1197,7 +1203,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	for _, n := range r.Notes {
 		fmt.Fprintln(log, "chord: note:", n)
 	}
-	if err := prepareRunDir(opt.RunDir, opt.Force); err != nil {
+	if err := checkRunDir(opt.RunDir, opt.Force); err != nil {
 		return nil, err
 	}
 	cache, err := demoCache(opt.DemoCache, r)
@@ -1233,6 +1239,9 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	if err := toml.NewEncoder(&buf).Encode(struct {
 		Run RunInfo `toml:"run"`
 	}{info}); err != nil {
+		return nil, err
+	}
+	if err := prepareRunDir(opt.RunDir); err != nil {
 		return nil, err
 	}
 	if err := writeFileAtomic(osFS{}, filepath.Join(opt.RunDir, RunFile), buf.Bytes()); err != nil {
