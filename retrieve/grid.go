@@ -1046,10 +1046,11 @@ const (
 	PointStopped                      // a checkpoint, no summary: resumable
 	PointDone                         // summary.json written
 	PointFailed                       // the last attempt ended in an error (error.txt)
+	PointQueued                       // a submitted array task for it is pending or starting
 )
 
 func (s PointState) String() string {
-	return [...]string{"not started", "running", "stopped", "done", "failed"}[s]
+	return [...]string{"not started", "running", "stopped", "done", "failed", "queued"}[s]
 }
 
 // pointErrorFile holds the error that ended a point's last attempt.
@@ -1088,12 +1089,16 @@ func (p PointStatus) String() string {
 		return fmt.Sprintf("done (%d steps)", p.Step)
 	case PointFailed:
 		return "failed: " + p.Error
+	case PointQueued:
+		return "queued (" + p.Holder + ")"
 	}
 	return "not started"
 }
 
-// Status reports every point's state.
+// Status reports every point's state. Points of submitted array tasks
+// that Slurm still has pending are "queued" (when squeue answers).
 func (g *Grid) Status() ([]PointStatus, error) {
+	queued := g.queuedPoints()
 	st := make([]PointStatus, len(g.Points))
 	for i := range g.Points {
 		s := &st[i]
@@ -1119,6 +1124,9 @@ func (g *Grid) Status() ([]PointStatus, error) {
 			if s.State != PointStopped {
 				s.State = PointFailed
 			}
+		}
+		if q, ok := queued[i]; ok && s.State != PointDone {
+			s.State, s.Holder = PointQueued, q
 		}
 	}
 	return st, nil
@@ -1226,7 +1234,7 @@ func (g *Grid) RunLocal(ctx context.Context, opt LocalOptions) (*LocalReport, er
 		}
 		for _, s := range st {
 			switch s.State {
-			case PointRunning:
+			case PointRunning, PointQueued:
 				fmt.Fprintf(log, "chord grid: point %d is %s: left alone\n", s.Index, s)
 			case PointDone:
 			default:

@@ -194,8 +194,8 @@ func (g *Grid) SubmitSlurm(script string) (string, error) {
 	return id, err
 }
 
-// Unfinished lists the points that are neither done nor running (not
-// started, stopped or failed).
+// Unfinished lists the points that are neither done, running nor queued
+// (not started, stopped or failed).
 func (g *Grid) Unfinished() ([]int, error) {
 	st, err := g.Status()
 	if err != nil {
@@ -203,7 +203,7 @@ func (g *Grid) Unfinished() ([]int, error) {
 	}
 	var pts []int
 	for _, s := range st {
-		if s.State != PointDone && s.State != PointRunning {
+		if s.State != PointDone && s.State != PointRunning && s.State != PointQueued {
 			pts = append(pts, s.Index)
 		}
 	}
@@ -257,4 +257,39 @@ func probeLock(path string) (string, bool) {
 	}
 	syscall.Flock(int(f.Fd()), syscall.LOCK_UN)
 	return "", false
+}
+
+// queuedPoints asks squeue which array tasks of the grid's submissions
+// (slurm/jobs.txt) are still pending or starting, by point (array index
+// = point number). Without jobs.txt or a reachable squeue it finds none.
+func (g *Grid) queuedPoints() map[int]string {
+	b, err := os.ReadFile(filepath.Join(g.Dir, "slurm", "jobs.txt"))
+	if err != nil {
+		return nil
+	}
+	q := map[int]string{}
+	for _, line := range strings.Split(string(b), "\n") {
+		f := strings.Fields(line)
+		if len(f) == 0 {
+			continue
+		}
+		// One query per job: squeue refuses a list holding a job it has forgotten.
+		out, err := exec.Command("squeue", "-h", "-r", "-j", f[0], "-o", "%i %T").Output()
+		if err != nil {
+			continue
+		}
+		for _, l := range strings.Split(string(out), "\n") {
+			id, state, ok := strings.Cut(strings.TrimSpace(l), " ")
+			if !ok || (state != "PENDING" && state != "CONFIGURING" && state != "RUNNING") {
+				continue
+			}
+			job, task, ok := strings.Cut(id, "_")
+			n, err := strconv.Atoi(task)
+			if !ok || err != nil || job != f[0] || n < 0 || n >= len(g.Points) {
+				continue
+			}
+			q[n] = fmt.Sprintf("Slurm job %s, %s", id, strings.ToLower(state))
+		}
+	}
+	return q
 }

@@ -262,7 +262,7 @@ func runGridStatus(c *cli.Context) error {
 	}
 	tw.Flush()
 	var parts []string
-	for _, k := range []retrieve.PointState{retrieve.PointDone, retrieve.PointRunning, retrieve.PointStopped, retrieve.PointFailed, retrieve.PointNotStarted} {
+	for _, k := range []retrieve.PointState{retrieve.PointDone, retrieve.PointRunning, retrieve.PointQueued, retrieve.PointStopped, retrieve.PointFailed, retrieve.PointNotStarted} {
 		if count[k] > 0 {
 			parts = append(parts, fmt.Sprintf("%d %s", count[k], k))
 		}
@@ -281,7 +281,7 @@ func runGridResubmit(c *cli.Context) error {
 		return err
 	}
 	if len(pts) == 0 {
-		fmt.Fprintf(c.App.ErrWriter, "chord grid: every point of %s is done or running: nothing to resubmit\n", g.Dir)
+		fmt.Fprintf(c.App.ErrWriter, "chord grid: every point of %s is done, running or queued: nothing to resubmit\n", g.Dir)
 		return nil
 	}
 	fmt.Fprintf(c.App.ErrWriter, "chord grid: %d unfinished points: %v\n", len(pts), pts)

@@ -194,6 +194,14 @@ func TestGridOnSlurm(t *testing.T) {
 	if b, _ := os.ReadFile(scripts[len(scripts)-1]); !strings.Contains(string(b), "#SBATCH --array=0\n") {
 		t.Errorf("resubmitted array is not point 0 alone:\n%s", b)
 	}
+	// While the resubmitted task is queued or running, the point is not
+	// resubmitted again.
+	if st, err := g.Status(); err != nil || st[0].State == retrieve.PointStopped || st[0].State == retrieve.PointNotStarted {
+		t.Errorf("status of a resubmitted point: %v %v", st[0], err)
+	}
+	if again, err := g.Unfinished(); err != nil || len(again) != 0 {
+		t.Errorf("unfinished points right after the resubmission: %v %v", again, err)
+	}
 	waitJob(t, job2, 150*time.Second)
 	log := taskLog(t, cut, job2, 0)
 	// Resumed, not restarted: the session sampled the 1500-k steps after
