@@ -10,6 +10,8 @@ import (
 	"sync"
 	"testing"
 	"time"
+
+	"github.com/parquet-go/parquet-go"
 )
 
 // gridScenario is a clear H2/He atmosphere of an invented sub-Neptune with
@@ -366,6 +368,29 @@ func TestGridStoppedAndResumedEqualsUninterrupted(t *testing.T) {
 	}
 	if got.Table != want.Table {
 		t.Errorf("comparisons differ")
+	}
+	// The Parquet table holds the CSV's columns and rows.
+	pf, err := os.Open(filepath.Join(cut, "summary.parquet"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer pf.Close()
+	fi, _ := pf.Stat()
+	pq, err := parquet.OpenFile(pf, fi.Size())
+	if err != nil {
+		t.Fatal(err)
+	}
+	var names []string
+	for _, f := range pq.Schema().Fields() {
+		names = append(names, f.Name())
+	}
+	header, _, _ := strings.Cut(string(b), "\n")
+	if strings.Join(names, ",") != header || pq.NumRows() != 4 {
+		t.Errorf("summary.parquet: %d rows, columns %v; CSV header %s", pq.NumRows(), names, header)
+	}
+	rows := make([]parquet.Row, 4)
+	if n, _ := pq.RowGroups()[0].Rows().ReadRows(rows); n != 4 || rows[3][0].Int64() != 1 || rows[3][7].String() != "temperature_k" {
+		t.Errorf("summary.parquet rows: %d, last %v", n, rows[3])
 	}
 	for _, f := range []string{"summary.parquet", "comparison.json", "widths.png"} {
 		if _, err := os.Stat(filepath.Join(cut, f)); err != nil {
