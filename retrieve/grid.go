@@ -64,7 +64,8 @@ import (
 //	base.toml               a copy of the base file
 //	index.csv, index.parquet   point number, directory and settings of every point
 //	points/p0000/           one point: observation.csv (scenario bases), fit.toml, run/
-//	                        (a normal run directory), lock (held while the point runs), log.txt
+//	                        (a normal run directory), lock (held while the point runs), log.txt,
+//	                        error.txt (the error of a failed attempt)
 //	slurm/                  job-array scripts, jobs.txt (submissions), logs/
 //	summary.csv, summary.parquet, comparison.txt, comparison.json, widths*.png   (collect)
 //
