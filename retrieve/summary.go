@@ -402,6 +402,7 @@ func (f *Float) UnmarshalJSON(b []byte) error {
 func (s *Summary) WriteJSON(w io.Writer) error {
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
+	enc.SetEscapeHTML(false)
 	return enc.Encode(s)
 }
 
