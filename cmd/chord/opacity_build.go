@@ -57,7 +57,8 @@ var opacityBuildCommand = &cli.Command{
 		&cli.Float64Flag{Name: "broadener-n", Usage: "temperature `EXPONENT` of the background half-width (0: the lines' own)"},
 		&cli.BoolFlag{Name: "no-shift", Usage: "ignore the lines' pressure shifts"},
 		&cli.BoolFlag{Name: "cell-average", Usage: "store the mean cross-section over each grid cell instead of the value at the grid point " +
-			"(default: on when the grid spacing exceeds twice the median line half-width at the lowest pressure and temperature; --cell-average=false for point values)"},
+			"(--cell-average=false for point values)",
+			DefaultText: "on when the grid spacing exceeds twice the median line half-width at the lowest pressure and temperature"},
 		&cli.Float64Flag{Name: "abundance", Usage: "ExoMol: weight intensities by this isotopologue `FRACTION` (0: 1)"},
 		&cli.Float64Flag{Name: "exomol-gamma", Usage: "ExoMol: Lorentz half-width in `CM-1/BAR` at 296 K instead of the .def default"},
 		&cli.Float64Flag{Name: "exomol-n", Usage: "ExoMol: temperature `EXPONENT` of --exomol-gamma"},
