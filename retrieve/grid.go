@@ -282,9 +282,7 @@ func resolveGrid(specPath string, s *GridSpec) (*gridIdentity, *Config, []byte, 
 		}
 		id.Inputs = append(id.Inputs, InputFile{Role: f.role, Path: f.path, SHA256: h})
 	}
-	if id.Kind == "retrieval" && o.NoisePPM == nil && o.Transits == nil && o.BinsFile == "" && o.WavelengthRangeUm == nil && o.ResolvingPower == nil && o.NoiseFile == "" && !o.Scatter && o.NoiseSeed == nil {
-		// fine: nothing to observe
-	} else if id.Kind == "retrieval" {
+	if id.Kind == "retrieval" && !reflect.ValueOf(*o).IsZero() {
 		return nil, nil, nil, where("[observe]: the base %s is a retrieval configuration with [[observations]]; [observe] belongs to grids over a scenario", id.Base)
 	}
 	if len(o.WavelengthRangeUm) != 0 && len(o.WavelengthRangeUm) != 2 {

@@ -474,6 +474,10 @@ func TestGridOverRetrievalConfig(t *testing.T) {
 	if _, err := os.Stat(filepath.Join(dir, "bad")); err == nil {
 		t.Error("a refused grid left files")
 	}
+	os.WriteFile(spec, []byte("base = \"fit.toml\"\n[observe]\nnoise_ppm = 30\n[[axis]]\nkey = \"sampler.seed\"\nvalues = [1]\n"), 0o644)
+	if _, err := CreateGrid(spec, filepath.Join(dir, "bad"), GridOptions{}); err == nil || !strings.Contains(err.Error(), "[observe] belongs to grids over a scenario") {
+		t.Errorf("[observe] with a retrieval base: %v", err)
+	}
 }
 
 // A point whose fit fails is "failed" with its error until an attempt
