@@ -1195,8 +1195,9 @@ func fitOrResume(ctx context.Context, who, cfg, run string, set *opacity.Set, st
 // LocalOptions configures RunLocal.
 type LocalOptions struct {
 	Jobs int // points at once; 0 means 1
-	// Workers per fit; nil means the configuration's, else the cores
-	// divided among the jobs.
+	// Workers per fit; nil means the cores divided among the jobs (the
+	// configurations' sampler.workers are overridden; chains do not
+	// depend on it).
 	Workers   *int
 	DemoCache string
 	Log       io.Writer // one line per point started and finished; nil discards
