@@ -99,6 +99,11 @@ func TestSummarize(t *testing.T) {
 	if got := float64(par["ar"].Tau); math.Abs(got-3) > 0.6 {
 		t.Errorf("tau of AR(1) phi=0.5 = %.2f, want 3", got)
 	}
+	// Split R-hat of i.i.d. draws is 1 up to sampling noise of order 1/n
+	// (Vehtari et al. 2021); here n = 250 per split half.
+	if r := float64(par["offset"].RHat); !(r > 0.99 && r < 1.01) {
+		t.Errorf("R-hat of i.i.d. draws %v, want about 1", r)
+	}
 	if got := float64(par["offset"].Tau); got > 1.5 {
 		t.Errorf("tau of i.i.d. column = %.2f, want about 1", got)
 	}
