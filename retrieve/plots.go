@@ -7,6 +7,7 @@ import (
 	"math"
 	"slices"
 	"sort"
+	"strconv"
 
 	"gonum.org/v1/gonum/stat"
 	"gonum.org/v1/plot"
@@ -109,6 +110,7 @@ func PlotCorner(path string, c *Chains, names []string, thin int, demo bool) err
 				return fmt.Errorf("corner plot %s/%s: %w", names[col], names[row], err)
 			}
 			p.X.Min, p.X.Max = lo[col], hi[col]
+			p.X.Tick.Marker, p.Y.Tick.Marker = exactTicks{}, exactTicks{}
 			if row == n-1 {
 				p.X.Label.Text = labels[col]
 			} else {
@@ -401,4 +403,43 @@ func (e errPoints) XError(i int) (float64, float64) {
 }
 func (e errPoints) YError(i int) (float64, float64) {
 	return e[i].YErr, e[i].YErr
+}
+
+// exactTicks are gonum/plot's default ticks with labels given as many
+// decimals as the tick spacing needs, so that neighbouring labels never read
+// alike (the default formatting can print 2.45 and 2.5 both as "2.5").
+type exactTicks struct{}
+
+func (exactTicks) Ticks(min, max float64) []plot.Tick {
+	ticks := plot.DefaultTicks{}.Ticks(min, max)
+	var majors []float64
+	for _, t := range ticks {
+		if t.Label != "" {
+			majors = append(majors, t.Value)
+		}
+	}
+	if len(majors) < 2 {
+		return ticks
+	}
+	step := math.Abs(majors[1] - majors[0])
+	dec := 0
+	for ; dec < 12; dec++ {
+		exact := true
+		for _, v := range majors {
+			back, _ := strconv.ParseFloat(strconv.FormatFloat(v, 'f', dec, 64), 64)
+			if math.Abs(back-v) > 1e-6*step {
+				exact = false
+				break
+			}
+		}
+		if exact {
+			break
+		}
+	}
+	for i := range ticks {
+		if ticks[i].Label != "" {
+			ticks[i].Label = strconv.FormatFloat(ticks[i].Value, 'f', dec, 64)
+		}
+	}
+	return ticks
 }
