@@ -307,11 +307,7 @@ func TestExampleRetrieval(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	cache, err := DemoCacheDir()
-	if err != nil {
-		t.Skip(err)
-	}
-	set, err := r.Config.LoadOpacity(cache, nil)
+	set, err := r.Config.LoadOpacity(testDemoCache(t), nil)
 	if err != nil {
 		t.Fatal(err)
 	}

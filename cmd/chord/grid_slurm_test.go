@@ -13,6 +13,7 @@ import (
 	"testing"
 	"time"
 
+	"chord/internal/testenv"
 	"chord/retrieve"
 )
 
@@ -128,10 +129,7 @@ func TestGridOnSlurm(t *testing.T) {
 		t.Skip("runs two small grids on Slurm (about a minute)")
 	}
 	tmp := t.TempDir()
-	exe := filepath.Join(tmp, "chord")
-	if out, err := exec.Command("go", "build", "-o", exe, ".").CombinedOutput(); err != nil {
-		t.Fatalf("go build: %v\n%s", err, out)
-	}
+	exe := testenv.BuildChord(t)
 	os.WriteFile(filepath.Join(tmp, "scenario.toml"), []byte(slurmScenario), 0o644)
 	spec := filepath.Join(tmp, "grid.toml")
 	os.WriteFile(spec, []byte(slurmGrid), 0o644)

@@ -6,6 +6,7 @@ import (
 	"testing"
 
 	"chord/forward/opacity"
+	"chord/internal/testenv"
 )
 
 // TestOpacityBuildCellAverage checks the --cell-average default: on for a
@@ -16,8 +17,8 @@ import (
 // --cell-average=false or --cell-average overriding it. The table's
 // build_settings say which; --demo refuses the flag.
 func TestOpacityBuildCellAverage(t *testing.T) {
-	lines := filepath.Join(buildTestData(t, "hitran-lines"), "05_hit12_CO_full.par")
-	part := buildTestData(t, "partition")
+	lines := filepath.Join(testenv.SharedData(t, "hitran-lines"), "05_hit12_CO_full.par")
+	part := testenv.SharedData(t, "partition")
 	base := []string{"--lines", lines, "--molparam", filepath.Join(part, "molparam_hitran.txt"), "--tips", filepath.Join(part, "parsum2011_tips.dat"),
 		"--temperature", "296,600"}
 	for i, c := range []struct {

@@ -11,6 +11,7 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"chord/forward/opacity"
+	"chord/internal/testenv"
 )
 
 // runBuild runs "chord opacity build ARGS..." in an app of its own, so the
@@ -27,31 +28,6 @@ func runBuild(t *testing.T, args ...string) (stdout, stderr string, err error) {
 	}
 	err = app.Run(append([]string{"chord", "opacity", "build"}, args...))
 	return o.String(), e.String(), err
-}
-
-// buildTestData returns ../shared/data/sub relative to the repository root,
-// or skips the test when it is absent.
-func buildTestData(t *testing.T, sub string) string {
-	t.Helper()
-	dir, err := os.Getwd()
-	if err != nil {
-		t.Fatal(err)
-	}
-	for {
-		if _, err := os.Stat(filepath.Join(dir, "go.mod")); err == nil {
-			break
-		}
-		parent := filepath.Dir(dir)
-		if parent == dir {
-			t.Skip("repository root (go.mod) not found; shared spectroscopic data unavailable")
-		}
-		dir = parent
-	}
-	p := filepath.Join(dir, "..", "shared", "data", sub)
-	if _, err := os.Stat(p); err != nil {
-		t.Skipf("shared spectroscopic data %s is absent (%v); skipping", p, err)
-	}
-	return p
 }
 
 func TestOpacityBuildDemo(t *testing.T) {
@@ -82,8 +58,8 @@ func TestOpacityBuildDemo(t *testing.T) {
 // for the same lines and grid, with its sources recorded; a second run
 // needs --force.
 func TestOpacityBuildHITRAN(t *testing.T) {
-	lines := filepath.Join(buildTestData(t, "hitran-lines"), "05_hit12_CO_full.par")
-	part := buildTestData(t, "partition")
+	lines := filepath.Join(testenv.SharedData(t, "hitran-lines"), "05_hit12_CO_full.par")
+	part := testenv.SharedData(t, "partition")
 	molparam, tips := filepath.Join(part, "molparam_hitran.txt"), filepath.Join(part, "parsum2011_tips.dat")
 	out := t.TempDir()
 	args := []string{"-o", out, "--lines", lines, "--molparam", molparam, "--tips", tips,
@@ -143,8 +119,8 @@ func TestOpacityBuildHITRAN(t *testing.T) {
 // (gas name from the .def formula) and a CIA table from the HITRAN N2-N2
 // file on the same grid.
 func TestOpacityBuildExoMolAndCIA(t *testing.T) {
-	def := filepath.Join(buildTestData(t, "exomol"), "40Ca-1H__Yadin.def")
-	cia := filepath.Join(buildTestData(t, "cia"), "N2-N2_2011.cia")
+	def := filepath.Join(testenv.SharedData(t, "exomol"), "40Ca-1H__Yadin.def")
+	cia := filepath.Join(testenv.SharedData(t, "cia"), "N2-N2_2011.cia")
 	out := t.TempDir()
 	stdout, stderr, err := runBuild(t, "-o", out, "--lines", def, "--cia", cia,
 		"--pressure", "1e-3:1:2", "--temperature", "500,1000", "--wavelength", "2:1000:200") // down to 10 cm^-1: the line window starts at 0
@@ -221,8 +197,8 @@ func TestOpacityBuildErrors(t *testing.T) {
 		}
 	}
 	// Lines of two molecules make no single table.
-	hl := buildTestData(t, "hitran-lines")
-	part := buildTestData(t, "partition")
+	hl := testenv.SharedData(t, "hitran-lines")
+	part := testenv.SharedData(t, "partition")
 	_, _, err := runBuild(t, "-o", dir, "--lines", filepath.Join(hl, "CO_fragment_3.7_radis.par"), "--lines", filepath.Join(hl, "CO2_fragment_3000_radis.par"),
 		"--molparam", filepath.Join(part, "molparam_hitran.txt"), "--wavenumber", "1:4000:1", "--pressure", "1:1:1", "--temperature", "296", "-q")
 	if err == nil || !strings.Contains(err.Error(), "a table is one gas") {

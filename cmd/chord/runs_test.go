@@ -18,6 +18,7 @@ import (
 
 	"github.com/parquet-go/parquet-go"
 
+	"chord/internal/testenv"
 	"chord/retrieve"
 )
 
@@ -93,27 +94,6 @@ func setupRuns(t *testing.T) (dir, cfg string) {
 	return dir, cfg
 }
 
-// buildChord builds the chord binary once per test binary.
-var builtChord string
-
-func buildChord(t *testing.T) string {
-	t.Helper()
-	if builtChord != "" {
-		return builtChord
-	}
-	dir, err := os.MkdirTemp("", "chord-bin")
-	if err != nil {
-		t.Fatal(err)
-	}
-	bin := filepath.Join(dir, "chord")
-	out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput()
-	if err != nil {
-		t.Fatalf("go build: %v\n%s", err, out)
-	}
-	builtChord = bin
-	return bin
-}
-
 // chainRows reads every row of a run's chain files with parquet-go's
 // generic row reader (not chord's reader) and prints each exactly.
 func chainRows(t *testing.T, run string) (cols []string, rows []string) {
@@ -183,7 +163,7 @@ func TestKillResumeBinary(t *testing.T) {
 	if testing.Short() {
 		t.Skip("builds and runs the chord binary")
 	}
-	bin := buildChord(t)
+	bin := testenv.BuildChord(t)
 	dir, cfg := setupRuns(t)
 	ref := filepath.Join(dir, "ref")
 	if out, err := exec.Command(bin, "fit", "-c", cfg, "-o", ref, "--workers", "1").CombinedOutput(); err != nil {
@@ -256,7 +236,7 @@ func TestInterruptBinary(t *testing.T) {
 	if testing.Short() {
 		t.Skip("builds and runs the chord binary")
 	}
-	bin := buildChord(t)
+	bin := testenv.BuildChord(t)
 	dir, cfg := setupRuns(t)
 	run := filepath.Join(dir, "run")
 	cmd := exec.Command(bin, "fit", "-c", cfg, "-o", run, "--steps", "100000")

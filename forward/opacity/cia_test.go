@@ -9,32 +9,9 @@ import (
 	"strconv"
 	"strings"
 	"testing"
-)
 
-// sharedData returns ../shared/data/sub relative to the repository root
-// (the directory holding go.mod), or skips the test when it is absent.
-func sharedData(t testing.TB, sub string) string {
-	t.Helper()
-	dir, err := os.Getwd()
-	if err != nil {
-		t.Fatal(err)
-	}
-	for {
-		if _, err := os.Stat(filepath.Join(dir, "go.mod")); err == nil {
-			break
-		}
-		parent := filepath.Dir(dir)
-		if parent == dir {
-			t.Skip("repository root (go.mod) not found, so ../shared/data cannot be located; skipping")
-		}
-		dir = parent
-	}
-	p := filepath.Join(dir, "..", "shared", "data", sub)
-	if _, err := os.Stat(p); err != nil {
-		t.Skipf("shared spectroscopic data %s is absent (%v); skipping", p, err)
-	}
-	return p
-}
+	"chord/internal/testenv"
+)
 
 // fileLines reads a text file into lines (numbered from 1 at index 1), for
 // checks that read the file independently of the reader under test.
@@ -73,7 +50,7 @@ func rawRow(t *testing.T, s string) (nu, k float64) {
 // listed in ../shared/data/SOURCES.md ("cia/" table and "Format checks run
 // on the new .cia files"), which were counted independently of chord.
 func TestCIARealFiles(t *testing.T) {
-	dir := sharedData(t, "cia")
+	dir := testenv.SharedData(t, "cia")
 	cases := []struct {
 		file     string
 		blocks   int
@@ -250,7 +227,7 @@ func sameTOverlap(blocks []*CIABlock, b *CIABlock, nu float64) bool {
 // values are computed here from the file's rows by the stated rules
 // (linear interpolation: fact of the trade, common practice).
 func TestCIAN2Interpolation(t *testing.T) {
-	path := filepath.Join(sharedData(t, "cia"), "N2-N2_2011.cia")
+	path := filepath.Join(testenv.SharedData(t, "cia"), "N2-N2_2011.cia")
 	blocks, err := ReadHITRANCIA(path)
 	if err != nil {
 		t.Fatal(err)
@@ -326,7 +303,7 @@ func firstRowNear(t *testing.T, lines []string, b *CIABlock, nuCm float64) float
 // point between two rows of a block gets the linear interpolation of the
 // two rows (computed here from the file's text).
 func TestCIASuppliedGrid(t *testing.T) {
-	path := filepath.Join(sharedData(t, "cia"), "CO2-CO2_2018.cia")
+	path := filepath.Join(testenv.SharedData(t, "cia"), "CO2-CO2_2018.cia")
 	lines := fileLines(t, path)
 	grid := make([]float64, 0, 4000)
 	for nu := 0.5; nu < 4000; nu++ {

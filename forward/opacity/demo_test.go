@@ -8,6 +8,8 @@ import (
 	"strings"
 	"sync"
 	"testing"
+
+	"chord/internal/testenv"
 )
 
 // The demo set is built once per test binary (about 5 s on two cores),
@@ -133,7 +135,7 @@ func TestDemoBands(t *testing.T) {
 // ../shared/data (HITRAN2012 CO and O2; HITRAN2016/2020 H2O; HITRANonline
 // CH4 nu3). The demo strengths are rough by design: within a factor 2.
 func TestDemoBandStrengths(t *testing.T) {
-	dir := lblData(t, "hitran-lines")
+	dir := testenv.SharedData(t, "hitran-lines")
 	cases := []struct {
 		gas, file string
 		lo, hi    float64 // cm^-1: the band's extent, in the file and in the demo

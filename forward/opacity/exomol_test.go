@@ -10,6 +10,8 @@ import (
 	"strings"
 	"sync"
 	"testing"
+
+	"chord/internal/testenv"
 )
 
 var (
@@ -23,7 +25,7 @@ var (
 // isotopologue 1, unweighted (abundance 1).
 func exomolCO(t *testing.T) *ExoMolList {
 	t.Helper()
-	def := filepath.Join(lblData(t, "exomol"), "12C-16O__Li2015.def")
+	def := filepath.Join(testenv.SharedData(t, "exomol"), "12C-16O__Li2015.def")
 	exomolCOOnce.Do(func() { exomolCOList, exomolCOErr = ReadExoMol(def, ExoMolOptions{Mol: 5, Iso: 1}) })
 	if exomolCOErr != nil {
 		t.Fatal(exomolCOErr)
@@ -130,7 +132,7 @@ func TestExoMolLineIntensity(t *testing.T) {
 func TestExoMolVsHITRANLines(t *testing.T) {
 	ex := weighted(exomolCO(t).Lines, lblIsoData(t)[IsoKey{5, 1}].Abundance, 0, math.Inf(1), 1e-25)
 	sort.Slice(ex, func(i, j int) bool { return ex[i].Nu < ex[j].Nu })
-	hit, err := ReadLineFile(filepath.Join(lblData(t, "hitran-lines"), "05_hit12_CO_full.par"), LineFilter{Iso: []int{1}, SMin: 1e-23})
+	hit, err := ReadLineFile(filepath.Join(testenv.SharedData(t, "hitran-lines"), "05_hit12_CO_full.par"), LineFilter{Iso: []int{1}, SMin: 1e-23})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -167,7 +169,7 @@ func TestExoMolVsHITRANLines(t *testing.T) {
 // 25 cm^-1 wing cut-off loses about 0.2 % of a 0.07 cm^-1 Lorentzian).
 func TestExoMolVsHITRANCrossSection(t *testing.T) {
 	isoData := lblIsoData(t)
-	hit, err := ReadLineFile(filepath.Join(lblData(t, "hitran-lines"), "05_hit12_CO_full.par"), LineFilter{Iso: []int{1}, NuMin: 1900, NuMax: 2400, SMin: 1e-27})
+	hit, err := ReadLineFile(filepath.Join(testenv.SharedData(t, "hitran-lines"), "05_hit12_CO_full.par"), LineFilter{Iso: []int{1}, NuMin: 1900, NuMax: 2400, SMin: 1e-27})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -231,7 +233,7 @@ func TestExoMolVsHITRANCrossSection(t *testing.T) {
 // the wavenumber (SOURCES.md): every row is read, with the wavenumber from
 // the last column, which SOURCES.md reports equal to E' - E”.
 func TestExoMolCaH(t *testing.T) {
-	l, err := ReadExoMol(filepath.Join(lblData(t, "exomol"), "40Ca-1H__Yadin.def"), ExoMolOptions{})
+	l, err := ReadExoMol(filepath.Join(testenv.SharedData(t, "exomol"), "40Ca-1H__Yadin.def"), ExoMolOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}

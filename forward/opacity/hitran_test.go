@@ -6,6 +6,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"chord/internal/testenv"
 )
 
 // A HITRAN record from ../shared/data/reference-xsec/co2_6300_6400_lines.par
@@ -46,7 +48,7 @@ func TestReadRecordFields(t *testing.T) {
 // TestReadRealFiles reads every .par file in the shared data and checks
 // the record counts and ranges stated in ../shared/data/SOURCES.md.
 func TestReadRealFiles(t *testing.T) {
-	dir := lblData(t, "hitran-lines")
+	dir := testenv.SharedData(t, "hitran-lines")
 	for _, c := range []struct {
 		file         string
 		n            int
@@ -110,7 +112,7 @@ func TestReadRealFiles(t *testing.T) {
 // distinct wavenumbers: two different lines (S 4.716e-30 and 9.841e-28)
 // share 713.611456 cm^-1, so there are 9907 distinct lines.
 func TestReadTSV(t *testing.T) {
-	dir := lblData(t, "hitran-lines")
+	dir := testenv.SharedData(t, "hitran-lines")
 	var lists [][]Line
 	rows := 0
 	for ch := 1; ch <= 7; ch++ {

@@ -4,6 +4,8 @@ import (
 	"math"
 	"path/filepath"
 	"testing"
+
+	"chord/internal/testenv"
 )
 
 // bandBuild builds the 296 K, 1 atm cross-section of the lines in
@@ -78,7 +80,7 @@ func peakIn(nu, sigma []float64, lo, hi float64) (at, val float64) {
 
 func readShared(t *testing.T, file string, f LineFilter) []Line {
 	t.Helper()
-	ls, err := ReadLineFile(filepath.Join(lblData(t, "hitran-lines"), file), f)
+	ls, err := ReadLineFile(filepath.Join(testenv.SharedData(t, "hitran-lines"), file), f)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -8,6 +8,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"chord/internal/testenv"
 )
 
 // readHAPIXSec reads a two-column (nu cm^-1, sigma cm^2) reference file.
@@ -49,7 +51,7 @@ func readHAPIXSec(t *testing.T, path string) (nu, sigma []float64) {
 // HAPI's c2 (1.4388028 cm K) differs from CODATA 2018 by 2e-5 relative,
 // which moves the Boltzmann factor by up to ~5e-5 for E” ~ 3000 cm^-1.
 func TestGoldenHAPI(t *testing.T) {
-	dir := lblData(t, "reference-xsec")
+	dir := testenv.SharedData(t, "reference-xsec")
 	iso := lblIsoData(t)
 	for _, c := range []struct {
 		lines, ref string

@@ -6,6 +6,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"chord/internal/testenv"
 )
 
 // TestTIPSAgainstMolParam compares TIPS-2011 partition sums (Laraia et al.
@@ -45,7 +47,7 @@ func TestTIPSAgainstMolParam(t *testing.T) {
 // 296 K is 174.5813; molparam gives Q(296) = 1.7458E+02 for H2O 161, so they
 // must agree to its 5 significant digits (rounding: 3e-5).
 func TestQFileAgainstMolParam(t *testing.T) {
-	q1, err := ReadQFile(filepath.Join(lblData(t, "partition"), "q1_H2O_161_tips.txt"))
+	q1, err := ReadQFile(filepath.Join(testenv.SharedData(t, "partition"), "q1_H2O_161_tips.txt"))
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -8,6 +8,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"chord/internal/testenv"
 )
 
 // TestTwoColumnNaH reads the ExoMol NaH cross-section file (ExoCross output,
@@ -15,7 +17,7 @@ import (
 // SOURCES.md, exomol/). Each value must be the file's, converted from cm^2
 // to m^2 (x 1e-4, unit definition).
 func TestTwoColumnNaH(t *testing.T) {
-	path := filepath.Join(sharedData(t, "exomol"), "23Na-1H__Rivlin_296K_gauss0.5_0-25000.xsec")
+	path := filepath.Join(testenv.SharedData(t, "exomol"), "23Na-1H__Rivlin_296K_gauss0.5_0-25000.xsec")
 	x, err := ReadTwoColumnXSec(path, 1e5, 296)
 	if err != nil {
 		t.Fatal(err)

@@ -1,0 +1,71 @@
+package testenv
+
+import (
+	"errors"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"testing"
+)
+
+// root walks up from the working directory (a package's directory while
+// its tests run) to the directory holding go.mod.
+func root() (string, error) {
+	dir, err := os.Getwd()
+	if err != nil {
+		return "", err
+	}
+	for {
+		if _, err := os.Stat(filepath.Join(dir, "go.mod")); err == nil {
+			return dir, nil
+		}
+		parent := filepath.Dir(dir)
+		if parent == dir {
+			return "", errors.New("no go.mod in the working directory or above it")
+		}
+		dir = parent
+	}
+}
+
+// RepoRoot returns the repository root (the directory holding go.mod),
+// failing the test when there is none above the working directory.
+func RepoRoot(t testing.TB) string {
+	t.Helper()
+	dir, err := root()
+	if err != nil {
+		t.Fatalf("repository root: %v", err)
+	}
+	return dir
+}
+
+// SharedData returns ../shared/data relative to the repository root, joined
+// with the optional path elements sub (e.g. "cia"), and skips the test when
+// that path is absent: the samples are read in place, never copied into the
+// repository (see ../shared/data/SOURCES.md).
+func SharedData(t testing.TB, sub ...string) string {
+	t.Helper()
+	rel := filepath.Join(append([]string{"..", "shared", "data"}, sub...)...)
+	dir, err := root()
+	if err != nil {
+		t.Skipf("%s cannot be located (%v): skipping test that needs the real line-list samples", rel, err)
+	}
+	p := filepath.Join(dir, rel)
+	if _, err := os.Stat(p); err != nil {
+		t.Skipf("%s not found at %s: skipping test that needs the real line-list samples", rel, p)
+	}
+	return p
+}
+
+// BuildChord builds the chord command (chord/cmd/chord) into a temporary
+// directory of the test, removed when it ends, and returns the binary's
+// path. The Go build cache makes every build after the first one a link.
+func BuildChord(t testing.TB) string {
+	t.Helper()
+	bin := filepath.Join(t.TempDir(), "chord")
+	cmd := exec.Command("go", "build", "-o", bin, "chord/cmd/chord")
+	cmd.Dir = RepoRoot(t)
+	if out, err := cmd.CombinedOutput(); err != nil {
+		t.Fatalf("go build chord/cmd/chord: %v\n%s", err, out)
+	}
+	return bin
+}
