@@ -41,9 +41,11 @@ import (
 const (
 	// SokalWindow is Sokal's window constant c for autocorrelation times.
 	SokalWindow = 5.0
-	// ConvergedTaus is the chain length after burn-in, in units of the
-	// largest autocorrelation time, from which a chain counts as converged
-	// (50, common practice for ensemble samplers).
+	// ConvergedTaus is the whole chain's length (burn-in included, as in
+	// the sampler's stopping rule, so that a run the sampler stopped as
+	// converged is reported converged), in units of the largest
+	// autocorrelation time, from which a chain counts as converged (50,
+	// common practice for ensemble samplers).
 	ConvergedTaus = 50.0
 	// AutoBurnTaus is the burn-in chosen by --burn auto, in units of the
 	// largest autocorrelation time estimated on the whole chain (common
@@ -83,7 +85,8 @@ type Summary struct {
 
 	Acceptance Acceptance `json:"acceptance"`
 	// MaxTau is the largest integrated autocorrelation time of the free
-	// parameters (steps); ChainTaus the chain length after burn-in over it.
+	// parameters (steps, estimated after burn-in); ChainTaus the whole
+	// chain's length over it.
 	MaxTau    Float  `json:"max_tau"`
 	ChainTaus Float  `json:"chain_taus"`
 	Converged bool   `json:"converged"`
@@ -330,10 +333,10 @@ func Summarize(c *Chains, opt SummaryOptions) (*Summary, error) {
 	if len(highRHat) > 0 {
 		s.Warnings = append(s.Warnings, fmt.Sprintf("split R-hat above %g: %s; the walkers disagree, the chain may need to be longer", RHatLimit, strings.Join(highRHat, ", ")))
 	}
-	s.ChainTaus = Float(float64(len(c.Steps)) / float64(s.MaxTau))
+	s.ChainTaus = Float(float64(c.TotalSteps) / float64(s.MaxTau))
 	s.Converged = allTau && s.ChainTaus >= ConvergedTaus
 	if !s.Converged {
-		why := fmt.Sprintf("the chain after burn-in is %.1f autocorrelation times long, fewer than %g", s.ChainTaus, ConvergedTaus)
+		why := fmt.Sprintf("the chain is %.1f autocorrelation times long, fewer than %g", s.ChainTaus, ConvergedTaus)
 		if !allTau {
 			why = "the chain is too short for a reliable autocorrelation time"
 		}
@@ -466,7 +469,7 @@ func (s *Summary) WriteText(w io.Writer) error {
 	if s.Converged {
 		conv = "yes"
 	}
-	fmt.Fprintf(&b, "autocorr.    largest tau %.1f steps; chain after burn-in = %.1f tau; converged (>= %g tau): %s\n", s.MaxTau, s.ChainTaus, ConvergedTaus, conv)
+	fmt.Fprintf(&b, "autocorr.    largest tau %.1f steps; chain = %.1f tau; converged (>= %g tau): %s\n", s.MaxTau, s.ChainTaus, ConvergedTaus, conv)
 	fmt.Fprintf(&b, "best sample  step %d walker %d: log posterior %.3f, log likelihood %.3f\n", s.Best.Step, s.Best.Walker, s.Best.LogPosterior, s.Best.LogLikelihood)
 	if s.Best.DataPoints > 0 {
 		fmt.Fprintf(&b, "             chi-square %.2f for %d data points and %d free parameters (reduced %.3f)\n", s.Best.ChiSquare, s.Best.DataPoints, s.Best.FreeParameters, s.Best.ReducedChiSquare)
