@@ -5,8 +5,6 @@ import (
 	"fmt"
 	"os"
 	"os/signal"
-	"slices"
-	"strings"
 	"syscall"
 	"time"
 
@@ -140,56 +138,4 @@ func finishRun(c *cli.Context, rep *retrieve.RunReport, err error) error {
 		fmt.Fprintf(w, "chord: summary.json, summary.txt, corner.png and spectrum.png written to %s\n", rep.Dir)
 	}
 	return nil
-}
-
-// interspersed lets a command take flags after its run directory
-// (chord report RUNDIR --burn auto): urfave/cli v2 stops parsing flags at
-// the first argument, so when flags follow it the command's arguments are
-// reordered, flags first, and the command is run again.
-func interspersed(action cli.ActionFunc) cli.ActionFunc {
-	return func(c *cli.Context) error {
-		rest := c.Args().Slice()
-		hasFlag := false
-		for _, a := range rest {
-			hasFlag = hasFlag || (strings.HasPrefix(a, "-") && a != "-")
-		}
-		if !hasFlag || c.Command == nil {
-			return action(c)
-		}
-		boolFlag := map[string]bool{}
-		for _, f := range c.Command.Flags {
-			if _, ok := f.(*cli.BoolFlag); ok {
-				for _, n := range f.Names() {
-					boolFlag[n] = true
-				}
-			}
-		}
-		// The command's own arguments: everything after its name in os.Args.
-		i := slices.Index(os.Args, c.Command.Name)
-		if i < 0 {
-			return action(c)
-		}
-		var flags, pos []string
-		args := os.Args[i+1:]
-		for k := 0; k < len(args); k++ {
-			a := args[k]
-			if a == "--" {
-				pos = append(pos, args[k+1:]...)
-				break
-			}
-			if !strings.HasPrefix(a, "-") || a == "-" {
-				pos = append(pos, a)
-				continue
-			}
-			flags = append(flags, a)
-			name := strings.TrimLeft(a, "-")
-			if !strings.Contains(name, "=") && !boolFlag[name] && k+1 < len(args) {
-				flags = append(flags, args[k+1])
-				k++
-			}
-		}
-		argv := append([]string{c.App.Name, c.Command.Name}, flags...)
-		argv = append(argv, "--")
-		return c.App.RunContext(c.Context, append(argv, pos...))
-	}
 }

@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
-	"slices"
 	"strconv"
 	"strings"
 	"text/tabwriter"
@@ -60,7 +59,7 @@ func init() {
 					&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior"},
 					&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables"},
 				},
-				Action: gridInterspersed(runGridPoint),
+				Action: interspersed(runGridPoint),
 			},
 			{
 				Name: "status", Usage: "show each point's state: not started, running, stopped with a checkpoint at step k, done",
@@ -68,7 +67,7 @@ func init() {
 			},
 			{
 				Name: "resubmit", Usage: "write (and with --submit submit) a job array of the unfinished points, continuing from their checkpoints",
-				ArgsUsage: "GRIDDIR", Flags: slurmFlags, Action: gridInterspersed(runGridResubmit),
+				ArgsUsage: "GRIDDIR", Flags: slurmFlags, Action: interspersed(runGridResubmit),
 			},
 			{
 				Name: "collect", Usage: "one summary table (summary.csv, summary.parquet) of every point, and the width-against-noise comparison",
@@ -300,45 +299,4 @@ func runGridCollect(c *cli.Context) error {
 	fmt.Fprint(c.App.Writer, col.Table)
 	fmt.Fprintf(c.App.ErrWriter, "chord grid: summary.csv and summary.parquet (%d rows), comparison.txt and comparison.json written to %s\n", col.Rows, g.Dir)
 	return nil
-}
-
-// gridInterspersed lets a grid subcommand take flags after its arguments
-// (chord grid resubmit GRIDDIR --submit), as interspersed does for
-// top-level commands: urfave/cli v2 stops parsing flags at the first
-// argument, so the subcommand is run again with its flags first.
-func gridInterspersed(action cli.ActionFunc) cli.ActionFunc {
-	return func(c *cli.Context) error {
-		i := slices.Index(os.Args, c.Command.Name)
-		if i < 0 || !slices.ContainsFunc(c.Args().Slice(), func(a string) bool { return strings.HasPrefix(a, "-") && a != "-" }) {
-			return action(c)
-		}
-		boolFlag := map[string]bool{}
-		for _, f := range c.Command.Flags {
-			if _, ok := f.(*cli.BoolFlag); ok {
-				for _, n := range f.Names() {
-					boolFlag[n] = true
-				}
-			}
-		}
-		var flags, pos []string
-		args := os.Args[i+1:]
-		for k := 0; k < len(args); k++ {
-			a := args[k]
-			switch {
-			case a == "--":
-				pos = append(pos, args[k+1:]...)
-				k = len(args)
-			case !strings.HasPrefix(a, "-") || a == "-":
-				pos = append(pos, a)
-			default:
-				flags = append(flags, a)
-				if name := strings.TrimLeft(a, "-"); !strings.Contains(name, "=") && !boolFlag[name] && k+1 < len(args) {
-					flags = append(flags, args[k+1])
-					k++
-				}
-			}
-		}
-		argv := append([]string{c.App.Name, "grid", c.Command.Name}, flags...)
-		return c.App.RunContext(c.Context, append(append(argv, "--"), pos...))
-	}
 }
