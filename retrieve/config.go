@@ -204,20 +204,8 @@ func LoadConfig(path string) (*Resolved, error) {
 // start.
 func DecodeConfig(text, name, baseDir string) (*Config, error) {
 	c := &Config{}
-	md, err := toml.Decode(text, c)
-	if err != nil {
-		var pe toml.ParseError
-		if errors.As(err, &pe) {
-			return nil, fmt.Errorf("%s: line %d: %s", name, pe.Position.Line, pe.Message)
-		}
-		return nil, fmt.Errorf("%s: %w", name, err)
-	}
-	if und := md.Undecoded(); len(und) > 0 {
-		keys := make([]string, len(und))
-		for i, k := range und {
-			keys[i] = k.String()
-		}
-		return nil, fmt.Errorf("%s: unknown key %s", name, strings.Join(keys, ", unknown key "))
+	if _, err := decodeStrict(text, name, c); err != nil {
+		return nil, err
 	}
 	c.BaseDir = baseDir
 	return c, nil

@@ -132,20 +132,30 @@ const maxModelPoints = 200000
 // not have, naming each (e.g. "planet.mas_mjup"). Retrieval configurations
 // use it with a struct that embeds ModelConfig.
 func DecodeStrict(path string, v any) (toml.MetaData, error) {
-	md, err := toml.DecodeFile(path, v)
+	text, err := os.ReadFile(path)
+	if err != nil {
+		return toml.MetaData{}, fmt.Errorf("%s: %w", path, err)
+	}
+	return decodeStrict(string(text), path, v)
+}
+
+// decodeStrict is DecodeStrict on TOML text; name (a file name) starts
+// every error, with the line of a syntax error.
+func decodeStrict(text, name string, v any) (toml.MetaData, error) {
+	md, err := toml.Decode(text, v)
 	if err != nil {
 		var pe toml.ParseError
 		if errors.As(err, &pe) {
-			return md, fmt.Errorf("%s: line %d: %s", path, pe.Position.Line, pe.Message)
+			return md, fmt.Errorf("%s: line %d: %s", name, pe.Position.Line, pe.Message)
 		}
-		return md, fmt.Errorf("%s: %w", path, err)
+		return md, fmt.Errorf("%s: %w", name, err)
 	}
 	if und := md.Undecoded(); len(und) > 0 {
 		keys := make([]string, len(und))
 		for i, k := range und {
 			keys[i] = k.String()
 		}
-		return md, fmt.Errorf("%s: unknown key %s", path, strings.Join(keys, ", unknown key "))
+		return md, fmt.Errorf("%s: unknown key %s", name, strings.Join(keys, ", unknown key "))
 	}
 	return md, nil
 }
