@@ -404,6 +404,19 @@ func parseRange(name, s string) (lo, hi, n float64, err error) {
 	return v[0], v[1], v[2], nil
 }
 
+// gridPoints returns the n grid values at(0), at(1), ... of the flag named
+// name (given as s), refusing more than maxBuildValues of them.
+func gridPoints(name, s string, n float64, at func(i float64) float64) ([]float64, error) {
+	if n > maxBuildValues {
+		return nil, fmt.Errorf("opacity build: --%s %q: %g points is too many", name, s, n)
+	}
+	out := make([]float64, int(n))
+	for i := range out {
+		out[i] = at(float64(i))
+	}
+	return out, nil
+}
+
 // buildPressures parses "--pressure LO:HI:N" (bar) into log10 of Pa.
 func buildPressures(s string) ([]float64, error) {
 	lo, hi, n, err := parseRange("pressure", s)
@@ -413,20 +426,17 @@ func buildPressures(s string) ([]float64, error) {
 	if !(lo > 0) || !(hi >= lo) || n != math.Trunc(n) || n < 1 || (n == 1) != (lo == hi) || n > 1000 {
 		return nil, fmt.Errorf("opacity build: --pressure %q: want 0 < LO < HI (bar) and 2 <= N <= 1000 points, or LO = HI with N = 1", s)
 	}
-	out := make([]float64, int(n))
 	a, b := math.Log10(lo*1e5), math.Log10(hi*1e5)
-	for i := range out {
-		out[i] = a
-		if n > 1 {
-			out[i] = a + (b-a)*float64(i)/(n-1)
+	return gridPoints("pressure", s, n, func(i float64) float64 {
+		if n == 1 {
+			return a
 		}
-	}
-	return out, nil
+		return a + (b-a)*i/(n-1)
+	})
 }
 
 // buildTemperatures parses "--temperature T1,T2,..." or "LO:HI:N" (K).
 func buildTemperatures(s string) ([]float64, error) {
-	var out []float64
 	if strings.Contains(s, ":") {
 		lo, hi, n, err := parseRange("temperature", s)
 		if err != nil {
@@ -435,11 +445,9 @@ func buildTemperatures(s string) ([]float64, error) {
 		if !(lo > 0) || !(hi > lo) || n != math.Trunc(n) || n < 2 || n > 1000 {
 			return nil, fmt.Errorf("opacity build: --temperature %q: want 0 < LO < HI (K) and 2 <= N <= 1000", s)
 		}
-		for i := 0; i < int(n); i++ {
-			out = append(out, lo+(hi-lo)*float64(i)/(n-1))
-		}
-		return out, nil
+		return gridPoints("temperature", s, n, func(i float64) float64 { return lo + (hi-lo)*i/(n-1) })
 	}
+	var out []float64
 	for _, x := range strings.Split(s, ",") {
 		v, err := strconv.ParseFloat(strings.TrimSpace(x), 64)
 		if err != nil || !(v > 0) || math.IsInf(v, 0) {
@@ -469,14 +477,7 @@ func buildWavenumbers(wn, wl string, needed bool) ([]float64, error) {
 			return nil, fmt.Errorf("opacity build: --wavenumber %q: want 0 < LO < HI and STEP > 0 (cm^-1)", wn)
 		}
 		n := math.Floor((hi-lo)/step+1e-9) + 1
-		if n > maxBuildValues {
-			return nil, fmt.Errorf("opacity build: --wavenumber %q: %g points is too many", wn, n)
-		}
-		out := make([]float64, int(n))
-		for i := range out {
-			out[i] = 100 * (lo + step*float64(i))
-		}
-		return out, nil
+		return gridPoints("wavenumber", wn, n, func(i float64) float64 { return 100 * (lo + step*i) })
 	case wl != "":
 		lo, hi, r, err := parseRange("wavelength", wl)
 		if err != nil {
@@ -486,16 +487,9 @@ func buildWavenumbers(wn, wl string, needed bool) ([]float64, error) {
 			return nil, fmt.Errorf("opacity build: --wavelength %q: want 0 < LO < HI (um) and R > 0", wl)
 		}
 		n := max(2, math.Round(r*math.Log(hi/lo))+1)
-		if n > maxBuildValues {
-			return nil, fmt.Errorf("opacity build: --wavelength %q: %g points is too many", wl, n)
-		}
-		out := make([]float64, int(n))
 		// Ascending wavenumber: from 1/hi to 1/lo, log-spaced.
 		a, b := 1e6/hi, 1e6/lo
-		for i := range out {
-			out[i] = a * math.Exp(float64(i)/(n-1)*math.Log(b/a))
-		}
-		return out, nil
+		return gridPoints("wavelength", wl, n, func(i float64) float64 { return a * math.Exp(i/(n-1)*math.Log(b/a)) })
 	case needed:
 		return nil, errors.New("opacity build: line lists need a wavenumber grid: --wavenumber LO:HI:STEP (cm^-1) or --wavelength LO:HI:R (um)")
 	}
