@@ -12,6 +12,8 @@ import (
 	"syscall"
 	"testing"
 
+	"chord/internal/testenv"
+
 	"github.com/parquet-go/parquet-go"
 )
 
@@ -61,28 +63,10 @@ func writeFake(t testing.TB, w *ChainWriter, l ChainLayout, from, to int) {
 // column names of the first file and all rows.
 func readIndependent(t *testing.T, dir string) ([]string, []map[string]any) {
 	t.Helper()
-	names, err := filepath.Glob(filepath.Join(dir, "part-*.parquet"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	var cols []string
+	files, cols := testenv.ParquetFiles(t, filepath.Join(dir, "part-*.parquet"))
 	var rows []map[string]any
-	for _, name := range names {
-		f, err := os.Open(name)
-		if err != nil {
-			t.Fatal(err)
-		}
-		st, _ := f.Stat()
-		pf, err := parquet.OpenFile(f, st.Size())
-		if err != nil {
-			t.Fatalf("%s: %v", name, err)
-		}
-		if cols == nil {
-			for _, c := range pf.Schema().Fields() {
-				cols = append(cols, c.Name())
-			}
-		}
-		r := parquet.NewGenericReader[map[string]any](f, pf.Schema())
+	for _, pf := range files {
+		r := parquet.NewGenericReader[map[string]any](pf.File, pf.Schema())
 		buf := make([]map[string]any, 100)
 		for {
 			for i := range buf {
@@ -94,11 +78,10 @@ func readIndependent(t *testing.T, dir string) ([]string, []map[string]any) {
 				break
 			}
 			if err != nil {
-				t.Fatalf("%s: %v", name, err)
+				t.Fatalf("%s: %v", pf.Name, err)
 			}
 		}
 		r.Close()
-		f.Close()
 	}
 	return cols, rows
 }

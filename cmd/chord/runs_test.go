@@ -98,24 +98,9 @@ func setupRuns(t *testing.T) (dir, cfg string) {
 // generic row reader (not chord's reader) and prints each exactly.
 func chainRows(t *testing.T, run string) (cols []string, rows []string) {
 	t.Helper()
-	names, _ := filepath.Glob(filepath.Join(run, "chains", "part-*.parquet"))
-	sort.Strings(names)
-	for _, name := range names {
-		f, err := os.Open(name)
-		if err != nil {
-			t.Fatal(err)
-		}
-		st, _ := f.Stat()
-		pf, err := parquet.OpenFile(f, st.Size())
-		if err != nil {
-			t.Fatalf("%s: %v", name, err)
-		}
-		if cols == nil {
-			for _, c := range pf.Schema().Fields() {
-				cols = append(cols, c.Name())
-			}
-		}
-		r := parquet.NewReader(pf)
+	files, cols := testenv.ParquetFiles(t, filepath.Join(run, "chains", "part-*.parquet"))
+	for _, pf := range files {
+		r := parquet.NewReader(pf.File)
 		buf := make([]parquet.Row, 64)
 		for {
 			n, err := r.ReadRows(buf)
@@ -134,10 +119,9 @@ func chainRows(t *testing.T, run string) (cols []string, rows []string) {
 				break
 			}
 			if err != nil {
-				t.Fatalf("%s: %v", name, err)
+				t.Fatalf("%s: %v", pf.Name, err)
 			}
 		}
-		f.Close()
 	}
 	return cols, rows
 }

@@ -5,7 +5,10 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"sort"
 	"testing"
+
+	"github.com/parquet-go/parquet-go"
 )
 
 // root walks up from the working directory (a package's directory while
@@ -68,4 +71,45 @@ func BuildChord(t testing.TB) string {
 		t.Fatalf("go build chord/cmd/chord: %v\n%s", err, out)
 	}
 	return bin
+}
+
+// ParquetFile is one file opened by ParquetFiles.
+type ParquetFile struct {
+	Name string // the file's path
+	*parquet.File
+}
+
+// ParquetFiles opens the files matching pattern, in name order, with
+// parquet-go alone (a reader that shares no code with chord's), for tests
+// that check chord's Parquet output independently. cols are the column
+// names of the first file. The files are closed when the test ends.
+func ParquetFiles(t testing.TB, pattern string) (files []ParquetFile, cols []string) {
+	t.Helper()
+	names, err := filepath.Glob(pattern)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sort.Strings(names)
+	for _, name := range names {
+		f, err := os.Open(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		t.Cleanup(func() { f.Close() })
+		st, err := f.Stat()
+		if err != nil {
+			t.Fatal(err)
+		}
+		pf, err := parquet.OpenFile(f, st.Size())
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		if cols == nil {
+			for _, c := range pf.Schema().Fields() {
+				cols = append(cols, c.Name())
+			}
+		}
+		files = append(files, ParquetFile{name, pf})
+	}
+	return files, cols
 }
