@@ -303,27 +303,12 @@ func TestExampleRetrieval(t *testing.T) {
 	if testing.Short() {
 		t.Skip("builds or loads the demo opacities")
 	}
-	r, err := LoadConfig("../testdata/retrieval-example.toml")
-	if err != nil {
-		t.Fatal(err)
-	}
-	set, err := r.Config.LoadOpacity(testDemoCache(t), nil)
-	if err != nil {
-		t.Fatal(err)
-	}
-	p, err := NewProblem(r, set)
-	if err != nil {
-		t.Fatal(err)
-	}
+	r, p := demoProblem(t, "../testdata/retrieval-example.toml")
 	// The truth of testdata/gen-retrieval-example/main.go.
 	truth := []float64{-3, -5, math.Log10(5e-4), -6, 1300, 1.05, -2, 0.6, math.Log10(5), 120, 0}
-	extra := make([]float64, p.NumExtra())
-	if lp := p.NewEvaluator().LogProb(truth, extra); math.IsInf(lp, -1) {
-		t.Fatalf("truth rejected: %v", p.Rejections())
-	}
-	n := float64(p.Model().OutputLen())
-	t.Logf("chi2 at the truth %.1f for %g bins", extra[3], n)
-	if chi2 := extra[3]; math.Abs(chi2-n) > 5*math.Sqrt(2*n) {
+	chi2, n := chi2At(t, p, truth)
+	t.Logf("chi2 at the truth %.1f for %g bins", chi2, n)
+	if math.Abs(chi2-n) > 5*math.Sqrt(2*n) {
 		t.Errorf("chi2 at the truth %g for %g bins", chi2, n)
 	}
 	st, err := sampler.InitPrior(context.Background(), p, p.DrawPrior, sampler.InitSettings{Walkers: r.Walkers, Seed: r.Seed})

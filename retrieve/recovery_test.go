@@ -115,6 +115,36 @@ func testDemoCache(t *testing.T) string {
 	return cache
 }
 
+// demoProblem loads the retrieval configuration at path and its problem,
+// with the demo opacity tables of the shared cache.
+func demoProblem(t *testing.T, path string) (*Resolved, *Problem) {
+	t.Helper()
+	r, err := LoadConfig(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	set, err := r.Config.LoadOpacity(testDemoCache(t), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	p, err := NewProblem(r, set)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return r, p
+}
+
+// chi2At returns the chi-square of p's observations at the parameters x
+// and the number of bins, failing the test when the posterior rejects x.
+func chi2At(t *testing.T, p *Problem, x []float64) (chi2, n float64) {
+	t.Helper()
+	extra := make([]float64, p.NumExtra())
+	if lp := p.NewEvaluator().LogProb(x, extra); math.IsInf(lp, -1) {
+		t.Fatalf("truth rejected: %v", p.Rejections())
+	}
+	return extra[3], float64(p.Model().OutputLen())
+}
+
 // setupSmall writes the small scenario's observation (noise seed, or
 // noise-free) and its retrieval configuration to a new directory and
 // returns the configuration's path.
@@ -288,25 +318,9 @@ func TestDemoFiles(t *testing.T) {
 	}
 	cfg := filepath.Join(dir, DemoConfigFile)
 	os.WriteFile(cfg, text, 0o644)
-	r, err := LoadConfig(cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	set, err := r.Config.LoadOpacity(testDemoCache(t), nil)
-	if err != nil {
-		t.Fatal(err)
-	}
-	p, err := NewProblem(r, set)
-	if err != nil {
-		t.Fatal(err)
-	}
+	_, p := demoProblem(t, cfg)
 	x := []float64{math.Log10(3e-3), -3, -4, 520, 2.45, 2} // ossery-b-truth.toml
-	extra := make([]float64, p.NumExtra())
-	if lp := p.NewEvaluator().LogProb(x, extra); math.IsInf(lp, -1) {
-		t.Fatalf("truth rejected: %v", p.Rejections())
-	}
-	n := float64(p.Model().OutputLen())
-	if chi2 := extra[3]; n != 86 || math.Abs(chi2-n) > 5*math.Sqrt(2*n) {
+	if chi2, n := chi2At(t, p, x); n != 86 || math.Abs(chi2-n) > 5*math.Sqrt(2*n) {
 		t.Errorf("chi-square at the truth %.1f for %g bins", chi2, n)
 	}
 }
