@@ -113,10 +113,7 @@ func SimulateObservation(path string, truth *ModelConfig, cache string, log io.W
 // Demo simulates the demo observation, writes the retrieval configuration
 // and observation to opt.Dir, fits them into opt.Dir/run and reports.
 func Demo(ctx context.Context, opt DemoOptions) (*RunReport, error) {
-	log := opt.Log
-	if log == nil {
-		log = io.Discard
-	}
+	log := logTo(opt.Log)
 	if err := os.MkdirAll(opt.Dir, 0o755); err != nil {
 		return nil, err
 	}

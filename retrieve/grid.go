@@ -610,10 +610,7 @@ type GridOptions struct {
 // built and checked before the first file is written; a directory holding
 // another grid, or not empty and holding none, is refused.
 func CreateGrid(specPath, dir string, opt GridOptions) (*Grid, error) {
-	log := opt.Log
-	if log == nil {
-		log = io.Discard
-	}
+	log := logTo(opt.Log)
 	spec, err := LoadGridSpec(specPath)
 	if err != nil {
 		return nil, err
@@ -1155,10 +1152,7 @@ func (g *Grid) RunPoint(ctx context.Context, i int, opt PointOptions) (*RunRepor
 		return nil, fmt.Errorf("grid: point %d: %w", i, err)
 	}
 	defer unlock()
-	log := opt.Log
-	if log == nil {
-		log = io.Discard
-	}
+	log := logTo(opt.Log)
 	ef := filepath.Join(g.PointDir(i), pointErrorFile)
 	if err := os.Remove(ef); err != nil && !errors.Is(err, os.ErrNotExist) {
 		return nil, err
@@ -1216,10 +1210,7 @@ type LocalReport struct {
 // opacity tables share one load. A cancelled context stops every running
 // fit at a checkpoint.
 func (g *Grid) RunLocal(ctx context.Context, opt LocalOptions) (*LocalReport, error) {
-	log := opt.Log
-	if log == nil {
-		log = io.Discard
-	}
+	log := logTo(opt.Log)
 	jobs := max(opt.Jobs, 1)
 	workers := opt.Workers
 	if workers == nil {

@@ -1149,6 +1149,17 @@ func demoCache(dir string, r *Resolved) (string, error) {
 	return DemoCacheDir()
 }
 
+// logTo returns the first of ws that is not nil, else io.Discard: where
+// a command's messages go when its options leave them unset.
+func logTo(ws ...io.Writer) io.Writer {
+	for _, w := range ws {
+		if w != nil {
+			return w
+		}
+	}
+	return io.Discard
+}
+
 func newRunID() string {
 	var b [8]byte
 	crand.Read(b[:])
@@ -1157,13 +1168,7 @@ func newRunID() string {
 
 // Fit validates a configuration, starts a run in opt.RunDir and reports it.
 func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
-	log := opt.Log
-	if log == nil {
-		log = opt.Progress.Writer
-	}
-	if log == nil {
-		log = io.Discard
-	}
+	log := logTo(opt.Log, opt.Progress.Writer)
 	r, err := LoadConfig(opt.ConfigPath)
 	if err != nil {
 		return nil, err
@@ -1299,9 +1304,7 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 	if cache, err = demoCache(cache, r); err != nil {
 		return nil, nil, err
 	}
-	if log == nil {
-		log = io.Discard
-	}
+	log = logTo(log)
 	if set == nil {
 		if set, err = r.Config.LoadOpacity(cache, log); err != nil {
 			return nil, nil, fmt.Errorf("%s: %w", path, err)
@@ -1344,15 +1347,12 @@ type ResumeOptions struct {
 
 // Resume continues the run in dir from its checkpoint and reports it.
 func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, error) {
-	log := opt.Log
-	if log == nil {
-		log = opt.Progress.Writer
-	}
+	log := logTo(opt.Log, opt.Progress.Writer)
 	j, _, err := loadRun(dir, opt.DemoCache, opt.Opacity, log)
 	if err != nil {
 		return nil, err
 	}
-	if j.set.Demo && log != nil {
+	if j.set.Demo {
 		fmt.Fprintln(log, "chord: "+DemoWarning)
 	}
 	workers := j.res.Workers
@@ -1366,13 +1366,11 @@ func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, err
 	if err != nil {
 		return nil, err
 	}
-	if log != nil {
-		if len(out.Removed) > 0 {
-			fmt.Fprintf(log, "chord: removed %s (rows written after the checkpoint; sampled again)\n", strings.Join(out.Removed, ", "))
-		}
-		if out.Recovered {
-			fmt.Fprintln(log, "chord: the newest chain part was damaged; resumed from the checkpoint's previous state, one part earlier")
-		}
+	if len(out.Removed) > 0 {
+		fmt.Fprintf(log, "chord: removed %s (rows written after the checkpoint; sampled again)\n", strings.Join(out.Removed, ", "))
+	}
+	if out.Recovered {
+		fmt.Fprintln(log, "chord: the newest chain part was damaged; resumed from the checkpoint's previous state, one part earlier")
 	}
 	return j.finish(dir, out)
 }
