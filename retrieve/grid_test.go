@@ -7,7 +7,6 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
-	"sync"
 	"testing"
 	"time"
 
@@ -253,23 +252,6 @@ func TestGridBadInput(t *testing.T) {
 	}
 }
 
-// cancelAtStep cancels a context at the first progress line of a fit.
-type cancelAtStep struct {
-	mu     sync.Mutex
-	cancel context.CancelFunc
-	log    bytes.Buffer
-}
-
-func (c *cancelAtStep) Write(p []byte) (int, error) {
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	c.log.Write(p)
-	if strings.Contains(string(p), "step ") {
-		c.cancel()
-	}
-	return len(p), nil
-}
-
 const grid2 = `
 base = "scenario.toml"
 seed = 40
@@ -315,7 +297,7 @@ func TestGridStoppedAndResumedEqualsUninterrupted(t *testing.T) {
 		t.Fatal(err)
 	}
 	ctx, cancel := context.WithCancel(context.Background())
-	w := &cancelAtStep{cancel: cancel}
+	w := &cancelOnProgress{cancel: cancel}
 	r, err := g2.RunPoint(ctx, 1, PointOptions{Progress: Progress{Writer: w, LogInterval: time.Millisecond}})
 	cancel()
 	if err != nil {

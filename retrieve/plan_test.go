@@ -119,7 +119,8 @@ func TestPlanWidthsScaleWithNoise(t *testing.T) {
 }
 
 // cancelOnProgress cancels a context at the first progress line after the
-// n-th "fitting" message: the middle of the n-th fit.
+// n-th "chord plan: fitting" message: the middle of the n-th fit of a plan;
+// with n = 0 (a grid's log has no such message), the first progress line.
 type cancelOnProgress struct {
 	mu      sync.Mutex
 	n, seen int
