@@ -136,9 +136,8 @@ func (p *PlanSpec) check() error {
 	if p.Steps < 0 || p.Budget < 0 {
 		return errors.New("plan: steps and budget must not be negative")
 	}
-	levels := len(p.NoisePPM) + len(p.Transits)
 	seen := map[string]bool{}
-	for i := range levels {
+	for i := range p.levels() {
 		n := p.levelName(i)
 		if seen[n] {
 			return fmt.Errorf("plan: level %s is given twice", n)
@@ -183,13 +182,7 @@ func (p *PlanSpec) stop() StopRule {
 
 // RunPlan runs or resumes the plan in opt.Dir.
 func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
-	log := opt.Log
-	if log == nil {
-		log = opt.Progress.Writer
-	}
-	if log == nil {
-		log = io.Discard
-	}
+	log := logTo(opt.Log, opt.Progress.Writer)
 	spec, err := openPlan(opt)
 	if err != nil {
 		return nil, err
