@@ -37,10 +37,7 @@ func runDemo(c *cli.Context) error {
 	w := c.App.ErrWriter
 	fmt.Fprintln(w, "chord demo: "+retrieve.DemoWarning)
 	opt := retrieve.DemoOptions{Dir: c.String("output"), Force: c.Bool("force"), DemoCache: c.String("demo-cache"), Progress: prog, Log: w}
-	if c.IsSet("workers") {
-		n := c.Int("workers")
-		opt.Workers = &n
-	}
+	opt.Workers = flagIfSet(c, "workers", c.Int)
 	rep, err := retrieve.Demo(ctx, opt)
 	if err := finishRun(c, rep, err); err != nil {
 		return err

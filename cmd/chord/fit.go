@@ -76,6 +76,17 @@ func stopRule(c *cli.Context) (retrieve.StopRule, error) {
 	return s, nil
 }
 
+// flagIfSet returns the value of the flag name read by get (c.Int,
+// c.Uint64, ...) when the command line gives it, else nil: the "not given,
+// use the default" of an option.
+func flagIfSet[T any](c *cli.Context, name string, get func(string) T) *T {
+	if !c.IsSet(name) {
+		return nil
+	}
+	v := get(name)
+	return &v
+}
+
 // session holds what fit, resume and demo share: the signal context and
 // the progress settings.
 func session(c *cli.Context) (context.Context, context.CancelFunc, retrieve.Progress) {
@@ -106,14 +117,7 @@ func runFit(c *cli.Context) error {
 		ConfigPath: c.String("config"), RunDir: c.String("output"), Force: c.Bool("force"),
 		Stop: stop, DemoCache: c.String("demo-cache"), Progress: prog, CheckpointSteps: c.Int("checkpoint-every"),
 	}
-	if c.IsSet("seed") {
-		s := c.Uint64("seed")
-		opt.Seed = &s
-	}
-	if c.IsSet("workers") {
-		w := c.Int("workers")
-		opt.Workers = &w
-	}
+	opt.Seed, opt.Workers = flagIfSet(c, "seed", c.Uint64), flagIfSet(c, "workers", c.Int)
 	rep, err := retrieve.Fit(ctx, opt)
 	return finishRun(c, rep, err)
 }

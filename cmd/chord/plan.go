@@ -92,10 +92,7 @@ func runPlan(c *cli.Context) error {
 		}
 		opt.Spec = spec
 	}
-	if c.IsSet("workers") {
-		w := c.Int("workers")
-		opt.Workers = &w
-	}
+	opt.Workers = flagIfSet(c, "workers", c.Int)
 	ctx, cancel, prog := session(c)
 	defer cancel()
 	opt.Progress = prog
