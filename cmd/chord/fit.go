@@ -76,17 +76,6 @@ func stopRule(c *cli.Context) (retrieve.StopRule, error) {
 	return s, nil
 }
 
-// flagIfSet returns the value of the flag name read by get (c.Int,
-// c.Uint64, ...) when the command line gives it, else nil: the "not given,
-// use the default" of an option.
-func flagIfSet[T any](c *cli.Context, name string, get func(string) T) *T {
-	if !c.IsSet(name) {
-		return nil
-	}
-	v := get(name)
-	return &v
-}
-
 // session holds what fit, resume and demo share: the signal context and
 // the progress settings.
 func session(c *cli.Context) (context.Context, context.CancelFunc, retrieve.Progress) {

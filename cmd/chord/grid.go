@@ -85,10 +85,8 @@ func runGrid(c *cli.Context) error {
 		return errors.New("grid: give --local or --slurm, not both")
 	}
 	if !c.Bool("slurm") {
-		for _, f := range []string{"time", "cpus-per-task", "mem", "partition", "max-running", "submit"} {
-			if c.IsSet(f) {
-				return fmt.Errorf("grid: --%s belongs with --slurm", f)
-			}
+		if f, ok := firstSet(c, "time", "cpus-per-task", "mem", "partition", "max-running", "submit"); ok {
+			return fmt.Errorf("grid: --%s belongs with --slurm", f)
 		}
 	}
 	if !c.Bool("local") && (c.IsSet("jobs") || c.IsSet("workers")) {

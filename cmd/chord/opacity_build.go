@@ -87,10 +87,8 @@ func runOpacityBuild(c *cli.Context) error {
 		progress = nil
 	}
 	if c.Bool("demo") {
-		for _, f := range []string{"lines", "cia", "molparam", "tips", "partition", "wavenumber", "wavelength", "gas", "cell-average"} {
-			if c.IsSet(f) {
-				return fmt.Errorf("opacity build: --demo builds the fixed demo set; --%s cannot be used with it", f)
-			}
+		if f, ok := firstSet(c, "lines", "cia", "molparam", "tips", "partition", "wavenumber", "wavelength", "gas", "cell-average"); ok {
+			return fmt.Errorf("opacity build: --demo builds the fixed demo set; --%s cannot be used with it", f)
 		}
 		files, err := opacity.WriteDemo(out, force, progress)
 		if errors.Is(err, fs.ErrExist) {
@@ -169,10 +167,8 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 	case len(exomol) > 1 || (len(exomol) == 1 && len(hitran) > 0):
 		return fmt.Errorf("opacity build: one table is built from HITRAN line lists or from one ExoMol .def file, not both or several (%s)", strings.Join(exomol, ", "))
 	case len(exomol) == 1:
-		for _, f := range []string{"molparam", "tips", "partition"} {
-			if c.IsSet(f) {
-				return fmt.Errorf("opacity build: --%s applies to HITRAN line lists; ExoMol lists bring their own states", f)
-			}
+		if f, ok := firstSet(c, "molparam", "tips", "partition"); ok {
+			return fmt.Errorf("opacity build: --%s applies to HITRAN line lists; ExoMol lists bring their own states", f)
 		}
 		def, err := opacity.ReadExoMolDef(exomol[0])
 		if err != nil {

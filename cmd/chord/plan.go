@@ -54,10 +54,8 @@ func runPlan(c *cli.Context) error {
 		opt.Demo = true
 	}
 	if opt.ScenarioPath == "" && !opt.Demo {
-		for _, f := range []string{"noise", "transits", "seed", "bins", "wavelength-range", "resolving-power", "noise-file", "steps", "budget", "until-converged"} {
-			if c.IsSet(f) {
-				return fmt.Errorf("plan: --%s without -c or --demo: a plan is resumed as it was asked (its plan.toml); give -c SCENARIO to start a new plan", f)
-			}
+		if f, ok := firstSet(c, "noise", "transits", "seed", "bins", "wavelength-range", "resolving-power", "noise-file", "steps", "budget", "until-converged"); ok {
+			return fmt.Errorf("plan: --%s without -c or --demo: a plan is resumed as it was asked (its plan.toml); give -c SCENARIO to start a new plan", f)
 		}
 	} else {
 		obs, err := observingSpec(c)

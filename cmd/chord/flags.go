@@ -1,0 +1,25 @@
+package main
+
+import "github.com/urfave/cli/v2"
+
+// flagIfSet returns the value of the flag name read by get (c.Int,
+// c.Uint64, ...) when the command line gives it, else nil: the "not given,
+// use the default" of an option.
+func flagIfSet[T any](c *cli.Context, name string, get func(string) T) *T {
+	if !c.IsSet(name) {
+		return nil
+	}
+	v := get(name)
+	return &v
+}
+
+// firstSet returns the first of the flags names that the command line
+// gives, for refusing flags that do not go with others.
+func firstSet(c *cli.Context, names ...string) (string, bool) {
+	for _, n := range names {
+		if c.IsSet(n) {
+			return n, true
+		}
+	}
+	return "", false
+}
