@@ -22,6 +22,7 @@ import (
 	"github.com/BurntSushi/toml"
 	"github.com/parquet-go/parquet-go"
 	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/optimize"
 
 	"chord/forward"
 	"chord/forward/opacity"
@@ -906,87 +907,41 @@ func laplaceFactor(x []float64, f func([]float64) float64, step []float64) *mat.
 	return u
 }
 
-// nelderMead minimises f from x (overwritten with the best point) with the
-// simplex method of Nelder & Mead (1965, Comput. J. 7, 308; standard
-// coefficients: reflection 1, expansion 2, contraction 1/2, shrink 1/2),
-// the initial simplex stepping 10 step[k] along each axis, for at most
-// maxEval evaluations.
+// nelderMead minimises f from x (overwritten with the best point found)
+// with gonum's Nelder-Mead simplex method (gonum v0.17.0 optimize; Nelder &
+// Mead 1965, Comput. J. 7, 308), the initial simplex stepping 10 step[k]
+// along each axis, for at most maxEval evaluations. A search that ends
+// early or fails keeps the best point it saw; x is only a start for the
+// walkers, so no convergence is needed.
 func nelderMead(x []float64, f func([]float64) float64, step []float64, maxEval int) {
 	n := len(x)
-	pts := make([][]float64, n+1)
-	val := make([]float64, n+1)
-	for i := range pts {
-		pts[i] = slices.Clone(x)
+	verts := make([][]float64, n+1)
+	vals := make([]float64, n+1)
+	for i := range verts {
+		verts[i] = slices.Clone(x)
 		if i > 0 {
-			pts[i][i-1] += 10 * step[i-1]
+			verts[i][i-1] += 10 * step[i-1]
 		}
-		val[i] = f(pts[i])
+		vals[i] = f(verts[i])
 	}
-	evals := n + 1
-	cen, xr, xe := make([]float64, n), make([]float64, n), make([]float64, n)
-	along := func(dst []float64, t float64, worst []float64) {
-		for k := range dst {
-			dst[k] = cen[k] + t*(worst[k]-cen[k])
-		}
+	method := &optimize.NelderMead{InitialVertices: verts, InitialValues: vals}
+	settings := &optimize.Settings{
+		FuncEvaluations: maxEval,
+		Converger:       &optimize.FunctionConverge{Absolute: 1e-6, Iterations: 20 * n},
 	}
-	for evals < maxEval {
-		idx := make([]int, n+1)
-		for i := range idx {
-			idx[i] = i
-		}
-		sort.Slice(idx, func(a, b int) bool { return val[idx[a]] < val[idx[b]] })
-		lo, hi, second := idx[0], idx[n], idx[n-1]
-		if val[hi]-val[lo] < 1e-6 {
-			break
-		}
-		for k := range cen {
-			cen[k] = 0
-			for _, i := range idx[:n] {
-				cen[k] += pts[i][k] / float64(n)
-			}
-		}
-		along(xr, -1, pts[hi])
-		fr := f(xr)
-		evals++
-		switch {
-		case fr < val[lo]:
-			along(xe, -2, pts[hi])
-			fe := f(xe)
-			evals++
-			if fe < fr {
-				copy(pts[hi], xe)
-				val[hi] = fe
-			} else {
-				copy(pts[hi], xr)
-				val[hi] = fr
-			}
-		case fr < val[second]:
-			copy(pts[hi], xr)
-			val[hi] = fr
-		default:
-			along(xe, 0.5, pts[hi])
-			if fc := f(xe); fc < val[hi] {
-				copy(pts[hi], xe)
-				val[hi] = fc
-			} else {
-				for _, i := range idx[1:] {
-					for k := range pts[i] {
-						pts[i][k] = pts[lo][k] + 0.5*(pts[i][k]-pts[lo][k])
-					}
-					val[i] = f(pts[i])
-				}
-				evals += n
-			}
-			evals++
-		}
+	res, err := optimize.Minimize(optimize.Problem{Func: f}, x, settings, method)
+	if res != nil && !math.IsNaN(res.F) && res.F <= vals[0] {
+		copy(x, res.X)
+		return
 	}
+	_ = err // the search is a heuristic start; its failure leaves x as given
 	b := 0
-	for i := range val {
-		if val[i] < val[b] {
+	for i := range vals {
+		if vals[i] < vals[b] {
 			b = i
 		}
 	}
-	copy(x, pts[b])
+	copy(x, verts[b])
 }
 
 // gases lists the free log10 mixing ratios with a uniform prior, for the
