@@ -929,12 +929,13 @@ func nelderMead(x []float64, f func([]float64) float64, step []float64, maxEval 
 		FuncEvaluations: maxEval,
 		Converger:       &optimize.FunctionConverge{Absolute: 1e-6, Iterations: 20 * n},
 	}
-	res, err := optimize.Minimize(optimize.Problem{Func: f}, x, settings, method)
+	// The search is a heuristic start: an error (evaluation limit, a
+	// failed step) still leaves the best point seen in res.
+	res, _ := optimize.Minimize(optimize.Problem{Func: f}, x, settings, method)
 	if res != nil && !math.IsNaN(res.F) && res.F <= vals[0] {
 		copy(x, res.X)
 		return
 	}
-	_ = err // the search is a heuristic start; its failure leaves x as given
 	b := 0
 	for i := range vals {
 		if vals[i] < vals[b] {
