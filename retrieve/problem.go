@@ -9,6 +9,7 @@ import (
 	"sync"
 	"sync/atomic"
 
+	"chord/config"
 	"chord/forward"
 	"chord/forward/opacity"
 	"chord/priors"
@@ -38,7 +39,7 @@ import (
 // -Inf, and the reason is counted (Rejections).
 type Problem struct {
 	model    *forward.Model
-	res      *Resolved
+	res      *config.Resolved
 	base     forward.State
 	free     []binding
 	fixed    []binding
@@ -72,7 +73,7 @@ type Problem struct {
 // binding is a parameter bound to the model: its quantity, its index (gas
 // in State.VMR or data set) and its prior.
 type binding struct {
-	q     Quantity
+	q     config.Quantity
 	index int
 	prior priors.Prior
 	value float64 // for fixed parameters
@@ -105,7 +106,7 @@ var extraNames = []string{"log_likelihood", "mean_molecular_weight", "fill_vmr",
 // (as loaded by r.Config.LoadOpacity). It checks that every bin lies
 // within the model grid and that every free gas has an opacity source;
 // errors name the file and line or the key.
-func NewProblem(r *Resolved, set *opacity.Set) (*Problem, error) {
+func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if set == nil {
 		set = &opacity.Set{XSec: map[string]*opacity.XSecTable{}}
 	}
@@ -155,12 +156,12 @@ func NewProblem(r *Resolved, set *opacity.Set) (*Problem, error) {
 			p.ds = append(p.ds, k)
 		}
 	}
-	bind := func(par Param) binding {
+	bind := func(par config.Param) binding {
 		b := binding{q: par.Sets, index: par.Dataset, prior: par.Prior}
-		if par.Sets == QLog10VMR {
+		if par.Sets == config.QLog10VMR {
 			b.index = p.gasIndex[par.Gas]
 		}
-		if par.Sets == QErrorInflationPM {
+		if par.Sets == config.QErrorInflationPM {
 			p.inflate = true
 		}
 		if f, ok := par.Prior.(priors.Fixed); ok {
@@ -170,7 +171,7 @@ func NewProblem(r *Resolved, set *opacity.Set) (*Problem, error) {
 	}
 	for _, par := range r.Free {
 		p.free = append(p.free, bind(par))
-		if par.Sets == QCLR {
+		if par.Sets == config.QCLR {
 			p.clrGas = append(p.clrGas, p.gasIndex[par.Gas])
 		}
 	}
@@ -185,9 +186,9 @@ func NewProblem(r *Resolved, set *opacity.Set) (*Problem, error) {
 
 // checkOpacity rejects a free gas with no opacity source: no cross-section
 // table, no CIA pair and no Rayleigh scattering in the model.
-func checkOpacity(r *Resolved, fc forward.Config) error {
-	for _, par := range append(append([]Param(nil), r.Free...), r.Fixed...) {
-		if par.Sets != QLog10VMR {
+func checkOpacity(r *config.Resolved, fc forward.Config) error {
+	for _, par := range append(append([]config.Param(nil), r.Free...), r.Fixed...) {
+		if par.Sets != config.QLog10VMR {
 			continue
 		}
 		ok := false
@@ -208,7 +209,7 @@ func checkOpacity(r *Resolved, fc forward.Config) error {
 			if len(have) == 0 {
 				have = append(have, "none")
 			}
-			return keyErr(par.key+".gas", "gas %q has no opacity: no cross-section table (tables loaded for: %s), no CIA pair and no Rayleigh scattering; its abundance cannot be measured",
+			return fmt.Errorf("%s.gas: gas %q has no opacity: no cross-section table (tables loaded for: %s), no CIA pair and no Rayleigh scattering; its abundance cannot be measured", par.Key,
 				par.Gas, strings.Join(have, ", "))
 		}
 	}
@@ -251,7 +252,7 @@ func (p *Problem) Priors() []priors.Prior {
 func (p *Problem) Model() *forward.Model { return p.model }
 
 // Resolved returns the configuration the problem was built from.
-func (p *Problem) Resolved() *Resolved { return p.res }
+func (p *Problem) Resolved() *config.Resolved { return p.res }
 
 // NewEvaluator returns an evaluator for one goroutine (sampler.Target).
 func (p *Problem) NewEvaluator() sampler.Evaluator { return p.NewPosteriorEvaluator() }
@@ -335,37 +336,37 @@ func (e *PosteriorEvaluator) reject(reason int, extra []float64) float64 {
 func (e *PosteriorEvaluator) set(b *binding, v float64) {
 	s := &e.state
 	switch b.q {
-	case QLog10VMR:
+	case config.QLog10VMR:
 		s.VMR[b.index] = math.Pow(10, v)
-	case QTemperature:
+	case config.QTemperature:
 		e.iso.T = v
-	case QTIrr:
+	case config.QTIrr:
 		e.gui.TIrr = v
-	case QTInt:
+	case config.QTInt:
 		e.gui.TInt = v
-	case QLog10KappaIR:
+	case config.QLog10KappaIR:
 		e.gui.KappaIR = math.Pow(10, v)
-	case QLog10Gamma:
+	case config.QLog10Gamma:
 		e.gui.Gamma = math.Pow(10, v)
-	case QRadiusRjup:
+	case config.QRadiusRjup:
 		s.RefRadius = v * forward.JupiterRadius
-	case QRadiusRearth:
+	case config.QRadiusRearth:
 		s.RefRadius = v * forward.EarthRadius
-	case QMassMjup:
+	case config.QMassMjup:
 		s.Mass = v * forward.JupiterMass
-	case QMassMearth:
+	case config.QMassMearth:
 		s.Mass = v * forward.EarthMass
-	case QLog10CloudTop:
+	case config.QLog10CloudTop:
 		s.CloudTop = math.Pow(10, v) * forward.Bar
-	case QCloudFraction:
+	case config.QCloudFraction:
 		s.CloudFraction = v
-	case QLog10HazeFactor:
+	case config.QLog10HazeFactor:
 		s.HazeFactor = math.Pow(10, v)
-	case QHazeSlope:
+	case config.QHazeSlope:
 		s.HazeSlope = v
-	case QOffsetPPM:
+	case config.QOffsetPPM:
 		e.off[b.index] = v * 1e-6
-	case QErrorInflationPM:
+	case config.QErrorInflationPM:
 		s := v * 1e-6
 		if b.index < 0 {
 			for k := range e.s2 {

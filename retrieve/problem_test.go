@@ -4,13 +4,17 @@ import (
 	"context"
 	"math"
 	"math/rand/v2"
+	"path/filepath"
+	"strings"
 	"sync"
 	"testing"
 
 	"gonum.org/v1/gonum/floats/scalar"
 	"gonum.org/v1/gonum/stat/distuv"
 
+	"chord/config"
 	"chord/forward"
+	"chord/forward/opacity"
 	"chord/priors"
 	"chord/sampler"
 )
@@ -20,14 +24,37 @@ import (
 // cloud fraction, log10 haze, haze slope, mass (Earth), offset, inflation.
 var likelihoodX = []float64{1000, 1.1, -3, -4, -2, 0.6, 1, -4, 222, 0, 0}
 
-func loadProblem(t *testing.T, name string) (*Resolved, *Problem) {
+func loadProblem(t *testing.T, name string) (*config.Resolved, *Problem) {
 	t.Helper()
-	r := loadGood(t, name)
+	r, err := config.Load(filepath.Join("..", "testdata", "cfg", name))
+	if err != nil {
+		t.Fatal(err)
+	}
 	p, err := NewProblem(r, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
 	return r, p
+}
+
+// TestBadConfigsProblem: configurations whose errors are found only once
+// the model and opacities are known (config's TestBadConfigs checks that
+// they resolve) are errors naming the key or the observation file and line.
+func TestBadConfigsProblem(t *testing.T) {
+	for _, c := range []struct{ file, want string }{
+		{"cfg-no-opacity-gas.toml", `parameters[2].gas: gas "NH3" has no opacity`},
+		{"cfg-bins-outside.toml", "/testdata/obs/wide.csv:20: bin 4.4-4.6 um lies outside the model wavelength range"},
+	} {
+		r, err := config.Load(filepath.Join("..", "testdata", "bad", c.file))
+		if err != nil {
+			t.Errorf("%s: %v", c.file, err)
+			continue
+		}
+		_, err = NewProblem(r, &opacity.Set{})
+		if err == nil || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%s:\n got %v\nwant %q", c.file, err, c.want)
+		}
+	}
 }
 
 // TestLogLikelihoodClosedForm: with the data equal to the model the

@@ -5,9 +5,9 @@ import (
 	"path/filepath"
 	"strings"
 
-	"github.com/urfave/cli/v2"
+	"chord/campaign"
 
-	"chord/retrieve"
+	"github.com/urfave/cli/v2"
 )
 
 func init() {
@@ -40,7 +40,7 @@ func runCompare(c *cli.Context) error {
 	if p := c.String("plot"); p != "" && filepath.Ext(p) != ".png" {
 		return fmt.Errorf("compare: --plot %s: the plot is a PNG file; name it FILE.png", p)
 	}
-	cmp, err := retrieve.CompareDirs(c.Args().Slice())
+	cmp, err := campaign.CompareDirs(c.Args().Slice())
 	if err != nil {
 		return err
 	}

@@ -11,6 +11,7 @@ import (
 	"github.com/urfave/cli/v2"
 	"golang.org/x/term"
 
+	"chord/config"
 	"chord/retrieve"
 	"chord/sampler"
 )
@@ -46,8 +47,8 @@ func init() {
 }
 
 // stopRule reads the stopping-rule flags; the zero rule means "not given".
-func stopRule(c *cli.Context) (retrieve.StopRule, error) {
-	var s retrieve.StopRule
+func stopRule(c *cli.Context) (config.StopRule, error) {
+	var s config.StopRule
 	n := 0
 	if c.IsSet("steps") {
 		n++

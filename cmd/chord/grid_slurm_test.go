@@ -13,8 +13,9 @@ import (
 	"testing"
 	"time"
 
+	"chord/campaign"
+	"chord/chains"
 	"chord/internal/testenv"
-	"chord/retrieve"
 )
 
 // slurmScenario is a small clear H2/He sub-Neptune (invented) fitted for
@@ -171,7 +172,7 @@ func TestGridOnSlurm(t *testing.T) {
 		t.Fatalf("scancel: %v %s", err, out)
 	}
 	waitJob(t, job, 150*time.Second)
-	g, err := retrieve.OpenGrid(cut)
+	g, err := campaign.OpenGrid(cut)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -179,7 +180,7 @@ func TestGridOnSlurm(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if st[0].State != retrieve.PointStopped || st[0].Step < 1 || st[0].Step >= 1500 || st[1].State != retrieve.PointDone || st[2].State != retrieve.PointDone {
+	if st[0].State != campaign.PointStopped || st[0].Step < 1 || st[0].Step >= 1500 || st[1].State != campaign.PointDone || st[2].State != campaign.PointDone {
 		t.Fatalf("after scancel: %v / %v / %v; task 0 log:\n%s", st[0], st[1], st[2], taskLog(t, cut, job, 0))
 	}
 	k := st[0].Step
@@ -194,7 +195,7 @@ func TestGridOnSlurm(t *testing.T) {
 	}
 	// While the resubmitted task is queued or running, the point is not
 	// resubmitted again.
-	if st, err := g.Status(); err != nil || st[0].State == retrieve.PointStopped || st[0].State == retrieve.PointNotStarted {
+	if st, err := g.Status(); err != nil || st[0].State == campaign.PointStopped || st[0].State == campaign.PointNotStarted {
 		t.Errorf("status of a resubmitted point: %v %v", st[0], err)
 	}
 	if again, err := g.Unfinished(); err != nil || len(again) != 0 {
@@ -214,11 +215,11 @@ func TestGridOnSlurm(t *testing.T) {
 		t.Errorf("summary after cancel and resubmit differs from the uninterrupted grid's:\n%s\n----\n%s", got, want)
 	}
 	// The chain itself is the uninterrupted one, row for row.
-	a, err := retrieve.ReadChains(filepath.Join(whole, "points", "p0000", "run", "chains"), nil, 0, 1)
+	a, err := chains.Read(filepath.Join(whole, "points", "p0000", "run", "chains"), nil, 0, 1)
 	if err != nil {
 		t.Fatal(err)
 	}
-	b, err := retrieve.ReadChains(filepath.Join(cut, "points", "p0000", "run", "chains"), nil, 0, 1)
+	b, err := chains.Read(filepath.Join(cut, "points", "p0000", "run", "chains"), nil, 0, 1)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -6,9 +6,9 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/urfave/cli/v2"
+	"chord/campaign"
 
-	"chord/retrieve"
+	"github.com/urfave/cli/v2"
 )
 
 func init() {
@@ -46,7 +46,7 @@ func runPlan(c *cli.Context) error {
 	if err != nil {
 		return err
 	}
-	opt := retrieve.PlanOptions{Dir: c.String("output"), ScenarioPath: c.String("config"), DemoCache: c.String("demo-cache")}
+	opt := campaign.PlanOptions{Dir: c.String("output"), ScenarioPath: c.String("config"), DemoCache: c.String("demo-cache")}
 	if c.Bool("demo") {
 		if opt.ScenarioPath != "" {
 			return errors.New("plan: give -c SCENARIO or --demo, not both")
@@ -62,7 +62,7 @@ func runPlan(c *cli.Context) error {
 		if err != nil {
 			return fmt.Errorf("plan: %w", err)
 		}
-		spec := retrieve.PlanSpec{
+		spec := campaign.PlanSpec{
 			BinsFile: obs.BinsFile, RangeUm: obs.RangeUm, ResolvingPower: obs.ResolvingPower, NoiseFile: obs.NoiseFile,
 			Scatter: c.IsSet("seed"), NoiseSeed: c.Uint64("seed"),
 			Steps: stop.Steps, Budget: stop.Budget, UntilConverged: stop.UntilConverged,
@@ -94,7 +94,7 @@ func runPlan(c *cli.Context) error {
 	ctx, cancel, prog := session(c)
 	defer cancel()
 	opt.Progress = prog
-	rep, err := retrieve.RunPlan(ctx, opt)
+	rep, err := campaign.RunPlan(ctx, opt)
 	if err != nil {
 		return err
 	}

@@ -18,8 +18,9 @@ import (
 
 	"github.com/parquet-go/parquet-go"
 
+	"chord/config"
 	"chord/internal/testenv"
-	"chord/retrieve"
+	"chord/simulate"
 )
 
 // A tiny retrieval that needs no opacity tables: an invented sub-Neptune
@@ -82,11 +83,11 @@ func setupRuns(t *testing.T) (dir, cfg string) {
 	dir = t.TempDir()
 	truth := filepath.Join(dir, "truth.toml")
 	os.WriteFile(truth, []byte(runsTruth), 0o644)
-	mc, err := retrieve.DecodeModelConfig(truth)
+	mc, err := config.LoadModel(truth)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := retrieve.SimulateObservation(filepath.Join(dir, "obs.csv"), mc, "", nil, 40, true, 3); err != nil {
+	if err := simulate.ObserveModel(filepath.Join(dir, "obs.csv"), mc, "", nil, 40, true, 3); err != nil {
 		t.Fatal(err)
 	}
 	cfg = filepath.Join(dir, "fit.toml")

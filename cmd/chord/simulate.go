@@ -8,8 +8,12 @@ import (
 
 	"github.com/urfave/cli/v2"
 
+	"chord/campaign"
+	"chord/config"
 	"chord/forward/opacity"
-	"chord/retrieve"
+	"chord/internal/version"
+	"chord/obs"
+	"chord/simulate"
 )
 
 // observingFlags are the bin and noise options shared by simulate and plan.
@@ -52,8 +56,8 @@ func init() {
 }
 
 // observingSpec reads the bin and noise flags.
-func observingSpec(c *cli.Context) (retrieve.ObservingSpec, error) {
-	spec := retrieve.ObservingSpec{
+func observingSpec(c *cli.Context) (simulate.ObservingSpec, error) {
+	spec := simulate.ObservingSpec{
 		BinsFile: c.String("bins"), NoiseFile: c.String("noise-file"),
 		ResolvingPower: c.Float64("resolving-power"),
 	}
@@ -92,14 +96,14 @@ func runSimulate(c *cli.Context) error {
 		return fmt.Errorf("simulate: %w", err)
 	}
 	spec.NoisePPM, spec.Transits = c.Float64("noise"), c.Int("transits")
-	var sc *retrieve.Scenario
+	var sc *simulate.Scenario
 	switch {
 	case c.Bool("demo") && c.IsSet("config"):
 		return errors.New("simulate: give -c SCENARIO or --demo, not both")
 	case c.Bool("demo"):
-		sc, err = retrieve.DemoScenario()
+		sc, err = campaign.DemoScenario()
 	case c.IsSet("config"):
-		sc, err = retrieve.LoadScenario(c.String("config"))
+		sc, err = simulate.LoadScenario(c.String("config"))
 	default:
 		return errors.New("simulate: give the scenario: -c SCENARIO or --demo")
 	}
@@ -114,12 +118,12 @@ func runSimulate(c *cli.Context) error {
 	if err != nil {
 		return err
 	}
-	obs, err := sc.Simulate(set, bins, retrieve.SimulateOptions{Noise: noise, Scatter: scatter, Seed: c.Uint64("seed")})
+	o, err := sc.Simulate(set, bins, simulate.Options{Noise: noise, Scatter: scatter, Seed: c.Uint64("seed")})
 	if err != nil {
 		return err
 	}
 	out := c.String("output")
-	if err := retrieve.WriteObservation(out, obs, c.Bool("force")); err != nil {
+	if err := obs.WriteObservation(out, o, c.Bool("force")); err != nil {
 		return fmt.Errorf("simulate: %w", err)
 	}
 	fmt.Fprintf(c.App.ErrWriter, "chord simulate: %d bins, %s, written to %s\n", bins.Len(), noise, out)
@@ -131,8 +135,8 @@ func runSimulate(c *cli.Context) error {
 		if err != nil {
 			return fmt.Errorf("simulate: %w", err)
 		}
-		hdr := []string{fmt.Sprintf("Retrieval configuration written by chord %s simulate: scenario %s fitted to %s.", retrieve.Version, sc.Path, out)}
-		if err := retrieve.WriteConfig(p, fc, hdr, c.Bool("force")); err != nil {
+		hdr := []string{fmt.Sprintf("Retrieval configuration written by chord %s simulate: scenario %s fitted to %s.", version.Version, sc.Path, out)}
+		if err := config.Write(p, fc, hdr, c.Bool("force")); err != nil {
 			return fmt.Errorf("simulate: %w", err)
 		}
 		fmt.Fprintf(c.App.ErrWriter, "chord simulate: fit it with: chord fit -c %s -o RUNDIR\n", p)
@@ -142,11 +146,11 @@ func runSimulate(c *cli.Context) error {
 
 // loadOpacity loads the tables a model configuration asks for, with the
 // demo cache of --demo-cache or the user cache directory.
-func loadOpacity(c *cli.Context, mc *retrieve.ModelConfig) (*opacity.Set, error) {
+func loadOpacity(c *cli.Context, mc *config.ModelConfig) (*opacity.Set, error) {
 	cache := c.String("demo-cache")
 	if cache == "" && mc.Opacity.Demo {
 		var err error
-		if cache, err = retrieve.DemoCacheDir(); err != nil {
+		if cache, err = config.DemoCacheDir(); err != nil {
 			return nil, err
 		}
 	}

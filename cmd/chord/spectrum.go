@@ -14,8 +14,9 @@ import (
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 
+	"chord/config"
 	"chord/forward"
-	"chord/retrieve"
+	"chord/internal/version"
 )
 
 func init() {
@@ -41,13 +42,13 @@ func runSpectrum(c *cli.Context) error {
 		return fmt.Errorf("spectrum: unexpected argument %q", c.Args().First())
 	}
 	cfgPath := c.String("config")
-	cfg, err := retrieve.DecodeModelConfig(cfgPath)
+	cfg, err := config.LoadModel(cfgPath)
 	if err != nil {
 		return err
 	}
 	cache := c.String("demo-cache")
 	if cache == "" && cfg.Opacity.Demo {
-		if cache, err = retrieve.DemoCacheDir(); err != nil {
+		if cache, err = config.DemoCacheDir(); err != nil {
 			return err
 		}
 	}
@@ -110,7 +111,7 @@ func writeSpectrumCSV(c *cli.Context, path, title string, demo bool, wl, depth, 
 		out = f
 	}
 	bw := bufio.NewWriter(out)
-	fmt.Fprintf(bw, "# chord %s spectrum: %s; depth is the transit depth (fraction of the stellar disc)\n", retrieve.Version, title)
+	fmt.Fprintf(bw, "# chord %s spectrum: %s; depth is the transit depth (fraction of the stellar disc)\n", version.Version, title)
 	if demo {
 		fmt.Fprintln(bw, "# demo opacity tables: not for science")
 	}

@@ -3,9 +3,9 @@ package main
 import (
 	"fmt"
 
-	"github.com/urfave/cli/v2"
+	"chord/internal/version"
 
-	"chord/retrieve"
+	"github.com/urfave/cli/v2"
 )
 
 func init() {
@@ -13,7 +13,7 @@ func init() {
 		Name:  "version",
 		Usage: "print the program version",
 		Action: func(c *cli.Context) error {
-			fmt.Fprintln(c.App.Writer, "chord", retrieve.Version)
+			fmt.Fprintln(c.App.Writer, "chord", version.Version)
 			return nil
 		},
 	})
