@@ -107,7 +107,7 @@ func Demo(ctx context.Context, opt DemoOptions) (*retrieve.RunReport, error) {
 	if err != nil {
 		return nil, err
 	}
-	if err := atomicfile.Write(atomicfile.OS, cfgPath, text); err != nil {
+	if err := atomicfile.Write(cfgPath, text, true); err != nil {
 		return nil, err
 	}
 	rep, err := retrieve.Fit(ctx, retrieve.FitOptions{ConfigPath: cfgPath, RunDir: runDir, Force: opt.Force, Workers: opt.Workers, DemoCache: cache, Progress: opt.Progress, Log: log})

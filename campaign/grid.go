@@ -646,12 +646,12 @@ func CreateGrid(specPath, dir string, opt GridOptions) (*Grid, error) {
 		if err := toml.NewEncoder(&b).Encode(&g.rec); err != nil {
 			return nil, err
 		}
-		if err := atomicfile.WriteNew(recPath, b.Bytes(), false); err != nil {
+		if err := atomicfile.Write(recPath, b.Bytes(), false); err != nil {
 			return nil, err
 		}
 	}
 	if _, err := os.Stat(filepath.Join(dir, "base.toml")); errors.Is(err, os.ErrNotExist) {
-		if err := atomicfile.WriteNew(filepath.Join(dir, "base.toml"), baseText, false); err != nil {
+		if err := atomicfile.Write(filepath.Join(dir, "base.toml"), baseText, false); err != nil {
 			return nil, err
 		}
 	}
@@ -666,7 +666,7 @@ func CreateGrid(specPath, dir string, opt GridOptions) (*Grid, error) {
 			}
 		}
 		if _, err := os.Stat(filepath.Join(pd, "fit.toml")); errors.Is(err, os.ErrNotExist) {
-			if err := atomicfile.WriteNew(filepath.Join(pd, "fit.toml"), b.fit, false); err != nil {
+			if err := atomicfile.Write(filepath.Join(pd, "fit.toml"), b.fit, false); err != nil {
 				return nil, err
 			}
 		}
@@ -1053,7 +1053,7 @@ func (g *Grid) RunPoint(ctx context.Context, i int, opt PointOptions) (*retrieve
 	r, err := fitOrResume(ctx, "chord grid", filepath.Join(g.PointDir(i), "fit.toml"), g.RunDir(i), opt.Opacity, config.StopRule{}, opt.Workers, opt.DemoCache, opt.Progress, log)
 	if err != nil {
 		// Kept for chord grid status; the next attempt removes it.
-		atomicfile.WriteNew(ef, []byte(strings.ReplaceAll(err.Error(), "\n", " ")+"\n"), true)
+		atomicfile.Write(ef, []byte(strings.ReplaceAll(err.Error(), "\n", " ")+"\n"), true)
 	}
 	return r, err
 }

@@ -155,10 +155,10 @@ func (g *Grid) CollectGrid() (*GridCollection, error) {
 	if err != nil {
 		return nil, err
 	}
-	if err := atomicfile.WriteNew(filepath.Join(g.Dir, "comparison.txt"), txt.Bytes(), true); err != nil {
+	if err := atomicfile.Write(filepath.Join(g.Dir, "comparison.txt"), txt.Bytes(), true); err != nil {
 		return nil, err
 	}
-	if err := atomicfile.WriteNew(filepath.Join(g.Dir, "comparison.json"), append(jb, '\n'), true); err != nil {
+	if err := atomicfile.Write(filepath.Join(g.Dir, "comparison.json"), append(jb, '\n'), true); err != nil {
 		return nil, err
 	}
 	return out, nil

@@ -165,7 +165,7 @@ func (g *Grid) WriteSlurmScript(points []int, s SlurmSettings, chord string) (st
 	b.WriteString("# limit, scancel) chord writes a checkpoint and exits with code 3; continue the\n")
 	fmt.Fprintf(&b, "# unfinished points with: chord grid resubmit %s --submit\n", g.Dir)
 	fmt.Fprintf(&b, "exec %s grid run-point %s \"$SLURM_ARRAY_TASK_ID\"\n", shellQuote(chord), shellQuote(g.Dir))
-	if err := atomicfile.WriteNew(path, b.Bytes(), false); err != nil {
+	if err := atomicfile.Write(path, b.Bytes(), false); err != nil {
 		return "", err
 	}
 	return path, os.Chmod(path, 0o755)

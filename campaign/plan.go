@@ -284,10 +284,10 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 		return nil, err
 	}
 	rep.Table = txt.String()
-	if err := atomicfile.WriteNew(filepath.Join(opt.Dir, "comparison.txt"), txt.Bytes(), true); err != nil {
+	if err := atomicfile.Write(filepath.Join(opt.Dir, "comparison.txt"), txt.Bytes(), true); err != nil {
 		return nil, err
 	}
-	if err := atomicfile.WriteNew(filepath.Join(opt.Dir, "comparison.json"), js.Bytes(), true); err != nil {
+	if err := atomicfile.Write(filepath.Join(opt.Dir, "comparison.json"), js.Bytes(), true); err != nil {
 		return nil, err
 	}
 	if distinctNoise(runs) {
@@ -397,7 +397,7 @@ func openPlan(opt PlanOptions) (*PlanSpec, error) {
 	if err := os.MkdirAll(opt.Dir, 0o755); err != nil {
 		return nil, err
 	}
-	if err := atomicfile.WriteNew(filepath.Join(opt.Dir, "scenario.toml"), text, false); err != nil {
+	if err := atomicfile.Write(filepath.Join(opt.Dir, "scenario.toml"), text, false); err != nil {
 		return nil, err
 	}
 	var b bytes.Buffer
@@ -409,7 +409,7 @@ func openPlan(opt PlanOptions) (*PlanSpec, error) {
 	if err := toml.NewEncoder(&b).Encode(&spec); err != nil {
 		return nil, err
 	}
-	if err := atomicfile.WriteNew(planPath, b.Bytes(), false); err != nil {
+	if err := atomicfile.Write(planPath, b.Bytes(), false); err != nil {
 		return nil, err
 	}
 	return &spec, nil

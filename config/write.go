@@ -19,5 +19,5 @@ func Write(path string, c *Config, header []string, overwrite bool) error {
 	if err := toml.NewEncoder(&b).Encode(c); err != nil {
 		return fmt.Errorf("writing %s: %w", path, err)
 	}
-	return atomicfile.WriteNew(path, b.Bytes(), overwrite)
+	return atomicfile.Write(path, b.Bytes(), overwrite)
 }

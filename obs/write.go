@@ -34,5 +34,5 @@ func WriteObservation(path string, o *Observation, overwrite bool) error {
 	for i := range o.Depth {
 		fmt.Fprintf(&b, "%s,%s,%s,%s\n", g(o.Lo[i]/forward.Micron), g(o.Hi[i]/forward.Micron), g12(o.Depth[i]*1e6), g12(o.Sigma[i]*1e6))
 	}
-	return atomicfile.WriteNew(path, b.Bytes(), overwrite)
+	return atomicfile.Write(path, b.Bytes(), overwrite)
 }

@@ -144,7 +144,7 @@ func PlotCorner(path string, c *chains.Chain, names []string, thin int, demo boo
 	if _, err := (vgimg.PngCanvas{Canvas: img}).WriteTo(&buf); err != nil {
 		return fmt.Errorf("corner plot: %w", err)
 	}
-	return atomicfile.Write(atomicfile.OS, path, buf.Bytes())
+	return atomicfile.Write(path, buf.Bytes(), true)
 }
 
 // thinSamples keeps every thin-th step of v and thins further, evenly, to
@@ -391,7 +391,7 @@ func PlotSpectrum(path string, s *SpectrumPlot) error {
 	if _, err := wt.WriteTo(&buf); err != nil {
 		return fmt.Errorf("spectrum plot: %w", err)
 	}
-	return atomicfile.Write(atomicfile.OS, path, buf.Bytes())
+	return atomicfile.Write(path, buf.Bytes(), true)
 }
 
 // errPoint is a data point with x and y errors.

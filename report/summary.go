@@ -639,11 +639,8 @@ func writeSummaryFiles(dir string, s *Summary) error {
 	if err := s.WriteText(&txt); err != nil {
 		return err
 	}
-	if err := atomicfile.Write(atomicfile.OS, filepath.Join(dir, "summary.json"), js.Bytes()); err != nil {
-		return fmt.Errorf("writing summary.json: %w", err)
+	if err := atomicfile.Write(filepath.Join(dir, "summary.json"), js.Bytes(), true); err != nil {
+		return err
 	}
-	if err := atomicfile.Write(atomicfile.OS, filepath.Join(dir, "summary.txt"), txt.Bytes()); err != nil {
-		return fmt.Errorf("writing summary.txt: %w", err)
-	}
-	return nil
+	return atomicfile.Write(filepath.Join(dir, "summary.txt"), txt.Bytes(), true)
 }

@@ -17,9 +17,9 @@ import (
 
 // Checkpoint file.
 //
-// RUNDIR/checkpoint is written to checkpoint.tmp, synced, renamed and the
-// directory synced, so it is always either the previous or the new
-// checkpoint. Layout (integers little-endian):
+// RUNDIR/checkpoint is written to a temporary file, synced, renamed and
+// the directory synced (atomicfile), so it is always either the previous
+// or the new checkpoint. Layout (integers little-endian):
 //
 //	8 bytes   magic "CHORDCKP"
 //	uint32    format version (checkpointFormat)
@@ -138,8 +138,8 @@ func writeCheckpoint(fsys atomicfile.FS, path string, c *Checkpoint) error {
 	if err != nil {
 		return fmt.Errorf("checkpoint %s: %w", path, err)
 	}
-	if err := atomicfile.Write(fsys, path, data); err != nil {
-		return fmt.Errorf("writing checkpoint %s: %w", path, err)
+	if err := atomicfile.WriteFS(fsys, path, data, true); err != nil {
+		return fmt.Errorf("checkpoint: %w", err)
 	}
 	return nil
 }

@@ -12,6 +12,7 @@ import (
 
 	"chord/chains"
 	"chord/config"
+	"chord/internal/atomicfile"
 	"chord/internal/testenv"
 	"chord/internal/version"
 )
@@ -42,8 +43,8 @@ func TestCheckpointRoundTrip(t *testing.T) {
 	if !reflect.DeepEqual(got, c) {
 		t.Errorf("read %+v, wrote %+v", got, c)
 	}
-	if _, err := os.Stat(path + ".tmp"); !os.IsNotExist(err) {
-		t.Errorf("temporary file left: %v", err)
+	if left, _ := filepath.Glob(filepath.Join(filepath.Dir(path), atomicfile.TempPattern(path))); len(left) > 0 {
+		t.Errorf("temporary file left: %v", left)
 	}
 }
 
@@ -100,8 +101,8 @@ func TestCheckpointFullDisk(t *testing.T) {
 	if err != nil || got.Step != 10 {
 		t.Fatalf("previous checkpoint lost: %v %v", got, err)
 	}
-	if _, err := os.Stat(path + ".tmp"); !os.IsNotExist(err) {
-		t.Errorf("temporary file left: %v", err)
+	if left, _ := filepath.Glob(filepath.Join(filepath.Dir(path), atomicfile.TempPattern(path))); len(left) > 0 {
+		t.Errorf("temporary file left: %v", left)
 	}
 }
 

@@ -901,8 +901,9 @@ type RunReport struct {
 	ConfigFile, ObservationFile string
 }
 
-// runEntries are the names chord writes in a run directory.
-var runEntries = []string{RunFile, chains.DirName, CheckpointFile, CheckpointFile + ".tmp", "summary.json", "summary.txt", "corner.png", "spectrum.png", RunFile + ".tmp", "summary.json.tmp", "summary.txt.tmp", "corner.png.tmp", "spectrum.png.tmp"}
+// runEntries are the names chord writes in a run directory (their
+// temporary files, atomicfile.TempPattern, too).
+var runEntries = []string{RunFile, chains.DirName, CheckpointFile, "summary.json", "summary.txt", "corner.png", "spectrum.png"}
 
 // checkRunDir refuses a non-empty dir unless force: a new run needs an
 // absent or empty directory.
@@ -928,8 +929,11 @@ func prepareRunDir(dir string) error {
 		return err
 	}
 	for _, name := range runEntries {
-		if err := os.RemoveAll(filepath.Join(dir, name)); err != nil {
-			return err
+		tmp, _ := filepath.Glob(filepath.Join(dir, atomicfile.TempPattern(name)))
+		for _, p := range append(tmp, filepath.Join(dir, name)) {
+			if err := os.RemoveAll(p); err != nil {
+				return err
+			}
 		}
 	}
 	return nil
@@ -1024,8 +1028,8 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	if err := prepareRunDir(opt.RunDir); err != nil {
 		return nil, err
 	}
-	if err := atomicfile.Write(atomicfile.OS, filepath.Join(opt.RunDir, RunFile), buf.Bytes()); err != nil {
-		return nil, fmt.Errorf("writing %s: %w", RunFile, err)
+	if err := atomicfile.Write(filepath.Join(opt.RunDir, RunFile), buf.Bytes(), true); err != nil {
+		return nil, err
 	}
 	fmt.Fprintf(log, "chord: run %s: %d free parameters, %d walkers, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.Walkers, r.Seed, describeStop(r.Stop))
 	out, err := StartRun(ctx, opt.RunDir, j.spec, RunOptions{Workers: r.Workers, Stop: r.Stop, Progress: opt.Progress, CheckpointSteps: opt.CheckpointSteps})

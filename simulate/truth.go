@@ -49,5 +49,5 @@ func ObserveModel(path string, truth *config.ModelConfig, cache string, log io.W
 	for i := range depth {
 		fmt.Fprintf(&b, "%.8f,%.8f,%.3f,%.3f\n", fc.Bins.Lo[i]/forward.Micron, fc.Bins.Hi[i]/forward.Micron, depth[i]*1e6, sigma[i]*1e6)
 	}
-	return atomicfile.Write(atomicfile.OS, path, b.Bytes())
+	return atomicfile.Write(path, b.Bytes(), true)
 }

@@ -124,7 +124,7 @@ func runSimulate(c *cli.Context) error {
 	}
 	out := c.String("output")
 	if err := obs.WriteObservation(out, o, c.Bool("force")); err != nil {
-		return fmt.Errorf("simulate: %w", err)
+		return fmt.Errorf("simulate: %w", forceAdvice(err))
 	}
 	fmt.Fprintf(c.App.ErrWriter, "chord simulate: %d bins, %s, written to %s\n", bins.Len(), noise, out)
 	if set.Demo {
@@ -137,7 +137,7 @@ func runSimulate(c *cli.Context) error {
 		}
 		hdr := []string{fmt.Sprintf("Retrieval configuration written by chord %s simulate: scenario %s fitted to %s.", version.Version, sc.Path, out)}
 		if err := config.Write(p, fc, hdr, c.Bool("force")); err != nil {
-			return fmt.Errorf("simulate: %w", err)
+			return fmt.Errorf("simulate: %w", forceAdvice(err))
 		}
 		fmt.Fprintf(c.App.ErrWriter, "chord simulate: fit it with: chord fit -c %s -o RUNDIR\n", p)
 	}

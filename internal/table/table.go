@@ -119,10 +119,10 @@ func Write(dir, base string, cols []Column, rows [][]any, meta map[string]string
 	if err := pw.Close(); err != nil {
 		return fmt.Errorf("%s.parquet: %w", base, err)
 	}
-	if err := atomicfile.WriteNew(filepath.Join(dir, base+".csv"), cb.Bytes(), true); err != nil {
+	if err := atomicfile.Write(filepath.Join(dir, base+".csv"), cb.Bytes(), true); err != nil {
 		return err
 	}
-	return atomicfile.WriteNew(filepath.Join(dir, base+".parquet"), pb.Bytes(), true)
+	return atomicfile.Write(filepath.Join(dir, base+".parquet"), pb.Bytes(), true)
 }
 
 // ToFloat returns an integer or float value as a float64; ok is false for

@@ -21,7 +21,15 @@ type fullFile struct {
 
 // Create creates the file name whose writes count against Limit.
 func (d *FullDisk) Create(name string) (atomicfile.File, error) {
-	f, err := atomicfile.OS.Create(name)
+	return d.wrap(atomicfile.OS.Create(name))
+}
+
+// CreateTemp creates a temporary file whose writes count against Limit.
+func (d *FullDisk) CreateTemp(dir, pattern string) (atomicfile.File, error) {
+	return d.wrap(atomicfile.OS.CreateTemp(dir, pattern))
+}
+
+func (d *FullDisk) wrap(f atomicfile.File, err error) (atomicfile.File, error) {
 	if err != nil {
 		return nil, err
 	}
@@ -43,6 +51,9 @@ func (f fullFile) Write(p []byte) (int, error) {
 func (d *FullDisk) Rename(oldName, newName string) error {
 	return atomicfile.OS.Rename(oldName, newName)
 }
+
+// Link links as the operating system does.
+func (d *FullDisk) Link(oldName, newName string) error { return atomicfile.OS.Link(oldName, newName) }
 
 // Remove removes as the operating system does.
 func (d *FullDisk) Remove(name string) error { return atomicfile.OS.Remove(name) }
