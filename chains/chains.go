@@ -16,6 +16,7 @@ import (
 	"chord/internal/filehash"
 	"chord/internal/table"
 	"chord/internal/version"
+	"chord/sampler"
 )
 
 // DirName is the chain store's directory inside a run directory.
@@ -130,8 +131,8 @@ func partNumber(name string) (int, bool) {
 	return n, err == nil && n > 0
 }
 
-// Writer streams chain rows into part files. It implements the
-// sampler's Recorder (Record) and Flusher (Flush commits the open part).
+// Writer streams chain rows into part files. It is the sampler's Recorder
+// (Record) and Flusher (Flush commits the open part).
 // Memory stays bounded by one Parquet row group whatever the chain length.
 // After any write error the writer refuses further rows with the same error;
 // parts committed before it are untouched.
@@ -235,6 +236,16 @@ func NewWriter(fsys atomicfile.FS, dir string, layout Layout, committed []PartIn
 	}
 	return w, nil
 }
+
+// Record writes the rows of the sampler's step (sampler.Recorder).
+func (w *Writer) Record(s *sampler.Step) error {
+	return w.WriteStep(s.Index, s.Pos, s.LogP, s.Extra)
+}
+
+var (
+	_ sampler.Recorder = (*Writer)(nil)
+	_ sampler.Flusher  = (*Writer)(nil)
+)
 
 // Committed returns the parts committed so far (the caller must not modify it).
 func (w *Writer) Committed() []PartInfo { return w.committed }

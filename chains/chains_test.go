@@ -3,15 +3,18 @@ package chains
 import (
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"syscall"
 	"testing"
 
 	"chord/internal/testenv"
+	"chord/sampler"
 )
 
 // testLayout is a small layout: 3 parameters, 2 extras (log_likelihood, mmw).
@@ -230,5 +233,77 @@ func TestChainLayoutErrors(t *testing.T) {
 	}
 	if _, err := Read(t.TempDir(), nil, 0, 1); err == nil || !strings.Contains(err.Error(), "no part files") {
 		t.Errorf("empty dir: %v", err)
+	}
+}
+
+// The streaming reader gives back every step as the sampler recorded it
+// (Writer.Record, then Reader.StepTo: the same Pos, LogP and Extra, bit for
+// bit), across part boundaries; a step too small for the columns, or a
+// damaged part, is an error (naming the part).
+func TestReaderStepTo(t *testing.T) {
+	dir := t.TempDir()
+	l := testLayout(3)
+	w, err := Create(dir, l)
+	if err != nil {
+		t.Fatal(err)
+	}
+	newStep := func() *sampler.Step {
+		return &sampler.Step{Walkers: l.Walkers, Dim: l.Dim, NumExtra: l.NumExtra,
+			Pos: make([]float64, l.Walkers*l.Dim), LogP: make([]float64, l.Walkers), Extra: make([]float64, l.Walkers*l.NumExtra)}
+	}
+	in := newStep()
+	for s := 1; s <= 7; s++ {
+		in.Index = s
+		fakeStep(l, s, in.Pos, in.LogP, in.Extra)
+		if err := w.Record(in); err != nil {
+			t.Fatal(err)
+		}
+		if s == 4 {
+			w.Flush()
+		}
+	}
+	w.Flush()
+	r, err := NewReader(dir, w.Committed())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	out, want := newStep(), newStep()
+	for s := 1; ; s++ {
+		got, err := r.Next()
+		if err == io.EOF {
+			if s != 8 {
+				t.Fatalf("EOF after %d steps, want 7", s-1)
+			}
+			break
+		}
+		if err != nil || got != s {
+			t.Fatalf("step %d: got %d, %v", s, got, err)
+		}
+		if err := r.StepTo(out); err != nil {
+			t.Fatal(err)
+		}
+		fakeStep(l, s, want.Pos, want.LogP, want.Extra)
+		if out.Index != s || !slices.Equal(out.Pos, want.Pos) || !slices.Equal(out.LogP, want.LogP) || !slices.Equal(out.Extra, want.Extra) {
+			t.Fatalf("step %d read back as %+v", s, out)
+		}
+	}
+	if err := r.StepTo(&sampler.Step{Walkers: 3, Dim: 1, NumExtra: 2, Pos: make([]float64, 3), LogP: make([]float64, 3), Extra: make([]float64, 6)}); err == nil {
+		t.Error("a step of 1 parameter accepted 3 parameter columns")
+	}
+
+	// A part file cut short by one byte.
+	cut := t.TempDir()
+	w, err = Create(cut, l)
+	if err != nil {
+		t.Fatal(err)
+	}
+	writeFake(t, w, l, 1, 2)
+	w.Flush()
+	path := filepath.Join(cut, partName(1))
+	data, _ := os.ReadFile(path)
+	os.WriteFile(path, data[:len(data)-1], 0o644)
+	if _, err := Read(cut, nil, 0, 1); err == nil || !strings.Contains(err.Error(), partName(1)) {
+		t.Errorf("damaged part: %v, want an error naming it", err)
 	}
 }

@@ -19,7 +19,6 @@ import (
 	"time"
 
 	"github.com/BurntSushi/toml"
-	"github.com/parquet-go/parquet-go"
 
 	"chord/chains"
 	"chord/config"
@@ -307,7 +306,7 @@ func (r *runner) histories() []sampler.Recorder {
 
 // Record implements sampler.Recorder.
 func (r *runner) Record(s *sampler.Step) error {
-	if err := r.w.WriteStep(s.Index, s.Pos, s.LogP, s.Extra); err != nil {
+	if err := r.w.Record(s); err != nil {
 		return err
 	}
 	r.evals += int64(s.Walkers)
@@ -447,33 +446,31 @@ func replay(dir string, parts []chains.PartInfo, l *chains.Layout, recs ...sampl
 	if len(recs) == 0 {
 		return nil
 	}
+	r, err := chains.NewReader(dir, parts)
+	if err != nil {
+		return err
+	}
+	defer r.Close()
 	step := &sampler.Step{
 		Walkers: l.Walkers, Dim: l.Dim, NumExtra: l.NumExtra,
 		Pos: make([]float64, l.Walkers*l.Dim), LogP: make([]float64, l.Walkers),
 		Extra: make([]float64, l.Walkers*l.NumExtra), Accepted: make([]bool, l.Walkers),
 	}
-	_, err := chains.Scan(dir, parts, func(cols []chains.Column, walkers int) {}, func(s, k int, row parquet.Row) error {
-		step.Index = s
-		step.LogP[k] = row[2].Double()
-		for j, c := range l.Columns {
-			v := row[3+j].Double()
-			if c.Role == chains.RoleParameter {
-				step.Pos[k*l.Dim+c.Source] = v
-			} else {
-				step.Extra[k*l.NumExtra+c.Source] = v
-			}
-		}
-		if k < l.Walkers-1 {
+	for {
+		if _, err := r.Next(); err == io.EOF {
 			return nil
+		} else if err != nil {
+			return err
+		}
+		if err := r.StepTo(step); err != nil {
+			return err
 		}
 		for _, rec := range recs {
 			if err := rec.Record(step); err != nil {
 				return err
 			}
 		}
-		return nil
-	})
-	return err
+	}
 }
 
 // progress reports a session's progress.

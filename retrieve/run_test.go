@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -13,8 +14,6 @@ import (
 	"syscall"
 	"testing"
 	"time"
-
-	"github.com/parquet-go/parquet-go"
 
 	"chord/chains"
 	"chord/config"
@@ -65,23 +64,29 @@ func gaussSpec(walkers int, seed uint64, delay time.Duration) *RunSpec {
 // row, every value printed exactly (bit-for-bit comparison).
 func allRows(t *testing.T, dir string) []string {
 	t.Helper()
-	var rows []string
-	_, err := chains.Scan(filepath.Join(dir, chains.DirName), nil, func([]chains.Column, int) {}, func(s, k int, r parquet.Row) error {
-		var b strings.Builder
-		for i, v := range r {
-			if i < 2 {
-				fmt.Fprintf(&b, "%d ", v.Int64())
-			} else {
-				fmt.Fprintf(&b, "%x ", math.Float64bits(v.Double()))
-			}
-		}
-		rows = append(rows, b.String())
-		return nil
-	})
+	r, err := chains.NewReader(filepath.Join(dir, chains.DirName), nil)
 	if err != nil {
 		t.Fatal(err)
 	}
-	return rows
+	defer r.Close()
+	var rows []string
+	for {
+		s, err := r.Next()
+		if err == io.EOF {
+			return rows
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		for k := range r.Walkers() {
+			var b strings.Builder
+			fmt.Fprintf(&b, "%d %d ", s, k)
+			for _, v := range r.Walker(k) {
+				fmt.Fprintf(&b, "%x ", math.Float64bits(v))
+			}
+			rows = append(rows, b.String())
+		}
+	}
 }
 
 func sameRows(t *testing.T, what string, got, want []string) {
