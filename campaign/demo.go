@@ -93,14 +93,8 @@ func Demo(ctx context.Context, opt DemoOptions) (*retrieve.RunReport, error) {
 	if err != nil {
 		return nil, err
 	}
-	cache := opt.DemoCache
-	if cache == "" {
-		if cache, err = config.DemoCacheDir(); err != nil {
-			return nil, err
-		}
-	}
 	fmt.Fprintf(log, "chord demo: simulating the spectrum of %s (an invented planet around the invented M dwarf %s), %g ppm noise per bin\n", truth.Planet.Name, truth.Star.Name, DemoNoisePPM)
-	if err := simulate.ObserveModel(obsPath, truth, cache, log, DemoNoisePPM, true, DemoNoiseSeed); err != nil {
+	if err := simulate.ObserveModel(obsPath, truth, opt.DemoCache, log, DemoNoisePPM, true, DemoNoiseSeed); err != nil {
 		return nil, fmt.Errorf("demo: %w", err)
 	}
 	text, err := demoFiles.ReadFile("testdata/demo/" + DemoConfigFile)
@@ -110,7 +104,7 @@ func Demo(ctx context.Context, opt DemoOptions) (*retrieve.RunReport, error) {
 	if err := atomicfile.Write(cfgPath, text, true); err != nil {
 		return nil, err
 	}
-	rep, err := retrieve.Fit(ctx, retrieve.FitOptions{ConfigPath: cfgPath, RunDir: runDir, Force: opt.Force, Workers: opt.Workers, DemoCache: cache, Progress: opt.Progress, Log: log})
+	rep, err := retrieve.Fit(ctx, retrieve.FitOptions{ConfigPath: cfgPath, RunDir: runDir, Force: opt.Force, Workers: opt.Workers, DemoCache: opt.DemoCache, Progress: opt.Progress, Log: log})
 	if rep != nil {
 		rep.ConfigFile, rep.ObservationFile = cfgPath, obsPath
 	}

@@ -579,7 +579,7 @@ type builtPoint struct {
 
 // GridOptions configures CreateGrid.
 type GridOptions struct {
-	DemoCache string    // demo opacity cache; "" means DemoCacheDir
+	DemoCache string    // demo opacity cache; "" means config.DemoCacheDir
 	Log       io.Writer // notes; nil discards
 }
 
@@ -837,7 +837,7 @@ func (g *Grid) build(demoCache string, log io.Writer) ([]builtPoint, error) {
 			k := opacityKey(c)
 			set := sets[k]
 			if set == nil {
-				if set, err = c.ModelConfig.LoadOpacity(planDemoCache(demoCache, sc), log); err != nil {
+				if set, err = c.ModelConfig.LoadOpacity(demoCache, log); err != nil {
 					return nil, fmt.Errorf("%s: %w", at, err)
 				}
 				if set.Demo {
@@ -1136,11 +1136,7 @@ func (g *Grid) RunLocal(ctx context.Context, opt LocalOptions) (*LocalReport, er
 		}
 		k := opacityKey(&r.Config)
 		if sets[k] == nil {
-			cache, err := config.DemoCache(opt.DemoCache, &r.Config.ModelConfig)
-			if err != nil {
-				return nil, err
-			}
-			if sets[k], err = r.Config.LoadOpacity(cache, log); err != nil {
+			if sets[k], err = r.Config.LoadOpacity(opt.DemoCache, log); err != nil {
 				return nil, err
 			}
 		}

@@ -222,7 +222,7 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 			return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
 		}
 	}
-	set, err := sc.Config.ModelConfig.LoadOpacity(planDemoCache(opt.DemoCache, sc), log)
+	set, err := sc.Config.ModelConfig.LoadOpacity(opt.DemoCache, log)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", scPath, err)
 	}
@@ -307,17 +307,6 @@ func distinctNoise(runs []report.CompareRun) bool {
 		}
 	}
 	return false
-}
-
-func planDemoCache(dir string, sc *simulate.Scenario) string {
-	if dir != "" || !sc.Config.Opacity.Demo {
-		return dir
-	}
-	d, err := config.DemoCacheDir()
-	if err != nil {
-		return "" // LoadOpacity then names the problem
-	}
-	return d
 }
 
 // openPlan starts a new plan in opt.Dir (copying the scenario and writing

@@ -569,22 +569,20 @@ func DemoCacheDir() (string, error) {
 	return filepath.Join(d, "chord", "demo-"+opacity.DemoVersion), nil
 }
 
-// DemoCache returns dir, or DemoCacheDir when dir is empty and m asks for
-// the demo tables: where LoadOpacity caches them.
-func DemoCache(dir string, m *ModelConfig) (string, error) {
-	if dir != "" || !m.Opacity.Demo {
-		return dir, nil
-	}
-	return DemoCacheDir()
-}
-
 // LoadOpacity returns the tables [opacity] asks for: the table files of
-// opacity.dir, the demo tables (built once and cached in demoCache, with
-// progress messages to progress, which may be nil), or an empty set when
-// neither is given (grey and Rayleigh opacities only).
+// opacity.dir, the demo tables (built once and cached in demoCache, ""
+// meaning DemoCacheDir, with progress messages to progress, which may be
+// nil), or an empty set when neither is given (grey and Rayleigh
+// opacities only).
 func (c *ModelConfig) LoadOpacity(demoCache string, progress io.Writer) (*opacity.Set, error) {
 	switch {
 	case c.Opacity.Demo:
+		if demoCache == "" {
+			var err error
+			if demoCache, err = DemoCacheDir(); err != nil {
+				return nil, fmt.Errorf("opacity.demo: %w", err)
+			}
+		}
 		s, err := opacity.DemoSet(demoCache, progress)
 		if err != nil {
 			return nil, fmt.Errorf("opacity.demo: %w", err)

@@ -876,7 +876,7 @@ type FitOptions struct {
 	Seed       *uint64         // overrides sampler.seed
 	Workers    *int            // overrides sampler.workers
 	Stop       config.StopRule // overrides the configuration's rule when set
-	DemoCache  string          // where demo opacities are cached; "" means DemoCacheDir
+	DemoCache  string          // where demo opacities are cached; "" means config.DemoCacheDir
 	Progress   Progress        // progress reports
 	Log        io.Writer       // notes (opacity building, observation notes); nil means Progress.Writer
 	// CheckpointSteps is the number of steps between checkpoints; 0 means
@@ -987,13 +987,9 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	if err := checkRunDir(opt.RunDir, opt.Force); err != nil {
 		return nil, err
 	}
-	cache, err := config.DemoCache(opt.DemoCache, &r.Config.ModelConfig)
-	if err != nil {
-		return nil, err
-	}
 	set := opt.Opacity
 	if set == nil {
-		if set, err = r.Config.LoadOpacity(cache, log); err != nil {
+		if set, err = r.Config.LoadOpacity(opt.DemoCache, log); err != nil {
 			return nil, fmt.Errorf("%s: %w", opt.ConfigPath, err)
 		}
 	}
@@ -1076,9 +1072,6 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 	r, err := rf.Config.Resolve()
 	if err != nil {
 		return nil, nil, fmt.Errorf("%s: %w", path, err)
-	}
-	if cache, err = config.DemoCache(cache, &r.Config.ModelConfig); err != nil {
-		return nil, nil, err
 	}
 	log = logto.First(log)
 	if set == nil {

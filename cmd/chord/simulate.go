@@ -10,7 +10,6 @@ import (
 
 	"chord/campaign"
 	"chord/config"
-	"chord/forward/opacity"
 	"chord/internal/version"
 	"chord/obs"
 	"chord/simulate"
@@ -114,7 +113,7 @@ func runSimulate(c *cli.Context) error {
 	if err != nil {
 		return fmt.Errorf("simulate: %w", err)
 	}
-	set, err := loadOpacity(c, &sc.Config.ModelConfig)
+	set, err := sc.Config.LoadOpacity(c.String("demo-cache"), c.App.ErrWriter)
 	if err != nil {
 		return err
 	}
@@ -142,19 +141,6 @@ func runSimulate(c *cli.Context) error {
 		fmt.Fprintf(c.App.ErrWriter, "chord simulate: fit it with: chord fit -c %s -o RUNDIR\n", p)
 	}
 	return nil
-}
-
-// loadOpacity loads the tables a model configuration asks for, with the
-// demo cache of --demo-cache or the user cache directory.
-func loadOpacity(c *cli.Context, mc *config.ModelConfig) (*opacity.Set, error) {
-	cache := c.String("demo-cache")
-	if cache == "" && mc.Opacity.Demo {
-		var err error
-		if cache, err = config.DemoCacheDir(); err != nil {
-			return nil, err
-		}
-	}
-	return mc.LoadOpacity(cache, c.App.ErrWriter)
 }
 
 // floatList parses "a,b,c".

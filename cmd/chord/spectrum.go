@@ -46,13 +46,7 @@ func runSpectrum(c *cli.Context) error {
 	if err != nil {
 		return err
 	}
-	cache := c.String("demo-cache")
-	if cache == "" && cfg.Opacity.Demo {
-		if cache, err = config.DemoCacheDir(); err != nil {
-			return err
-		}
-	}
-	set, err := cfg.LoadOpacity(cache, c.App.ErrWriter)
+	set, err := cfg.LoadOpacity(c.String("demo-cache"), c.App.ErrWriter)
 	if err != nil {
 		return fmt.Errorf("%s: %w", cfgPath, err)
 	}
