@@ -254,15 +254,10 @@ func (c *Comparison) WritePlot(path string) error {
 			}
 		}
 	}
-	f, err := os.Create(path)
-	if err != nil {
-		return fmt.Errorf("compare: plot: %w", err)
-	}
-	if _, err := (vgimg.PngCanvas{Canvas: img}).WriteTo(f); err != nil {
-		f.Close()
+	if err := writePNG(path, vgimg.PngCanvas{Canvas: img}); err != nil {
 		return fmt.Errorf("compare: plot %s: %w", path, err)
 	}
-	return f.Close()
+	return nil
 }
 
 func widthPanel(p ParameterWidths, runs []ComparedRun, lo, hi float64) (*plot.Plot, error) {

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"fmt"
 	"image/color"
+	"io"
 	"math"
 	"slices"
 	"sort"
@@ -140,11 +141,42 @@ func PlotCorner(path string, c *chains.Chain, names []string, thin int, demo boo
 			plots[row][col].Draw(canvases[row][col])
 		}
 	}
-	var buf bytes.Buffer
-	if _, err := (vgimg.PngCanvas{Canvas: img}).WriteTo(&buf); err != nil {
+	if err := writePNG(path, vgimg.PngCanvas{Canvas: img}); err != nil {
 		return fmt.Errorf("corner plot: %w", err)
 	}
+	return nil
+}
+
+// writePNG renders img into path atomically (atomicfile).
+func writePNG(path string, img io.WriterTo) error {
+	var buf bytes.Buffer
+	if _, err := img.WriteTo(&buf); err != nil {
+		return err
+	}
 	return atomicfile.Write(path, buf.Bytes(), true)
+}
+
+// spectrumPlot is the frame of a spectrum plot: the title (marked when the
+// opacities are the demo's), wavelength in um and transit depth in ppm.
+func spectrumPlot(title string, demo bool) *plot.Plot {
+	p := plot.New()
+	p.Title.Text = title
+	if demo {
+		p.Title.Text += " (demo opacities: not for science)"
+	}
+	p.X.Label.Text = "wavelength [um]"
+	p.Y.Label.Text = "transit depth [ppm]"
+	return p
+}
+
+// saveSpectrum writes a spectrum plot as a 9 x 5 inch PNG to path.
+func saveSpectrum(p *plot.Plot, path string) error {
+	p.Add(plotter.NewGrid())
+	wt, err := p.WriterTo(9*vg.Inch, 5*vg.Inch, "png")
+	if err != nil {
+		return err
+	}
+	return writePNG(path, wt)
 }
 
 // thinSamples keeps every thin-th step of v and thins further, evenly, to
@@ -314,14 +346,7 @@ func PlotSpectrum(path string, s *SpectrumPlot) error {
 	}
 	sort.SliceStable(order, func(a, b int) bool { return s.Wavelength[order[a]] < s.Wavelength[order[b]] })
 
-	p := plot.New()
-	p.Title.Text = s.Title
-	if s.Demo {
-		p.Title.Text += " (demo opacities: not for science)"
-	}
-	p.X.Label.Text = "wavelength [um]"
-	p.Y.Label.Text = "transit depth [ppm]"
-
+	p := spectrumPlot(s.Title, s.Demo)
 	if len(s.Models) > 0 {
 		q := func(lo, hi float64) (plotter.XYs, plotter.XYs) {
 			a, b := make(plotter.XYs, nb), make(plotter.XYs, nb)
@@ -381,17 +406,10 @@ func PlotSpectrum(path string, s *SpectrumPlot) error {
 	p.Legend.Add("data", sc)
 	p.Legend.Top = true
 	p.Legend.Left = true
-	p.Add(plotter.NewGrid())
-
-	wt, err := p.WriterTo(9*vg.Inch, 5*vg.Inch, "png")
-	if err != nil {
+	if err := saveSpectrum(p, path); err != nil {
 		return fmt.Errorf("spectrum plot: %w", err)
 	}
-	var buf bytes.Buffer
-	if _, err := wt.WriteTo(&buf); err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
-	}
-	return atomicfile.Write(path, buf.Bytes(), true)
+	return nil
 }
 
 // errPoint is a data point with x and y errors.
