@@ -10,8 +10,9 @@ import (
 	"github.com/urfave/cli/v2"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// compareCommand returns the compare command.
+func compareCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "compare",
 		Usage:     "compare posterior widths of runs side by side",
 		ArgsUsage: "RUNDIR...",
@@ -25,7 +26,7 @@ func init() {
 			&cli.StringFlag{Name: "plot", Usage: "draw the 68% width against noise (log-log, with the width-proportional-to-noise line) to `FILE`.png"},
 		},
 		Action: runCompare,
-	})
+	}
 }
 
 func runCompare(c *cli.Context) error {

@@ -9,8 +9,9 @@ import (
 	"github.com/urfave/cli/v2"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// demoCommand returns the demo command.
+func demoCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "demo",
 		Usage:     "simulate an invented planet's spectrum, fit it and report (a few minutes)",
 		ArgsUsage: " ",
@@ -26,7 +27,7 @@ func init() {
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		},
 		Action: runDemo,
-	})
+	}
 }
 
 func runDemo(c *cli.Context) error {

@@ -25,8 +25,9 @@ var stopFlags = []cli.Flag{
 	&cli.IntFlag{Name: "checkpoint-every", Usage: "write a checkpoint every `N` steps (default: about one a minute)"},
 }
 
-func init() {
-	commands = append(commands, &cli.Command{
+// fitCommand returns the fit command.
+func fitCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "fit",
 		Usage:     "sample the posterior of a retrieval configuration into a run directory",
 		ArgsUsage: " ",
@@ -43,7 +44,7 @@ func init() {
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		}, stopFlags...),
 		Action: runFit,
-	})
+	}
 }
 
 // stopRule reads the stopping-rule flags; the zero rule means "not given".

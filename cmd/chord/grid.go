@@ -25,8 +25,9 @@ var slurmFlags = []cli.Flag{
 	&cli.BoolFlag{Name: "submit", Usage: "submit the script with sbatch and print the job id"},
 }
 
-func init() {
-	commands = append(commands, &cli.Command{
+// gridCommand returns the grid command.
+func gridCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "grid",
 		Usage:     "expand a grid of fits (scenarios or configurations x axes) and run it here or as a Slurm job array",
 		ArgsUsage: " ",
@@ -74,7 +75,7 @@ func init() {
 				ArgsUsage: "GRIDDIR", Action: runGridCollect,
 			},
 		},
-	})
+	}
 }
 
 func runGrid(c *cli.Context) error {

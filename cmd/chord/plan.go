@@ -11,8 +11,9 @@ import (
 	"github.com/urfave/cli/v2"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// planCommand returns the plan command.
+func planCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "plan",
 		Usage:     "simulate, fit and compare a scenario at several noise levels or numbers of transits",
 		ArgsUsage: " ",
@@ -35,7 +36,7 @@ func init() {
 			&cli.Uint64Flag{Name: "seed", Usage: "draw Gaussian noise, level i with seed `N`+i (default: noise-free observations)"},
 		}, observingFlags...), stopFlags...),
 		Action: runPlan,
-	})
+	}
 }
 
 func runPlan(c *cli.Context) error {

@@ -24,8 +24,9 @@ var observingFlags = []cli.Flag{
 	&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 }
 
-func init() {
-	commands = append(commands, &cli.Command{
+// simulateCommand returns the simulate command.
+func simulateCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "simulate",
 		Usage:     "simulate an observation of a scenario's true spectrum",
 		ArgsUsage: " ",
@@ -51,7 +52,7 @@ func init() {
 			&cli.BoolFlag{Name: "force", Usage: "replace existing output files"},
 		}, observingFlags...),
 		Action: runSimulate,
-	})
+	}
 }
 
 // observingSpec reads the bin and noise flags.

@@ -13,8 +13,9 @@ import (
 	"chord/report"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// spectrumCommand returns the spectrum command.
+func spectrumCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "spectrum",
 		Usage:     "compute one transmission spectrum from a model configuration",
 		ArgsUsage: " ",
@@ -28,7 +29,7 @@ func init() {
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		},
 		Action: runSpectrum,
-	})
+	}
 }
 
 func runSpectrum(c *cli.Context) error {

@@ -8,13 +8,14 @@ import (
 	"github.com/urfave/cli/v2"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// versionCommand returns the version command.
+func versionCommand() *cli.Command {
+	return &cli.Command{
 		Name:  "version",
 		Usage: "print the program version",
 		Action: func(c *cli.Context) error {
 			fmt.Fprintln(c.App.Writer, "chord", version.Version)
 			return nil
 		},
-	})
+	}
 }
