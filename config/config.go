@@ -100,7 +100,7 @@ type SamplerConfig struct {
 	// Stopping rule, at most one; default until_converged = true.
 	Steps          *int   `toml:"steps"`            // total ensemble steps
 	Budget         string `toml:"budget,omitempty"` // wall-clock sampling time, e.g. "8h", "90m"
-	UntilConverged *bool  `toml:"until_converged"`  // chain longer than 50 tau with tau stable
+	UntilConverged *bool  `toml:"until_converged"`  // sampler.Convergence with its defaults
 	// Workers is the number of goroutines evaluating the posterior; 0
 	// (default) means one per core.
 	Workers *int `toml:"workers"`
@@ -239,7 +239,7 @@ func (c *Config) Resolve() (*Resolved, error) {
 	}
 	r := &Resolved{}
 	full := *c
-	full.ModelConfig = resolveModel(c.ModelConfig)
+	full.ModelConfig = c.ModelConfig.withDefaults()
 	full.Atmosphere.Gases = map[string]float64{}
 	for g, v := range c.Atmosphere.Gases {
 		full.Atmosphere.Gases[g] = v
@@ -782,57 +782,6 @@ func (r *Resolved) fillFromPriors(m *ModelConfig) {
 			}
 		}
 	}
-}
-
-// resolveModel returns a copy of m with the defaults of the model sections
-// written out (the values ModelConfig documents for absent keys).
-func resolveModel(m ModelConfig) ModelConfig {
-	f := func(p *float64, d float64) *float64 {
-		if p != nil {
-			v := *p
-			return &v
-		}
-		return &d
-	}
-	a := &m.Atmosphere
-	m.Planet.ReferencePressureBar = f(m.Planet.ReferencePressureBar, forward.DefaultRefPressure/forward.Bar)
-	a.TopPressureBar = f(a.TopPressureBar, forward.DefaultTopPressure/forward.Bar)
-	a.BottomPressureBar = f(a.BottomPressureBar, forward.DefaultBottomPressure/forward.Bar)
-	if a.Layers == nil {
-		n := forward.DefaultLayers
-		a.Layers = &n
-	}
-	if a.Fill == "" {
-		a.Fill = forward.FillH2He
-	}
-	if a.Fill == forward.FillH2He {
-		a.HeH2Ratio = f(a.HeH2Ratio, forward.DefaultHeH2)
-	}
-	t := &a.Temperature
-	if t.Profile == "" {
-		t.Profile = "isothermal"
-	}
-	if t.Profile == "guillot" {
-		t.TIntK = f(t.TIntK, 100)
-		t.KappaIRM2Kg = f(t.KappaIRM2Kg, 0.01)
-		t.Gamma = f(t.Gamma, 0.4)
-		t.Redistribution = f(t.Redistribution, 0.25)
-	}
-	cl := &m.Clouds
-	if cl.TopPressureBar != nil {
-		cl.Fraction = f(cl.Fraction, 1)
-	}
-	cl.HazeFactor = f(cl.HazeFactor, 0)
-	cl.HazeSlope = f(cl.HazeSlope, -4)
-	cl.HazeReferenceUm = f(cl.HazeReferenceUm, 0.35)
-	m.Opacity.GreyReferencePressureBar = f(m.Opacity.GreyReferencePressureBar, 1)
-	s := &m.Spectrum
-	s.ResolvingPower = f(s.ResolvingPower, 1000)
-	if s.MinBinPoints == nil {
-		n := 2
-		s.MinBinPoints = &n
-	}
-	return m
 }
 
 // WriteTOML writes the resolved configuration (r.Config) as TOML, with a

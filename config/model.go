@@ -232,11 +232,72 @@ func (c *ModelConfig) planetMass() (float64, error) {
 	return v, err
 }
 
-func orDefault(v *float64, d float64) float64 {
-	if v == nil {
-		return d
+// Defaults of the model sections, the values ModelConfig documents for
+// absent keys besides those of package forward (grid, reference pressure,
+// He/H2 ratio, haze power law). withDefaults writes them all out; the
+// resolved configuration (run.toml), the forward model's configuration and
+// its state are all made from its result, so nothing restates them.
+const (
+	DefaultResolvingPower           = 1000 // model grid lambda/dlambda
+	DefaultMinBinPoints             = 2    // model points per observed bin
+	DefaultTIntK                    = 100  // Guillot internal temperature, K
+	DefaultKappaIRM2Kg              = 0.01 // Guillot infrared opacity, m^2/kg
+	DefaultGamma                    = 0.4  // Guillot visible/infrared opacity ratio
+	DefaultRedistribution           = 0.25 // Guillot f: planet average
+	DefaultCloudFraction            = 1    // a deck covers the whole limb
+	DefaultGreyReferencePressureBar = 1    // P_ref of the grey absorber, bar
+)
+
+// withDefaults returns a copy of m with the defaults of the model sections
+// written out (the values ModelConfig documents for absent keys).
+func (m ModelConfig) withDefaults() ModelConfig {
+	a := &m.Atmosphere
+	m.Planet.ReferencePressureBar = orDefault(m.Planet.ReferencePressureBar, forward.DefaultRefPressure/forward.Bar)
+	a.TopPressureBar = orDefault(a.TopPressureBar, forward.DefaultTopPressure/forward.Bar)
+	a.BottomPressureBar = orDefault(a.BottomPressureBar, forward.DefaultBottomPressure/forward.Bar)
+	a.Layers = orDefault(a.Layers, forward.DefaultLayers)
+	if a.Fill == "" {
+		a.Fill = forward.FillH2He
 	}
-	return *v
+	if a.Fill == forward.FillH2He {
+		a.HeH2Ratio = orDefault(a.HeH2Ratio, forward.DefaultHeH2)
+	}
+	a.Temperature = a.Temperature.withDefaults()
+	cl := &m.Clouds
+	if cl.TopPressureBar != nil {
+		cl.Fraction = orDefault(cl.Fraction, DefaultCloudFraction)
+	}
+	cl.HazeFactor = orDefault(cl.HazeFactor, 0)
+	cl.HazeSlope = orDefault(cl.HazeSlope, forward.DefaultHazeSlope)
+	cl.HazeReferenceUm = orDefault(cl.HazeReferenceUm, forward.DefaultHazeReference/forward.Micron)
+	m.Opacity.GreyReferencePressureBar = orDefault(m.Opacity.GreyReferencePressureBar, DefaultGreyReferencePressureBar)
+	s := &m.Spectrum
+	s.ResolvingPower = orDefault(s.ResolvingPower, DefaultResolvingPower)
+	s.MinBinPoints = orDefault(s.MinBinPoints, DefaultMinBinPoints)
+	return m
+}
+
+// withDefaults returns a copy of t with its profile's defaults written out.
+func (t TemperatureConfig) withDefaults() TemperatureConfig {
+	if t.Profile == "" {
+		t.Profile = "isothermal"
+	}
+	if t.Profile == "guillot" {
+		t.TIntK = orDefault(t.TIntK, DefaultTIntK)
+		t.KappaIRM2Kg = orDefault(t.KappaIRM2Kg, DefaultKappaIRM2Kg)
+		t.Gamma = orDefault(t.Gamma, DefaultGamma)
+		t.Redistribution = orDefault(t.Redistribution, DefaultRedistribution)
+	}
+	return t
+}
+
+// orDefault returns a pointer to a copy of *v, or to d when v is nil.
+func orDefault[T any](v *T, d T) *T {
+	if v != nil {
+		c := *v
+		return &c
+	}
+	return &d
 }
 
 // Validate checks every key that can be checked without the opacity
@@ -272,15 +333,15 @@ func (c *ModelConfig) Validate() error {
 			return err
 		}
 	}
-	top := orDefault(a.TopPressureBar, forward.DefaultTopPressure/forward.Bar)
-	bot := orDefault(a.BottomPressureBar, forward.DefaultBottomPressure/forward.Bar)
+	d := c.withDefaults()
+	top, bot := *d.Atmosphere.TopPressureBar, *d.Atmosphere.BottomPressureBar
 	if !(bot > top) {
 		return keyErr("atmosphere.bottom_pressure_bar", "%g bar must be above atmosphere.top_pressure_bar (%g bar)", bot, top)
 	}
 	if a.Layers != nil && (*a.Layers < 1 || *a.Layers > 2000) {
 		return keyErr("atmosphere.layers", "must be between 1 and 2000, got %d", *a.Layers)
 	}
-	ref := orDefault(c.Planet.ReferencePressureBar, forward.DefaultRefPressure/forward.Bar)
+	ref := *d.Planet.ReferencePressureBar
 	if ref < top || ref > bot {
 		return keyErr("planet.reference_pressure_bar", "%g bar lies outside the atmosphere (%g to %g bar)", ref, top, bot)
 	}
@@ -376,9 +437,9 @@ func (c *ModelConfig) Validate() error {
 	if !(*s.WavelengthMaxUm > *s.WavelengthMinUm) {
 		return keyErr("spectrum.wavelength_max_um", "%g um must be above spectrum.wavelength_min_um (%g um)", *s.WavelengthMaxUm, *s.WavelengthMinUm)
 	}
-	if pts := orDefault(s.ResolvingPower, 1000) * math.Log(*s.WavelengthMaxUm / *s.WavelengthMinUm); pts > maxModelPoints {
+	if pts := *d.Spectrum.ResolvingPower * math.Log(*s.WavelengthMaxUm / *s.WavelengthMinUm); pts > maxModelPoints {
 		return keyErr("spectrum.resolving_power", "%g over %g-%g um needs %.0f model points, more than the %d supported (each opacity table is held on the model grid)",
-			orDefault(s.ResolvingPower, 1000), *s.WavelengthMinUm, *s.WavelengthMaxUm, pts, maxModelPoints)
+			*d.Spectrum.ResolvingPower, *s.WavelengthMinUm, *s.WavelengthMaxUm, pts, maxModelPoints)
 	}
 	if s.MinBinPoints != nil && *s.MinBinPoints < 1 {
 		return keyErr("spectrum.min_bin_points", "must be at least 1, got %d", *s.MinBinPoints)
@@ -436,7 +497,8 @@ func (c *ModelConfig) inComposition(g string) bool {
 	return false
 }
 
-func (t *TemperatureConfig) profile() (forward.Profile, error) {
+func (t0 *TemperatureConfig) profile() (forward.Profile, error) {
+	t := t0.withDefaults()
 	has := map[string]bool{
 		"temperature_k":  t.TemperatureK != nil,
 		"t_int_k":        t.TIntK != nil,
@@ -448,9 +510,6 @@ func (t *TemperatureConfig) profile() (forward.Profile, error) {
 		"temperatures_k": t.TemperaturesK != nil,
 	}
 	kind := t.Profile
-	if kind == "" {
-		kind = "isothermal"
-	}
 	var allowed []string
 	switch kind {
 	case "isothermal":
@@ -497,10 +556,7 @@ func (t *TemperatureConfig) profile() (forward.Profile, error) {
 		if t.TIntK != nil && (!(*t.TIntK >= 0) || math.IsInf(*t.TIntK, 0)) {
 			return nil, keyErr(sec+"t_int_k", "must be finite and non-negative, got %g", *t.TIntK)
 		}
-		return &forward.Guillot{
-			TInt: orDefault(t.TIntK, 100), TIrr: *t.TIrrK, KappaIR: orDefault(t.KappaIRM2Kg, 0.01),
-			Gamma: orDefault(t.Gamma, 0.4), F: orDefault(t.Redistribution, 0.25),
-		}, nil
+		return &forward.Guillot{TInt: *t.TIntK, TIrr: *t.TIrrK, KappaIR: *t.KappaIRM2Kg, Gamma: *t.Gamma, F: *t.Redistribution}, nil
 	default:
 		if t.PressureBar == nil || t.TemperaturesK == nil {
 			return nil, errors.New("missing key: " + sec + "pressure_bar and " + sec + "temperatures_k are both required")
@@ -609,33 +665,28 @@ func (c *ModelConfig) ForwardConfig(set *opacity.Set, bins *forward.Bins) (forwa
 	if set == nil {
 		set = &opacity.Set{}
 	}
-	a := &c.Atmosphere
-	s := &c.Spectrum
-	wl, err := forward.WavelengthGrid(*s.WavelengthMinUm*forward.Micron, *s.WavelengthMaxUm*forward.Micron, orDefault(s.ResolvingPower, 1000))
+	d := c.withDefaults()
+	a := &d.Atmosphere
+	s := &d.Spectrum
+	wl, err := forward.WavelengthGrid(*s.WavelengthMinUm*forward.Micron, *s.WavelengthMaxUm*forward.Micron, *s.ResolvingPower)
 	if err != nil {
 		return forward.Config{}, keyErr("spectrum", "%v", err)
 	}
-	layers := forward.DefaultLayers
-	if a.Layers != nil {
-		layers = *a.Layers
-	}
 	cfg := forward.Config{
 		Wavelength:     wl,
-		TopPressure:    orDefault(a.TopPressureBar, forward.DefaultTopPressure/forward.Bar) * forward.Bar,
-		BottomPressure: orDefault(a.BottomPressureBar, forward.DefaultBottomPressure/forward.Bar) * forward.Bar,
-		Layers:         layers,
-		RefPressure:    orDefault(c.Planet.ReferencePressureBar, forward.DefaultRefPressure/forward.Bar) * forward.Bar,
+		TopPressure:    *a.TopPressureBar * forward.Bar,
+		BottomPressure: *a.BottomPressureBar * forward.Bar,
+		Layers:         *a.Layers,
+		RefPressure:    *d.Planet.ReferencePressureBar * forward.Bar,
 		Gases:          c.gasNames(),
 		Fill:           a.Fill,
 		Grey: opacity.Grey{
-			Sigma:       c.Opacity.GreyCrossSectionM2,
-			Exponent:    c.Opacity.GreyPressureExponent,
-			RefPressure: orDefault(c.Opacity.GreyReferencePressureBar, 1) * forward.Bar,
+			Sigma:       d.Opacity.GreyCrossSectionM2,
+			Exponent:    d.Opacity.GreyPressureExponent,
+			RefPressure: *d.Opacity.GreyReferencePressureBar * forward.Bar,
 		},
-		HazeRefWavelength: orDefault(c.Clouds.HazeReferenceUm, 0.35) * forward.Micron,
-	}
-	if s.MinBinPoints != nil {
-		cfg.MinBinPoints = *s.MinBinPoints
+		HazeRefWavelength: *d.Clouds.HazeReferenceUm * forward.Micron,
+		MinBinPoints:      *s.MinBinPoints,
 	}
 	species := append(c.gasNames(), c.fillSpecies()...)
 	for _, g := range species {
@@ -700,30 +751,33 @@ func ciaNames(set *opacity.Set) string {
 // State returns the physical state the configuration describes, for a
 // model built from ForwardConfig. c must be valid.
 func (c *ModelConfig) State(m *forward.Model) (forward.State, error) {
+	d := c.withDefaults()
 	s := m.DefaultState()
 	var err error
-	if s.Profile, err = c.Atmosphere.Temperature.profile(); err != nil {
+	if s.Profile, err = d.Atmosphere.Temperature.profile(); err != nil {
 		return s, err
 	}
 	for i, g := range m.Gases() {
-		s.VMR[i] = c.Atmosphere.Gases[g]
+		s.VMR[i] = d.Atmosphere.Gases[g]
 	}
-	s.HeH2 = orDefault(c.Atmosphere.HeH2Ratio, forward.DefaultHeH2)
-	if s.RefRadius, err = c.planetRadius(); err != nil {
+	if d.Atmosphere.HeH2Ratio != nil { // an H2+He fill
+		s.HeH2 = *d.Atmosphere.HeH2Ratio
+	}
+	if s.RefRadius, err = d.planetRadius(); err != nil {
 		return s, err
 	}
-	if s.Mass, err = c.planetMass(); err != nil {
+	if s.Mass, err = d.planetMass(); err != nil {
 		return s, err
 	}
-	if s.StarRadius, err = c.starRadius(); err != nil {
+	if s.StarRadius, err = d.starRadius(); err != nil {
 		return s, err
 	}
-	if c.Clouds.TopPressureBar != nil {
-		s.CloudTop = *c.Clouds.TopPressureBar * forward.Bar
+	if d.Clouds.TopPressureBar != nil {
+		s.CloudTop = *d.Clouds.TopPressureBar * forward.Bar
+		s.CloudFraction = *d.Clouds.Fraction
 	}
-	s.CloudFraction = orDefault(c.Clouds.Fraction, 1)
-	s.HazeFactor = orDefault(c.Clouds.HazeFactor, 0)
-	s.HazeSlope = orDefault(c.Clouds.HazeSlope, -4)
+	s.HazeFactor = *d.Clouds.HazeFactor
+	s.HazeSlope = *d.Clouds.HazeSlope
 	return s, nil
 }
 

@@ -217,8 +217,8 @@ func FuzzModelConfig(f *testing.F) {
 			return
 		}
 		// Keep each case fast: skip models with many layers or points.
-		s := c.Spectrum
-		pts := orDefault(s.ResolvingPower, 1000) * math.Log(*s.WavelengthMaxUm / *s.WavelengthMinUm)
+		s := c.withDefaults().Spectrum
+		pts := *s.ResolvingPower * math.Log(*s.WavelengthMaxUm / *s.WavelengthMinUm)
 		if (c.Atmosphere.Layers != nil && *c.Atmosphere.Layers > 300) || pts > 5000 || c.Opacity.Demo || c.Opacity.Dir != "" {
 			return
 		}

@@ -4,5 +4,5 @@ package config
 type StopRule struct {
 	Steps          int     `json:"steps,omitempty"`           // total steps of the run
 	Budget         float64 `json:"budget,omitempty"`          // total sampling seconds
-	UntilConverged bool    `json:"until_converged,omitempty"` // chain longer than 50 tau, tau stable
+	UntilConverged bool    `json:"until_converged,omitempty"` // sampler.Convergence with its defaults
 }

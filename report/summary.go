@@ -40,16 +40,13 @@ import (
 // below the prior's, i.e. significance under UpperLimitSigma) is reported as
 // an upper limit, the one-sided 95% upper limit being its 95th percentile.
 
-// Rules of the summaries (stated in the README).
+// Rules of the summaries (stated in the README). Autocorrelation times use
+// the sampler's window (sampler.DefaultSokalWindow), and a chain counts as
+// converged when the whole chain (burn-in included, as in the sampler's
+// stopping rule, so that a run the sampler stopped as converged is
+// reported converged) is sampler.DefaultConvergedTaus largest
+// autocorrelation times long.
 const (
-	// SokalWindow is Sokal's window constant c for autocorrelation times.
-	SokalWindow = 5.0
-	// ConvergedTaus is the whole chain's length (burn-in included, as in
-	// the sampler's stopping rule, so that a run the sampler stopped as
-	// converged is reported converged), in units of the largest
-	// autocorrelation time, from which a chain counts as converged (50,
-	// common practice for ensemble samplers).
-	ConvergedTaus = 50.0
 	// AutoBurnTaus is the burn-in chosen by --burn auto, in units of the
 	// largest autocorrelation time estimated on the whole chain (common
 	// practice: a few tau), at most half the chain.
@@ -202,7 +199,7 @@ func columnTau(c *chains.Chain, col int) (float64, bool) {
 	if len(c.Steps) < 2 {
 		return math.NaN(), false
 	}
-	return sampler.IntegratedTime(walkerSeries(c, col), SokalWindow)
+	return sampler.IntegratedTime(walkerSeries(c, col), sampler.DefaultSokalWindow)
 }
 
 func walkerSeries(c *chains.Chain, col int) [][]float64 {
@@ -337,9 +334,9 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 		s.Warnings = append(s.Warnings, fmt.Sprintf("split R-hat above %g: %s; the walkers disagree, the chain may need to be longer", RHatLimit, strings.Join(highRHat, ", ")))
 	}
 	s.ChainTaus = Float(float64(c.TotalSteps) / float64(s.MaxTau))
-	s.Converged = allTau && s.ChainTaus >= ConvergedTaus
+	s.Converged = allTau && s.ChainTaus >= sampler.DefaultConvergedTaus
 	if !s.Converged {
-		why := fmt.Sprintf("the chain is %.1f autocorrelation times long, fewer than %g", s.ChainTaus, ConvergedTaus)
+		why := fmt.Sprintf("the chain is %.1f autocorrelation times long, fewer than %g", s.ChainTaus, sampler.DefaultConvergedTaus)
 		if !allTau {
 			why = "the chain is too short for a reliable autocorrelation time"
 		}
@@ -472,7 +469,7 @@ func (s *Summary) WriteText(w io.Writer) error {
 	if s.Converged {
 		conv = "yes"
 	}
-	fmt.Fprintf(&b, "autocorr.    largest tau %.1f steps; chain = %.1f tau; converged (>= %g tau): %s\n", s.MaxTau, s.ChainTaus, ConvergedTaus, conv)
+	fmt.Fprintf(&b, "autocorr.    largest tau %.1f steps; chain = %.1f tau; converged (>= %g tau): %s\n", s.MaxTau, s.ChainTaus, sampler.DefaultConvergedTaus, conv)
 	fmt.Fprintf(&b, "best sample  step %d walker %d: log posterior %.3f, log likelihood %.3f\n", s.Best.Step, s.Best.Walker, s.Best.LogPosterior, s.Best.LogLikelihood)
 	if s.Best.DataPoints > 0 {
 		fmt.Fprintf(&b, "             chi-square %.2f for %d data points and %d free parameters (reduced %.3f)\n", s.Best.ChiSquare, s.Best.DataPoints, s.Best.FreeParameters, s.Best.ReducedChiSquare)

@@ -120,12 +120,8 @@ func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
-	minPts := 2
-	if mc.Spectrum.MinBinPoints != nil {
-		minPts = *mc.Spectrum.MinBinPoints
-	}
 	for _, d := range r.Datasets {
-		if err := d.CheckCoverage(fc.Wavelength, minPts); err != nil {
+		if err := d.CheckCoverage(fc.Wavelength, fc.MinBinPoints); err != nil {
 			return nil, err
 		}
 	}

@@ -51,6 +51,9 @@ const (
 	CheckpointFile = "checkpoint"
 )
 
+// convergenceRule describes the until-converged stopping rule.
+var convergenceRule = fmt.Sprintf("chain longer than %g tau, tau stable to %g%%", sampler.DefaultConvergedTaus, 100*sampler.DefaultTauRelChange)
+
 // CheckpointInterval is the wall-clock time aimed at between checkpoints
 // when RunOptions.CheckpointSteps is 0.
 const CheckpointInterval = time.Minute
@@ -396,7 +399,7 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 		}
 		set.MaxDuration = left
 	case r.stop.UntilConverged:
-		set.Convergence = &sampler.Convergence{Factor: report.ConvergedTaus, Window: report.SokalWindow, History: r.conv}
+		set.Convergence = &sampler.Convergence{History: r.conv}
 	}
 	if r.opt.Progress.Writer != nil {
 		r.prog = newProgress(r.opt.Progress, r.stop, st, r.base, r.layoutLogLikelihood())
@@ -424,7 +427,7 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 	out.TotalElapsed = secs(r.last.Elapsed)
 	out.Evaluations = r.evals
 	if out.Tau == nil && r.progHist != nil {
-		if tau, ok := r.progHist.Tau(nil, report.SokalWindow); ok {
+		if tau, ok := r.progHist.Tau(nil, sampler.DefaultSokalWindow); ok {
 			out.Tau = tau
 		}
 	}
@@ -525,7 +528,7 @@ func (p *progress) step(s *sampler.Step, h *sampler.History) {
 		return
 	}
 	if now.Sub(p.lastTau) > 5*time.Second || !p.terminal {
-		tau, _ := h.Tau(nil, report.SokalWindow)
+		tau, _ := h.Tau(nil, sampler.DefaultSokalWindow)
 		p.tau = 0
 		for _, t := range tau {
 			if t > p.tau || math.IsNaN(t) {
@@ -567,14 +570,14 @@ func (p *progress) print(final bool) {
 		case p.stop.Budget > 0:
 			left = secs(p.stop.Budget) - p.base - el
 		default:
-			need := report.ConvergedTaus*p.tau - float64(p.cur)
+			need := sampler.DefaultConvergedTaus*p.tau - float64(p.cur)
 			ok = !math.IsNaN(p.tau) && p.tau > 0
 			left = secs(math.Max(need, 0) / rate)
 		}
 		if ok {
 			fmt.Fprintf(&b, ", about %s left", left.Round(time.Second))
 			if p.stop.UntilConverged {
-				b.WriteString(" to 50 tau")
+				fmt.Fprintf(&b, " to %g tau", sampler.DefaultConvergedTaus)
 			}
 		}
 	}
@@ -1039,7 +1042,7 @@ func describeStop(s config.StopRule) string {
 	case s.Budget > 0:
 		return "a budget of " + secs(s.Budget).String()
 	}
-	return fmt.Sprintf("until converged (chain longer than %g tau, tau stable to 1%%)", report.ConvergedTaus)
+	return "until converged (" + convergenceRule + ")"
 }
 
 // finish reports a run session unless it was interrupted.

@@ -20,7 +20,7 @@ import (
 var stopFlags = []cli.Flag{
 	&cli.IntFlag{Name: "steps", Usage: "stop when the chain holds `N` steps in total"},
 	&cli.DurationFlag{Name: "budget", Usage: "stop when the run has sampled for `DURATION` in total (e.g. 8h, 90m)"},
-	&cli.BoolFlag{Name: "until-converged", Usage: "stop when the chain is longer than 50 autocorrelation times, tau stable to 1%"},
+	&cli.BoolFlag{Name: "until-converged", Usage: fmt.Sprintf("stop when the chain is longer than %g autocorrelation times, tau stable to %g%%", sampler.DefaultConvergedTaus, 100*sampler.DefaultTauRelChange)},
 	&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior (default: the configuration's, else one per core)"},
 	&cli.IntFlag{Name: "checkpoint-every", Usage: "write a checkpoint every `N` steps (default: about one a minute)"},
 }
