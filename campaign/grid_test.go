@@ -193,7 +193,7 @@ func TestGridBadInput(t *testing.T) {
 		{"base = \"scenario.toml\"\n[[axis]]\nkey = \"clouds.top_pressure_bar\"\nvalues = [0.1]\n", "noise 0 ppm"},
 		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axis]]\nkey = \"clouds.top_pressure_bar\"\nvalues = [-0.1]\n", "clouds.top_pressure_bar"},
 		{"base = \"missing.toml\"\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "missing.toml"},
-		{"base = \"scenario.toml\"\ncolour = 1\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "unknown key colour"},
+		{"base = \"scenario.toml\"\ncolour = 1\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "colour: unknown key"},
 		{"base = \"scenario.toml\"\n[set]\n\"sampler.stepz\" = 1\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", `sampler has no key "stepz"`},
 		{"base = \"scenario.toml\"\n[set]\n\"sampler.walkers\" = 3\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "walkers"},
 		{"base = \"scenario.toml\"\n[slurm]\ntime = \"two hours\"\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "slurm.time"},

@@ -226,7 +226,7 @@ func TestPlanBadInput(t *testing.T) {
 		{sc, PlanSpec{Transits: []int{1, 4}}, "single-transit noise"},
 		{sc, PlanSpec{Transits: []int{0}, SingleNoisePPM: 30}, "0 transits"},
 		{sc, PlanSpec{NoisePPM: []float64{30, 30}}, "given twice"},
-		{bad, PlanSpec{NoisePPM: []float64{30}}, "unknown key planet.orbit.period_days"},
+		{bad, PlanSpec{NoisePPM: []float64{30}}, "planet.orbit: unknown key"},
 		{"", PlanSpec{}, "holds no plan"},
 	} {
 		p := filepath.Join(dir, "plan"+itoa(i))

@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"crypto/rand"
 	"encoding/binary"
-	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -196,7 +195,7 @@ func Load(path string) (*Resolved, error) {
 	}
 	r, err := c.Resolve()
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", path, err)
+		return nil, InFile(path, err)
 	}
 	return r, nil
 }
@@ -250,18 +249,18 @@ func (c *Config) Resolve() (*Resolved, error) {
 
 	// Observations.
 	if len(c.Observations) == 0 {
-		return nil, errors.New("missing key: observations (at least one [[observations]] table with a file)")
+		return nil, missingKey("observations", "at least one [[observations]] table with a file")
 	}
 	full.Observations = make([]ObservationConfig, len(c.Observations))
 	names := map[string]int{}
 	for i, o := range c.Observations {
 		key := fmt.Sprintf("observations[%d]", i+1)
 		if o.File == "" {
-			return nil, errors.New("missing key: " + key + ".file")
+			return nil, missingKey(key+".file", "")
 		}
 		d, err := obs.ReadDataset(c.Abs(o.File))
 		if err != nil {
-			return nil, fmt.Errorf("%s.file: %w", key, err)
+			return nil, keyWrap(key+".file", err)
 		}
 		if o.Name != "" {
 			if !nameRE.MatchString(o.Name) {
@@ -280,7 +279,7 @@ func (c *Config) Resolve() (*Resolved, error) {
 	for i := range r.Datasets {
 		for j := range i {
 			if err := overlapping(r.Datasets[j], r.Datasets[i]); err != nil {
-				return nil, err
+				return nil, keyWrap(fmt.Sprintf("observations[%d].file", i+1), err)
 			}
 		}
 	}
@@ -293,7 +292,7 @@ func (c *Config) Resolve() (*Resolved, error) {
 		return nil, err
 	}
 	if len(r.Free) == 0 {
-		return nil, errors.New("parameters: no free parameter (every [[parameters]] table is fixed, or there are none)")
+		return nil, keyErr("parameters", "no free parameter (every [[parameters]] table is fixed, or there are none)")
 	}
 
 	// The model sections with the parameters' gases added, and values the
@@ -331,7 +330,7 @@ func (r *Resolved) resolveComposition(c *Config, full *Config) error {
 		return keyErr("composition.prior", "unknown composition prior %q (independent, clr)", cc.Prior)
 	}
 	if len(cc.Gases) == 0 {
-		return errors.New("missing key: composition.gases (the gases of the centred-log-ratio prior besides the fill gas)")
+		return missingKey("composition.gases", "the gases of the centred-log-ratio prior besides the fill gas")
 	}
 	minVMR := 1e-12
 	if cc.MinVMR != nil {
@@ -358,7 +357,7 @@ func (r *Resolved) resolveComposition(c *Config, full *Config) error {
 	}
 	clr, err := priors.NewCLR(names, minVMR)
 	if err != nil {
-		return keyErr("composition", "%v", err)
+		return keyWrap("composition", err)
 	}
 	r.CLR = clr
 	box := priors.Uniform{Low: clr.XiLow, High: clr.XiHigh}
@@ -406,7 +405,7 @@ func (r *Resolved) resolveParams(c *Config, full *Config) error {
 		key := fmt.Sprintf("parameters[%d]", i+1)
 		q := Quantity(pc.Sets)
 		if pc.Sets == "" {
-			return errors.New("missing key: " + key + ".sets (the quantity the parameter sets: " + quantityNames() + ")")
+			return missingKey(key+".sets", "the quantity the parameter sets: "+quantityNames())
 		}
 		known := false
 		for _, k := range Quantities {
@@ -423,7 +422,7 @@ func (r *Resolved) resolveParams(c *Config, full *Config) error {
 		switch q {
 		case QLog10VMR:
 			if pc.Gas == "" {
-				return errors.New("missing key: " + key + ".gas (the gas whose log10 mixing ratio it sets)")
+				return missingKey(key+".gas", "the gas whose log10 mixing ratio it sets")
 			}
 			if _, err := forward.MolecularMass(pc.Gas); err != nil {
 				return keyErr(key+".gas", "unknown gas %q (known: %s)", pc.Gas, strings.Join(forward.KnownGases(), ", "))
@@ -446,7 +445,7 @@ func (r *Resolved) resolveParams(c *Config, full *Config) error {
 			case len(r.Datasets) == 1:
 				p.Dataset = 0
 			case q == QOffsetPPM:
-				return errors.New("missing key: " + key + ".dataset (which observations the offset shifts: " + r.datasetNames() + ")")
+				return missingKey(key+".dataset", "which observations the offset shifts: "+r.datasetNames())
 			}
 			if p.Dataset >= 0 {
 				target = r.Datasets[p.Dataset].Name
@@ -545,7 +544,7 @@ var priorKeys = map[string][2][]string{
 
 func buildPrior(key, name string, pc ParameterConfig) (priors.Prior, error) {
 	if pc.Prior == "" {
-		return nil, errors.New("missing key: " + key + ".prior (uniform, log-uniform, normal, truncated-normal or fixed)")
+		return nil, missingKey(key+".prior", "uniform, log-uniform, normal, truncated-normal or fixed")
 	}
 	keys, ok := priorKeys[pc.Prior]
 	if !ok {
@@ -559,7 +558,7 @@ func buildPrior(key, name string, pc ParameterConfig) (priors.Prior, error) {
 	}
 	for _, k := range keys[0] {
 		if vals[k] == nil {
-			return nil, errors.New("missing key: " + key + "." + k + " (for the " + pc.Prior + " prior)")
+			return nil, missingKey(key+"."+k, "for the "+pc.Prior+" prior")
 		}
 	}
 	v := func(k string, d float64) float64 {
@@ -572,21 +571,21 @@ func buildPrior(key, name string, pc ParameterConfig) (priors.Prior, error) {
 	var err error
 	switch pc.Prior {
 	case "uniform":
-		p, err = priors.NewUniform(name, *pc.Low, *pc.High)
+		p, err = priors.NewUniform(*pc.Low, *pc.High)
 	case "log-uniform":
-		p, err = priors.NewLogUniform(name, *pc.Low, *pc.High)
+		p, err = priors.NewLogUniform(*pc.Low, *pc.High)
 	case "normal":
-		p, err = priors.NewNormal(name, *pc.Mean, *pc.Sigma)
+		p, err = priors.NewNormal(*pc.Mean, *pc.Sigma)
 	case "truncated-normal":
 		if pc.Low == nil && pc.High == nil {
-			return nil, errors.New("missing key: " + key + ".low or " + key + ".high (a truncated-normal prior needs at least one bound)")
+			return nil, missingKey(key+".low", "or "+key+".high: a truncated-normal prior needs at least one bound")
 		}
-		p, err = priors.NewTruncatedNormal(name, *pc.Mean, *pc.Sigma, v("low", math.Inf(-1)), v("high", math.Inf(1)))
+		p, err = priors.NewTruncatedNormal(*pc.Mean, *pc.Sigma, v("low", math.Inf(-1)), v("high", math.Inf(1)))
 	case "fixed":
-		p, err = priors.NewFixed(name, *pc.Value)
+		p, err = priors.NewFixed(*pc.Value)
 	}
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", key, err)
+		return nil, &KeyError{Key: key, Msg: fmt.Sprintf("prior of parameter %q", name), Err: err}
 	}
 	return p, nil
 }
@@ -602,7 +601,7 @@ func checkPriorRange(key, name string, q Quantity, p priors.Prior) error {
 		lo, hi = p.Quantile(0), p.Quantile(1)
 	}
 	bad := func(format string, a ...any) error {
-		return fmt.Errorf("%s: prior %v of %q: %s", key, p, name, fmt.Sprintf(format, a...))
+		return keyErr(key, "prior %v of %q: %s", p, name, fmt.Sprintf(format, a...))
 	}
 	switch q {
 	case QLog10VMR:
@@ -682,7 +681,7 @@ func (r *Resolved) resolveSampler(s SamplerConfig, full *SamplerConfig) error {
 	} else {
 		var b [8]byte
 		if _, err := rand.Read(b[:]); err != nil {
-			return fmt.Errorf("sampler.seed: none given and no random seed available: %w", err)
+			return keyWrap("sampler.seed", fmt.Errorf("none given and no random seed available: %w", err))
 		}
 		r.Seed = binary.LittleEndian.Uint64(b[:]) >> 1 // fits a TOML integer
 		r.Notes = append(r.Notes, fmt.Sprintf("sampler.seed not given; using seed %d (recorded in the resolved configuration)", r.Seed))

@@ -146,16 +146,23 @@ func decodeStrict(text, name string, v any) (toml.MetaData, error) {
 	if err != nil {
 		var pe toml.ParseError
 		if errors.As(err, &pe) {
-			return md, fmt.Errorf("%s: line %d: %s", name, pe.Position.Line, pe.Message)
+			return md, &KeyError{File: name, Line: pe.Position.Line, Msg: pe.Message}
 		}
-		return md, fmt.Errorf("%s: %w", name, err)
+		return md, &KeyError{File: name, Err: err}
 	}
 	if und := md.Undecoded(); len(und) > 0 {
-		keys := make([]string, len(und))
-		for i, k := range und {
-			keys[i] = k.String()
+		// The keys inside an unknown table are not listed again.
+		var keys []string
+		for _, k := range und {
+			if n := len(keys); n == 0 || !strings.HasPrefix(k.String(), keys[n-1]+".") {
+				keys = append(keys, k.String())
+			}
 		}
-		return md, fmt.Errorf("%s: unknown key %s", name, strings.Join(keys, ", unknown key "))
+		msg := "unknown key"
+		if len(keys) > 1 {
+			msg += " (also unknown: " + strings.Join(keys[1:], ", ") + ")"
+		}
+		return md, &KeyError{File: name, Key: keys[0], Msg: msg}
 	}
 	return md, nil
 }
@@ -168,13 +175,9 @@ func LoadModel(path string) (*ModelConfig, error) {
 	}
 	c.BaseDir = filepath.Dir(path)
 	if err := c.Validate(); err != nil {
-		return nil, fmt.Errorf("%s: %w", path, err)
+		return nil, InFile(path, err)
 	}
 	return c, nil
-}
-
-func keyErr(key, format string, a ...any) error {
-	return fmt.Errorf("%s: %s", key, fmt.Sprintf(format, a...))
 }
 
 func positive(key string, v *float64) error {
@@ -195,7 +198,7 @@ func oneOf(section string, keys []string, vals []*float64, factors []float64, re
 		}
 		k := section + "." + keys[i]
 		if found != "" {
-			return 0, false, fmt.Errorf("%s and %s both given; use one", found, k)
+			return 0, false, keyErr(k, "%s is given too; use one", found)
 		}
 		if err := positive(k, v); err != nil {
 			return 0, false, err
@@ -207,7 +210,7 @@ func oneOf(section string, keys []string, vals []*float64, factors []float64, re
 		for i, k := range keys {
 			names[i] = section + "." + k
 		}
-		return 0, false, fmt.Errorf("missing key: one of %s is required", strings.Join(names, ", "))
+		return 0, false, missingKey(names[0], "one of "+strings.Join(names, ", ")+" is required")
 	}
 	return out, found != "", nil
 }
@@ -409,7 +412,7 @@ func (c *ModelConfig) Validate() error {
 	if o.Rayleigh != nil {
 		for _, g := range *o.Rayleigh {
 			if _, err := opacity.NewRayleigh(g); err != nil {
-				return keyErr("opacity.rayleigh", "%v", err)
+				return keyWrap("opacity.rayleigh", err)
 			}
 			if !c.inComposition(g) {
 				return keyErr("opacity.rayleigh", "gas %q is not in the atmosphere", g)
@@ -429,10 +432,10 @@ func (c *ModelConfig) Validate() error {
 	}
 	s := &c.Spectrum
 	if s.WavelengthMinUm == nil {
-		return errors.New("missing key: spectrum.wavelength_min_um")
+		return missingKey("spectrum.wavelength_min_um", "")
 	}
 	if s.WavelengthMaxUm == nil {
-		return errors.New("missing key: spectrum.wavelength_max_um")
+		return missingKey("spectrum.wavelength_max_um", "")
 	}
 	if !(*s.WavelengthMaxUm > *s.WavelengthMinUm) {
 		return keyErr("spectrum.wavelength_max_um", "%g um must be above spectrum.wavelength_min_um (%g um)", *s.WavelengthMaxUm, *s.WavelengthMinUm)
@@ -535,7 +538,7 @@ func (t0 *TemperatureConfig) profile() (forward.Profile, error) {
 	switch kind {
 	case "isothermal":
 		if t.TemperatureK == nil {
-			return nil, errors.New("missing key: " + sec + "temperature_k")
+			return nil, missingKey(sec+"temperature_k", "")
 		}
 		if err := positive(sec+"temperature_k", t.TemperatureK); err != nil {
 			return nil, err
@@ -543,7 +546,7 @@ func (t0 *TemperatureConfig) profile() (forward.Profile, error) {
 		return &forward.Isothermal{T: *t.TemperatureK}, nil
 	case "guillot":
 		if t.TIrrK == nil {
-			return nil, errors.New("missing key: " + sec + "t_irr_k")
+			return nil, missingKey(sec+"t_irr_k", "")
 		}
 		for _, kv := range []struct {
 			k string
@@ -559,7 +562,7 @@ func (t0 *TemperatureConfig) profile() (forward.Profile, error) {
 		return &forward.Guillot{TInt: *t.TIntK, TIrr: *t.TIrrK, KappaIR: *t.KappaIRM2Kg, Gamma: *t.Gamma, F: *t.Redistribution}, nil
 	default:
 		if t.PressureBar == nil || t.TemperaturesK == nil {
-			return nil, errors.New("missing key: " + sec + "pressure_bar and " + sec + "temperatures_k are both required")
+			return nil, missingKey(sec+"pressure_bar", sec+"pressure_bar and "+sec+"temperatures_k are both required")
 		}
 		p := make([]float64, len(t.PressureBar))
 		for i, v := range t.PressureBar {
@@ -567,7 +570,7 @@ func (t0 *TemperatureConfig) profile() (forward.Profile, error) {
 		}
 		tp, err := forward.NewTableProfile(p, t.TemperaturesK)
 		if err != nil {
-			return nil, keyErr(sec+"pressure_bar", "%v", err)
+			return nil, keyWrap(sec+"pressure_bar", err)
 		}
 		return tp, nil
 	}
@@ -596,19 +599,19 @@ func (c *ModelConfig) Bins() (*forward.Bins, error) {
 	case s.BinEdgesUm != nil:
 		b, err := forward.BinsFromEdges(um(s.BinEdgesUm))
 		if err != nil {
-			return nil, keyErr("spectrum.bin_edges_um", "%v", err)
+			return nil, keyWrap("spectrum.bin_edges_um", err)
 		}
 		return &b, nil
 	case s.BinCentresUm != nil:
 		b, err := forward.BinsFromCentres(um(s.BinCentresUm), um(s.BinWidthsUm))
 		if err != nil {
-			return nil, keyErr("spectrum.bin_centres_um", "%v", err)
+			return nil, keyWrap("spectrum.bin_centres_um", err)
 		}
 		return &b, nil
 	case s.BinResolvingPower != nil:
 		b, err := forward.ResolvingPowerBins(*s.WavelengthMinUm*forward.Micron, *s.WavelengthMaxUm*forward.Micron, *s.BinResolvingPower)
 		if err != nil {
-			return nil, keyErr("spectrum.bin_resolving_power", "%v", err)
+			return nil, keyWrap("spectrum.bin_resolving_power", err)
 		}
 		return &b, nil
 	}
@@ -636,12 +639,12 @@ func (c *ModelConfig) LoadOpacity(demoCache string, progress io.Writer) (*opacit
 		if demoCache == "" {
 			var err error
 			if demoCache, err = DemoCacheDir(); err != nil {
-				return nil, fmt.Errorf("opacity.demo: %w", err)
+				return nil, keyWrap("opacity.demo", err)
 			}
 		}
 		s, err := opacity.DemoSet(demoCache, progress)
 		if err != nil {
-			return nil, fmt.Errorf("opacity.demo: %w", err)
+			return nil, keyWrap("opacity.demo", err)
 		}
 		return s, nil
 	case c.Opacity.Dir != "":
@@ -651,7 +654,7 @@ func (c *ModelConfig) LoadOpacity(demoCache string, progress io.Writer) (*opacit
 		}
 		s, err := opacity.LoadDir(dir)
 		if err != nil {
-			return nil, fmt.Errorf("opacity.dir: %w", err)
+			return nil, keyWrap("opacity.dir", err)
 		}
 		return s, nil
 	}
@@ -670,7 +673,7 @@ func (c *ModelConfig) ForwardConfig(set *opacity.Set, bins *forward.Bins) (forwa
 	s := &d.Spectrum
 	wl, err := forward.WavelengthGrid(*s.WavelengthMinUm*forward.Micron, *s.WavelengthMaxUm*forward.Micron, *s.ResolvingPower)
 	if err != nil {
-		return forward.Config{}, keyErr("spectrum", "%v", err)
+		return forward.Config{}, keyWrap("spectrum", err)
 	}
 	cfg := forward.Config{
 		Wavelength:     wl,

@@ -205,8 +205,8 @@ func checkOpacity(r *config.Resolved, fc forward.Config) error {
 			if len(have) == 0 {
 				have = append(have, "none")
 			}
-			return fmt.Errorf("%s.gas: gas %q has no opacity: no cross-section table (tables loaded for: %s), no CIA pair and no Rayleigh scattering; its abundance cannot be measured", par.Key,
-				par.Gas, strings.Join(have, ", "))
+			return &config.KeyError{Key: par.Key + ".gas", Msg: fmt.Sprintf("gas %q has no opacity: no cross-section table (tables loaded for: %s), no CIA pair and no Rayleigh scattering; its abundance cannot be measured",
+				par.Gas, strings.Join(have, ", "))}
 		}
 	}
 	return nil

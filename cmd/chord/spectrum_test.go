@@ -100,8 +100,8 @@ func TestSpectrumCommandErrors(t *testing.T) {
 	dir := t.TempDir()
 	cfg := filepath.Join(dir, "m.toml")
 	for _, c := range []struct{ text, want string }{
-		{spectrumTestConfig + "resolution = 3\n", "unknown key spectrum.resolution"},
-		{strings.Replace(spectrumTestConfig, "mass_mearth = 7", "", 1), "missing key: one of planet.mass_mjup"},
+		{spectrumTestConfig + "resolution = 3\n", "spectrum.resolution: unknown key"},
+		{strings.Replace(spectrumTestConfig, "mass_mearth = 7", "", 1), "planet.mass_mjup: missing (one of planet.mass_mjup"},
 		{strings.Replace(spectrumTestConfig, "mass_mearth = 7", "mass_mearth = 1e-6", 1), "unbound"},
 	} {
 		if err := os.WriteFile(cfg, []byte(c.text), 0o644); err != nil {
