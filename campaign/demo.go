@@ -5,6 +5,7 @@ import (
 	"embed"
 	"fmt"
 	"io"
+	"io/fs"
 	"os"
 	"path/filepath"
 
@@ -85,7 +86,7 @@ func Demo(ctx context.Context, opt DemoOptions) (*retrieve.RunReport, error) {
 	if !opt.Force {
 		for _, p := range []string{cfgPath, obsPath, runDir} {
 			if _, err := os.Stat(p); err == nil {
-				return nil, fmt.Errorf("%s already exists (an earlier demo?): choose another directory with -o, or pass --force", p)
+				return nil, fmt.Errorf("%s already exists (an earlier demo?): %w", p, fs.ErrExist)
 			}
 		}
 	}

@@ -81,6 +81,9 @@ import (
 // nothing and keeps every point; a different grid is refused before
 // anything is written.
 
+// ErrNoGrid is the error of a directory that holds no grid.
+var ErrNoGrid = errors.New("holds no grid")
+
 // GridFileName is the resolved grid in a grid directory.
 const GridFileName = "resolved-grid.toml"
 
@@ -685,7 +688,7 @@ func OpenGrid(dir string) (*Grid, error) {
 	}
 	path := filepath.Join(dir, GridFileName)
 	if _, err := os.Stat(path); err != nil {
-		return nil, fmt.Errorf("grid: %s holds no grid (%s): expand one with chord grid -c GRID.toml -o %s", dir, GridFileName, dir)
+		return nil, fmt.Errorf("grid: %s %w (%s)", dir, ErrNoGrid, GridFileName)
 	}
 	g := &Grid{Dir: dir}
 	if _, err := config.DecodeStrict(path, &g.rec); err != nil {

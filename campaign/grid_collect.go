@@ -3,6 +3,7 @@ package campaign
 import (
 	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"path/filepath"
 	"strings"
@@ -12,6 +13,10 @@ import (
 	"chord/report"
 	"chord/retrieve"
 )
+
+// ErrNotDone is the error of collecting a grid whose points are not all
+// done.
+var ErrNotDone = errors.New("points are not done")
 
 // GridCollection is what CollectGrid writes: the summary table and the
 // width-against-noise comparisons.
@@ -39,7 +44,7 @@ type GridGroup struct {
 // percentiles, widths, autocorrelation time and gas verdict), and the
 // width-against-noise comparisons of chord compare (comparison.txt,
 // comparison.json, widths.png or widths-gNN.png). A point without a summary
-// is an error naming it (see chord grid status).
+// is an error naming it, with its state.
 func (g *Grid) CollectGrid() (*GridCollection, error) {
 	st, err := g.Status()
 	if err != nil {
@@ -52,7 +57,7 @@ func (g *Grid) CollectGrid() (*GridCollection, error) {
 		}
 	}
 	if len(missing) > 0 {
-		return nil, fmt.Errorf("grid: collect: %d of %d points are not done: %s; see chord grid status %s", len(missing), len(g.Points), strings.Join(missing, ", "), g.Dir)
+		return nil, fmt.Errorf("grid: collect: %d of %d %w: %s", len(missing), len(g.Points), ErrNotDone, strings.Join(missing, ", "))
 	}
 	cols := append([]table.Column{{Name: "point", Kind: 'i'}, {Name: "dir", Kind: 's'}}, g.axisCols()...)
 	cols = append(cols, []table.Column{{Name: "noise_ppm", Kind: 'f'}, {Name: "steps", Kind: 'i'}, {Name: "samples", Kind: 'i'}, {Name: "converged", Kind: 'b'},

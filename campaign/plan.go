@@ -50,6 +50,10 @@ import (
 // with a summary.json) are kept, a started fit is resumed from its
 // checkpoint, and the rest are started.
 
+// ErrOtherPlan is the error of a new plan asked for in a directory that
+// holds a different one.
+var ErrOtherPlan = errors.New("holds a different plan")
+
 // PlanFile is the plan's description in a plan directory.
 const PlanFile = "plan.toml"
 
@@ -122,7 +126,7 @@ func (p *PlanSpec) check() error {
 	case len(p.NoisePPM) > 0 && len(p.Transits) > 0:
 		return errors.New("plan: give noise levels or numbers of transits, not both")
 	case len(p.NoisePPM) == 0 && len(p.Transits) == 0:
-		return errors.New("plan: give the noise levels (--noise 30,60,120) or the numbers of transits (--transits 1,4,16)")
+		return errors.New("plan: give the noise levels or the numbers of transits")
 	}
 	for _, v := range p.NoisePPM {
 		if !(v > 0) || math.IsInf(v, 0) {
@@ -135,10 +139,10 @@ func (p *PlanSpec) check() error {
 		}
 	}
 	if len(p.Transits) > 0 && p.SingleNoisePPM == 0 && p.NoiseFile == "" {
-		return errors.New("plan: a plan over transits needs the single-transit noise (--noise PPM or --noise-file FILE)")
+		return errors.New("plan: a plan over transits needs the single-transit noise (a level in ppm or a noise file)")
 	}
 	if len(p.NoisePPM) > 0 && p.NoiseFile != "" {
-		return errors.New("plan: noise levels and a noise file exclude each other; with a noise file, plan over --transits")
+		return errors.New("plan: noise levels and a noise file exclude each other; with a noise file, plan over numbers of transits")
 	}
 	if p.Steps < 0 || p.Budget < 0 {
 		return errors.New("plan: steps and budget must not be negative")
@@ -376,7 +380,7 @@ func openPlan(opt PlanOptions) (*PlanSpec, error) {
 		toml.NewEncoder(&a).Encode(stored)
 		toml.NewEncoder(&b).Encode(&spec)
 		if !bytes.Equal(a.Bytes(), b.Bytes()) {
-			return nil, fmt.Errorf("plan: %s holds a different plan (%s differs from this request: scenario, levels, bins, noise, seeds or stopping rule); resume it with chord plan -o %s alone, or choose another directory", opt.Dir, planPath, opt.Dir)
+			return nil, fmt.Errorf("plan: %s %w (%s differs from this request: scenario, levels, bins, noise, seeds or stopping rule)", opt.Dir, ErrOtherPlan, planPath)
 		}
 		return stored, nil
 	}

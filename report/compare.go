@@ -357,7 +357,7 @@ func ReadSummary(dir string) (*Summary, error) {
 	path := filepath.Join(dir, "summary.json")
 	b, err := os.ReadFile(path)
 	if err != nil {
-		return nil, fmt.Errorf("run %s: %w (make it with chord report %s)", dir, err, dir)
+		return nil, fmt.Errorf("run %s: %w", dir, err)
 	}
 	var s Summary
 	if err := json.Unmarshal(b, &s); err != nil {

@@ -340,7 +340,7 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 		if !allTau {
 			why = "the chain is too short for a reliable autocorrelation time"
 		}
-		s.Warnings = append(s.Warnings, "not converged: "+why+"; extend it with chord resume (--steps N or --until-converged) before trusting the intervals")
+		s.Warnings = append(s.Warnings, "not converged: "+why+"; extend the chain (resume the run with more steps, or until converged) before trusting the intervals")
 	}
 	return s, nil
 }

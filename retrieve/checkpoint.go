@@ -155,7 +155,7 @@ func ReadCheckpoint(path string) (*Checkpoint, error) {
 	}
 	c := new(Checkpoint)
 	if err := c.UnmarshalBinary(data); err != nil {
-		return nil, fmt.Errorf("checkpoint %s: %w; it is not used (no silent restart): restore it from a copy, or start the run again with chord fit --force", path, err)
+		return nil, fmt.Errorf("checkpoint %s: %w; it is not used (no silent restart): restore it from a copy, or start the run again", path, err)
 	}
 	return c, nil
 }

@@ -2,7 +2,9 @@ package retrieve
 
 import (
 	"context"
+	"errors"
 	"fmt"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
@@ -255,7 +257,7 @@ func TestRunBadInputs(t *testing.T) {
 	runDir := filepath.Join(dir, "run")
 	os.MkdirAll(runDir, 0o755)
 	os.WriteFile(filepath.Join(runDir, "notes.txt"), []byte("mine"), 0o644)
-	if _, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "not empty") || !strings.Contains(err.Error(), "--force") {
+	if _, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, DemoCache: testDemoCache(t)}); !errors.As(err, new(*NotEmptyError)) || !errors.Is(err, fs.ErrExist) {
 		t.Errorf("non-empty run directory: %v", err)
 	}
 	rep, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, Force: true, DemoCache: testDemoCache(t), Stop: config.StopRule{Steps: 6}})

@@ -9,6 +9,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
@@ -148,7 +149,7 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 		return nil, err
 	}
 	if ck.ConfigSHA256 != spec.ConfigSHA256 {
-		return nil, fmt.Errorf("%s: the checkpoint belongs to a run with configuration digest %s, the run's configuration and inputs now give %s: they changed since the run started; start a new run with chord fit instead", dir, short(ck.ConfigSHA256), short(spec.ConfigSHA256))
+		return nil, fmt.Errorf("%s: the checkpoint belongs to a run with configuration digest %s, the run's configuration and inputs now give %s: they changed since the run started; start a new run instead", dir, short(ck.ConfigSHA256), short(spec.ConfigSHA256))
 	}
 	if ck.Walkers != spec.Layout.Walkers || ck.Dim != spec.Layout.Dim {
 		return nil, fmt.Errorf("%s: the checkpoint holds %d walkers x %d parameters, the configuration gives %d x %d", dir, ck.Walkers, ck.Dim, spec.Layout.Walkers, spec.Layout.Dim)
@@ -413,14 +414,13 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 	out.Tau = res.Tau
 	if err != nil {
 		r.w.Abort()
-		safe := "no checkpoint was written"
-		if r.last != nil {
-			safe = fmt.Sprintf("the chain up to the last checkpoint (step %d) is intact; fix the cause and continue it with: chord resume %s", r.last.Step, r.dir)
+		if r.last == nil {
+			return out, fmt.Errorf("%w; no checkpoint was written", err)
 		}
-		return out, fmt.Errorf("%w; %s", err, safe)
+		return out, &StoppedError{Dir: r.dir, Step: r.last.Step, Err: err}
 	}
 	if err := r.checkpoint(st); err != nil {
-		return out, fmt.Errorf("%w; the chain up to step %d is intact: chord resume %s", err, r.last.Step, r.dir)
+		return out, &StoppedError{Dir: r.dir, Step: r.last.Step, Err: err}
 	}
 	out.Stop = res.Stop
 	out.Step = st.Step
@@ -905,6 +905,34 @@ type RunReport struct {
 // temporary files, atomicfile.TempPattern, too).
 var runEntries = []string{RunFile, chains.DirName, CheckpointFile, "summary.json", "summary.txt", "corner.png", "spectrum.png"}
 
+// StoppedError is the error of a session that stopped on an error after a
+// checkpoint: the chain up to the checkpoint's step is intact, and the run
+// can be resumed from it once the cause is fixed.
+type StoppedError struct {
+	Dir  string // the run directory
+	Step int    // the step of the last checkpoint
+	Err  error  // why the session stopped
+}
+
+func (e *StoppedError) Error() string {
+	return fmt.Sprintf("%v; the chain up to the last checkpoint (step %d) is intact", e.Err, e.Step)
+}
+
+func (e *StoppedError) Unwrap() error { return e.Err }
+
+// NotEmptyError refuses a new run in a directory that holds something
+// (FitOptions.Force replaces the run in it). It is an fs.ErrExist.
+type NotEmptyError struct {
+	Dir, Entry string // the directory and an entry in it
+}
+
+func (e *NotEmptyError) Error() string {
+	return fmt.Sprintf("run directory %s is not empty (it holds %s)", e.Dir, e.Entry)
+}
+
+// Is reports whether target is fs.ErrExist.
+func (e *NotEmptyError) Is(target error) bool { return target == fs.ErrExist }
+
 // checkRunDir refuses a non-empty dir unless force: a new run needs an
 // absent or empty directory.
 func checkRunDir(dir string, force bool) error {
@@ -916,7 +944,7 @@ func checkRunDir(dir string, force bool) error {
 		return err
 	}
 	if len(ents) > 0 && !force {
-		return fmt.Errorf("run directory %s is not empty (it holds %s): choose another, or pass --force to replace the run in it", dir, ents[0].Name())
+		return &NotEmptyError{Dir: dir, Entry: ents[0].Name()}
 	}
 	return nil
 }
@@ -954,7 +982,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	}
 	if opt.Seed != nil {
 		if *opt.Seed > math.MaxInt64 { // TOML integers are signed 64-bit
-			return nil, fmt.Errorf("--seed %d: must be below 2^63", *opt.Seed)
+			return nil, fmt.Errorf("seed %d: must be below 2^63", *opt.Seed)
 		}
 		r.Seed = *opt.Seed
 		s := int64(*opt.Seed)
@@ -963,7 +991,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	}
 	if opt.Workers != nil {
 		if *opt.Workers < 0 {
-			return nil, fmt.Errorf("--workers %d: must not be negative", *opt.Workers)
+			return nil, fmt.Errorf("workers %d: must not be negative", *opt.Workers)
 		}
 		r.Workers = *opt.Workers
 		w := r.Workers
@@ -993,7 +1021,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	set := opt.Opacity
 	if set == nil {
 		if set, err = r.Config.LoadOpacity(opt.DemoCache, log); err != nil {
-			return nil, fmt.Errorf("%s: %w", opt.ConfigPath, err)
+			return nil, config.InFile(opt.ConfigPath, err)
 		}
 	}
 	if set.Demo {
@@ -1002,7 +1030,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	runID := newRunID()
 	j, err := newJob(r, set, runID)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", opt.ConfigPath, err)
+		return nil, config.InFile(opt.ConfigPath, err)
 	}
 	cfgHash, err := fileSHA256(opt.ConfigPath)
 	if err != nil {
@@ -1074,12 +1102,12 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 	rf.Config.BaseDir = dir
 	r, err := rf.Config.Resolve()
 	if err != nil {
-		return nil, nil, fmt.Errorf("%s: %w", path, err)
+		return nil, nil, config.InFile(path, err)
 	}
 	log = logto.First(log)
 	if set == nil {
 		if set, err = r.Config.LoadOpacity(cache, log); err != nil {
-			return nil, nil, fmt.Errorf("%s: %w", path, err)
+			return nil, nil, config.InFile(path, err)
 		}
 	}
 	// After loading: loading the demo tables rebuilds them when their
@@ -1093,12 +1121,12 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 			return nil, nil, fmt.Errorf("%s: input %s of the run: %w", dir, in.Path, err)
 		}
 		if h != in.SHA256 {
-			return nil, nil, fmt.Errorf("%s: the %s file %s changed since the run started (SHA-256 %s, run.toml records %s): the chain cannot be continued or reported against it; restore the file, or start a new run with chord fit", dir, in.Role, in.Path, short(h), short(in.SHA256))
+			return nil, nil, fmt.Errorf("%s: the %s file %s changed since the run started (SHA-256 %s, run.toml records %s): the chain cannot be continued or reported against it; restore the file, or start a new run", dir, in.Role, in.Path, short(h), short(in.SHA256))
 		}
 	}
 	j, err := newJob(r, set, rf.Run.RunID)
 	if err != nil {
-		return nil, nil, fmt.Errorf("%s: %w", path, err)
+		return nil, nil, config.InFile(path, err)
 	}
 	return j, &rf.Run, nil
 }
@@ -1130,7 +1158,7 @@ func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, err
 	workers := j.res.Workers
 	if opt.Workers != nil {
 		if *opt.Workers < 0 {
-			return nil, fmt.Errorf("--workers %d: must not be negative", *opt.Workers)
+			return nil, fmt.Errorf("workers %d: must not be negative", *opt.Workers)
 		}
 		workers = *opt.Workers
 	}

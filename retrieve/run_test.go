@@ -274,7 +274,8 @@ func TestRunFullDisk(t *testing.T) {
 		t.Fatal(err)
 	}
 	_, err = r.sample(context.Background(), st, &RunOutcome{})
-	if !errors.Is(err, syscall.ENOSPC) || !strings.Contains(err.Error(), "last checkpoint (step 20) is intact") || !strings.Contains(err.Error(), "chord resume") {
+	var se *StoppedError
+	if !errors.Is(err, syscall.ENOSPC) || !errors.As(err, &se) || se.Step != 20 || se.Dir != dir {
 		t.Fatalf("error %v", err)
 	}
 	if _, err := ContinueRun(context.Background(), dir, gaussSpec(8, 42, 0), RunOptions{}); err != nil {

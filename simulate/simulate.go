@@ -101,7 +101,7 @@ func LoadScenario(path string) (*Scenario, error) {
 		return nil, fmt.Errorf("scenario %w", err)
 	}
 	if len(s.Config.Observations) > 0 {
-		return nil, fmt.Errorf("scenario %s: [[observations]] do not belong in a scenario: chord simulate makes the observation", path)
+		return nil, fmt.Errorf("scenario %s: [[observations]] do not belong in a scenario: its observations are simulated", path)
 	}
 	s.Config.BaseDir = filepath.Dir(path)
 	if err := s.Config.ModelConfig.Validate(); err != nil {

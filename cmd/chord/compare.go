@@ -1,7 +1,9 @@
 package main
 
 import (
+	"errors"
 	"fmt"
+	"io/fs"
 	"path/filepath"
 	"strings"
 
@@ -42,6 +44,9 @@ func runCompare(c *cli.Context) error {
 		return fmt.Errorf("compare: --plot %s: the plot is a PNG file; name it FILE.png", p)
 	}
 	cmp, err := campaign.CompareDirs(c.Args().Slice())
+	if errors.Is(err, fs.ErrNotExist) {
+		return fmt.Errorf("%w (chord report RUNDIR writes a run's summary)", err)
+	}
 	if err != nil {
 		return err
 	}

@@ -2,7 +2,9 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
+	"io/fs"
 	"os"
 	"os/signal"
 	"syscall"
@@ -113,11 +115,23 @@ func runFit(c *cli.Context) error {
 	return finishRun(c, rep, err)
 }
 
+// runAdvice adds to the error of a run what to do next with chord.
+func runAdvice(err error) error {
+	var se *retrieve.StoppedError
+	switch {
+	case errors.As(err, &se):
+		return fmt.Errorf("%w; fix the cause and continue it with: chord resume %s", err, se.Dir)
+	case errors.Is(err, fs.ErrExist):
+		return fmt.Errorf("%w: choose another directory with -o, or pass --force to replace it", err)
+	}
+	return err
+}
+
 // finishRun prints the end of a fit or resume and maps an interruption to
 // errInterrupted.
 func finishRun(c *cli.Context, rep *retrieve.RunReport, err error) error {
 	if err != nil {
-		return err
+		return runAdvice(err)
 	}
 	w := c.App.ErrWriter
 	out := rep.Outcome

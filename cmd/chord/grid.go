@@ -108,7 +108,7 @@ func runGrid(c *cli.Context) error {
 		g, err = campaign.OpenGrid(dir)
 	}
 	if err != nil {
-		return err
+		return gridAdvice(err, dir)
 	}
 	switch {
 	case c.Bool("local"):
@@ -192,7 +192,7 @@ func runGridPoint(c *cli.Context) error {
 	}
 	g, err := campaign.OpenGrid(c.Args().Get(0))
 	if err != nil {
-		return err
+		return gridAdvice(err, c.Args().Get(0))
 	}
 	i, err := strconv.Atoi(c.Args().Get(1))
 	if err != nil {
@@ -239,7 +239,19 @@ func oneGridDir(c *cli.Context, cmd string) (*campaign.Grid, error) {
 	if c.NArg() != 1 {
 		return nil, fmt.Errorf("grid %s: give one grid directory (got %d arguments)", cmd, c.NArg())
 	}
-	return campaign.OpenGrid(c.Args().First())
+	g, err := campaign.OpenGrid(c.Args().First())
+	return g, gridAdvice(err, c.Args().First())
+}
+
+// gridAdvice adds to a grid's error what to do next with chord.
+func gridAdvice(err error, dir string) error {
+	switch {
+	case errors.Is(err, campaign.ErrNoGrid):
+		return fmt.Errorf("%w: expand one with chord grid -c GRID.toml -o %s", err, dir)
+	case errors.Is(err, campaign.ErrNotDone):
+		return fmt.Errorf("%w; chord grid status %s lists them", err, dir)
+	}
+	return err
 }
 
 func runGridStatus(c *cli.Context) error {
@@ -293,7 +305,7 @@ func runGridCollect(c *cli.Context) error {
 	}
 	col, err := g.CollectGrid()
 	if err != nil {
-		return err
+		return gridAdvice(err, g.Dir)
 	}
 	fmt.Fprint(c.App.Writer, col.Table)
 	fmt.Fprintf(c.App.ErrWriter, "chord grid: summary.csv and summary.parquet (%d rows), comparison.txt and comparison.json written to %s\n", col.Rows, g.Dir)

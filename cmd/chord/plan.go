@@ -89,6 +89,14 @@ func runPlan(c *cli.Context) error {
 		} else if c.IsSet("noise") {
 			spec.NoisePPM = noise
 		}
+		switch {
+		case !c.IsSet("noise") && !c.IsSet("transits"):
+			return errors.New("plan: give the noise levels (--noise 30,60,120) or the numbers of transits (--transits 1,4,16)")
+		case c.IsSet("transits") && !c.IsSet("noise") && !c.IsSet("noise-file"):
+			return errors.New("plan: a plan over transits needs the single-transit noise (--noise PPM or --noise-file FILE)")
+		case !c.IsSet("transits") && c.IsSet("noise-file"):
+			return errors.New("plan: noise levels and a noise file exclude each other; with --noise-file, plan over --transits")
+		}
 		opt.Spec = spec
 	}
 	opt.Workers = flagIfSet(c, "workers", c.Int)
@@ -96,6 +104,9 @@ func runPlan(c *cli.Context) error {
 	defer cancel()
 	opt.Progress = prog
 	rep, err := campaign.RunPlan(ctx, opt)
+	if errors.Is(err, campaign.ErrOtherPlan) {
+		return fmt.Errorf("%w; resume it with chord plan -o %s alone, or choose another directory", err, opt.Dir)
+	}
 	if err != nil {
 		return err
 	}
