@@ -11,56 +11,22 @@ import (
 	"time"
 
 	"chord/config"
+	"chord/internal/testenv"
 	"chord/retrieve"
 
 	"github.com/parquet-go/parquet-go"
 )
 
-// gridScenario is a clear H2/He atmosphere of an invented sub-Neptune with
-// a grey cloud deck, Rayleigh scattering only (no table files), fitted for
-// radius and temperature: small and fast.
-const gridScenario = `
-[star]
-name = "Grid Test Star"
-radius_rsun = 0.5
-[planet]
-name = "Grid Test b"
-radius_rearth = 2.5
-mass_mearth = 6
-[atmosphere]
-layers = 30
-fill = "H2+He"
-[atmosphere.temperature]
-profile = "isothermal"
-temperature_k = 600
-[clouds]
-top_pressure_bar = 1.0
-[opacity]
-rayleigh = ["H2", "He"]
-[spectrum]
-wavelength_min_um = 0.8
-wavelength_max_um = 2.0
-resolving_power = 300
-bin_resolving_power = 20
-[[parameters]]
-sets = "radius_rearth"
-prior = "uniform"
-low = 2
-high = 3
-[[parameters]]
-sets = "temperature_k"
-prior = "uniform"
-low = 300
-high = 900
-[sampler]
-walkers = 8
-steps = 200
-`
+// gridScenario is the sub-Neptune fixture with a grey cloud deck at 1 bar
+// and a 200-step chain.
+func gridScenario(t testing.TB) *testenv.TOML {
+	return testenv.Fixture(t, "sub-neptune.toml").Set("clouds.top_pressure_bar", "1.0").Set("sampler.steps", "200")
+}
 
 func writeGridFiles(t *testing.T, grid string) string {
 	t.Helper()
 	dir := t.TempDir()
-	if err := os.WriteFile(filepath.Join(dir, "scenario.toml"), []byte(gridScenario), 0o644); err != nil {
+	if err := os.WriteFile(filepath.Join(dir, "scenario.toml"), []byte(gridScenario(t).String()), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	p := filepath.Join(dir, "grid.toml")
@@ -216,7 +182,7 @@ func TestGridBadInput(t *testing.T) {
 	// observations) is refused.
 	obs := filepath.Join(base, "obs.csv")
 	os.WriteFile(obs, []byte("wavelength_um,width_um,depth_ppm,error_ppm\n1.0,0.1,5000,50\n1.2,0.1,5010,50\n1.4,0.1,5005,50\n"), 0o644)
-	os.WriteFile(filepath.Join(base, "fit.toml"), []byte(gridScenario+"\n[[observations]]\nfile = \"obs.csv\"\n"), 0o644)
+	os.WriteFile(filepath.Join(base, "fit.toml"), []byte(gridScenario(t).Append("[[observations]]\nfile = \"obs.csv\"").String()), 0o644)
 	os.WriteFile(filepath.Join(base, "bad.toml"), []byte("base = \"fit.toml\"\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n"), 0o644)
 	if _, err := CreateGrid(filepath.Join(base, "bad.toml"), filepath.Join(t.TempDir(), "g"), GridOptions{}); err == nil || !strings.Contains(err.Error(), "need a scenario base") {
 		t.Errorf("observation axis on a retrieval base: %v", err)
@@ -233,7 +199,7 @@ func TestGridBadInput(t *testing.T) {
 		t.Errorf("different grid: %v", err)
 	}
 	// So is a grid whose base changed since.
-	os.WriteFile(filepath.Join(base, "scenario.toml"), []byte(strings.Replace(gridScenario, "temperature_k = 600", "temperature_k = 650", 1)), 0o644)
+	os.WriteFile(filepath.Join(base, "scenario.toml"), []byte(gridScenario(t).Set("atmosphere.temperature.temperature_k", "650").String()), 0o644)
 	if _, err := CreateGrid(spec, dir, GridOptions{}); err == nil || !strings.Contains(err.Error(), "holds a different grid") {
 		t.Errorf("changed base: %v", err)
 	}
@@ -393,10 +359,10 @@ func FuzzGridSpec(f *testing.F) {
 	f.Add("base = \"scenario.toml\"\n[[axis]]\nkey = \"observe.transits\"\nvalues = [1, 4]\n[[axis]]\nkey = \"sampler.seed\"\nvalues = [1, 2]\n")
 	f.Add("base = \"scenario.toml\"\n[[axis]]\nkey = \"opacity.cia\"\nvalues = [[\"H2-H2\"], []]\n")
 	dir := f.TempDir()
-	if err := os.WriteFile(filepath.Join(dir, "scenario.toml"), []byte(gridScenario), 0o644); err != nil {
+	if err := os.WriteFile(filepath.Join(dir, "scenario.toml"), []byte(gridScenario(f).String()), 0o644); err != nil {
 		f.Fatal(err)
 	}
-	baseText := []byte(gridScenario)
+	baseText := []byte(gridScenario(f).String())
 	f.Fuzz(func(t *testing.T, text string) {
 		p := filepath.Join(t.TempDir(), "grid.toml")
 		os.WriteFile(p, []byte(strings.ReplaceAll(text, "scenario.toml", filepath.Join(dir, "scenario.toml"))), 0o644)
@@ -426,7 +392,7 @@ func FuzzGridSpec(f *testing.F) {
 func TestGridOverRetrievalConfig(t *testing.T) {
 	dir := t.TempDir()
 	os.WriteFile(filepath.Join(dir, "obs.csv"), []byte("wavelength_um,width_um,depth_ppm,error_ppm\n1.0,0.1,5000,50\n1.2,0.1,5010,50\n1.4,0.1,5005,50\n"), 0o644)
-	fit := strings.Replace(gridScenario, "bin_resolving_power = 20\n", "", 1) + "\n[[observations]]\nfile = \"obs.csv\"\n"
+	fit := gridScenario(t).Delete("spectrum.bin_resolving_power").Append("[[observations]]\nfile = \"obs.csv\"").String()
 	os.WriteFile(filepath.Join(dir, "fit.toml"), []byte(fit), 0o644)
 	spec := filepath.Join(dir, "grid.toml")
 	os.WriteFile(spec, []byte("base = \"fit.toml\"\n[[axis]]\nkey = \"sampler.seed\"\nvalues = [11, 12]\n[[axis]]\nkey = \"atmosphere.layers\"\nvalues = [20, 40]\n"), 0o644)

@@ -18,15 +18,14 @@ import (
 	"chord/simulate"
 )
 
-// rayleighScenario is the grey-scenario.toml fixture without the grey absorber: a clear H2/He
+// rayleighScenario is the sub-neptune.toml fixture: a clear H2/He
 // atmosphere whose Rayleigh slope (-4 H per e-fold of wavelength;
 // Lecavelier des Etangs et al. 2008) fixes the temperature and whose level
 // fixes the radius, so both parameters are well constrained and nearly
 // linear in the data at tens of ppm.
 func rayleighScenario(t *testing.T, walkers, steps int) string {
-	s := strings.Replace(testenv.Fixture(t, "grey-scenario.toml"), "grey_cross_section_m2 = 1e-29\n", "", 1)
-	s = strings.Replace(s, "walkers = 8", "walkers = "+itoa(walkers), 1)
-	return strings.Replace(s, "steps = 50", "steps = "+itoa(steps), 1)
+	return testenv.Fixture(t, "sub-neptune.toml").Set("sampler.seed", "3").
+		Set("sampler.walkers", itoa(walkers)).Set("sampler.steps", itoa(steps)).String()
 }
 
 func itoa(n int) string { return strconv.Itoa(n) }
@@ -211,7 +210,7 @@ func TestPlanBadInput(t *testing.T) {
 		t.Fatal(err)
 	}
 	bad := filepath.Join(dir, "bad.toml")
-	if err := os.WriteFile(bad, []byte(testenv.Fixture(t, "grey-scenario.toml")+"\n[planet.orbit]\nperiod_days = 3\n"), 0o644); err != nil {
+	if err := os.WriteFile(bad, []byte(testenv.Fixture(t, "sub-neptune.toml").Set("planet.orbit.period_days", "3").String()), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	for i, c := range []struct {

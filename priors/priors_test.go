@@ -20,14 +20,6 @@ type dist interface {
 	Variance() float64
 }
 
-var (
-	_ dist = Uniform{}
-	_ dist = LogUniform{}
-	_ dist = Normal{}
-	_ dist = TruncatedNormal{}
-	_ dist = Fixed{}
-)
-
 // must returns p, panicking on a constructor error (test definitions are
 // all valid).
 func must[T any](p T, err error) T {

@@ -17,65 +17,9 @@ import (
 	"chord/simulate"
 )
 
-// A small scenario for fits in tests: the demo's Ossery b with a coarse
-// model (20 layers, R = 120) and coarse bins (R = 20, 43 bins), four free
-// parameters.
-const smallTruth = `
-[star]
-name = "Ossery"
-radius_rsun = 0.42
-[planet]
-name = "Ossery b"
-radius_rearth = 2.45
-mass_mearth = 6.8
-[atmosphere]
-top_pressure_bar = 1e-6
-bottom_pressure_bar = 10
-layers = 20
-[atmosphere.gases]
-H2O = 3e-3
-CH4 = 1e-3
-CO2 = 1e-4
-[atmosphere.temperature]
-profile = "isothermal"
-temperature_k = 520
-[clouds]
-haze_factor = 100
-[opacity]
-demo = true
-cia = ["H2-H2", "H2-He"]
-rayleigh = ["H2", "He"]
-[spectrum]
-wavelength_min_um = 0.6
-wavelength_max_um = 5.2
-resolving_power = 120
-bin_resolving_power = 20
-`
-
-// smallFit is the retrieval configuration of smallTruth (%d: steps, %d: seed).
-const smallFit = `
-[star]
-radius_rsun = 0.42
-[planet]
-mass_mearth = 6.8
-[atmosphere]
-top_pressure_bar = 1e-6
-bottom_pressure_bar = 10
-layers = 20
-[atmosphere.gases]
-CO2 = 1e-4
-[atmosphere.temperature]
-profile = "isothermal"
-[clouds]
-haze_factor = 100
-[opacity]
-demo = true
-cia = ["H2-H2", "H2-He"]
-rayleigh = ["H2", "He"]
-[spectrum]
-wavelength_min_um = 0.6
-wavelength_max_um = 5.2
-resolving_power = 120
+// smallParameters are the small scenario's free parameters and sampler
+// settings (%d: steps, %d: seed).
+const smallParameters = `
 [[observations]]
 file = "obs.csv"
 [[parameters]]
@@ -157,22 +101,19 @@ func chi2At(t *testing.T, p *Problem, x []float64) (chi2, n float64) {
 // returns the configuration's path.
 func setupSmall(t *testing.T, dir string, steps int, seed uint64, noisy bool) string {
 	t.Helper()
-	truthPath := filepath.Join(dir, "truth.toml")
-	if err := os.WriteFile(truthPath, []byte(smallTruth), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	truth, err := config.LoadModel(truthPath)
+	truth, err := config.LoadModel(testenv.Fixture(t, "ossery-small.toml").Write(filepath.Join(dir, "truth.toml")))
 	if err != nil {
 		t.Fatal(err)
 	}
 	if err := simulate.ObserveModel(filepath.Join(dir, "obs.csv"), truth, testDemoCache(t), nil, 35, noisy, seed); err != nil {
 		t.Fatal(err)
 	}
-	cfg := filepath.Join(dir, "fit.toml")
-	if err := os.WriteFile(cfg, []byte(fmt.Sprintf(smallFit, steps, seed)), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	return cfg
+	// The retrieval configuration: the truth without the values of the four
+	// free parameters and without bins (the observation's are used).
+	return testenv.Fixture(t, "ossery-small.toml").Delete("star.name").Delete("planet.name").
+		Delete("planet.radius_rearth").Delete("atmosphere.gases.H2O").Delete("atmosphere.gases.CH4").
+		Delete("atmosphere.temperature.temperature_k").Delete("spectrum.bin_resolving_power").
+		Append(fmt.Sprintf(smallParameters, steps, seed)).Write(filepath.Join(dir, "fit.toml"))
 }
 
 // Injection and recovery: observations simulated from known parameters

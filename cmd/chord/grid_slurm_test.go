@@ -18,42 +18,6 @@ import (
 	"chord/internal/testenv"
 )
 
-// slurmScenario is a small clear H2/He sub-Neptune (invented) fitted for
-// radius and temperature, with enough steps that a fit takes some seconds.
-const slurmScenario = `
-[star]
-radius_rsun = 0.5
-[planet]
-name = "Slurm Test b"
-radius_rearth = 2.5
-mass_mearth = 6
-[atmosphere]
-layers = 30
-fill = "H2+He"
-[atmosphere.temperature]
-profile = "isothermal"
-temperature_k = 600
-[opacity]
-rayleigh = ["H2", "He"]
-[spectrum]
-wavelength_min_um = 0.8
-wavelength_max_um = 2.0
-resolving_power = 300
-bin_resolving_power = 20
-[[parameters]]
-sets = "radius_rearth"
-prior = "uniform"
-low = 2
-high = 3
-[[parameters]]
-sets = "temperature_k"
-prior = "uniform"
-low = 300
-high = 900
-[sampler]
-walkers = 8
-`
-
 const slurmGrid = `
 base = "scenario.toml"
 seed = 7
@@ -131,7 +95,7 @@ func TestGridOnSlurm(t *testing.T) {
 	}
 	tmp := t.TempDir()
 	exe := testenv.BuildChord(t)
-	os.WriteFile(filepath.Join(tmp, "scenario.toml"), []byte(slurmScenario), 0o644)
+	os.WriteFile(filepath.Join(tmp, "scenario.toml"), []byte(testenv.Fixture(t, "sub-neptune.toml").String()), 0o644)
 	spec := filepath.Join(tmp, "grid.toml")
 	os.WriteFile(spec, []byte(slurmGrid), 0o644)
 

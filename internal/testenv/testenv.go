@@ -143,15 +143,3 @@ func ParquetRows(t testing.TB, pattern string) ([]string, []map[string]any) {
 	}
 	return cols, rows
 }
-
-// Fixture returns the text of the test fixture testdata/fixtures/name of
-// the repository (small configurations and scenarios that tests in several
-// packages share).
-func Fixture(t testing.TB, name string) string {
-	t.Helper()
-	b, err := os.ReadFile(filepath.Join(RepoRoot(t), "testdata", "fixtures", name))
-	if err != nil {
-		t.Fatal(err)
-	}
-	return string(b)
-}
