@@ -281,6 +281,23 @@ func resolveGrid(specPath string, s *GridSpec) (*gridIdentity, *config.Config, [
 	if s.Seed != nil && *s.Seed < 0 {
 		return nil, nil, nil, where("seed %d: must not be negative", *s.Seed)
 	}
+	if err := id.resolveObserve(abs); err != nil {
+		return nil, nil, nil, where("%v", err)
+	}
+	probe, err := id.resolveSet(s.Set)
+	if err != nil {
+		return nil, nil, nil, where("%v", err)
+	}
+	if err := id.checkAxes(s.Axes, probe); err != nil {
+		return nil, nil, nil, where("%v", err)
+	}
+	id.Axes = s.Axes
+	return id, base, text, nil
+}
+
+// resolveObserve makes [observe]'s files absolute (abs) and records their
+// digests, and checks that it goes with the base.
+func (id *gridIdentity) resolveObserve(abs func(string) string) error {
 	o := &id.Observe
 	o.BinsFile, o.NoiseFile = abs(o.BinsFile), abs(o.NoiseFile)
 	for _, f := range []struct{ role, path string }{{"bins", o.BinsFile}, {"noise", o.NoiseFile}} {
@@ -289,84 +306,95 @@ func resolveGrid(specPath string, s *GridSpec) (*gridIdentity, *config.Config, [
 		}
 		h, _, err := filehash.File(f.path)
 		if err != nil {
-			return nil, nil, nil, where("observe: %v", err)
+			return fmt.Errorf("observe: %v", err)
 		}
 		id.Inputs = append(id.Inputs, retrieve.InputFile{Role: f.role, Path: f.path, SHA256: h})
 	}
 	if id.Kind == "retrieval" && !reflect.ValueOf(*o).IsZero() {
-		return nil, nil, nil, where("[observe]: the base %s is a retrieval configuration with [[observations]]; [observe] belongs to grids over a scenario", id.Base)
+		return fmt.Errorf("[observe]: the base %s is a retrieval configuration with [[observations]]; [observe] belongs to grids over a scenario", id.Base)
 	}
 	if len(o.WavelengthRangeUm) != 0 && len(o.WavelengthRangeUm) != 2 {
-		return nil, nil, nil, where("observe.wavelength_range_um: give [low, high] in um")
+		return fmt.Errorf("observe.wavelength_range_um: give [low, high] in um")
 	}
-	id.Set = flattenSet("", s.Set, nil)
+	return nil
+}
+
+// resolveSet records [set] as sorted key paths and checks each on an empty
+// configuration, which it returns for the axes' checks.
+func (id *gridIdentity) resolveSet(set map[string]any) (*config.Config, error) {
+	id.Set = flattenSet("", set, nil)
 	probe := &config.Config{}
 	for _, st := range id.Set {
 		if strings.HasPrefix(st.Key, "observe.") {
-			return nil, nil, nil, where("set.%s: give observation settings in [observe]", st.Key)
+			return nil, fmt.Errorf("set.%s: give observation settings in [observe]", st.Key)
 		}
 		if err := setConfigKey(probe, st.Key, st.Value); err != nil {
-			return nil, nil, nil, where("set: %v", err)
+			return nil, fmt.Errorf("set: %v", err)
 		}
 	}
-	if len(s.Axes) == 0 {
-		return nil, nil, nil, where("no [[axis]]: give at least one axis (key and values)")
+	return probe, nil
+}
+
+// checkAxes checks the axes: keys, values (one kind, none twice, each
+// settable on probe or an observation setting) and the number of points.
+func (id *gridIdentity) checkAxes(axes []GridAxis, probe *config.Config) error {
+	if len(axes) == 0 {
+		return fmt.Errorf("no [[axis]]: give at least one axis (key and values)")
 	}
 	seen := map[string]bool{}
-	for i, a := range s.Axes {
+	for i, a := range axes {
 		at := fmt.Sprintf("axis[%d] (key %q)", i, a.Key)
 		if a.Key == "" {
-			return nil, nil, nil, where("axis[%d]: no key", i)
+			return fmt.Errorf("axis[%d]: no key", i)
 		}
 		if seen[a.Key] {
-			return nil, nil, nil, where("%s: the key has two axes", at)
+			return fmt.Errorf("%s: the key has two axes", at)
 		}
 		seen[a.Key] = true
 		if len(a.Values) == 0 {
-			return nil, nil, nil, where("%s: empty axis: give at least one value", at)
+			return fmt.Errorf("%s: empty axis: give at least one value", at)
 		}
 		if err := sameKind(a.Values); err != nil {
-			return nil, nil, nil, where("%s: %v", at, err)
+			return fmt.Errorf("%s: %v", at, err)
 		}
 		vals := map[string]bool{}
 		for _, v := range a.Values {
 			f := table.FormatValue(v)
 			if vals[f] {
-				return nil, nil, nil, where("%s: value %s is given twice", at, f)
+				return fmt.Errorf("%s: value %s is given twice", at, f)
 			}
 			vals[f] = true
 		}
 		if strings.HasPrefix(a.Key, "observe.") {
 			if id.Kind != "scenario" {
-				return nil, nil, nil, where("%s: observation axes need a scenario base (%s has [[observations]])", at, id.Base)
+				return fmt.Errorf("%s: observation axes need a scenario base (%s has [[observations]])", at, id.Base)
 			}
 			if err := checkObserveAxis(a); err != nil {
-				return nil, nil, nil, where("%s: %v", at, err)
+				return fmt.Errorf("%s: %v", at, err)
 			}
 			continue
 		}
 		for _, st := range id.Set {
 			if st.Key == a.Key {
-				return nil, nil, nil, where("%s: also fixed in [set]", at)
+				return fmt.Errorf("%s: also fixed in [set]", at)
 			}
 		}
 		for _, v := range a.Values {
 			if err := setConfigKey(probe, a.Key, v); err != nil {
-				return nil, nil, nil, where("%s: %v", at, err)
+				return fmt.Errorf("%s: %v", at, err)
 			}
 		}
 	}
 	n := 1
-	for _, a := range s.Axes {
+	for _, a := range axes {
 		if n *= len(a.Values); n > MaxGridPoints {
-			return nil, nil, nil, where("more than %d points: split the grid", MaxGridPoints)
+			return fmt.Errorf("more than %d points: split the grid", MaxGridPoints)
 		}
 	}
 	if seen[AxisNoisePPM] && seen[AxisTransits] {
-		return nil, nil, nil, where("axes %s and %s: vary the noise one way", AxisNoisePPM, AxisTransits)
+		return fmt.Errorf("axes %s and %s: vary the noise one way", AxisNoisePPM, AxisTransits)
 	}
-	id.Axes = s.Axes
-	return id, base, text, nil
+	return nil
 }
 
 func checkObserveAxis(a GridAxis) error {

@@ -59,6 +59,33 @@ func (g *Grid) CollectGrid() (*GridCollection, error) {
 	if len(missing) > 0 {
 		return nil, fmt.Errorf("grid: collect: %d of %d %w: %s", len(missing), len(g.Points), ErrNotDone, strings.Join(missing, ", "))
 	}
+	runs, n, err := g.writeSummaryTable()
+	if err != nil {
+		return nil, err
+	}
+	out := &GridCollection{Rows: n, Groups: g.noiseGroups()}
+	txt, js, err := g.compareGroups(out.Groups, runs)
+	if err != nil {
+		return nil, err
+	}
+	out.Table = string(txt)
+	jb, err := json.MarshalIndent(js, "", "  ")
+	if err != nil {
+		return nil, err
+	}
+	if err := atomicfile.Write(filepath.Join(g.Dir, "comparison.txt"), txt, true); err != nil {
+		return nil, err
+	}
+	if err := atomicfile.Write(filepath.Join(g.Dir, "comparison.json"), append(jb, '\n'), true); err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+// writeSummaryTable writes summary.csv and summary.parquet, one row per
+// point and parameter, and returns the points' summaries for comparison
+// and the number of rows.
+func (g *Grid) writeSummaryTable() ([]report.CompareRun, int, error) {
 	cols := append([]table.Column{{Name: "point", Kind: 'i'}, {Name: "dir", Kind: 's'}}, g.axisCols()...)
 	cols = append(cols, []table.Column{{Name: "noise_ppm", Kind: 'f'}, {Name: "steps", Kind: 'i'}, {Name: "samples", Kind: 'i'}, {Name: "converged", Kind: 'b'},
 		{Name: "parameter", Kind: 's'}, {Name: "unit", Kind: 's'}, {Name: "median", Kind: 'f'}, {Name: "p16", Kind: 'f'}, {Name: "p84", Kind: 'f'}, {Name: "p2_5", Kind: 'f'}, {Name: "p97_5", Kind: 'f'},
@@ -69,11 +96,11 @@ func (g *Grid) CollectGrid() (*GridCollection, error) {
 	for i, p := range g.Points {
 		s, err := report.ReadSummary(g.RunDir(i))
 		if err != nil {
-			return nil, err
+			return nil, 0, err
 		}
 		noise, err := retrieve.RunNoisePPM(g.RunDir(i))
 		if err != nil {
-			return nil, err
+			return nil, 0, err
 		}
 		runs[i] = report.CompareRun{Label: p.Name, NoisePPM: noise, Summary: s}
 		for _, c := range s.Parameters {
@@ -90,10 +117,16 @@ func (g *Grid) CollectGrid() (*GridCollection, error) {
 		}
 	}
 	if err := table.Write(g.Dir, "summary", cols, rows, map[string]string{"chord.grid_identity": g.rec.Identity}); err != nil {
-		return nil, err
+		return nil, 0, err
 	}
-	out := &GridCollection{Rows: len(rows)}
-	// Groups: points equal in every axis but the noise axis.
+	return runs, len(rows), nil
+}
+
+// noiseGroups groups the points that differ only in their noise axis
+// (observe.noise_ppm or observe.transits), one group per combination of
+// the other axes; without a noise axis every point is in one group.
+func (g *Grid) noiseGroups() []GridGroup {
+	var groups []GridGroup
 	noiseAxis := -1
 	for k, a := range g.rec.Axes {
 		if a.Key == AxisNoisePPM || a.Key == AxisTransits {
@@ -111,21 +144,30 @@ func (g *Grid) CollectGrid() (*GridCollection, error) {
 		key := strings.Join(fixed, " ")
 		gi, ok := index[key]
 		if !ok {
-			gi = len(out.Groups)
+			gi = len(groups)
 			index[key] = gi
-			out.Groups = append(out.Groups, GridGroup{Fixed: key})
+			groups = append(groups, GridGroup{Fixed: key})
 		}
-		out.Groups[gi].Points = append(out.Groups[gi].Points, i)
+		groups[gi].Points = append(groups[gi].Points, i)
 	}
+	return groups
+}
+
+// jsonGroup is one group of comparison.json.
+type jsonGroup struct {
+	Fixed      string             `json:"fixed,omitempty"`
+	Points     []int              `json:"points"`
+	Comparison *report.Comparison `json:"comparison"`
+}
+
+// compareGroups compares the points of each group (runs: every point's
+// summary), draws the widths plots and returns the comparisons as text
+// and as JSON values.
+func (g *Grid) compareGroups(groups []GridGroup, runs []report.CompareRun) ([]byte, []jsonGroup, error) {
 	var txt bytes.Buffer
-	type jsonGroup struct {
-		Fixed      string             `json:"fixed,omitempty"`
-		Points     []int              `json:"points"`
-		Comparison *report.Comparison `json:"comparison"`
-	}
 	var js []jsonGroup
-	for gi := range out.Groups {
-		gr := &out.Groups[gi]
+	for gi := range groups {
+		gr := &groups[gi]
 		rs := make([]report.CompareRun, len(gr.Points))
 		for j, i := range gr.Points {
 			rs[j] = runs[i]
@@ -133,38 +175,27 @@ func (g *Grid) CollectGrid() (*GridCollection, error) {
 		}
 		c, err := report.Compare(rs)
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		gr.Comparison = c
-		if len(out.Groups) > 1 {
+		if len(groups) > 1 {
 			fmt.Fprintf(&txt, "== group %d: %s\n", gi+1, gr.Fixed)
 		}
 		if err := c.WriteTable(&txt); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		txt.WriteString("\n")
 		js = append(js, jsonGroup{Fixed: gr.Fixed, Points: gr.Points, Comparison: c})
 		if distinctNoise(rs) {
 			name := "widths.png"
-			if len(out.Groups) > 1 {
+			if len(groups) > 1 {
 				name = fmt.Sprintf("widths-g%02d.png", gi+1)
 			}
 			gr.Plot = filepath.Join(g.Dir, name)
 			if err := c.WritePlot(gr.Plot); err != nil {
-				return nil, err
+				return nil, nil, err
 			}
 		}
 	}
-	out.Table = txt.String()
-	jb, err := json.MarshalIndent(js, "", "  ")
-	if err != nil {
-		return nil, err
-	}
-	if err := atomicfile.Write(filepath.Join(g.Dir, "comparison.txt"), txt.Bytes(), true); err != nil {
-		return nil, err
-	}
-	if err := atomicfile.Write(filepath.Join(g.Dir, "comparison.json"), append(jb, '\n'), true); err != nil {
-		return nil, err
-	}
-	return out, nil
+	return txt.Bytes(), js, nil
 }

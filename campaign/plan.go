@@ -16,6 +16,7 @@ import (
 	"github.com/BurntSushi/toml"
 
 	"chord/config"
+	"chord/forward/opacity"
 	"chord/internal/atomicfile"
 	"chord/internal/logto"
 	"chord/internal/version"
@@ -208,23 +209,9 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 	}
 	sc.Config.BaseDir = spec.ScenarioDir
 	// Everything a level needs is checked before the first fit.
-	type level struct {
-		name, dir, obs, cfg, run string
-		obsSpec                  simulate.ObservingSpec
-		sim                      simulate.Options
-	}
-	ospec, axis := spec.grid()
-	points := expandAxes([]GridAxis{axis})
-	lv := make([]level, len(points))
-	for i := range lv {
-		l := &lv[i]
-		l.name = spec.levelName(i)
-		l.dir = filepath.Join(opt.Dir, l.name)
-		l.obs, l.cfg, l.run = filepath.Join(l.dir, "observation.csv"), filepath.Join(l.dir, "fit.toml"), filepath.Join(l.dir, "run")
-		l.obsSpec, l.sim = observePoint(ospec, []GridAxis{axis}, points[i])
-		if _, _, err := l.obsSpec.Resolve(sc); err != nil {
-			return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
-		}
+	lv, err := planLevels(opt.Dir, spec, sc)
+	if err != nil {
+		return nil, err
 	}
 	set, err := sc.Config.ModelConfig.LoadOpacity(opt.DemoCache, log)
 	if err != nil {
@@ -236,22 +223,8 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 	// Observations and fit configurations (cheap; written once, checked
 	// when they exist).
 	for i := range lv {
-		l := &lv[i]
-		if err := os.MkdirAll(l.dir, 0o755); err != nil {
+		if err := lv[i].write(opt.Dir, sc, set); err != nil {
 			return nil, err
-		}
-		o, fc, err := simulatePoint(sc, set, l.obsSpec, l.sim, l.obs)
-		if err != nil {
-			return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
-		}
-		if err := keepOrWriteObservation(l.obs, o); err != nil {
-			return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
-		}
-		hdr := []string{fmt.Sprintf("Retrieval configuration of plan %s, level %s (chord %s).", opt.Dir, l.name, version.Version)}
-		if _, err := os.Stat(l.cfg); errors.Is(err, os.ErrNotExist) {
-			if err := config.Write(l.cfg, fc, hdr, false); err != nil {
-				return nil, err
-			}
 		}
 	}
 	rep := &PlanReport{Dir: opt.Dir}
@@ -271,37 +244,89 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 			return rep, nil
 		}
 	}
+	if err := rep.compare(log); err != nil {
+		return nil, err
+	}
+	return rep, nil
+}
+
+// planLevel is one level of a plan: its files and how it is observed.
+type planLevel struct {
+	name, dir, obs, cfg, run string
+	obsSpec                  simulate.ObservingSpec
+	sim                      simulate.Options
+}
+
+// planLevels lays out the levels of spec in dir and checks that each can
+// be observed.
+func planLevels(dir string, spec *PlanSpec, sc *simulate.Scenario) ([]planLevel, error) {
+	ospec, axis := spec.grid()
+	points := expandAxes([]GridAxis{axis})
+	lv := make([]planLevel, len(points))
+	for i := range lv {
+		l := &lv[i]
+		l.name = spec.levelName(i)
+		l.dir = filepath.Join(dir, l.name)
+		l.obs, l.cfg, l.run = filepath.Join(l.dir, "observation.csv"), filepath.Join(l.dir, "fit.toml"), filepath.Join(l.dir, "run")
+		l.obsSpec, l.sim = observePoint(ospec, []GridAxis{axis}, points[i])
+		if _, _, err := l.obsSpec.Resolve(sc); err != nil {
+			return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
+		}
+	}
+	return lv, nil
+}
+
+// write simulates the level's observation and writes it with its fit
+// configuration, or checks the observation a resumed plan wrote before.
+func (l *planLevel) write(planDir string, sc *simulate.Scenario, set *opacity.Set) error {
+	if err := os.MkdirAll(l.dir, 0o755); err != nil {
+		return err
+	}
+	o, fc, err := simulatePoint(sc, set, l.obsSpec, l.sim, l.obs)
+	if err != nil {
+		return fmt.Errorf("plan: level %s: %w", l.name, err)
+	}
+	if err := keepOrWriteObservation(l.obs, o); err != nil {
+		return fmt.Errorf("plan: level %s: %w", l.name, err)
+	}
+	hdr := []string{fmt.Sprintf("Retrieval configuration of plan %s, level %s (chord %s).", planDir, l.name, version.Version)}
+	if _, err := os.Stat(l.cfg); errors.Is(err, os.ErrNotExist) {
+		return config.Write(l.cfg, fc, hdr, false)
+	}
+	return nil
+}
+
+// compare compares the levels' posterior widths and writes
+// comparison.txt, comparison.json and, when the noise differs, widths.png.
+func (rep *PlanReport) compare(log io.Writer) error {
 	runs := make([]report.CompareRun, len(rep.Levels))
 	for i, l := range rep.Levels {
 		runs[i] = report.CompareRun{Label: l.Name, NoisePPM: l.NoisePPM, Summary: l.Report.Summary}
 	}
 	c, err := report.Compare(runs)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	rep.Comparison = c
 	var txt, js bytes.Buffer
 	if err := c.WriteTable(&txt); err != nil {
-		return nil, err
+		return err
 	}
 	if err := c.WriteJSON(&js); err != nil {
-		return nil, err
+		return err
 	}
 	rep.Table = txt.String()
-	if err := atomicfile.Write(filepath.Join(opt.Dir, "comparison.txt"), txt.Bytes(), true); err != nil {
-		return nil, err
+	if err := atomicfile.Write(filepath.Join(rep.Dir, "comparison.txt"), txt.Bytes(), true); err != nil {
+		return err
 	}
-	if err := atomicfile.Write(filepath.Join(opt.Dir, "comparison.json"), js.Bytes(), true); err != nil {
-		return nil, err
+	if err := atomicfile.Write(filepath.Join(rep.Dir, "comparison.json"), js.Bytes(), true); err != nil {
+		return err
 	}
-	if distinctNoise(runs) {
-		if err := c.WritePlot(filepath.Join(opt.Dir, "widths.png")); err != nil {
-			return nil, err
-		}
-	} else {
+	if !distinctNoise(runs) {
 		fmt.Fprintln(log, "chord plan: every level has the same noise: no widths.png")
+		return nil
 	}
-	return rep, nil
+	return c.WritePlot(filepath.Join(rep.Dir, "widths.png"))
 }
 
 func distinctNoise(runs []report.CompareRun) bool {

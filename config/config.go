@@ -403,60 +403,11 @@ func (r *Resolved) resolveParams(c *Config, full *Config) error {
 	bySets := map[string]string{}
 	for i, pc := range c.Parameters {
 		key := fmt.Sprintf("parameters[%d]", i+1)
-		q := Quantity(pc.Sets)
-		if pc.Sets == "" {
-			return missingKey(key+".sets", "the quantity the parameter sets: "+quantityNames())
+		p, target, err := r.bindParam(key, pc, c, full)
+		if err != nil {
+			return err
 		}
-		known := false
-		for _, k := range Quantities {
-			known = known || k == q
-		}
-		if q == QCLR {
-			return keyErr(key+".sets", "centred-log-ratio coordinates are not set by [[parameters]]: give [composition] prior = \"clr\" with its gases")
-		}
-		if !known {
-			return keyErr(key+".sets", "unknown quantity %q (known: %s)", pc.Sets, quantityNames())
-		}
-		p := Param{Sets: q, Dataset: -1, Key: key}
-		target := ""
-		switch q {
-		case QLog10VMR:
-			if pc.Gas == "" {
-				return missingKey(key+".gas", "the gas whose log10 mixing ratio it sets")
-			}
-			if _, err := forward.MolecularMass(pc.Gas); err != nil {
-				return keyErr(key+".gas", "unknown gas %q (known: %s)", pc.Gas, strings.Join(forward.KnownGases(), ", "))
-			}
-			for _, f := range c.fillSpecies() {
-				if f == pc.Gas {
-					return keyErr(key+".gas", "%q is the fill gas (%s), which makes up the rest; it has no free mixing ratio", pc.Gas, c.fillName())
-				}
-			}
-			p.Gas, target = pc.Gas, pc.Gas
-			if _, ok := full.Atmosphere.Gases[pc.Gas]; !ok {
-				full.Atmosphere.Gases[pc.Gas] = 0 // set by the parameter
-			}
-		case QOffsetPPM, QErrorInflationPM:
-			switch {
-			case pc.Dataset != "":
-				if p.Dataset = r.datasetIndex(pc.Dataset); p.Dataset < 0 {
-					return keyErr(key+".dataset", "no observations named %q (%s)", pc.Dataset, r.datasetNames())
-				}
-			case len(r.Datasets) == 1:
-				p.Dataset = 0
-			case q == QOffsetPPM:
-				return missingKey(key+".dataset", "which observations the offset shifts: "+r.datasetNames())
-			}
-			if p.Dataset >= 0 {
-				target = r.Datasets[p.Dataset].Name
-			}
-		}
-		if pc.Gas != "" && q != QLog10VMR {
-			return keyErr(key+".gas", "applies only to %s parameters, not %s", QLog10VMR, q)
-		}
-		if pc.Dataset != "" && q != QOffsetPPM && q != QErrorInflationPM {
-			return keyErr(key+".dataset", "applies only to %s and %s parameters, not %s", QOffsetPPM, QErrorInflationPM, q)
-		}
+		q := p.Sets
 		p.Name = pc.Name
 		if p.Name == "" {
 			p.Name = string(q)
@@ -509,6 +460,67 @@ func (r *Resolved) resolveParams(c *Config, full *Config) error {
 		}
 	}
 	return nil
+}
+
+// bindParam checks what parameters[i] (key) sets: its quantity and the gas
+// or data set it applies to (target, "" for none); a gas not in the
+// atmosphere joins full's trace gases.
+func (r *Resolved) bindParam(key string, pc ParameterConfig, c *Config, full *Config) (Param, string, error) {
+	q := Quantity(pc.Sets)
+	if pc.Sets == "" {
+		return Param{}, "", missingKey(key+".sets", "the quantity the parameter sets: "+quantityNames())
+	}
+	known := false
+	for _, k := range Quantities {
+		known = known || k == q
+	}
+	if q == QCLR {
+		return Param{}, "", keyErr(key+".sets", "centred-log-ratio coordinates are not set by [[parameters]]: give [composition] prior = \"clr\" with its gases")
+	}
+	if !known {
+		return Param{}, "", keyErr(key+".sets", "unknown quantity %q (known: %s)", pc.Sets, quantityNames())
+	}
+	p := Param{Sets: q, Dataset: -1, Key: key}
+	target := ""
+	switch q {
+	case QLog10VMR:
+		if pc.Gas == "" {
+			return Param{}, "", missingKey(key+".gas", "the gas whose log10 mixing ratio it sets")
+		}
+		if _, err := forward.MolecularMass(pc.Gas); err != nil {
+			return Param{}, "", keyErr(key+".gas", "unknown gas %q (known: %s)", pc.Gas, strings.Join(forward.KnownGases(), ", "))
+		}
+		for _, f := range c.fillSpecies() {
+			if f == pc.Gas {
+				return Param{}, "", keyErr(key+".gas", "%q is the fill gas (%s), which makes up the rest; it has no free mixing ratio", pc.Gas, c.fillName())
+			}
+		}
+		p.Gas, target = pc.Gas, pc.Gas
+		if _, ok := full.Atmosphere.Gases[pc.Gas]; !ok {
+			full.Atmosphere.Gases[pc.Gas] = 0 // set by the parameter
+		}
+	case QOffsetPPM, QErrorInflationPM:
+		switch {
+		case pc.Dataset != "":
+			if p.Dataset = r.datasetIndex(pc.Dataset); p.Dataset < 0 {
+				return Param{}, "", keyErr(key+".dataset", "no observations named %q (%s)", pc.Dataset, r.datasetNames())
+			}
+		case len(r.Datasets) == 1:
+			p.Dataset = 0
+		case q == QOffsetPPM:
+			return Param{}, "", missingKey(key+".dataset", "which observations the offset shifts: "+r.datasetNames())
+		}
+		if p.Dataset >= 0 {
+			target = r.Datasets[p.Dataset].Name
+		}
+	}
+	if pc.Gas != "" && q != QLog10VMR {
+		return Param{}, "", keyErr(key+".gas", "applies only to %s parameters, not %s", QLog10VMR, q)
+	}
+	if pc.Dataset != "" && q != QOffsetPPM && q != QErrorInflationPM {
+		return Param{}, "", keyErr(key+".dataset", "applies only to %s and %s parameters, not %s", QOffsetPPM, QErrorInflationPM, q)
+	}
+	return p, target, nil
 }
 
 func forTarget(t string) string {

@@ -307,6 +307,16 @@ func orDefault[T any](v *T, d T) *T {
 // tables: required keys present, values in range, one way of giving each
 // quantity. Errors name the key.
 func (c *ModelConfig) Validate() error {
+	for _, check := range []func() error{c.checkBodies, c.checkPositive, c.checkAtmosphere, c.checkClouds, c.checkOpacity, c.checkSpectrum} {
+		if err := check(); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// checkBodies checks the star's radius and the planet's radius and mass.
+func (c *ModelConfig) checkBodies() error {
 	if _, err := c.starRadius(); err != nil {
 		return err
 	}
@@ -316,6 +326,11 @@ func (c *ModelConfig) Validate() error {
 	if _, err := c.planetMass(); err != nil {
 		return err
 	}
+	return nil
+}
+
+// checkPositive checks the keys that must be positive when given.
+func (c *ModelConfig) checkPositive() error {
 	a := &c.Atmosphere
 	for _, kv := range []struct {
 		key string
@@ -336,6 +351,13 @@ func (c *ModelConfig) Validate() error {
 			return err
 		}
 	}
+	return nil
+}
+
+// checkAtmosphere checks [atmosphere]: the pressure grid, the reference
+// pressure, the fill gas, the trace gases and the temperature profile.
+func (c *ModelConfig) checkAtmosphere() error {
+	a := &c.Atmosphere
 	d := c.withDefaults()
 	top, bot := *d.Atmosphere.TopPressureBar, *d.Atmosphere.BottomPressureBar
 	if !(bot > top) {
@@ -383,6 +405,12 @@ func (c *ModelConfig) Validate() error {
 	if _, err := c.Atmosphere.Temperature.profile(); err != nil {
 		return err
 	}
+	return nil
+}
+
+// checkClouds checks [clouds] against the atmosphere's bottom.
+func (c *ModelConfig) checkClouds() error {
+	bot := *c.withDefaults().Atmosphere.BottomPressureBar
 	cl := &c.Clouds
 	if cl.TopPressureBar != nil && *cl.TopPressureBar > bot {
 		return keyErr("clouds.top_pressure_bar", "%g bar lies below the bottom of the atmosphere (%g bar)", *cl.TopPressureBar, bot)
@@ -399,6 +427,11 @@ func (c *ModelConfig) Validate() error {
 	if cl.HazeSlope != nil && (math.IsNaN(*cl.HazeSlope) || math.IsInf(*cl.HazeSlope, 0)) {
 		return keyErr("clouds.haze_slope", "must be finite, got %g", *cl.HazeSlope)
 	}
+	return nil
+}
+
+// checkOpacity checks [opacity] against the atmosphere's composition.
+func (c *ModelConfig) checkOpacity() error {
 	o := &c.Opacity
 	if o.Dir != "" && o.Demo {
 		return keyErr("opacity.dir", "and opacity.demo both given; use one source of tables")
@@ -430,6 +463,12 @@ func (c *ModelConfig) Validate() error {
 			}
 		}
 	}
+	return nil
+}
+
+// checkSpectrum checks [spectrum]: the model grid and the bins.
+func (c *ModelConfig) checkSpectrum() error {
+	d := c.withDefaults()
 	s := &c.Spectrum
 	if s.WavelengthMinUm == nil {
 		return missingKey("spectrum.wavelength_min_um", "")

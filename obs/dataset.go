@@ -290,81 +290,15 @@ func ParseDataset(r io.Reader, path, name string) (*Dataset, error) {
 			}
 			continue
 		}
-		fields := splitFields(text, h.csv)
-		if len(fields) != h.n {
-			return nil, fmt.Errorf("%s: %d fields, the header names %d", where, len(fields), h.n)
+		b, err := h.row(splitFields(text, h.csv), vals, where)
+		if err != nil {
+			return nil, err
 		}
-		vals = vals[:0]
-		for i, f := range fields {
-			v, err := strconv.ParseFloat(f, 64)
-			if err != nil {
-				return nil, fmt.Errorf("%s: column %d: %q is not a number", where, i+1, f)
-			}
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				return nil, fmt.Errorf("%s: column %d: %s is not a finite number", where, i+1, f)
-			}
-			vals = append(vals, v)
+		if b.asym {
+			asym++
 		}
-		get := func(c column) float64 { return vals[h.idx[c]] }
-		var lo, hi float64
-		if h.idx[colCentre] >= 0 {
-			c, w := get(colCentre)*h.scale[colCentre], get(colWidth)*h.scale[colWidth]
-			if !(c > 0) {
-				return nil, fmt.Errorf("%s: wavelength %g must be positive", where, get(colCentre))
-			}
-			if !(w > 0) {
-				return nil, fmt.Errorf("%s: bin width %g must be positive", where, get(colWidth))
-			}
-			lo, hi = c-w/2, c+w/2
-			if !(lo > 0) {
-				return nil, fmt.Errorf("%s: bin of width %g around %g reaches below zero wavelength", where, get(colWidth), get(colCentre))
-			}
-		} else {
-			lo, hi = get(colLow)*h.scale[colLow], get(colHigh)*h.scale[colHigh]
-			if !(lo > 0) {
-				return nil, fmt.Errorf("%s: edge_low %g must be positive", where, get(colLow))
-			}
-			if !(hi > lo) {
-				return nil, fmt.Errorf("%s: edge_high %g must be above edge_low %g", where, get(colHigh), get(colLow))
-			}
-		}
-		var sig float64
-		if h.idx[colError] >= 0 {
-			sig = get(colError)
-			if !(sig > 0) {
-				return nil, fmt.Errorf("%s: error %g must be positive", where, sig)
-			}
-		} else {
-			p, m := get(colErrPlus), get(colErrMinus)
-			if !(p > 0) || !(m > 0) {
-				return nil, fmt.Errorf("%s: error_plus %g and error_minus %g must both be positive (magnitudes)", where, p, m)
-			}
-			if p != m {
-				asym++
-			}
-			sig = 0.5 * (p + m)
-		}
-		v := get(colDepth)
-		var depth float64
-		if h.factor == 0 { // radius_ratio
-			if v < 0 {
-				return nil, fmt.Errorf("%s: radius_ratio %g must not be negative", where, v)
-			}
-			depth, sig = v*v, 2*v*sig
-			if !(sig > 0) {
-				return nil, fmt.Errorf("%s: radius_ratio 0 gives a depth error of 0; the error cannot be propagated", where)
-			}
-		} else {
-			depth, sig = v*h.factor, sig*h.factor
-		}
-		if !(depth >= 0 && depth < 1) {
-			return nil, fmt.Errorf("%s: %s %g is a transit depth of %.6g, outside [0, 1)", where, h.depth, v, depth)
-		}
-		if !(sig > 0) || math.IsInf(sig, 0) {
-			return nil, fmt.Errorf("%s: error %g underflows or overflows after conversion to a fraction", where, sig)
-		}
-		d.Lo, d.Hi = append(d.Lo, lo), append(d.Hi, hi)
-		d.Depth, d.Sigma = append(d.Depth, depth), append(d.Sigma, sig)
+		d.Lo, d.Hi = append(d.Lo, b.lo), append(d.Hi, b.hi)
+		d.Depth, d.Sigma = append(d.Depth, b.depth), append(d.Sigma, b.sig)
 		d.Line = append(d.Line, line)
 	}
 	if err := sc.Err(); err != nil {
@@ -376,24 +310,110 @@ func ParseDataset(r io.Reader, path, name string) (*Dataset, error) {
 	if d.Len() == 0 {
 		return nil, fmt.Errorf("%s: header but no data rows", path)
 	}
+	return d, d.finish(asym)
+}
+
+// bin is one row of an observation table.
+type bin struct {
+	lo, hi, depth, sig float64 // edges (m), depth and error (fractions)
+	asym               bool    // error_plus and error_minus differed
+}
+
+// row converts the fields of one data row (where is its file:line) to a
+// bin; vals is a buffer for the numbers.
+func (h *header) row(fields []string, vals []float64, where string) (bin, error) {
+	var b bin
+	if len(fields) != h.n {
+		return bin{}, fmt.Errorf("%s: %d fields, the header names %d", where, len(fields), h.n)
+	}
+	vals = vals[:0]
+	for i, f := range fields {
+		v, err := strconv.ParseFloat(f, 64)
+		if err != nil {
+			return bin{}, fmt.Errorf("%s: column %d: %q is not a number", where, i+1, f)
+		}
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return bin{}, fmt.Errorf("%s: column %d: %s is not a finite number", where, i+1, f)
+		}
+		vals = append(vals, v)
+	}
+	get := func(c column) float64 { return vals[h.idx[c]] }
+	if h.idx[colCentre] >= 0 {
+		c, w := get(colCentre)*h.scale[colCentre], get(colWidth)*h.scale[colWidth]
+		if !(c > 0) {
+			return bin{}, fmt.Errorf("%s: wavelength %g must be positive", where, get(colCentre))
+		}
+		if !(w > 0) {
+			return bin{}, fmt.Errorf("%s: bin width %g must be positive", where, get(colWidth))
+		}
+		b.lo, b.hi = c-w/2, c+w/2
+		if !(b.lo > 0) {
+			return bin{}, fmt.Errorf("%s: bin of width %g around %g reaches below zero wavelength", where, get(colWidth), get(colCentre))
+		}
+	} else {
+		b.lo, b.hi = get(colLow)*h.scale[colLow], get(colHigh)*h.scale[colHigh]
+		if !(b.lo > 0) {
+			return bin{}, fmt.Errorf("%s: edge_low %g must be positive", where, get(colLow))
+		}
+		if !(b.hi > b.lo) {
+			return bin{}, fmt.Errorf("%s: edge_high %g must be above edge_low %g", where, get(colHigh), get(colLow))
+		}
+	}
+	if h.idx[colError] >= 0 {
+		b.sig = get(colError)
+		if !(b.sig > 0) {
+			return bin{}, fmt.Errorf("%s: error %g must be positive", where, b.sig)
+		}
+	} else {
+		p, m := get(colErrPlus), get(colErrMinus)
+		if !(p > 0) || !(m > 0) {
+			return bin{}, fmt.Errorf("%s: error_plus %g and error_minus %g must both be positive (magnitudes)", where, p, m)
+		}
+		b.asym = p != m
+		b.sig = 0.5 * (p + m)
+	}
+	v := get(colDepth)
+	if h.factor == 0 { // radius_ratio
+		if v < 0 {
+			return bin{}, fmt.Errorf("%s: radius_ratio %g must not be negative", where, v)
+		}
+		b.depth, b.sig = v*v, 2*v*b.sig
+		if !(b.sig > 0) {
+			return bin{}, fmt.Errorf("%s: radius_ratio 0 gives a depth error of 0; the error cannot be propagated", where)
+		}
+	} else {
+		b.depth, b.sig = v*h.factor, b.sig*h.factor
+	}
+	if !(b.depth >= 0 && b.depth < 1) {
+		return bin{}, fmt.Errorf("%s: %s %g is a transit depth of %.6g, outside [0, 1)", where, h.depth, v, b.depth)
+	}
+	if !(b.sig > 0) || math.IsInf(b.sig, 0) {
+		return bin{}, fmt.Errorf("%s: error %g underflows or overflows after conversion to a fraction", where, b.sig)
+	}
+	return b, nil
+}
+
+// finish notes asymmetric errors (asym rows), sorts the bins by
+// wavelength and rejects duplicated or overlapping bins.
+func (d *Dataset) finish(asym int) error {
 	if asym > 0 {
-		d.Notes = append(d.Notes, fmt.Sprintf("%s: %d rows have asymmetric errors; the mean of error_plus and error_minus is used as a symmetric Gaussian error", path, asym))
+		d.Notes = append(d.Notes, fmt.Sprintf("%s: %d rows have asymmetric errors; the mean of error_plus and error_minus is used as a symmetric Gaussian error", d.Path, asym))
 	}
 	if !sort.IsSorted(byLow{d}) {
 		sort.Stable(byLow{d})
-		d.Notes = append(d.Notes, fmt.Sprintf("%s: rows were not in wavelength order and have been sorted", path))
+		d.Notes = append(d.Notes, fmt.Sprintf("%s: rows were not in wavelength order and have been sorted", d.Path))
 	}
 	for i := 1; i < d.Len(); i++ {
 		if d.Lo[i] == d.Lo[i-1] && d.Hi[i] == d.Hi[i-1] {
-			return nil, fmt.Errorf("%s: duplicated bin %.6g-%.6g um (also on line %d)", d.Where(i), d.Lo[i]/forward.Micron, d.Hi[i]/forward.Micron, d.Line[i-1])
+			return fmt.Errorf("%s: duplicated bin %.6g-%.6g um (also on line %d)", d.Where(i), d.Lo[i]/forward.Micron, d.Hi[i]/forward.Micron, d.Line[i-1])
 		}
 		tol := 1e-6 * math.Min(d.Hi[i]-d.Lo[i], d.Hi[i-1]-d.Lo[i-1])
 		if d.Lo[i] < d.Hi[i-1]-tol {
-			return nil, fmt.Errorf("%s: bin %.6g-%.6g um overlaps the bin %.6g-%.6g um on line %d",
+			return fmt.Errorf("%s: bin %.6g-%.6g um overlaps the bin %.6g-%.6g um on line %d",
 				d.Where(i), d.Lo[i]/forward.Micron, d.Hi[i]/forward.Micron, d.Lo[i-1]/forward.Micron, d.Hi[i-1]/forward.Micron, d.Line[i-1])
 		}
 	}
-	return d, nil
+	return nil
 }
 
 // byLow sorts a dataset's bins by lower edge, then upper edge.

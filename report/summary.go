@@ -231,7 +231,6 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 		return nil, fmt.Errorf("summary: %d steps after burn-in: need at least 2", len(c.Steps))
 	}
 	lp := c.Column("log_posterior")
-	ll := c.Column("log_likelihood")
 	if lp == nil {
 		return nil, fmt.Errorf("summary: the chains have no log_posterior column")
 	}
@@ -240,24 +239,11 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 		Burn: opt.Burn, BurnAuto: opt.BurnAuto, Thin: thin,
 		Warnings: []string{}, Cautions: []string{},
 	}
-
-	// Best sample.
-	best := 0
-	for i, v := range lp {
-		if v > lp[best] {
-			best = i
-		}
-	}
-	s.Best = BestSample{Step: c.Steps[best/c.Walkers], Walker: best % c.Walkers, LogPosterior: lp[best]}
-	if ll != nil {
-		s.Best.LogLikelihood = ll[best]
-	}
-
+	best := s.setBest(c, lp)
 	s.Acceptance = acceptance(c)
 	if n := len(s.Acceptance.Stuck); n > 0 {
 		s.Warnings = append(s.Warnings, fmt.Sprintf("%d stuck walker(s) %v: acceptance far below the median %.2f (under half of it, and more than %d binomial standard deviations); they may sit in a separate mode or a bad region (check the initial ball, or extend the burn-in)", n, s.Acceptance.Stuck, s.Acceptance.Median, sampler.StuckSigma))
 	}
-
 	gases := make(map[string]GasParam, len(opt.Gases))
 	for _, g := range opt.Gases {
 		gases[g.Column] = g
@@ -276,27 +262,9 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 		if col.Role != chains.RoleParameter && col.Role != chains.RoleDerived {
 			continue
 		}
-		v := c.Values[i]
-		buf = buf[:0]
-		for j, st := range c.Steps {
-			if (st-c.Steps[0])%thin == 0 {
-				buf = append(buf, v[j*c.Walkers:(j+1)*c.Walkers]...)
-			}
-		}
-		cs := columnSummary(col, buf)
-		cs.MaxPost = v[best]
-		tau, ok := columnTau(c, i)
-		cs.Tau, cs.TauReliable = Float(tau), ok
-		cs.ESS = Float(float64(len(v)) / tau)
-		cs.RHat, cs.BulkESS = Float(math.NaN()), Float(math.NaN())
-		if series := walkerSeries(c, i); len(series[0]) >= 4 {
-			if r, err := sampler.SplitRhat(series); err == nil {
-				cs.RHat = Float(r)
-			}
-			if e, err := sampler.BulkESS(series); err == nil {
-				cs.BulkESS = Float(e)
-			}
-		}
+		buf = keptValues(buf[:0], c, i, thin)
+		cs := columnStats(c, i, buf)
+		cs.MaxPost = c.Values[i][best]
 		if col.Role == chains.RoleDerived {
 			s.Derived = append(s.Derived, cs)
 			continue
@@ -305,26 +273,15 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 		if cs.RHat > RHatLimit {
 			highRHat = append(highRHat, fmt.Sprintf("%s %.3f", col.Name, float64(cs.RHat)))
 		}
-		if tau > float64(s.MaxTau) || math.IsNaN(tau) {
-			s.MaxTau = Float(tau)
+		if tau := float64(cs.Tau); tau > float64(s.MaxTau) || math.IsNaN(tau) {
+			s.MaxTau = cs.Tau
 		}
 		if g, ok := gases[col.Name]; ok {
-			ess := math.Min(float64(cs.ESS), float64(len(buf)))
-			if !cs.TauReliable {
-				// tau is then only a lower bound, so this ESS is an upper
-				// bound, and a significance from it would be overstated.
-				ess = math.NaN()
-			}
-			d, err := ClassifyGas(buf, g.Low, g.High, ess)
-			if err != nil {
+			var err error
+			if cs.Gas, err = gasVerdict(g, buf, cs); err != nil {
 				return nil, fmt.Errorf("summary: parameter %s: %w", col.Name, err)
 			}
-			cs.Gas = &GasVerdict{
-				Gas: g.Gas, Class: d.Class, Sigma: Float(d.Sigma), SigmaIsBound: d.SigmaIsBound,
-				LnB10: Float(d.LnB10), LnB10Err: Float(d.LnB10Err), Upper95: d.Upper95,
-				EdgeMeansAbsent: d.EdgeMeansAbsent, Verdict: d.Describe(),
-			}
-			if NeedsLifeCaution(g.Gas, d.Class) && !slices.Contains(s.Cautions, LifeCaution) {
+			if NeedsLifeCaution(g.Gas, cs.Gas.Class) && !slices.Contains(s.Cautions, LifeCaution) {
 				s.Cautions = append(s.Cautions, LifeCaution)
 			}
 		}
@@ -333,6 +290,81 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 	if len(highRHat) > 0 {
 		s.Warnings = append(s.Warnings, fmt.Sprintf("split R-hat above %g: %s; the walkers disagree, the chain may need to be longer", RHatLimit, strings.Join(highRHat, ", ")))
 	}
+	s.setConvergence(c, allTau)
+	return s, nil
+}
+
+// setBest records the maximum-posterior sample of lp (column
+// log_posterior) and returns its index.
+func (s *Summary) setBest(c *chains.Chain, lp []float64) int {
+	best := 0
+	for i, v := range lp {
+		if v > lp[best] {
+			best = i
+		}
+	}
+	s.Best = BestSample{Step: c.Steps[best/c.Walkers], Walker: best % c.Walkers, LogPosterior: lp[best]}
+	if ll := c.Column("log_likelihood"); ll != nil {
+		s.Best.LogLikelihood = ll[best]
+	}
+	return best
+}
+
+// keptValues appends to dst the values of column i at the steps kept by
+// the thinning.
+func keptValues(dst []float64, c *chains.Chain, i, thin int) []float64 {
+	v := c.Values[i]
+	for j, st := range c.Steps {
+		if (st-c.Steps[0])%thin == 0 {
+			dst = append(dst, v[j*c.Walkers:(j+1)*c.Walkers]...)
+		}
+	}
+	return dst
+}
+
+// columnStats summarises column i from its kept values x, with its
+// autocorrelation time, effective sample sizes and split R-hat computed on
+// the whole chain read.
+func columnStats(c *chains.Chain, i int, x []float64) ColumnSummary {
+	cs := columnSummary(c.Columns[i], x)
+	tau, ok := columnTau(c, i)
+	cs.Tau, cs.TauReliable = Float(tau), ok
+	cs.ESS = Float(float64(len(c.Values[i])) / tau)
+	cs.RHat, cs.BulkESS = Float(math.NaN()), Float(math.NaN())
+	if series := walkerSeries(c, i); len(series[0]) >= 4 {
+		if r, err := sampler.SplitRhat(series); err == nil {
+			cs.RHat = Float(r)
+		}
+		if e, err := sampler.BulkESS(series); err == nil {
+			cs.BulkESS = Float(e)
+		}
+	}
+	return cs
+}
+
+// gasVerdict classifies the gas g from its kept log10 mixing ratios x
+// (ClassifyGas), with the effective sample size of its column summary cs.
+func gasVerdict(g GasParam, x []float64, cs ColumnSummary) (*GasVerdict, error) {
+	ess := math.Min(float64(cs.ESS), float64(len(x)))
+	if !cs.TauReliable {
+		// tau is then only a lower bound, so this ESS is an upper bound,
+		// and a significance from it would be overstated.
+		ess = math.NaN()
+	}
+	d, err := ClassifyGas(x, g.Low, g.High, ess)
+	if err != nil {
+		return nil, err
+	}
+	return &GasVerdict{
+		Gas: g.Gas, Class: d.Class, Sigma: Float(d.Sigma), SigmaIsBound: d.SigmaIsBound,
+		LnB10: Float(d.LnB10), LnB10Err: Float(d.LnB10Err), Upper95: d.Upper95,
+		EdgeMeansAbsent: d.EdgeMeansAbsent, Verdict: d.Describe(),
+	}, nil
+}
+
+// setConvergence judges the whole chain's length against the largest
+// autocorrelation time (allTau: every parameter's tau is reliable).
+func (s *Summary) setConvergence(c *chains.Chain, allTau bool) {
 	s.ChainTaus = Float(float64(c.TotalSteps) / float64(s.MaxTau))
 	s.Converged = allTau && s.ChainTaus >= sampler.DefaultConvergedTaus
 	if !s.Converged {
@@ -342,7 +374,6 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 		}
 		s.Warnings = append(s.Warnings, "not converged: "+why+"; extend the chain (resume the run with more steps, or until converged) before trusting the intervals")
 	}
-	return s, nil
 }
 
 func columnSummary(col chains.Column, x []float64) ColumnSummary {
