@@ -1,7 +1,7 @@
 package opacity
 
 // Set is a collection of opacity tables as loaded from a directory of table
-// files (LoadDir) or built for the demo.
+// files (tablefile.LoadDir) or built for the demo (package demo).
 type Set struct {
 	XSec map[string]*XSecTable // by gas name
 	CIA  []*CIATable
