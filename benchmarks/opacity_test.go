@@ -91,7 +91,7 @@ func BenchmarkCrossSectionBuild(b *testing.B) {
 		for k := range grid {
 			grid[k] = (2000 + float64(k)*c.step) * 100
 		}
-		s := &lbl.XSecSettings{Gas: "CO", Log10P: []float64{5}, T: []float64{800}, Wavenumber: grid, Workers: c.workers, Quiet: true, CellAverage: c.cell}
+		s := &lbl.XSecSettings{Gas: "CO", Log10P: []float64{5}, T: []float64{800}, Wavenumber: grid, Workers: c.workers, CellAverage: c.cell}
 		if c.pt == 12 {
 			s.Log10P, s.T = []float64{2, 3, 4, 5}, []float64{300, 800, 1500}
 		}

@@ -25,7 +25,7 @@ func TestOzoneBand(t *testing.T) {
 		nu[k] = 1 / wl[len(wl)-1-k]
 	}
 	tab, err := lbl.BuildXSec(lines, iso, &lbl.XSecSettings{
-		Gas: "O3", Log10P: []float64{0, 2.5, 5.2}, T: []float64{200, 300}, Wavenumber: nu, Quiet: true,
+		Gas: "O3", Log10P: []float64{0, 2.5, 5.2}, T: []float64{200, 300}, Wavenumber: nu,
 	})
 	if err != nil {
 		t.Fatal(err)

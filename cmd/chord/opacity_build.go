@@ -283,8 +283,7 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 		},
 		NoPressureShift: c.Bool("no-shift"),
 		Workers:         c.Int("workers"),
-		Quiet:           progress == nil, // else a bar on standard error when it is a terminal
-		Log:             c.App.ErrWriter,
+		Observer:        tableObserver(c, gas, progress == nil),
 		Version:         retrieve.Version,
 		Sources:         src,
 	}

@@ -121,7 +121,7 @@ func Build(progress io.Writer) (*opacity.Set, error) {
 		}
 		// Each gas takes about a second: a line per gas is progress enough.
 		t, err := lbl.BuildXSec(lines, iso, &lbl.XSecSettings{
-			Gas: gas, Log10P: demoLog10P, T: demoT, Wavenumber: nu, Quiet: true, CellAverage: true,
+			Gas: gas, Log10P: demoLog10P, T: demoT, Wavenumber: nu, CellAverage: true,
 		})
 		if err != nil {
 			return nil, fmt.Errorf("opacity: demo %s: %w", gas, err)

@@ -185,7 +185,7 @@ func TestExoMolVsHITRANCrossSection(t *testing.T) {
 		nu = append(nu, 100*(1950+0.01*float64(k)))
 	}
 	settings := func(gas string) *lbl.XSecSettings {
-		return &lbl.XSecSettings{Gas: gas, Log10P: []float64{math.Log10(lbl.StandardAtmosphere)}, T: []float64{lbl.TRef}, Wavenumber: nu, Quiet: true, NoPressureShift: true}
+		return &lbl.XSecSettings{Gas: gas, Log10P: []float64{math.Log10(lbl.StandardAtmosphere)}, T: []float64{lbl.TRef}, Wavenumber: nu, NoPressureShift: true}
 	}
 	own, err := lbl.BuildXSec(hit, isoData, settings("CO"))
 	if err != nil {

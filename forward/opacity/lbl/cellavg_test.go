@@ -140,7 +140,7 @@ func TestCellAverageConservationLine(t *testing.T) {
 		for _, off := range []float64{0, 0.31, 1, 1.77} { // line position within the 2 cm^-1 cells
 			l := Line{Mol: 5, Iso: 1, Nu: 2000 + off, S: 1e-20, GammaAir: 0.06, GammaSelf: 0.07, NAir: 0.7, DeltaAir: -0.004}
 			s := &XSecSettings{Gas: "CO", Log10P: []float64{math.Log10(pAtm * StandardAtmosphere)}, T: []float64{TRef},
-				Wavenumber: uniformGrid(1950, 2050, 2), CellAverage: true, Quiet: true}
+				Wavenumber: uniformGrid(1950, 2050, 2), CellAverage: true}
 			tab, err := BuildXSec([]Line{l}, syntheticIso(), s)
 			if err != nil {
 				t.Fatal(err)
@@ -180,7 +180,7 @@ func TestCellAverageConvergence(t *testing.T) {
 		for _, hf := range []float64{8, 4, 2, 1, 0.5, 0.26, 0.24, 0.1} {
 			h := hf * hw
 			grid := uniformGrid(1999.5, 2000.5, h)
-			s := &XSecSettings{Gas: "CO", Log10P: []float64{math.Log10(pAtm * StandardAtmosphere)}, T: []float64{TRef}, Wavenumber: grid, Quiet: true}
+			s := &XSecSettings{Gas: "CO", Log10P: []float64{math.Log10(pAtm * StandardAtmosphere)}, T: []float64{TRef}, Wavenumber: grid}
 			pt, err := BuildXSec([]Line{l}, syntheticIso(), s)
 			if err != nil {
 				t.Fatal(err)
@@ -228,7 +228,7 @@ func TestCellAverageWorkers(t *testing.T) {
 		grid[k] = 100 * 1990 * math.Exp(float64(k)*math.Log(2120.0/1990)/float64(len(grid)-1))
 	}
 	set := func(w int) *XSecSettings {
-		return &XSecSettings{Gas: "CO", Log10P: []float64{0, 2, 4, 5, 6.5}, T: []float64{200, 700}, Wavenumber: grid, Workers: w, Quiet: true, CellAverage: true}
+		return &XSecSettings{Gas: "CO", Log10P: []float64{0, 2, 4, 5, 6.5}, T: []float64{200, 700}, Wavenumber: grid, Workers: w, CellAverage: true}
 	}
 	ref, err := BuildXSec(lines, syntheticIso(), set(1))
 	if err != nil {

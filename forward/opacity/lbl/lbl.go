@@ -5,18 +5,13 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
-	"io"
 	"math"
-	"os"
 	"runtime"
 	"slices"
 	"sort"
 	"strconv"
 	"strings"
 	"sync"
-
-	"github.com/schollz/progressbar/v3"
-	"golang.org/x/term"
 
 	"chord/forward/opacity"
 )
@@ -117,16 +112,10 @@ type XSecSettings struct {
 	// Workers is the number of goroutines; 0 means GOMAXPROCS. The result
 	// does not depend on it.
 	Workers int
-	// Progress receives a progress bar; nil means standard error when it
-	// is a terminal and the build is long (over about a second), and no bar
-	// otherwise.
-	Progress io.Writer
-	// Quiet turns the progress bar off.
-	Quiet bool
-	// Log receives warnings (for example about approximate partition
-	// functions) as they arise; nil means none are printed. They are also
-	// in the table's Meta under "lbl.warnings".
-	Log io.Writer
+	// Observer receives the build's progress (one step per wavenumber
+	// chunk of a grid point) and its warnings (also recorded in Meta under
+	// MetaWarnings); the zero Observer reports nothing.
+	Observer Observer
 
 	// Version is the program version, stored in Meta[opacity.MetaProgramVersion];
 	// "" leaves it out.
@@ -196,7 +185,6 @@ type lineBuild struct {
 	table   *opacity.XSecTable
 	workers int
 	chunks  int
-	bar     io.Writer
 }
 
 type isoState struct {
@@ -350,20 +338,8 @@ func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
 		Sigma:      make([]float32, nPT*len(s.Wavenumber)),
 		Meta:       b.meta(warnings),
 	}
-	if s.Log != nil {
-		for _, w := range warnings {
-			fmt.Fprintf(s.Log, "warning: %s: %s\n", s.Gas, w)
-		}
-	}
-	if !s.Quiet {
-		// Profile evaluations: each line on the grid points of its window.
-		work := float64(len(b.lines)) * float64(nPT) * math.Min(float64(len(b.nuCm)), 2*b.cut/b.spacing())
-		switch {
-		case s.Progress != nil:
-			b.bar = s.Progress
-		case work > progressMinWork && term.IsTerminal(int(os.Stderr.Fd())):
-			b.bar = os.Stderr
-		}
+	for _, w := range warnings {
+		s.Observer.warn(w)
 	}
 	return b, nil
 }
@@ -447,10 +423,6 @@ func spacingAndWidth(nuCm []float64, lines []Line, mass func(i int) float64, bgS
 // MetaWarnings is the table metadata key under which BuildXSec records its
 // warnings (one per line), for example about approximate partition sums.
 const MetaWarnings = "warnings"
-
-// progressMinWork is the number of profile evaluations above which a build
-// shows a progress bar on a terminal by itself: about a second of work.
-const progressMinWork = 1e8
 
 // buildSettings is what BuildXSec records in Meta[opacity.MetaBuildSettings] (JSON).
 type buildSettings struct {
@@ -539,16 +511,6 @@ func (b *lineBuild) run() {
 			}
 		}
 	}
-	var bar *progressbar.ProgressBar
-	if b.bar != nil {
-		bar = progressbar.NewOptions(len(tasks),
-			progressbar.OptionSetWriter(b.bar),
-			progressbar.OptionSetDescription("cross-sections "+s.Gas),
-			progressbar.OptionShowCount(),
-			progressbar.OptionSetPredictTime(true),
-			progressbar.OptionClearOnFinish(),
-		)
-	}
 	work := make(chan task)
 	done := make(chan struct{}, len(tasks))
 	var wg sync.WaitGroup
@@ -570,25 +532,11 @@ func (b *lineBuild) run() {
 		}
 		close(work)
 	}()
-	for range tasks {
+	for i := range tasks {
 		<-done
-		if bar != nil {
-			bar.Add(1)
-		}
+		s.Observer.progress(i+1, len(tasks))
 	}
 	wg.Wait()
-	if bar != nil {
-		bar.Finish()
-	}
-}
-
-// spacing is the mean grid spacing in cm^-1.
-func (b *lineBuild) spacing() float64 {
-	n := len(b.nuCm)
-	if n < 2 {
-		return 1
-	}
-	return (b.nuCm[n-1] - b.nuCm[0]) / float64(n-1)
 }
 
 // lineState is one line's parameters at one (P, T) grid point.

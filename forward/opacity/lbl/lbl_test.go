@@ -127,14 +127,14 @@ func TestBuildDeterministic(t *testing.T) {
 			NAir: 0.7, DeltaAir: -0.003, Elower: 10 * float64(i%40)})
 	}
 	set := func(w int) *XSecSettings {
-		return &XSecSettings{Gas: "CO", Log10P: []float64{0, 2, 4, 5}, T: []float64{200, 300, 700}, Wavenumber: uniformGrid(1990, 2120, 0.02), Workers: w, Quiet: true,
+		return &XSecSettings{Gas: "CO", Log10P: []float64{0, 2, 4, 5}, T: []float64{200, 300, 700}, Wavenumber: uniformGrid(1990, 2120, 0.02), Workers: w,
 			Version: "test-1", Sources: `[{"file":"x.par","sha256":"00","bytes":1}]`}
 	}
 	// No partition table: BuildXSec falls back to the rigid rotor and warns.
 	iso := IsoData{{5, 1}: {Name: "CO_26", Q296: 107.42, Mass: 27.994915}}
-	var log strings.Builder
+	var warned []string
 	s1 := set(1)
-	s1.Log = &log
+	s1.Observer.Warn = func(msg string) { warned = append(warned, msg) }
 	ref, err := BuildXSec(lines, iso, s1)
 	if err != nil {
 		t.Fatal(err)
@@ -157,9 +157,10 @@ func TestBuildDeterministic(t *testing.T) {
 	if ref.Meta[opacity.MetaProgramVersion] != "test-1" || ref.Meta[opacity.MetaSources] == "" {
 		t.Errorf("provenance not recorded: %v", ref.Meta)
 	}
-	if !strings.Contains(ref.Meta[MetaWarnings], "rigid-rotor") || !strings.Contains(log.String(), "warning: CO: no partition-function table for CO_26") ||
+	if !strings.Contains(ref.Meta[MetaWarnings], "rigid-rotor") || strings.Join(warned, "\n") != ref.Meta[MetaWarnings] ||
+		!strings.HasPrefix(warned[0], "no partition-function table for CO_26") ||
 		!strings.Contains(ref.Meta[opacity.MetaBuildSettings], `"wing_cutoff_cm-1":25`) {
-		t.Errorf("meta %v, log %q", ref.Meta, log.String())
+		t.Errorf("meta %v, warnings %q", ref.Meta, warned)
 	}
 }
 
@@ -245,20 +246,34 @@ func TestBuildBadInputs(t *testing.T) {
 	}
 }
 
-// TestProgress: a given Progress writer receives the bar; Quiet silences it.
+// TestProgress: Observer.Progress is told after every step, from the
+// calling goroutine, that done of total steps are finished, done rising by
+// one to total; the zero Observer reports nothing and changes nothing.
 func TestProgress(t *testing.T) {
 	lines := []Line{{Mol: 5, Iso: 1, Nu: 2000, S: 1e-20, GammaAir: 0.05}}
-	var buf strings.Builder
-	s := &XSecSettings{Gas: "CO", Log10P: []float64{3, 5}, T: []float64{296, 400}, Wavenumber: uniformGrid(1990, 2010, 0.1), Progress: &buf}
-	if _, err := BuildXSec(lines, syntheticIso(), s); err != nil {
+	var done, totals []int
+	s := &XSecSettings{Gas: "CO", Log10P: []float64{3, 5}, T: []float64{296, 400}, Wavenumber: uniformGrid(1990, 2010, 0.1), Workers: 3}
+	s.Observer.Progress = func(d, n int) { done, totals = append(done, d), append(totals, n) }
+	got, err := BuildXSec(lines, syntheticIso(), s)
+	if err != nil {
 		t.Fatal(err)
 	}
-	if !strings.Contains(buf.String(), "cross-sections CO") {
-		t.Errorf("progress output %q", buf.String())
+	if len(done) == 0 {
+		t.Fatal("Progress was never called")
 	}
-	buf.Reset()
-	s.Quiet = true
-	if _, err := BuildXSec(lines, syntheticIso(), s); err != nil || buf.Len() != 0 {
-		t.Errorf("quiet build wrote %q (%v)", buf.String(), err)
+	for i := range done {
+		if done[i] != i+1 || totals[i] != len(done) {
+			t.Fatalf("progress reports (done, total) = %v, %v; want 1, 2, ... up to a constant total", done, totals)
+		}
+	}
+	s.Observer = Observer{}
+	quiet, err := BuildXSec(lines, syntheticIso(), s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range got.Sigma {
+		if math.Float32bits(got.Sigma[i]) != math.Float32bits(quiet.Sigma[i]) {
+			t.Fatalf("value %d differs with and without an observer", i)
+		}
 	}
 }

@@ -110,7 +110,7 @@ func TestCellAverageConservationBand(t *testing.T) {
 	grid := lbl.UniformGrid(1950-lbl.DefaultWingCutoff-1, 2350+lbl.DefaultWingCutoff+1, 1)
 	for _, pAtm := range []float64{1e-3, 1} {
 		tab, err := lbl.BuildXSec(lines, iso, &lbl.XSecSettings{Gas: "CO", Log10P: []float64{math.Log10(pAtm * lbl.StandardAtmosphere)}, T: []float64{lbl.TRef},
-			Wavenumber: grid, CellAverage: true, Quiet: true})
+			Wavenumber: grid, CellAverage: true})
 		if err != nil {
 			t.Fatal(err)
 		}
