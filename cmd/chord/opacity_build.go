@@ -8,7 +8,6 @@ import (
 	"math"
 	"os"
 	"path/filepath"
-	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -16,8 +15,8 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"chord/forward/opacity"
+	"chord/forward/opacity/build"
 	"chord/forward/opacity/demo"
-	"chord/forward/opacity/exomol"
 	"chord/forward/opacity/hitran"
 	"chord/forward/opacity/lbl"
 	"chord/forward/opacity/tablefile"
@@ -136,145 +135,38 @@ func runOpacityBuild(c *cli.Context) error {
 
 // buildLineTable builds and writes the cross-section table of the line lists.
 func buildLineTable(c *cli.Context, files []string, nu []float64, out string, force bool, progress io.Writer) error {
-	logP, err := buildPressures(c.String("pressure"))
+	logP, temps, err := buildGrid(c, nu)
 	if err != nil {
 		return err
 	}
-	temps, err := buildTemperatures(c.String("temperature"))
+	src := &build.Source{
+		Files: files, Gas: c.String("gas"),
+		MolParam: c.String("molparam"), TIPS: c.String("tips"),
+		Abundance: c.Float64("abundance"), Gamma: c.Float64("exomol-gamma"), N: c.Float64("exomol-n"),
+	}
+	for _, spec := range c.StringSlice("partition") {
+		key, path, err := parseQSpec(spec)
+		if err != nil {
+			return err
+		}
+		src.Partition = append(src.Partition, build.PartitionFile{Iso: key, Path: path})
+	}
+	quiet := progress == nil
+	lines, err := build.ReadLines(src, nu, c.Float64("cutoff"), lbl.Observer{Note: noteWriter(c, quiet)})
 	if err != nil {
+		return sourceError(err)
+	}
+	if err := checkTableName(lines.Gas); err != nil {
 		return err
 	}
-	if n := len(logP) * len(temps) * len(nu); n > maxBuildValues {
-		return fmt.Errorf("opacity build: grid of %d x %d x %d = %d values (%.1f GB) is too large; at most %d",
-			len(logP), len(temps), len(nu), n, float64(n)*4/1e9, maxBuildValues)
-	}
-	status := func(format string, a ...any) {
-		if progress != nil {
-			fmt.Fprintf(progress, format+"\n", a...)
-		}
-	}
-
-	var (
-		lines   []lbl.Line
-		iso     lbl.IsoData
-		gas     = c.String("gas")
-		sources []string
-	)
-	var exomolFiles, hitranFiles []string
-	for _, f := range files {
-		if strings.HasSuffix(f, ".def") {
-			exomolFiles = append(exomolFiles, f)
-		} else {
-			hitranFiles = append(hitranFiles, f)
-		}
-	}
-	switch {
-	case len(exomolFiles) > 1 || (len(exomolFiles) == 1 && len(hitranFiles) > 0):
-		return fmt.Errorf("opacity build: one table is built from HITRAN line lists or from one ExoMol .def file, not both or several (%s)", strings.Join(exomolFiles, ", "))
-	case len(exomolFiles) == 1:
-		if f, ok := firstSet(c, "molparam", "tips", "partition"); ok {
-			return fmt.Errorf("opacity build: --%s applies to HITRAN line lists; ExoMol lists bring their own states", f)
-		}
-		def, err := exomol.ReadDef(exomolFiles[0])
-		if err != nil {
-			return err
-		}
-		if gas == "" {
-			if gas = def.Molecule(); gas == "" {
-				return fmt.Errorf("opacity build: %s gives no IsoFormula; name the gas with --gas", exomolFiles[0])
-			}
-		}
-		key := lbl.IsoKey{Mol: lbl.MoleculeID(gas), Iso: 1}
-		status("reading ExoMol line list %s", exomolFiles[0])
-		start := time.Now()
-		list, err := exomol.Read(exomolFiles[0], exomol.Options{
-			Mol: key.Mol, Iso: key.Iso,
-			Abundance: c.Float64("abundance"),
-			Gamma:     c.Float64("exomol-gamma"), N: c.Float64("exomol-n"),
-			NuMin: max(0, nu[0]/100-c.Float64("cutoff")), NuMax: nu[len(nu)-1]/100 + c.Float64("cutoff"),
-		})
-		if err != nil {
-			return err
-		}
-		status("  %d transitions in range, Q(296 K) = %.6g from %d states (%s)", len(list.Lines), list.Q296, len(list.States.ID), time.Since(start).Round(time.Millisecond))
-		lines, iso, sources = list.Lines, lbl.IsoData{key: list.Isotopologue()}, list.Files
-	default:
-		if c.IsSet("abundance") || c.IsSet("exomol-gamma") || c.IsSet("exomol-n") {
-			return errors.New("opacity build: --abundance, --exomol-gamma and --exomol-n apply to ExoMol line lists only")
-		}
-		mp := c.String("molparam")
-		if mp == "" {
-			return errors.New("opacity build: HITRAN line lists need HITRAN's molparam table (--molparam FILE) for masses, abundances and Q(296 K)")
-		}
-		if iso, err = hitran.ReadMolParam(mp); err != nil {
-			return err
-		}
-		sources = append(sources, mp)
-		if p := c.String("tips"); p != "" {
-			n, err := hitran.ReadTIPSTable(p, iso)
-			if err != nil {
-				return err
-			}
-			status("partition sums for %d isotopologues from %s", n, p)
-			sources = append(sources, p)
-		}
-		for _, spec := range c.StringSlice("partition") {
-			key, path, err := parseQSpec(spec)
-			if err != nil {
-				return err
-			}
-			d := iso[key]
-			if d == nil {
-				return fmt.Errorf("opacity build: --partition %s: %v is not in the molparam table %s", spec, key, mp)
-			}
-			if d.Q, err = hitran.ReadQFile(path); err != nil {
-				return err
-			}
-			sources = append(sources, path)
-		}
-		filter := hitran.LineFilter{NuMin: max(0, nu[0]/100-c.Float64("cutoff")), NuMax: nu[len(nu)-1]/100 + c.Float64("cutoff")}
-		var lists [][]lbl.Line
-		for _, f := range hitranFiles {
-			status("reading HITRAN line list %s", f)
-			l, err := hitran.ReadLineFile(f, filter)
-			if err != nil {
-				return err
-			}
-			lists = append(lists, l)
-			sources = append(sources, f)
-		}
-		lines = lbl.MergeLines(lists...) // files that overlap (e.g. downloads by window) share lines
-		mols := map[int]bool{}
-		for _, l := range lines {
-			mols[l.Mol] = true
-		}
-		if len(mols) > 1 {
-			return fmt.Errorf("opacity build: the line lists hold %d molecules (%s); a table is one gas", len(mols), moleculeList(mols))
-		}
-		if gas == "" {
-			for m := range mols {
-				gas = lbl.MoleculeNames[m]
-			}
-		}
-	}
-	if len(lines) == 0 {
-		return fmt.Errorf("opacity build: no lines within %g cm^-1 of the grid's wavenumber range %g-%g cm^-1", c.Float64("cutoff"), nu[0]/100, nu[len(nu)-1]/100)
-	}
-	if err := checkTableName(gas); err != nil {
-		return err
-	}
-	path := filepath.Join(out, gas+".parquet")
+	path := filepath.Join(out, lines.Gas+".parquet")
 	if !force {
 		if _, err := os.Lstat(path); err == nil {
 			return fmt.Errorf("opacity build: %s exists; refusing to overwrite it (use --force)", path)
 		}
 	}
-	src, err := opacity.SourcesMeta(sources...)
-	if err != nil {
-		return err
-	}
-	settings := &lbl.XSecSettings{
-		Gas: gas, Log10P: logP, T: temps, Wavenumber: nu,
+	settings := lbl.XSecSettings{
+		Log10P: logP, T: temps, Wavenumber: nu,
 		WingCutoff:   c.Float64("cutoff"),
 		MinIntensity: c.Float64("min-intensity"),
 		SelfFraction: c.Float64("self-fraction"),
@@ -283,36 +175,60 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 		},
 		NoPressureShift: c.Bool("no-shift"),
 		Workers:         c.Int("workers"),
-		Observer:        tableObserver(c, gas, progress == nil),
+		Observer:        tableObserver(c, lines.Gas, quiet),
 		Version:         retrieve.Version,
-		Sources:         src,
 	}
-	settings.CellAverage = c.Bool("cell-average")
-	if !c.IsSet("cell-average") {
-		// The default: cell means when the grid does not resolve the lines.
-		// A one-point grid has no cells, and lines without isotopologue
-		// data are reported by BuildXSec: both keep point values here.
-		if r, err := lbl.GridCoarseness(lines, iso, settings); err == nil && r > lbl.CoarseGridRatio {
-			settings.CellAverage = true
-			status("grid spacing is %.3g times the median line half-width at the lowest pressure and temperature: storing cell means (--cell-average=false for point values)", r)
+	sampling := build.Auto
+	if c.IsSet("cell-average") {
+		sampling = build.PointValues
+		if c.Bool("cell-average") {
+			sampling = build.CellMeans
 		}
 	}
-	sampling := "point values"
-	if settings.CellAverage {
-		sampling = "cell means"
-	}
-	status("building %s: %d lines on %d pressures x %d temperatures x %d wavenumbers, %s", gas, len(lines), len(logP), len(temps), len(nu), sampling)
 	start := time.Now()
-	t, err := lbl.BuildXSec(lines, iso, settings)
+	t, err := lines.Table(settings, sampling)
 	if err != nil {
 		return err
 	}
 	if err := tablefile.WriteXSec(path, t, force); err != nil {
 		return err
 	}
-	status("wrote %s (%s)", path, time.Since(start).Round(time.Millisecond))
+	if !quiet {
+		fmt.Fprintf(progress, "wrote %s (%s)\n", path, time.Since(start).Round(time.Millisecond))
+	}
 	fmt.Fprintln(c.App.Writer, path)
 	return nil
+}
+
+// buildGrid parses the pressure and temperature grids of a line table
+// and refuses a table of more than maxBuildValues values on them and nu.
+func buildGrid(c *cli.Context, nu []float64) (logP, temps []float64, err error) {
+	if logP, err = buildPressures(c.String("pressure")); err != nil {
+		return nil, nil, err
+	}
+	if temps, err = buildTemperatures(c.String("temperature")); err != nil {
+		return nil, nil, err
+	}
+	if n := len(logP) * len(temps) * len(nu); n > maxBuildValues {
+		return nil, nil, fmt.Errorf("opacity build: grid of %d x %d x %d = %d values (%.1f GB) is too large; at most %d",
+			len(logP), len(temps), len(nu), n, float64(n)*4/1e9, maxBuildValues)
+	}
+	return logP, temps, nil
+}
+
+// sourceFlags are the flags that set the fields of build.Source.
+var sourceFlags = map[string]string{
+	"Files": "lines", "Gas": "gas", "MolParam": "molparam", "TIPS": "tips", "Partition": "partition",
+	"Abundance": "abundance", "Gamma": "exomol-gamma", "N": "exomol-n",
+}
+
+// sourceError names the flag of a build.OptionError.
+func sourceError(err error) error {
+	var oe *build.OptionError
+	if errors.As(err, &oe) && sourceFlags[oe.Option] != "" {
+		return fmt.Errorf("opacity build: --%s: %w", sourceFlags[oe.Option], oe.Err)
+	}
+	return err
 }
 
 // buildCIATables writes one CIA table file per pair of the CIA files, on
@@ -366,15 +282,6 @@ func checkTableName(gas string) error {
 		return fmt.Errorf("opacity build: gas name %q cannot name a table file; give --gas", gas)
 	}
 	return nil
-}
-
-func moleculeList(mols map[int]bool) string {
-	var names []string
-	for m := range mols {
-		names = append(names, fmt.Sprintf("%s (%d)", lbl.MoleculeNames[m], m))
-	}
-	sort.Strings(names)
-	return strings.Join(names, ", ")
 }
 
 // parseQSpec reads "MOL/ISO=FILE".

@@ -185,7 +185,7 @@ func TestOpacityBuildErrors(t *testing.T) {
 		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--partition", "1-1=q.txt"}, grid...), "MOL/ISO=FILE"},
 		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--partition", "1/1=q.txt"}, grid...), "not in the molparam table"},
 		{append([]string{"-o", dir, "--lines", def, "--lines", par}, grid...), "not both"},
-		{append([]string{"-o", dir, "--lines", def, "--molparam", mp}, grid...), "--molparam applies to HITRAN"},
+		{append([]string{"-o", dir, "--lines", def, "--molparam", mp}, grid...), "--molparam: applies to HITRAN"},
 		{append([]string{"-o", dir, "--lines", def}, grid...), "no isotopologue mass"},
 		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--abundance", "0.5"}, grid...), "ExoMol line lists only"},
 		{append([]string{"-o", dir, "--demo"}, grid...), "--wavenumber cannot be used"},

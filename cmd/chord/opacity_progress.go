@@ -23,13 +23,23 @@ func stderrTerminal(c *cli.Context) bool {
 	return c.App.ErrWriter == os.Stderr && term.IsTerminal(int(os.Stderr.Fd()))
 }
 
+// noteWriter returns what prints the notes of library work on standard
+// error, one a line; nil when quiet.
+func noteWriter(c *cli.Context, quiet bool) func(msg string) {
+	if quiet {
+		return nil
+	}
+	return func(msg string) { fmt.Fprintln(c.App.ErrWriter, msg) }
+}
+
 // tableObserver returns the observer of the cross-section build of gas:
 // warnings go to standard error as "warning: GAS: ...", and, unless quiet,
-// a progress bar goes there too when it is a terminal and the build is
-// predicted to take longer than barMinDuration.
+// notes go there too, as does a progress bar when it is a terminal and
+// the build is predicted to take longer than barMinDuration.
 func tableObserver(c *cli.Context, gas string, quiet bool) lbl.Observer {
 	o := lbl.Observer{
 		Warn: func(msg string) { fmt.Fprintf(c.App.ErrWriter, "warning: %s: %s\n", gas, msg) },
+		Note: noteWriter(c, quiet),
 	}
 	if !quiet && stderrTerminal(c) {
 		b := &buildBar{w: os.Stderr, desc: "cross-sections " + gas, start: time.Now()}
