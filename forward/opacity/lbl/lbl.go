@@ -117,12 +117,12 @@ type XSecSettings struct {
 	// MetaWarnings); the zero Observer reports nothing.
 	Observer Observer
 
-	// Version is the program version, stored in Meta[opacity.MetaProgramVersion];
-	// "" leaves it out.
+	// Version is the program version, stored in
+	// Meta[opacity.MetaProgramVersion]; "" leaves it out.
 	Version string
-	// Sources is stored as it is in Meta[opacity.MetaSources] (the table files'
-	// JSON list of input files and checksums, see SourcesMeta); "" leaves
-	// it out.
+	// Sources is stored as it is in Meta[opacity.MetaSources] (the JSON
+	// list of input files and checksums, see opacity.SourcesMeta); ""
+	// leaves it out.
 	Sources string
 }
 
@@ -195,49 +195,8 @@ type isoState struct {
 }
 
 func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
-	if s == nil {
-		return nil, fmt.Errorf("opacity: BuildXSec: no settings")
-	}
-	if s.Gas == "" {
-		return nil, fmt.Errorf("opacity: BuildXSec: no gas name")
-	}
-	for _, ax := range []struct {
-		x    []float64
-		name string
-	}{{s.Log10P, "log10 pressure"}, {s.T, "temperature"}, {s.Wavenumber, "wavenumber"}} {
-		if err := opacity.CheckAxis(ax.x, ax.name); err != nil {
-			return nil, fmt.Errorf("opacity: BuildXSec %s: grid: %w", s.Gas, err)
-		}
-	}
-	if !(s.T[0] > 0) {
-		return nil, fmt.Errorf("opacity: BuildXSec %s: grid temperature %g K must be positive", s.Gas, s.T[0])
-	}
-	if !(s.Wavenumber[0] > 0) {
-		return nil, fmt.Errorf("opacity: BuildXSec %s: grid wavenumber %g m^-1 must be positive", s.Gas, s.Wavenumber[0])
-	}
-	if s.WingCutoff < 0 || math.IsNaN(s.WingCutoff) || math.IsInf(s.WingCutoff, 0) {
-		return nil, fmt.Errorf("opacity: BuildXSec %s: wing cut-off %g cm^-1 must be positive (0 for the default %g)", s.Gas, s.WingCutoff, DefaultWingCutoff)
-	}
-	if s.MinIntensity < 0 || math.IsNaN(s.MinIntensity) {
-		return nil, fmt.Errorf("opacity: BuildXSec %s: minimum intensity %g must not be negative", s.Gas, s.MinIntensity)
-	}
-	if !(s.SelfFraction >= 0 && s.SelfFraction <= 1) {
-		return nil, fmt.Errorf("opacity: BuildXSec %s: self-broadening fraction %g must be in [0, 1]", s.Gas, s.SelfFraction)
-	}
-	if s.Broadening.Scale < 0 || math.IsNaN(s.Broadening.Scale) || math.IsInf(s.Broadening.Scale, 0) {
-		return nil, fmt.Errorf("opacity: BuildXSec %s: broadening scale %g must be positive (0 for 1)", s.Gas, s.Broadening.Scale)
-	}
-	if s.Broadening.N < 0 || math.IsNaN(s.Broadening.N) || math.IsInf(s.Broadening.N, 0) {
-		return nil, fmt.Errorf("opacity: BuildXSec %s: broadening temperature exponent %g must not be negative", s.Gas, s.Broadening.N)
-	}
-	if s.Workers < 0 {
-		return nil, fmt.Errorf("opacity: BuildXSec %s: %d workers", s.Gas, s.Workers)
-	}
-	if len(lines) == 0 {
-		return nil, fmt.Errorf("opacity: BuildXSec %s: no lines to build from", s.Gas)
-	}
-	if s.CellAverage && len(s.Wavenumber) < 2 {
-		return nil, fmt.Errorf("opacity: BuildXSec %s: cell averaging needs at least 2 wavenumbers to define cells, the grid has %d", s.Gas, len(s.Wavenumber))
+	if err := checkSettings(s, len(lines)); err != nil {
+		return nil, err
 	}
 	b := &lineBuild{s: s, cut: s.WingCutoff, bgScale: s.Broadening.Scale}
 	if b.cut == 0 {
@@ -246,80 +205,18 @@ func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
 	if b.bgScale == 0 {
 		b.bgScale = 1
 	}
-	b.lines = slices.Clone(lines)
-	slices.SortStableFunc(b.lines, func(a, c Line) int { return cmpFloat(a.Nu, c.Nu) })
-
-	var warnings []string
-	byKey := map[IsoKey]*isoState{}
-	b.lineIso = make([]*isoState, len(b.lines))
-	for i := range b.lines {
-		l := &b.lines[i]
-		if err := l.Validate(); err != nil {
-			return nil, fmt.Errorf("opacity: BuildXSec %s: line of %v at %g cm^-1: %w", s.Gas, IsoKey{l.Mol, l.Iso}, l.Nu, err)
-		}
-		k := IsoKey{l.Mol, l.Iso}
-		st := byKey[k]
-		if st == nil {
-			d := iso[k]
-			if d == nil {
-				return nil, fmt.Errorf("opacity: BuildXSec %s: no isotopologue data (mass, partition function) for %v", s.Gas, k)
-			}
-			if !(d.Mass > 0) {
-				return nil, fmt.Errorf("opacity: BuildXSec %s: %v has mass %g, must be positive", s.Gas, k, d.Mass)
-			}
-			st = &isoState{key: k, mass: d.Mass, q: d.Q, idx: len(b.isos)}
-			if st.q == nil {
-				if !(d.Q296 > 0) {
-					return nil, fmt.Errorf("opacity: BuildXSec %s: %v has neither a partition table nor Q(296 K)", s.Gas, k)
-				}
-				st.q = &RigidRotor{Q296: d.Q296, Exponent: RotorExponent(k.Mol)}
-				warnings = append(warnings, fmt.Sprintf("no partition-function table for %s (%v): rigid-rotor approximation Q = Q(296 K) (T/296)^%g used, intensities away from 296 K are approximate",
-					d.Name, k, RotorExponent(k.Mol)))
-			}
-			lo, hi := st.q.Range()
-			if s.T[0] < lo || s.T[len(s.T)-1] > hi || TRef < lo || TRef > hi {
-				return nil, fmt.Errorf("opacity: BuildXSec %s: partition function of %v covers %g-%g K, grid needs %g-%g K and 296 K",
-					s.Gas, k, lo, hi, s.T[0], s.T[len(s.T)-1])
-			}
-			byKey[k] = st
-			b.isos = append(b.isos, st)
-		}
-		b.lineIso[i] = st
+	warnings, err := b.setLines(lines, iso)
+	if err != nil {
+		return nil, err
 	}
-	// Partition-function ratios Q(296)/Q(T) per isotopologue and temperature.
-	b.qRatio = make([][]float64, len(b.isos))
-	for i, st := range b.isos {
-		b.qRatio[i] = make([]float64, len(s.T))
-		q296 := st.q.Q(TRef)
-		for j, T := range s.T {
-			qT := st.q.Q(T)
-			b.qRatio[i][j] = q296 / qT
-			if !(q296 > 0 && qT > 0) || math.IsInf(b.qRatio[i][j], 0) {
-				return nil, fmt.Errorf("opacity: BuildXSec %s: partition function of %v gives Q(296 K) = %g, Q(%g K) = %g; both must be positive",
-					s.Gas, st.key, q296, T, qT)
-			}
-		}
+	if err := b.setPartitionRatios(); err != nil {
+		return nil, err
 	}
-	b.nuCm = make([]float64, len(s.Wavenumber))
-	for k, v := range s.Wavenumber {
-		b.nuCm[k] = v / 100
-	}
-	if s.CellAverage {
-		n := len(b.nuCm)
-		b.edges = make([]float64, n+1)
-		b.widths = make([]float64, n)
-		b.edges[0] = b.nuCm[0] - (b.nuCm[1]-b.nuCm[0])/2
-		b.edges[n] = b.nuCm[n-1] + (b.nuCm[n-1]-b.nuCm[n-2])/2
-		for k := 1; k < n; k++ {
-			b.edges[k] = (b.nuCm[k-1] + b.nuCm[k]) / 2
+	b.setGrid()
+	if !s.CellAverage {
+		if w := b.samplingWarning(); w != "" {
+			warnings = append(warnings, w)
 		}
-		b.invW = make([]float64, n)
-		for k := range b.widths {
-			b.widths[k] = b.edges[k+1] - b.edges[k]
-			b.invW[k] = 1 / b.widths[k]
-		}
-	} else if w := b.samplingWarning(); w != "" {
-		warnings = append(warnings, w)
 	}
 	b.workers = s.Workers
 	if b.workers == 0 {
@@ -342,6 +239,161 @@ func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
 		s.Observer.warn(w)
 	}
 	return b, nil
+}
+
+// checkSettings checks the settings of a build of nLines lines.
+func checkSettings(s *XSecSettings, nLines int) error {
+	if s == nil {
+		return fmt.Errorf("opacity: BuildXSec: no settings")
+	}
+	if s.Gas == "" {
+		return fmt.Errorf("opacity: BuildXSec: no gas name")
+	}
+	for _, ax := range []struct {
+		x    []float64
+		name string
+	}{{s.Log10P, "log10 pressure"}, {s.T, "temperature"}, {s.Wavenumber, "wavenumber"}} {
+		if err := opacity.CheckAxis(ax.x, ax.name); err != nil {
+			return fmt.Errorf("opacity: BuildXSec %s: grid: %w", s.Gas, err)
+		}
+	}
+	if !(s.T[0] > 0) {
+		return fmt.Errorf("opacity: BuildXSec %s: grid temperature %g K must be positive", s.Gas, s.T[0])
+	}
+	if !(s.Wavenumber[0] > 0) {
+		return fmt.Errorf("opacity: BuildXSec %s: grid wavenumber %g m^-1 must be positive", s.Gas, s.Wavenumber[0])
+	}
+	if s.WingCutoff < 0 || math.IsNaN(s.WingCutoff) || math.IsInf(s.WingCutoff, 0) {
+		return fmt.Errorf("opacity: BuildXSec %s: wing cut-off %g cm^-1 must be positive (0 for the default %g)", s.Gas, s.WingCutoff, DefaultWingCutoff)
+	}
+	if s.MinIntensity < 0 || math.IsNaN(s.MinIntensity) {
+		return fmt.Errorf("opacity: BuildXSec %s: minimum intensity %g must not be negative", s.Gas, s.MinIntensity)
+	}
+	if !(s.SelfFraction >= 0 && s.SelfFraction <= 1) {
+		return fmt.Errorf("opacity: BuildXSec %s: self-broadening fraction %g must be in [0, 1]", s.Gas, s.SelfFraction)
+	}
+	if s.Broadening.Scale < 0 || math.IsNaN(s.Broadening.Scale) || math.IsInf(s.Broadening.Scale, 0) {
+		return fmt.Errorf("opacity: BuildXSec %s: broadening scale %g must be positive (0 for 1)", s.Gas, s.Broadening.Scale)
+	}
+	if s.Broadening.N < 0 || math.IsNaN(s.Broadening.N) || math.IsInf(s.Broadening.N, 0) {
+		return fmt.Errorf("opacity: BuildXSec %s: broadening temperature exponent %g must not be negative", s.Gas, s.Broadening.N)
+	}
+	if s.Workers < 0 {
+		return fmt.Errorf("opacity: BuildXSec %s: %d workers", s.Gas, s.Workers)
+	}
+	if nLines == 0 {
+		return fmt.Errorf("opacity: BuildXSec %s: no lines to build from", s.Gas)
+	}
+	if s.CellAverage && len(s.Wavenumber) < 2 {
+		return fmt.Errorf("opacity: BuildXSec %s: cell averaging needs at least 2 wavenumbers to define cells, the grid has %d", s.Gas, len(s.Wavenumber))
+	}
+	return nil
+}
+
+// setLines sorts a copy of the lines by wavenumber, checks each, and
+// gives each the state of its isotopologue, whose partition function must
+// cover the grid's temperatures and 296 K. It returns the warnings about
+// isotopologues without a partition table, which get a RigidRotor.
+func (b *lineBuild) setLines(lines []Line, iso IsoData) (warnings []string, err error) {
+	s := b.s
+	b.lines = slices.Clone(lines)
+	slices.SortStableFunc(b.lines, func(a, c Line) int { return cmpFloat(a.Nu, c.Nu) })
+	byKey := map[IsoKey]*isoState{}
+	b.lineIso = make([]*isoState, len(b.lines))
+	for i := range b.lines {
+		l := &b.lines[i]
+		if err := l.Validate(); err != nil {
+			return nil, fmt.Errorf("opacity: BuildXSec %s: line of %v at %g cm^-1: %w", s.Gas, IsoKey{l.Mol, l.Iso}, l.Nu, err)
+		}
+		k := IsoKey{l.Mol, l.Iso}
+		st := byKey[k]
+		if st == nil {
+			var warning string
+			if st, warning, err = b.newIsoState(k, iso[k]); err != nil {
+				return nil, err
+			}
+			if warning != "" {
+				warnings = append(warnings, warning)
+			}
+			byKey[k] = st
+			b.isos = append(b.isos, st)
+		}
+		b.lineIso[i] = st
+	}
+	return warnings, nil
+}
+
+// newIsoState returns the state of isotopologue k with data d, and a
+// warning when it has no partition table and gets a RigidRotor.
+func (b *lineBuild) newIsoState(k IsoKey, d *Isotopologue) (st *isoState, warning string, err error) {
+	s := b.s
+	if d == nil {
+		return nil, "", fmt.Errorf("opacity: BuildXSec %s: no isotopologue data (mass, partition function) for %v", s.Gas, k)
+	}
+	if !(d.Mass > 0) {
+		return nil, "", fmt.Errorf("opacity: BuildXSec %s: %v has mass %g, must be positive", s.Gas, k, d.Mass)
+	}
+	st = &isoState{key: k, mass: d.Mass, q: d.Q, idx: len(b.isos)}
+	if st.q == nil {
+		if !(d.Q296 > 0) {
+			return nil, "", fmt.Errorf("opacity: BuildXSec %s: %v has neither a partition table nor Q(296 K)", s.Gas, k)
+		}
+		st.q = &RigidRotor{Q296: d.Q296, Exponent: RotorExponent(k.Mol)}
+		warning = fmt.Sprintf("no partition-function table for %s (%v): rigid-rotor approximation Q = Q(296 K) (T/296)^%g used, intensities away from 296 K are approximate",
+			d.Name, k, RotorExponent(k.Mol))
+	}
+	lo, hi := st.q.Range()
+	if s.T[0] < lo || s.T[len(s.T)-1] > hi || TRef < lo || TRef > hi {
+		return nil, "", fmt.Errorf("opacity: BuildXSec %s: partition function of %v covers %g-%g K, grid needs %g-%g K and 296 K",
+			s.Gas, k, lo, hi, s.T[0], s.T[len(s.T)-1])
+	}
+	return st, warning, nil
+}
+
+// setPartitionRatios sets the partition-function ratios Q(296)/Q(T) per
+// isotopologue and grid temperature.
+func (b *lineBuild) setPartitionRatios() error {
+	s := b.s
+	b.qRatio = make([][]float64, len(b.isos))
+	for i, st := range b.isos {
+		b.qRatio[i] = make([]float64, len(s.T))
+		q296 := st.q.Q(TRef)
+		for j, T := range s.T {
+			qT := st.q.Q(T)
+			b.qRatio[i][j] = q296 / qT
+			if !(q296 > 0 && qT > 0) || math.IsInf(b.qRatio[i][j], 0) {
+				return fmt.Errorf("opacity: BuildXSec %s: partition function of %v gives Q(296 K) = %g, Q(%g K) = %g; both must be positive",
+					s.Gas, st.key, q296, T, qT)
+			}
+		}
+	}
+	return nil
+}
+
+// setGrid sets the grid wavenumbers in cm^-1 and, for CellAverage, the
+// cells: edges at the midpoints between grid points, the end cells
+// symmetric about their points.
+func (b *lineBuild) setGrid() {
+	b.nuCm = make([]float64, len(b.s.Wavenumber))
+	for k, v := range b.s.Wavenumber {
+		b.nuCm[k] = v / 100
+	}
+	if !b.s.CellAverage {
+		return
+	}
+	n := len(b.nuCm)
+	b.edges = make([]float64, n+1)
+	b.widths = make([]float64, n)
+	b.edges[0] = b.nuCm[0] - (b.nuCm[1]-b.nuCm[0])/2
+	b.edges[n] = b.nuCm[n-1] + (b.nuCm[n-1]-b.nuCm[n-2])/2
+	for k := 1; k < n; k++ {
+		b.edges[k] = (b.nuCm[k-1] + b.nuCm[k]) / 2
+	}
+	b.invW = make([]float64, n)
+	for k := range b.widths {
+		b.widths[k] = b.edges[k+1] - b.edges[k]
+		b.invW[k] = 1 / b.widths[k]
+	}
 }
 
 // samplingWarning says when the grid is coarse against the lines: if the
@@ -424,7 +476,8 @@ func spacingAndWidth(nuCm []float64, lines []Line, mass func(i int) float64, bgS
 // warnings (one per line), for example about approximate partition sums.
 const MetaWarnings = "warnings"
 
-// buildSettings is what BuildXSec records in Meta[opacity.MetaBuildSettings] (JSON).
+// buildSettings is what BuildXSec records in
+// Meta[opacity.MetaBuildSettings] (JSON).
 type buildSettings struct {
 	Method          string            `json:"method"`
 	Profile         string            `json:"profile"`
