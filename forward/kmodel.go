@@ -2,6 +2,8 @@ package forward
 
 import (
 	"fmt"
+
+	"chord/forward/opacity"
 	"math"
 	"slices"
 )
@@ -52,6 +54,12 @@ type kModel struct {
 	// the kSub sub-points of every bin (bin-major).
 	rayleigh [][]float64
 	lnw      []float64
+
+	// For the resolved mode: the scattering gas of each species ("" for
+	// none) and the CIA tables as given.
+	rayleighGas []string
+	ciaTables   []*opacity.CIATable
+	ciaSpecies  [][2]int
 }
 
 // kGas is one gas's k-table on the model's bins.
@@ -154,6 +162,10 @@ func newKModel(m *Model, cfg Config) (*Model, error) {
 	if km.rayleigh, km.lnw, err = m.scatteringTables(cfg, sub); err != nil {
 		return nil, err
 	}
+	km.rayleighGas = make([]string, len(m.species))
+	for _, g := range cfg.Rayleigh {
+		km.rayleighGas[m.speciesIndex(g)] = g
+	}
 	m.k, m.nOut = km, km.nb
 	return m, nil
 }
@@ -204,6 +216,8 @@ func (km *kModel) setCIA(m *Model, cfg Config, sub []float64) error {
 				1/t.Wavenumber[len(t.Wavenumber)-1]/Micron, 1/t.Wavenumber[0]/Micron)
 		}
 		km.cia = append(km.cia, c)
+		km.ciaTables = append(km.ciaTables, t)
+		km.ciaSpecies = append(km.ciaSpecies, [2]int{a, b})
 	}
 	return nil
 }

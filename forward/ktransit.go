@@ -33,7 +33,10 @@ type mergeAtom struct{ v, w float64 }
 
 func (m *Model) newKWork(n int) *kWork {
 	km := m.k
-	bpb := max(1, blockLen/km.ng)
+	bpb := blockLen
+	if km.ng > 0 {
+		bpb = max(1, blockLen/km.ng)
+	}
 	kw := &kWork{
 		bpb:    bpb,
 		corner: make([][][4]corner, len(km.gases)),

@@ -86,6 +86,7 @@ type Model struct {
 	rayleigh [][]float64 // sigma per point for each species (nil when none)
 	grey     opacity.Grey
 	hazeSig  float64 // H2 Rayleigh at hazeRef, m^2
+	hazeRef  float64 // lambda_ref of the haze, m
 
 	bins *binner
 	nOut int
@@ -113,7 +114,7 @@ type groupMember struct {
 // cfg.
 func NewModel(cfg Config) (*Model, error) {
 	m := &Model{}
-	if len(cfg.KTables) > 0 {
+	if len(cfg.KTables) > 0 || (cfg.Wavelength == nil && cfg.Bins != nil) {
 		return newKModel(m, cfg)
 	}
 	if err := m.setGrid(cfg); err != nil {
@@ -397,7 +398,7 @@ func (m *Model) scatteringTables(cfg Config, wl []float64) (rayleigh [][]float64
 		return nil, nil, fmt.Errorf("forward: haze reference wavelength %g m, must be positive", ref)
 	}
 	h2, _ := opacity.NewRayleigh("H2")
-	m.hazeSig = h2.Sigma(1 / ref)
+	m.hazeSig, m.hazeRef = h2.Sigma(1/ref), ref
 	lnw = make([]float64, len(wl))
 	for k, v := range wl {
 		lnw[k] = math.Log(v / ref)

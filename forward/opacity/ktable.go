@@ -328,3 +328,6 @@ func nearestEdge(edges []float64, x float64) (int, float64) {
 	}
 	return best, d
 }
+
+// KindK is the MetaKind value of k-tables.
+const KindK = "k"
