@@ -69,8 +69,8 @@ type kBuild struct {
 	s       *KSettings
 	ls      *LineSet
 	q       Quadrature
-	grid    LnGrid
-	chunks  [][2]int // bin ranges [b0, b1)
+	grids   []LnGrid   // fine grid per temperature of the table
+	chunks  [][][2]int // per temperature: bin ranges [b0, b1)
 	table   *KTable
 	workers int
 }
@@ -115,32 +115,39 @@ func newKBuild(ls *LineSet, s *KSettings) (*kBuild, error) {
 	if b.workers == 0 {
 		b.workers = runtime.GOMAXPROCS(0)
 	}
-	rule := FineResolution(s.T[0], ls.MaxMass())
-	r := s.Resolution
 	var warnings []string
 	warnings = append(warnings, ls.Warnings...)
-	switch {
-	case r == 0:
-		r = rule
-	case !(r > 0) || math.IsInf(r, 0):
+	if r := s.Resolution; r != 0 && (!(r > 0) || math.IsInf(r, 0)) {
 		return fail("fine-grid resolving power %g, must be positive", r)
-	case r < rule:
-		warnings = append(warnings, fmt.Sprintf("fine grid at resolving power %.4g is coarser than a third of the Doppler half-width at %g K (resolving power %.4g): lines at low pressure are sampled, not resolved", r, s.T[0], rule))
 	}
+	if rule := FineResolution(s.T[0], ls.MaxMass()); s.Resolution > 0 && s.Resolution < rule {
+		warnings = append(warnings, fmt.Sprintf("fine grid at resolving power %.4g is coarser than a third of the Doppler half-width at %g K (resolving power %.4g): lines at low pressure are sampled, not resolved", s.Resolution, s.T[0], rule))
+	}
+	// One fine grid per temperature: by default each just fine enough for
+	// the Doppler width at its own temperature.
 	nuMax := 1 / s.Lo[0] / 100 // cm^-1
-	b.grid = LnGrid{Nu0: 1 / s.Hi[len(s.Hi)-1] / 100, R: r}
-	if n := b.grid.Index(nuMax); n > 1e10 {
-		return fail("fine grid of %.3g points at resolving power %.4g: too many", n, r)
-	}
-	// Chunks of consecutive bins of at most maxChunk fine points (a bin
-	// wider than that is a chunk of its own, computed in parts).
-	for b0 := 0; b0 < len(s.Lo); {
-		b1 := b0 + 1
-		for b1 < len(s.Lo) && b.span(b0, b1+1) <= maxChunk {
-			b1++
+	for _, t := range s.T {
+		r := s.Resolution
+		if r == 0 {
+			r = FineResolution(t, ls.MaxMass())
 		}
-		b.chunks = append(b.chunks, [2]int{b0, b1})
-		b0 = b1
+		g := LnGrid{Nu0: 1 / s.Hi[len(s.Hi)-1] / 100, R: r}
+		if n := g.Index(nuMax); n > 1e10 {
+			return fail("fine grid of %.3g points at resolving power %.4g: too many", n, r)
+		}
+		b.grids = append(b.grids, g)
+		// Chunks of consecutive bins of at most maxChunk fine points (a
+		// bin wider than that is a chunk of its own, computed in parts).
+		var ch [][2]int
+		for b0 := 0; b0 < len(s.Lo); {
+			b1 := b0 + 1
+			for b1 < len(s.Lo) && b.span(g, b0, b1+1) <= maxChunk {
+				b1++
+			}
+			ch = append(ch, [2]int{b0, b1})
+			b0 = b1
+		}
+		b.chunks = append(b.chunks, ch)
 	}
 	ng := len(b.q.G)
 	b.table = &KTable{
@@ -154,16 +161,16 @@ func newKBuild(ls *LineSet, s *KSettings) (*kBuild, error) {
 
 // pointRange returns the fine points [k0, k1) whose cells meet bins
 // [b0, b1): the cell of point k spans half a step either side in ln(nu).
-func (b *kBuild) pointRange(b0, b1 int) (k0, k1 int) {
+func (b *kBuild) pointRange(g LnGrid, b0, b1 int) (k0, k1 int) {
 	s := b.s
 	nuLo, nuHi := 1/s.Hi[b1-1]/100, 1/s.Lo[b0]/100
-	k0 = int(math.Floor(b.grid.Index(nuLo) - 0.5))
-	k1 = int(math.Ceil(b.grid.Index(nuHi)+0.5)) + 1
+	k0 = int(math.Floor(g.Index(nuLo) - 0.5))
+	k1 = int(math.Ceil(g.Index(nuHi)+0.5)) + 1
 	return k0, k1
 }
 
-func (b *kBuild) span(b0, b1 int) int {
-	k0, k1 := b.pointRange(b0, b1)
+func (b *kBuild) span(g LnGrid, b0, b1 int) int {
+	k0, k1 := b.pointRange(g, b0, b1)
 	return k1 - k0
 }
 
@@ -171,20 +178,19 @@ func (b *kBuild) span(b0, b1 int) int {
 func (b *kBuild) meta(warnings []string) map[string]string {
 	s := b.s
 	bs := map[string]any{
-		"method":                  "k-distribution from line-by-line cross-sections",
-		"profile":                 "Voigt; Faddeeva function by Humlicek (1982, JQSRT 27, 437), w4; cores on the fine grid, wings on every 32nd point with cubic interpolation",
-		"intensity":               "HITRAN temperature scaling (Rothman et al. 1998, JQSRT 60, 665); c2 = hc/k, CODATA 2018",
-		"quadrature":              b.q.String(),
-		"bin_weighting":           "box-car in wavelength",
-		"fine_resolving_power":    b.grid.R,
-		"doppler_rule_resolution": FineResolution(s.T[0], b.ls.MaxMass()),
-		"lines":                   b.ls.Lines(),
-		"wing_cutoff_cm-1":        b.ls.Cutoff(),
-		"min_intensity":           s.Lines.MinIntensity,
-		"self_fraction":           s.Lines.SelfFraction,
-		"broadener":               cmpOr(s.Lines.Broadening.Name, "air"),
-		"broadener_scale":         b.ls.scale,
-		"pressure_shift":          !s.Lines.NoPressureShift,
+		"method":           "k-distribution from line-by-line cross-sections",
+		"profile":          "Voigt; Faddeeva function by Humlicek (1982, JQSRT 27, 437), w4; cores on the fine grid, wings on every 32nd point with cubic interpolation",
+		"intensity":        "HITRAN temperature scaling (Rothman et al. 1998, JQSRT 60, 665); c2 = hc/k, CODATA 2018",
+		"quadrature":       b.q.String(),
+		"bin_weighting":    "box-car in wavelength",
+		"fine_grid":        fineGridNote(s.Resolution),
+		"lines":            b.ls.Lines(),
+		"wing_cutoff_cm-1": b.ls.Cutoff(),
+		"min_intensity":    s.Lines.MinIntensity,
+		"self_fraction":    s.Lines.SelfFraction,
+		"broadener":        cmpOr(s.Lines.Broadening.Name, "air"),
+		"broadener_scale":  b.ls.scale,
+		"pressure_shift":   !s.Lines.NoPressureShift,
 	}
 	if s.Lines.Broadening.N > 0 {
 		bs["broadener_temperature_exponent"] = strconv.FormatFloat(s.Lines.Broadening.N, 'g', -1, 64)
@@ -266,17 +272,18 @@ func (b *kBuild) point(ip, it int, pw *pointWork) {
 	row := b.table.Row(ip, it)
 	ng := len(b.q.G)
 	pw.k = grow(pw.k, ng)
-	for _, ch := range b.chunks {
-		k0, k1 := b.pointRange(ch[0], ch[1])
+	g := b.grids[it]
+	for _, ch := range b.chunks[it] {
+		k0, k1 := b.pointRange(g, ch[0], ch[1])
 		pw.sigma = grow(pw.sigma, k1-k0)
 		// A single bin wider than maxChunk is computed in parts into one
 		// slice: its points are all needed for its distribution.
 		for a := k0; a < k1; a += maxChunk {
 			z := min(a+maxChunk, k1)
-			b.ls.CrossSections(pw.sigma[a-k0:z-k0], b.grid, a, p, t, &pw.lw)
+			b.ls.CrossSections(pw.sigma[a-k0:z-k0], g, a, p, t, &pw.lw)
 		}
 		for bin := ch[0]; bin < ch[1]; bin++ {
-			pw.samples = b.binSamples(pw.samples[:0], bin, pw.sigma, k0)
+			pw.samples = b.binSamples(pw.samples[:0], g, bin, pw.sigma, k0)
 			KDistribution(pw.k, pw.samples, b.q)
 			for i, v := range pw.k {
 				row[bin*ng+i] = float32(v)
@@ -288,9 +295,8 @@ func (b *kBuild) point(ip, it int, pw *pointWork) {
 // binSamples appends the fine points of bin with their weights: the
 // overlap in wavelength of each point's cell (half a step either side in
 // ln(nu)) with the bin.
-func (b *kBuild) binSamples(dst []Sample, bin int, sigma []float64, k0 int) []Sample {
+func (b *kBuild) binSamples(dst []Sample, g LnGrid, bin int, sigma []float64, k0 int) []Sample {
 	lo, hi := b.s.Lo[bin], b.s.Hi[bin]
-	g := b.grid
 	kHi := int(math.Ceil(g.Index(1/lo/100) + 0.5))
 	kLo := int(math.Floor(g.Index(1/hi/100) - 0.5))
 	half := math.Exp(0.5 / g.R)
@@ -321,4 +327,11 @@ func joinLines(s []string) string {
 		out += v
 	}
 	return out
+}
+
+func fineGridNote(r float64) string {
+	if r > 0 {
+		return fmt.Sprintf("uniform in ln(nu) at resolving power %g", r)
+	}
+	return "uniform in ln(nu); resolving power 3 c / sqrt(2 ln2 k T / m) at each table temperature T for the heaviest isotopologue (spacing a third of the Doppler half-width)"
 }

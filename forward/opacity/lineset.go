@@ -185,7 +185,7 @@ func (ls *LineSet) NuRange() (lo, hi float64) { return ls.lines[0].Nu, ls.lines[
 // evaluation at every fine point, CO at 1e-6 to 10 atm; TestLineSetTwoLevel).
 const (
 	coarseStep = 32
-	coreSteps  = 20
+	coreSteps  = 12
 )
 
 // lagrangeW holds the cubic Lagrange weights of nodes -1, 0, 1, 2 at the
@@ -202,6 +202,7 @@ var lagrangeW = func() (w [coarseStep][4]float64) {
 // goroutine.
 type LineWork struct {
 	nus    []float64
+	node   []float64
 	coarse []float64
 	q      []float64 // per isotopologue: Q(296)/Q(T)
 }
@@ -243,12 +244,8 @@ func (ls *LineSet) CrossSections(dst []float64, g LnGrid, k0 int, p, t float64, 
 	// Lines whose window meets [nus[0], nus[n-1]].
 	lo := sort.Search(len(ls.lines), func(i int) bool { return ls.lines[i].Nu >= nus[0]-ls.cut })
 	hi := sort.Search(len(ls.lines), func(i int) bool { return ls.lines[i].Nu > nus[n-1]+ls.cut })
-	// node c (coarse index, fine point c*coarseStep) is coarse[c+1].
-	nodeNu := func(c int) float64 { return g.Nu(k0 + c*coarseStep) }
-	cLast := (n-1)/coarseStep + 2
 	for i := lo; i < hi; i++ {
 		l := &ls.lines[i]
-		li := &ls.isos[ls.iso[i]]
 		S := LineIntensity(l, t, w.q[ls.iso[i]], 1)
 		if S == 0 || S < ls.s.MinIntensity {
 			continue
@@ -258,53 +255,8 @@ func (ls *LineSet) CrossSections(dst []float64, g LnGrid, k0 int, p, t float64, 
 			nexp = ls.s.Broadening.N
 		}
 		gL := ls.scale*l.GammaAir*math.Exp(nexp*lnT)*pBg + l.GammaSelf*math.Exp(l.NAir*lnT)*pSelf
-		nuc := l.Nu + shift*l.DeltaAir*pAtm
-		aD := DopplerHWHM(l.Nu, t, li.mass)
-		r := sqrtLn2 / aD
-		y := gL * r
-		amp := S * sqrtLn2OverPi / aD
-		prof := func(nu float64) float64 { return amp * voigtRe((nu-nuc)*r, y) }
-		wl, wh := l.Nu-ls.cut, l.Nu+ls.cut
-		// Coarse nodes inside the cut-off window, and the core's nodes.
-		na := max(int(math.Ceil((g.Index(wl)-float64(k0))/coarseStep)), -1)
-		nb := min(int(math.Floor((g.Index(wh)-float64(k0))/coarseStep)), cLast)
-		h := nuc * (math.Exp(coarseStep/g.R) - 1)
-		cLo := int(math.Floor((g.Index(nuc-coreSteps*h) - float64(k0)) / coarseStep))
-		cHi := int(math.Ceil((g.Index(nuc+coreSteps*h) - float64(k0)) / coarseStep))
-		inWing := func(c int) bool { return c >= na && c <= nb && (c <= cLo || c >= cHi) }
-		for c := max(na, -1); c <= min(nb, cLast); c++ {
-			if c <= cLo || c >= cHi {
-				coarse[c+1] += prof(nodeNu(c))
-			}
-		}
-		node := func(c int) float64 {
-			if inWing(c) {
-				return prof(nodeNu(c))
-			}
-			return 0
-		}
-		// Correct the interpolant on the intervals whose stencil meets
-		// the core or a cut-off edge (ascending, merged).
-		done := math.MinInt
-		correct := func(c0, c1 int) {
-			c0 = max(c0, done, 0)
-			c1 = min(c1, (n-1)/coarseStep+1)
-			for c := c0; c < c1; c++ {
-				v := [4]float64{node(c - 1), node(c), node(c + 1), node(c + 2)}
-				for k := c * coarseStep; k < min((c+1)*coarseStep, n); k++ {
-					lw := &lagrangeW[k-c*coarseStep]
-					exact := 0.0
-					if nus[k] >= wl && nus[k] <= wh {
-						exact = prof(nus[k])
-					}
-					dst[k] += exact - (lw[0]*v[0] + lw[1]*v[1] + lw[2]*v[2] + lw[3]*v[3])
-				}
-			}
-			done = max(done, c1)
-		}
-		correct(na-2, na+1)
-		correct(cLo-1, cHi+1)
-		correct(nb-1, nb+2)
+		p := newVoigtLine(S, l.Nu+shift*l.DeltaAir*pAtm, DopplerHWHM(l.Nu, t, ls.isos[ls.iso[i]].mass), gL)
+		ls.addLine(dst, coarse, nus, g, k0, l.Nu-ls.cut, l.Nu+ls.cut, &p, w)
 	}
 	for k := range dst {
 		c := k / coarseStep
@@ -320,4 +272,88 @@ func grow(x []float64, n int) []float64 {
 		return x[:n]
 	}
 	return make([]float64, n)
+}
+
+// voigtLine is one line's Voigt profile S V(nu - nu0), prepared.
+type voigtLine struct {
+	nu0, r, y, amp float64 // centre; sqrt(ln2)/alphaD; y; S sqrt(ln2/pi)/alphaD
+	q, y2, ay      float64 // Humlicek region I constants
+	inner          float64 // half-width (cm^-1) of the region |x| + y < 15
+}
+
+func newVoigtLine(S, nu0, alphaD, gammaL float64) voigtLine {
+	r := sqrtLn2 / alphaD
+	y := gammaL * r
+	amp := S * sqrtLn2OverPi / alphaD
+	return voigtLine{nu0: nu0, r: r, y: y, amp: amp, q: 0.5 + y*y, y2: y * y, ay: amp * 0.5641896 * y, inner: max(15-y, 0) / r}
+}
+
+// at returns the profile at nu (cm^-1).
+func (p *voigtLine) at(nu float64) float64 {
+	d := nu - p.nu0
+	if math.Abs(d) >= p.inner {
+		return p.ay * wingRe(d*p.r, p.q, p.y2)
+	}
+	return p.amp * voigtRe(d*p.r, p.y)
+}
+
+// addLine adds one line's profile within [wl, wh] cm^-1 (its cut-off
+// window) to the fine points (dst, corrections) and coarse nodes (coarse,
+// node c at coarse[c+1]) of a chunk starting at grid point k0.
+func (ls *LineSet) addLine(dst, coarse, nus []float64, g LnGrid, k0 int, wl, wh float64, p *voigtLine, w *LineWork) {
+	n := len(dst)
+	cLast := (n-1)/coarseStep + 2
+	nodeNu := func(c int) float64 {
+		if k := c * coarseStep; k >= 0 && k < n {
+			return nus[k]
+		}
+		return g.Nu(k0 + c*coarseStep)
+	}
+	// Coarse nodes inside the cut-off window, and the core's nodes.
+	na := max(int(math.Ceil((g.Index(wl)-float64(k0))/coarseStep)), -1)
+	nb := min(int(math.Floor((g.Index(wh)-float64(k0))/coarseStep)), cLast)
+	h := p.nu0 * (math.Exp(coarseStep/g.R) - 1)
+	cLo := int(math.Floor((g.Index(p.nu0-coreSteps*h) - float64(k0)) / coarseStep))
+	cHi := int(math.Ceil((g.Index(p.nu0+coreSteps*h) - float64(k0)) / coarseStep))
+	inWing := func(c int) bool { return c >= na && c <= nb && (c <= cLo || c >= cHi) }
+	for c := max(na, -1); c <= min(nb, cLast); c++ {
+		if c <= cLo || c >= cHi {
+			coarse[c+1] += p.at(nodeNu(c))
+		}
+	}
+	// Correct the interpolant on the intervals whose stencil meets the
+	// core or a cut-off edge (ascending, merged), with the line's node
+	// values over the stencils kept in w.node.
+	done := math.MinInt
+	correct := func(c0, c1 int) {
+		c0 = max(c0, done, 0)
+		c1 = min(c1, (n-1)/coarseStep+1)
+		if c0 >= c1 {
+			return
+		}
+		w.node = grow(w.node, c1-c0+3)
+		for c := c0 - 1; c <= c1+1; c++ {
+			v := 0.0
+			if inWing(c) {
+				v = p.at(nodeNu(c))
+			}
+			w.node[c-c0+1] = v
+		}
+		for c := c0; c < c1; c++ {
+			v := w.node[c-c0 : c-c0+4]
+			k1 := min((c+1)*coarseStep, n)
+			for k := c * coarseStep; k < k1; k++ {
+				lw := &lagrangeW[k-c*coarseStep]
+				exact := 0.0
+				if nu := nus[k]; nu >= wl && nu <= wh {
+					exact = p.at(nu)
+				}
+				dst[k] += exact - (lw[0]*v[0] + lw[1]*v[1] + lw[2]*v[2] + lw[3]*v[3])
+			}
+		}
+		done = max(done, c1)
+	}
+	correct(na-2, na+1)
+	correct(cLo-1, cHi+1)
+	correct(nb-1, nb+2)
 }
