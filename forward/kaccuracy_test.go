@@ -11,6 +11,8 @@ import (
 
 	"chord/forward"
 	"chord/forward/opacity"
+	"chord/forward/opacity/hitran"
+	"chord/forward/opacity/lbl"
 	"chord/internal/testenv"
 )
 
@@ -70,58 +72,58 @@ func anchoredBins(t testing.TB, nuLo, nuHi, r float64) forward.Bins {
 type gasLines struct {
 	gas   string
 	files []string
-	q     map[opacity.IsoKey]string
+	q     map[lbl.IsoKey]string
 }
 
 var (
-	linesCO = gasLines{"CO", []string{"05_hit12_CO_full.par"}, map[opacity.IsoKey]string{
+	linesCO = gasLines{"CO", []string{"05_hit12_CO_full.par"}, map[lbl.IsoKey]string{
 		{Mol: 5, Iso: 1}: "q26_CO_26_tips2021_hapi.txt", {Mol: 5, Iso: 2}: "q27_CO_36_tips2021_hapi.txt", {Mol: 5, Iso: 3}: "q28_CO_28_tips2021_hapi.txt"}}
 	linesCH4 = gasLines{"CH4", []string{"CH4_nu3_band_0000A1-0010F2_hapi.par",
 		"CH4_band_0_0_0_1_1F2_to_0_0_1_1_1F1_hapi.par", "CH4_band_0_0_0_1_1F2_to_0_0_1_1_1F2_hapi.par",
 		"CH4_band_0_0_0_1_1F2_to_0_0_1_1_1E_hapi.par", "CH4_band_0_0_0_1_1F2_to_0_0_1_1_1A1_hapi.par",
 		"CH4_band_0_1_0_0_1E_to_0_1_1_0_1F1_hapi.par", "CH4_band_0_1_0_0_1E_to_0_1_1_0_1F2_hapi.par"},
-		map[opacity.IsoKey]string{{Mol: 6, Iso: 1}: "q32_CH4_211_tips2021_hapi.txt"}}
+		map[lbl.IsoKey]string{{Mol: 6, Iso: 1}: "q32_CH4_211_tips2021_hapi.txt"}}
 	linesCO2 = gasLines{"CO2", []string{"CO2_626_HIRS-ch1_lblgasabs.tsv", "CO2_626_HIRS-ch2_lblgasabs.tsv", "CO2_626_HIRS-ch3_lblgasabs.tsv",
 		"CO2_626_HIRS-ch4_lblgasabs.tsv", "CO2_626_HIRS-ch5_lblgasabs.tsv", "CO2_626_HIRS-ch6_lblgasabs.tsv", "CO2_626_HIRS-ch7_lblgasabs.tsv"},
-		map[opacity.IsoKey]string{{Mol: 2, Iso: 1}: "q7_CO2_626_tips2021_hapi.txt"}}
-	linesH2O2000 = gasLines{"H2O", []string{"H2O_2000-2100_hit16_radis.par"}, map[opacity.IsoKey]string{
+		map[lbl.IsoKey]string{{Mol: 2, Iso: 1}: "q7_CO2_626_tips2021_hapi.txt"}}
+	linesH2O2000 = gasLines{"H2O", []string{"H2O_2000-2100_hit16_radis.par"}, map[lbl.IsoKey]string{
 		{Mol: 1, Iso: 1}: "q1_H2O_161_tips2021_hapi.txt", {Mol: 1, Iso: 2}: "q2_H2O_181_tips2021_hapi.txt"}}
-	linesH2O6000 = gasLines{"H2O", []string{"H2O_6000-6400_vsmartmom.par"}, map[opacity.IsoKey]string{{Mol: 1, Iso: 1}: "q1_H2O_161_tips2021_hapi.txt"}}
-	linesCO26000 = gasLines{"CO2", []string{"CO2_6000-6400_vsmartmom.par"}, map[opacity.IsoKey]string{{Mol: 2, Iso: 1}: "q7_CO2_626_tips2021_hapi.txt"}}
-	linesCO6000  = gasLines{"CO", []string{"CO_6000-6400_vsmartmom.par"}, map[opacity.IsoKey]string{{Mol: 5, Iso: 1}: "q26_CO_26_tips2021_hapi.txt"}}
+	linesH2O6000 = gasLines{"H2O", []string{"H2O_6000-6400_vsmartmom.par"}, map[lbl.IsoKey]string{{Mol: 1, Iso: 1}: "q1_H2O_161_tips2021_hapi.txt"}}
+	linesCO26000 = gasLines{"CO2", []string{"CO2_6000-6400_vsmartmom.par"}, map[lbl.IsoKey]string{{Mol: 2, Iso: 1}: "q7_CO2_626_tips2021_hapi.txt"}}
+	linesCO6000  = gasLines{"CO", []string{"CO_6000-6400_vsmartmom.par"}, map[lbl.IsoKey]string{{Mol: 5, Iso: 1}: "q26_CO_26_tips2021_hapi.txt"}}
 )
 
 // load reads the lines within the wing cut-off of [nuLo, nuHi] and the
 // isotopologue data (HITRAN molparam, TIPS-2011 for isotopologues without
 // a TIPS-2021 file).
-func (gl gasLines) load(t testing.TB, nuLo, nuHi float64) ([]opacity.Line, opacity.IsoData) {
+func (gl gasLines) load(t testing.TB, nuLo, nuHi float64) ([]lbl.Line, lbl.IsoData) {
 	t.Helper()
 	part := testenv.SharedData(t, "partition")
 	lineDir := testenv.SharedData(t, "hitran-lines")
-	iso, err := opacity.ReadMolParam(filepath.Join(part, "molparam_hitran.txt"))
+	iso, err := hitran.ReadMolParam(filepath.Join(part, "molparam_hitran.txt"))
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := opacity.ReadTIPSTable(filepath.Join(part, "parsum2011_tips.dat"), iso); err != nil {
+	if _, err := hitran.ReadTIPSTable(filepath.Join(part, "parsum2011_tips.dat"), iso); err != nil {
 		t.Fatal(err)
 	}
 	for k, f := range gl.q {
-		q, err := opacity.ReadQFile(filepath.Join(part, f))
+		q, err := hitran.ReadQFile(filepath.Join(part, f))
 		if err != nil {
 			t.Fatal(err)
 		}
 		iso[k].Q = q
 	}
-	var all []opacity.Line
-	cut := opacity.DefaultWingCutoff
+	var all []lbl.Line
+	cut := lbl.DefaultWingCutoff
 	for _, f := range gl.files {
-		ls, err := opacity.ReadLineFile(filepath.Join(lineDir, f), opacity.LineFilter{NuMin: nuLo - cut, NuMax: nuHi + cut})
+		ls, err := hitran.ReadLineFile(filepath.Join(lineDir, f), hitran.LineFilter{NuMin: nuLo - cut, NuMax: nuHi + cut})
 		if err != nil {
 			t.Fatal(err)
 		}
 		all = append(all, ls...)
 	}
-	return opacity.MergeLines(all), iso
+	return lbl.MergeLines(all), iso
 }
 
 // kCase is one comparison: gases, spectral window (cm^-1), bins.
@@ -129,7 +131,7 @@ type kCase struct {
 	lines      []gasLines
 	nuLo, nuHi float64
 	binR       float64
-	lineSet    opacity.LineSettings
+	lineSet    lbl.LineSettings
 }
 
 // kResult holds a case's reference and k-table models.
@@ -159,11 +161,11 @@ func (c kCase) build(t testing.TB) *kResult {
 	r := &kResult{srcs: map[string]forward.LineSource{}}
 	for _, gl := range c.lines {
 		lines, iso := gl.load(t, c.nuLo, c.nuHi)
-		ls, err := opacity.NewLineSet(gl.gas, lines, iso, c.lineSet)
+		ls, err := lbl.NewLineSet(gl.gas, lines, iso, c.lineSet)
 		if err != nil {
 			t.Fatal(err)
 		}
-		kt, err := opacity.BuildK(lines, iso, &opacity.KSettings{
+		kt, err := lbl.BuildK(lines, iso, &lbl.KSettings{
 			Gas: gl.gas, Log10P: testKLog10P(), T: []float64{1000}, Lo: bins.Lo, Hi: bins.Hi, Lines: c.lineSet,
 		})
 		if err != nil {
@@ -369,7 +371,7 @@ func TestKResponse(t *testing.T) {
 	ref0, k0 := r.spectra(t, []float64{1e-4}, 1e6)
 	for _, scale := range []float64{0.5, 2} {
 		c := base
-		c.lineSet.Broadening = opacity.Broadening{Name: fmt.Sprintf("air x %g", scale), Scale: scale}
+		c.lineSet.Broadening = lbl.Broadening{Name: fmt.Sprintf("air x %g", scale), Scale: scale}
 		rs := c.build(t)
 		ref, kd := rs.spectra(t, []float64{1e-4}, 1e6)
 		worst := 0.0

@@ -12,12 +12,12 @@ import (
 )
 
 // LineSource computes one gas's cross-sections line by line at any
-// pressure and temperature, for the resolved mode (opacity.LineSet is one).
+// pressure and temperature, for the resolved mode (lbl.LineSet is one).
 type LineSource interface {
 	// CrossSections fills dst with the cross-sections (m^2 per molecule)
 	// at points k0, k0+1, ... of grid g, at pressure p (Pa) and
-	// temperature t (K).
-	CrossSections(dst []float64, g opacity.LnGrid, k0 int, p, t float64, w *opacity.LineWork)
+	// temperature t (K). It must be safe for concurrent use.
+	CrossSections(dst []float64, g opacity.LnGrid, k0 int, p, t float64)
 	// CheckTemperature reports whether the source can be used at t (K).
 	CheckTemperature(t float64) error
 }
@@ -135,7 +135,7 @@ func (m *Model) TransitResolved(dst []float64, s *State, src map[string]LineSour
 				k1 := min(k0+resolvedChunk, nFine)
 				rw.alpha(m, s, grid, k0, k1, func(sigma []float64, j int, buf []float64) {
 					for _, gs := range gases {
-						gs.src.CrossSections(buf, grid, k0, m.pLayer[j], w.temp[j], &rw.lw)
+						gs.src.CrossSections(buf, grid, k0, m.pLayer[j], w.temp[j])
 						floats.AddScaled(sigma, w.x[gs.sp], buf)
 					}
 				})
@@ -193,7 +193,6 @@ type resolvedWork struct {
 	acc    []float64
 	low    []float64
 	tkc    []float64
-	lw     opacity.LineWork
 }
 
 func (m *Model) newResolvedWork(w *Workspace, g geometry) *resolvedWork {

@@ -71,7 +71,7 @@ func (t *KTable) Validate() error {
 		x    []float64
 		name string
 	}{{t.Log10P, "log10 pressure"}, {t.T, "temperature"}, {t.G, "quadrature node"}} {
-		if err := checkAxis(ax.x, ax.name); err != nil {
+		if err := CheckAxis(ax.x, ax.name); err != nil {
 			return fail("%v", err)
 		}
 	}
@@ -325,9 +325,6 @@ func nearestEdge(edges []float64, x float64) (int, float64) {
 	}
 	return best, d
 }
-
-// KindK is the MetaKind value of k-tables.
-const KindK = "k"
 
 // DefaultKLog10P returns the default pressure axis of k-tables: log10(P/Pa)
 // from -2 to 7 (1e-7 to 100 bar, the default atmosphere) at 6 points per

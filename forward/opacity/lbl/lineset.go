@@ -1,26 +1,14 @@
-package opacity
+package lbl
 
 import (
 	"fmt"
 	"math"
 	"slices"
 	"sort"
+	"sync"
+
+	"chord/forward/opacity"
 )
-
-// LnGrid is a wavenumber grid uniform in ln(nu), that is of constant
-// resolving power: Nu(k) = Nu0 exp(k/R) cm^-1 for integer k. Doppler widths
-// scale with nu, so on such a grid every line has the same number of points
-// per Doppler width.
-type LnGrid struct {
-	Nu0 float64 // cm^-1 at k = 0
-	R   float64 // nu/dnu
-}
-
-// Nu returns the wavenumber (cm^-1) of point k.
-func (g LnGrid) Nu(k int) float64 { return g.Nu0 * math.Exp(float64(k)/g.R) }
-
-// Index returns the (fractional) point index of wavenumber nu (cm^-1).
-func (g LnGrid) Index(nu float64) float64 { return g.R * math.Log(nu/g.Nu0) }
 
 // FineResolution returns the resolving power nu/dnu of a fine grid whose
 // spacing is at most one third of the Doppler half-width of a molecule of
@@ -30,7 +18,7 @@ func (g LnGrid) Index(nu float64) float64 { return g.R * math.Log(nu/g.Nu0) }
 // k-distribution of a bin within a small fraction of a ppm of its
 // converged value (README, "Accuracy of the k-distribution").
 func FineResolution(t, mass float64) float64 {
-	return 3 * speedOfLight / math.Sqrt(2*math.Ln2*boltzmann*t/(mass*atomicMass))
+	return 3 * SpeedOfLight / math.Sqrt(2*math.Ln2*boltzmann*t/(mass*atomicMass))
 }
 
 // LineSettings are the line-shape settings of a LineSet. Zero values pick
@@ -64,6 +52,7 @@ type LineSet struct {
 	scale float64 // background broadening scale
 	// Warnings says what was approximated (partition functions).
 	Warnings []string
+	pool     sync.Pool // of *lineWork
 }
 
 type lineIso struct {
@@ -110,7 +99,7 @@ func NewLineSet(gas string, lines []Line, iso IsoData, s LineSettings) (*LineSet
 	byKey := map[IsoKey]int{}
 	for i := range ls.lines {
 		l := &ls.lines[i]
-		if err := checkLine(l); err != nil {
+		if err := l.Validate(); err != nil {
 			return fail("line of %v at %g cm^-1: %v", IsoKey{l.Mol, l.Iso}, l.Nu, err)
 		}
 		k := IsoKey{l.Mol, l.Iso}
@@ -198,9 +187,9 @@ var lagrangeW = func() (w [coarseStep][4]float64) {
 	return w
 }()
 
-// LineWork is the scratch memory of LineSet.CrossSections; one per
+// lineWork is the scratch memory of a cross-section calculation; one per
 // goroutine.
-type LineWork struct {
+type lineWork struct {
 	nus    []float64
 	node   []float64
 	coarse []float64
@@ -214,8 +203,19 @@ type LineWork struct {
 // p_self) + gamma_self p_self), centre shifted by delta_air p, Doppler
 // half-width from the isotopologue's mass, Voigt profile (Humlicek 1982)
 // within the wing cut-off of the catalogue position. The caller checks t
-// with CheckTemperature. It allocates only when w's buffers must grow.
-func (ls *LineSet) CrossSections(dst []float64, g LnGrid, k0 int, p, t float64, w *LineWork) {
+// with CheckTemperature.
+//
+// It is safe for concurrent use; its scratch memory comes from a pool.
+func (ls *LineSet) CrossSections(dst []float64, g opacity.LnGrid, k0 int, p, t float64) {
+	w, _ := ls.pool.Get().(*lineWork)
+	if w == nil {
+		w = new(lineWork)
+	}
+	ls.crossSections(dst, g, k0, p, t, w)
+	ls.pool.Put(w)
+}
+
+func (ls *LineSet) crossSections(dst []float64, g opacity.LnGrid, k0 int, p, t float64, w *lineWork) {
 	n := len(dst)
 	clear(dst)
 	if n == 0 {
@@ -233,7 +233,7 @@ func (ls *LineSet) CrossSections(dst []float64, g LnGrid, k0 int, p, t float64, 
 	for i, li := range ls.isos {
 		w.q[i] = li.q296 / li.q.Q(t)
 	}
-	pAtm := p / atmPa
+	pAtm := p / StandardAtmosphere
 	pSelf := ls.s.SelfFraction * pAtm
 	pBg := pAtm - pSelf
 	lnT := math.Log(TRef / t)
@@ -300,7 +300,7 @@ func (p *voigtLine) at(nu float64) float64 {
 // addLine adds one line's profile within [wl, wh] cm^-1 (its cut-off
 // window) to the fine points (dst, corrections) and coarse nodes (coarse,
 // node c at coarse[c+1]) of a chunk starting at grid point k0.
-func (ls *LineSet) addLine(dst, coarse, nus []float64, g LnGrid, k0 int, wl, wh float64, p *voigtLine, w *LineWork) {
+func (ls *LineSet) addLine(dst, coarse, nus []float64, g opacity.LnGrid, k0 int, wl, wh float64, p *voigtLine, w *lineWork) {
 	n := len(dst)
 	cLast := (n-1)/coarseStep + 2
 	nodeNu := func(c int) float64 {

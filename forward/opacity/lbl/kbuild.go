@@ -1,4 +1,4 @@
-package opacity
+package lbl
 
 import (
 	"encoding/json"
@@ -7,7 +7,10 @@ import (
 	"runtime"
 	"slices"
 	"strconv"
+	"strings"
 	"sync"
+
+	"chord/forward/opacity"
 )
 
 // KSettings controls BuildK. Zero values of optional fields pick the stated
@@ -18,8 +21,8 @@ type KSettings struct {
 	T      []float64 // grid: temperature in K, strictly ascending, positive (required)
 	// Lo and Hi are the bins (m): ascending, not overlapping (required).
 	Lo, Hi []float64
-	// Quadrature is the g rule; zero means DefaultQuadrature().
-	Quadrature Quadrature
+	// Quadrature is the g rule; zero means opacity.DefaultQuadrature().
+	Quadrature opacity.Quadrature
 	// Resolution is the resolving power nu/dnu of the fine grid the
 	// cross-sections are computed on; 0 means FineResolution at the lowest
 	// table temperature for the heaviest isotopologue (spacing at most a
@@ -47,9 +50,9 @@ const maxChunk = 1 << 20
 // point of the grid, the cross-sections on a fine grid uniform in ln(nu)
 // (LineSet.CrossSections) are sorted within each bin, weighted by their
 // share of the bin in wavelength, and sampled at the quadrature nodes
-// (KDistribution). The fine cross-sections of one point are held a chunk
+// (opacity.KDistribution). The fine cross-sections of one point are held a chunk
 // of bins at a time; points are spread over Workers goroutines.
-func BuildK(lines []Line, iso IsoData, s *KSettings) (*KTable, error) {
+func BuildK(lines []Line, iso IsoData, s *KSettings) (*opacity.KTable, error) {
 	if s == nil {
 		return nil, fmt.Errorf("opacity: BuildK: no settings")
 	}
@@ -68,10 +71,10 @@ func BuildK(lines []Line, iso IsoData, s *KSettings) (*KTable, error) {
 type kBuild struct {
 	s       *KSettings
 	ls      *LineSet
-	q       Quadrature
-	grids   []LnGrid   // fine grid per temperature of the table
-	chunks  [][][2]int // per temperature: bin ranges [b0, b1)
-	table   *KTable
+	q       opacity.Quadrature
+	grids   []opacity.LnGrid // fine grid per temperature of the table
+	chunks  [][][2]int       // per temperature: bin ranges [b0, b1)
+	table   *opacity.KTable
 	workers int
 }
 
@@ -83,7 +86,7 @@ func newKBuild(ls *LineSet, s *KSettings) (*kBuild, error) {
 		x    []float64
 		name string
 	}{{s.Log10P, "log10 pressure"}, {s.T, "temperature"}} {
-		if err := checkAxis(ax.x, ax.name); err != nil {
+		if err := opacity.CheckAxis(ax.x, ax.name); err != nil {
 			return fail("grid: %v", err)
 		}
 	}
@@ -108,7 +111,7 @@ func newKBuild(ls *LineSet, s *KSettings) (*kBuild, error) {
 	}
 	b := &kBuild{s: s, ls: ls, q: s.Quadrature, workers: s.Workers}
 	if b.q.G == nil {
-		b.q = DefaultQuadrature()
+		b.q = opacity.DefaultQuadrature()
 	} else if err := b.q.Validate(); err != nil {
 		return fail("%v", err)
 	}
@@ -131,7 +134,7 @@ func newKBuild(ls *LineSet, s *KSettings) (*kBuild, error) {
 		if r == 0 {
 			r = FineResolution(t, ls.MaxMass())
 		}
-		g := LnGrid{Nu0: 1 / s.Hi[len(s.Hi)-1] / 100, R: r}
+		g := opacity.LnGrid{Nu0: 1 / s.Hi[len(s.Hi)-1] / 100, R: r}
 		if n := g.Index(nuMax); n > 1e10 {
 			return fail("fine grid of %.3g points at resolving power %.4g: too many", n, r)
 		}
@@ -150,7 +153,7 @@ func newKBuild(ls *LineSet, s *KSettings) (*kBuild, error) {
 		b.chunks = append(b.chunks, ch)
 	}
 	ng := len(b.q.G)
-	b.table = &KTable{
+	b.table = &opacity.KTable{
 		Gas: s.Gas, Log10P: slices.Clone(s.Log10P), T: slices.Clone(s.T),
 		Lo: slices.Clone(s.Lo), Hi: slices.Clone(s.Hi), G: slices.Clone(b.q.G), W: slices.Clone(b.q.W),
 		K:    make([]float32, len(s.Log10P)*len(s.T)*len(s.Lo)*ng),
@@ -161,7 +164,7 @@ func newKBuild(ls *LineSet, s *KSettings) (*kBuild, error) {
 
 // pointRange returns the fine points [k0, k1) whose cells meet bins
 // [b0, b1): the cell of point k spans half a step either side in ln(nu).
-func (b *kBuild) pointRange(g LnGrid, b0, b1 int) (k0, k1 int) {
+func (b *kBuild) pointRange(g opacity.LnGrid, b0, b1 int) (k0, k1 int) {
 	s := b.s
 	nuLo, nuHi := 1/s.Hi[b1-1]/100, 1/s.Lo[b0]/100
 	k0 = int(math.Floor(g.Index(nuLo) - 0.5))
@@ -169,7 +172,7 @@ func (b *kBuild) pointRange(g LnGrid, b0, b1 int) (k0, k1 int) {
 	return k0, k1
 }
 
-func (b *kBuild) span(g LnGrid, b0, b1 int) int {
+func (b *kBuild) span(g opacity.LnGrid, b0, b1 int) int {
 	k0, k1 := b.pointRange(g, b0, b1)
 	return k1 - k0
 }
@@ -208,15 +211,15 @@ func (b *kBuild) meta(warnings []string) map[string]string {
 	if err != nil {
 		panic(err) // plain values
 	}
-	m := map[string]string{MetaBuildSettings: string(js), MetaKind: KindK}
+	m := map[string]string{opacity.MetaBuildSettings: string(js)}
 	if len(warnings) > 0 {
-		m[MetaWarnings] = joinLines(warnings)
+		m[MetaWarnings] = strings.Join(warnings, "\n")
 	}
 	if s.Version != "" {
-		m[MetaProgramVersion] = s.Version
+		m[opacity.MetaProgramVersion] = s.Version
 	}
 	if s.Sources != "" {
-		m[MetaSources] = s.Sources
+		m[opacity.MetaSources] = s.Sources
 	}
 	return m
 }
@@ -259,9 +262,9 @@ func (b *kBuild) run() {
 
 // pointWork is one worker's scratch memory.
 type pointWork struct {
-	lw      LineWork
+	lw      lineWork
 	sigma   []float64
-	samples []Sample
+	samples []opacity.Sample
 	k       []float64
 }
 
@@ -280,11 +283,11 @@ func (b *kBuild) point(ip, it int, pw *pointWork) {
 		// slice: its points are all needed for its distribution.
 		for a := k0; a < k1; a += maxChunk {
 			z := min(a+maxChunk, k1)
-			b.ls.CrossSections(pw.sigma[a-k0:z-k0], g, a, p, t, &pw.lw)
+			b.ls.crossSections(pw.sigma[a-k0:z-k0], g, a, p, t, &pw.lw)
 		}
 		for bin := ch[0]; bin < ch[1]; bin++ {
 			pw.samples = b.binSamples(pw.samples[:0], g, bin, pw.sigma, k0)
-			KDistribution(pw.k, pw.samples, b.q)
+			opacity.KDistribution(pw.k, pw.samples, b.q)
 			for i, v := range pw.k {
 				row[bin*ng+i] = float32(v)
 			}
@@ -295,7 +298,7 @@ func (b *kBuild) point(ip, it int, pw *pointWork) {
 // binSamples appends the fine points of bin with their weights: the
 // overlap in wavelength of each point's cell (half a step either side in
 // ln(nu)) with the bin.
-func (b *kBuild) binSamples(dst []Sample, g LnGrid, bin int, sigma []float64, k0 int) []Sample {
+func (b *kBuild) binSamples(dst []opacity.Sample, g opacity.LnGrid, bin int, sigma []float64, k0 int) []opacity.Sample {
 	lo, hi := b.s.Lo[bin], b.s.Hi[bin]
 	kHi := int(math.Ceil(g.Index(1/lo/100) + 0.5))
 	kLo := int(math.Floor(g.Index(1/hi/100) - 0.5))
@@ -305,7 +308,7 @@ func (b *kBuild) binSamples(dst []Sample, g LnGrid, bin int, sigma []float64, k0
 		cLo, cHi := 1/(nu*half), half/nu
 		ov := min(cHi, hi) - max(cLo, lo)
 		if ov > 0 {
-			dst = append(dst, Sample{V: sigma[k-k0], W: ov})
+			dst = append(dst, opacity.Sample{V: sigma[k-k0], W: ov})
 		}
 	}
 	return dst
@@ -316,17 +319,6 @@ func cmpOr(a, b string) string {
 		return a
 	}
 	return b
-}
-
-func joinLines(s []string) string {
-	out := ""
-	for i, v := range s {
-		if i > 0 {
-			out += "\n"
-		}
-		out += v
-	}
-	return out
 }
 
 func fineGridNote(r float64) string {
