@@ -69,6 +69,7 @@ type kGas struct {
 	log10P, t []float64 // table axes
 	nT        int
 	k         []float32 // rows (iP*nT+iT) of nb*ng values
+	mean      []float64 // rows of nb values: sum_g W_g k
 }
 
 // kCIA is one collision-induced-absorption table averaged over the model's
@@ -146,7 +147,15 @@ func newKModel(m *Model, cfg Config) (*Model, error) {
 		if err != nil {
 			return nil, fmt.Errorf("forward: %w", err)
 		}
-		km.gases = append(km.gases, kGas{name: t.Gas, sp: sp, log10P: r.Log10P, t: r.T, nT: len(r.T), k: r.K})
+		kg := kGas{name: t.Gas, sp: sp, log10P: r.Log10P, t: r.T, nT: len(r.T), k: r.K}
+		ng := len(r.G)
+		kg.mean = make([]float64, len(r.K)/ng)
+		for i := range kg.mean {
+			for q, v := range r.K[i*ng : (i+1)*ng] {
+				kg.mean[i] += r.W[q] * float64(v)
+			}
+		}
+		km.gases = append(km.gases, kg)
 	}
 	// Sub-points of every bin, for grey quantities.
 	sub := make([]float64, km.nb*kSub)
