@@ -86,8 +86,9 @@ type NestedSettings struct {
 	// 16. At most Live.
 	Batch int
 	// Enlarge is the factor by which each bounding ellipsoid's volume is
-	// multiplied beyond the smallest that holds its live points; 0 means
-	// 1.5. At least 1.
+	// multiplied beyond the one that holds each of its live points when
+	// fitted to the others (which a new point escapes about once in N+1
+	// draws); 0 means 1.5. At least 1.
 	Enlarge float64
 	// UpdateEvery is the number of iterations between refits of the
 	// bounding ellipsoids (and decisions between rejection and slice
@@ -215,8 +216,9 @@ type NestedResult struct {
 // returns) until a stopping rule is met, handing every dead point to rec
 // (which may be nil).
 //
-// Nested sampling (Skilling 2004, AIP Conf. Proc. 735, 395; Skilling 2006,
-// Bayesian Analysis 1, 833) keeps Live points drawn from the prior. Each
+// Nested sampling (Skilling 2004, AIP Conf. Proc. 735, 395, from memory;
+// Skilling 2006, Bayesian Analysis 1, 833) keeps Live points drawn from
+// the prior. Each
 // iteration i discards the point of lowest likelihood L_i, which is
 // assigned the prior mass w_i = X_{i-1} - X_i with X_i = exp(-i/Live), and
 // replaces it by a draw from the prior restricted to L > L_i. The evidence
@@ -247,10 +249,12 @@ type NestedResult struct {
 //
 // All random numbers are drawn on the calling goroutine in a fixed order,
 // so the run does not depend on Workers, and a run resumed from a
-// checkpoint continues the very same sequence. Cancellation and the budget
-// are honoured between batches and iterations, as Run does; an error leaves
-// the state usable only for inspection, not for resuming (resume from the
-// last checkpoint).
+// checkpoint continues the very same sequence. Cancellation is honoured
+// between batches (an iteration may need several), the budget between
+// iterations; either way the state is consistent and resumes to the same
+// run. On a recorder or checkpoint error the returned state includes the
+// failed iteration, which the recorder may not hold: resume from the last
+// checkpoint instead.
 func RunNested(ctx context.Context, t Target, prior []Quantiler, st *NestedState, s NestedSettings, rec DeadRecorder) (*NestedState, NestedResult, error) {
 	begin := time.Now()
 	if t.Dim() != st.Dim || t.NumExtra() != st.NumExtra {
@@ -305,7 +309,10 @@ func RunNested(ctx context.Context, t Target, prior []Quantiler, st *NestedState
 	for {
 		w, lmin, lmax := st.extremes()
 		if lmin == lmax || st.remaining(lmax) < cfg.tol {
-			return finish(StopEvidence, r.finish(rec))
+			if err := r.finish(rec); err != nil {
+				return finish(0, err)
+			}
+			return finish(StopEvidence, nil)
 		}
 		slot, ok := r.replacement(ctx, lmin)
 		if !ok {

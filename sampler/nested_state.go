@@ -315,19 +315,9 @@ func (st *NestedState) MarshalBinary() ([]byte, error) {
 // checksum, magic, version or length is an error wrapping ErrCorruptState;
 // st is unchanged then.
 func (st *NestedState) UnmarshalBinary(data []byte) error {
-	if len(data) < len(nestedMagic)+4 {
-		return fmt.Errorf("%w: %d bytes is too short", ErrCorruptState, len(data))
-	}
-	body, sum := data[:len(data)-4], binary.LittleEndian.Uint32(data[len(data)-4:])
-	if string(body[:len(nestedMagic)]) != nestedMagic {
-		return fmt.Errorf("%w: not a nested-sampling state (bad magic)", ErrCorruptState)
-	}
-	if crc32.Checksum(body, crcTable) != sum {
-		return fmt.Errorf("%w: checksum mismatch", ErrCorruptState)
-	}
-	r := &reader{b: body[len(nestedMagic):]}
-	if v := r.u32(); v != nestedVersion {
-		return fmt.Errorf("%w: nested state version %d, this program reads version %d", ErrCorruptState, v, nestedVersion)
+	r, err := openFrame(data, nestedMagic, nestedVersion, "nested-sampling state")
+	if err != nil {
+		return err
 	}
 	live, d, nx := r.u32(), r.u32(), r.u32()
 	iter, evals := r.u64(), r.u64()

@@ -362,20 +362,7 @@ func TestNestedCorruptState(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	for i := range b {
-		c := append([]byte(nil), b...)
-		c[i] ^= 0x10
-		var s sampler.NestedState
-		if err := s.UnmarshalBinary(c); !errors.Is(err, sampler.ErrCorruptState) {
-			t.Fatalf("byte %d flipped: error %v, want ErrCorruptState", i, err)
-		}
-	}
-	for _, n := range []int{0, 3, 12, len(b) - 1} {
-		var s sampler.NestedState
-		if err := s.UnmarshalBinary(b[:n]); !errors.Is(err, sampler.ErrCorruptState) {
-			t.Fatalf("truncated to %d bytes: error %v, want ErrCorruptState", n, err)
-		}
-	}
+	checkCorruption(t, b, func(c []byte) error { var s sampler.NestedState; return s.UnmarshalBinary(c) })
 	var ens sampler.State
 	if err := ens.UnmarshalBinary(b); !errors.Is(err, sampler.ErrCorruptState) {
 		t.Errorf("nested state decoded as an ensemble state: error %v", err)
