@@ -553,15 +553,16 @@ func (r *nestedRun) record(rec DeadRecorder, w int, lnw float64, final bool) err
 // batches' worth).
 //
 // Between searches for clusters, each ellipsoid is refitted to its nearest
-// points (boundFitter.refit). The clusters are searched for anew at the
-// first refit after every Live iterations (an e-fold of compression), when
-// a cluster has become too small, and when the bound's volume relative to
-// the expected volume X has more than doubled since the last search (modes
-// separating inside one ellipsoid).
+// points (boundFitter.refit). The clusters are searched for anew when a
+// cluster has become too small (a mode dying out) and when the bound's
+// volume relative to the expected volume X has more than doubled since the
+// last search (modes separating inside one ellipsoid). On a single
+// Gaussian this ratio stays put, and the search, by far the costliest part
+// of a refit, is not repeated.
 func (r *nestedRun) refit() {
 	st := r.st
 	lnX := st.logX()
-	if st.Iter%st.Live < r.cfg.update || !r.fitter.refit(&st.bound, st.U, lnX) || st.bound.logVol-lnX > st.overshoot+math.Ln2 {
+	if !r.fitter.refit(&st.bound, st.U, lnX) || st.bound.logVol-lnX > st.overshoot+math.Ln2 {
 		r.fitter.partition(&st.bound, st.U, lnX)
 		st.overshoot = st.bound.logVol - lnX
 	}
