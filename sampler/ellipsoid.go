@@ -249,14 +249,15 @@ func logAddExp(a, b float64) float64 {
 }
 
 // boundFitter fits a bound to the live points: one ellipsoid from their mean
-// and covariance, scaled to contain them all, then split recursively in two
-// by 2-means clustering while splitting at least halves the volume
-// (Mukherjee, Parkinson & Liddle 2006, ApJ 638, L51, for the single
-// ellipsoid; Feroz & Hobson 2008, MNRAS 384, 449, for the recursive split).
-// No ellipsoid is smaller than the prior volume its share of the live points
-// is expected to occupy, exp(-i/N) n_k/N after i iterations (Feroz & Hobson
-// 2008); the final ellipsoids are enlarged by a volume factor. Everything is
-// allocated once.
+// and covariance, scaled so that each point lies inside the ellipsoid
+// fitted to the others (leave-one-out), then split recursively in two by
+// 2-means clustering while splitting at least halves the volume (Mukherjee,
+// Parkinson & Liddle 2006, ApJ 638, L51, for the single ellipsoid; Feroz &
+// Hobson 2008, MNRAS 384, 449, for the recursive split). No ellipsoid is
+// smaller than the prior volume its share of the live points is expected
+// to occupy, exp(-i/N) n_k/N after i iterations (Feroz & Hobson 2008, from
+// memory); the final ellipsoids are enlarged by a volume factor.
+// Everything is allocated once.
 type boundFitter struct {
 	d, live, minCluster int
 	enlarge             float64 // volume factor

@@ -439,10 +439,11 @@ func newNestedRun(t Target, prior []Quantiler, st *NestedState, cfg nestedConfig
 	return r
 }
 
-// minCluster is the fewest live points an ellipsoid may be fitted to:
-// twice one more than the dimension, so that the covariance of the points
-// left after removing any one is still full rank and the leave-one-out
-// scaling stays moderate.
+// minCluster is the fewest live points an ellipsoid may be fitted to: two
+// more than the dimension, so that the covariance of the points left after
+// removing any one can still be full rank (the leave-one-out scaling).
+// Smaller clusters get a copy of a neighbour's ellipsoid
+// (boundFitter.place).
 func minCluster(d int) int { return d + 2 }
 
 // nestedTarget evaluates a Target at the image of a unit-cube point under
