@@ -7,7 +7,9 @@ import (
 	"strings"
 	"testing"
 
-	"chord/forward/opacity"
+	"chord/forward/opacity/demo"
+	"chord/forward/opacity/exomol"
+	"chord/forward/opacity/lbl"
 )
 
 // exomolSink keeps the benchmarked lines alive.
@@ -24,11 +26,11 @@ func BenchmarkExoMolTrans(b *testing.B) {
 	for i := 1; i <= nStates; i++ {
 		fmt.Fprintf(&st, "%12d %12.6f %6d %7d\n", i, float64(i)*3.7, 2*(i%40)+1, i%40)
 	}
-	states, err := opacity.ParseExoMolStates(strings.NewReader(st.String()), "bench.states")
+	states, err := exomol.ParseStates(strings.NewReader(st.String()), "bench.states")
 	if err != nil {
 		b.Fatal(err)
 	}
-	conv, err := opacity.NewExoMolConverter(nil, states, opacity.ExoMolOptions{})
+	conv, err := exomol.NewConverter(nil, states, exomol.Options{})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -42,7 +44,7 @@ func BenchmarkExoMolTrans(b *testing.B) {
 	b.ReportAllocs()
 	b.SetBytes(int64(len(data)))
 	for b.Loop() {
-		err := conv.ScanExoMolTrans(bytes.NewReader(data), "bench.trans", func(l opacity.Line) error {
+		err := conv.ScanTrans(bytes.NewReader(data), "bench.trans", func(l lbl.Line) error {
 			exomolSink += l.S
 			return nil
 		})
@@ -60,7 +62,7 @@ func BenchmarkExoMolTrans(b *testing.B) {
 func BenchmarkDemoBuild(b *testing.B) {
 	b.ReportAllocs()
 	for b.Loop() {
-		s, err := opacity.BuildDemo(nil)
+		s, err := demo.Build(nil)
 		if err != nil {
 			b.Fatal(err)
 		}

@@ -9,6 +9,8 @@ import (
 	"testing"
 
 	"chord/forward/opacity"
+	"chord/forward/opacity/hitran"
+	"chord/forward/opacity/lbl"
 )
 
 // voigtSink keeps the benchmarked profile values alive.
@@ -34,7 +36,7 @@ func BenchmarkVoigt(b *testing.B) {
 			var s float64
 			i := 0
 			for b.Loop() {
-				s += opacity.Voigt(dnu[i&(n-1)], c.aD, c.gL)
+				s += lbl.Voigt(dnu[i&(n-1)], c.aD, c.gL)
 				i++
 			}
 			voigtSink = s
@@ -45,11 +47,11 @@ func BenchmarkVoigt(b *testing.B) {
 // benchLines is a fixed synthetic line list: n lines of CO (molecule 5,
 // isotopologue 1) spread over 2000-2400 cm^-1, log-uniform intensities
 // over five decades, typical air widths; seeded PCG(1, 2).
-func benchLines(n int) []opacity.Line {
+func benchLines(n int) []lbl.Line {
 	rng := rand.New(rand.NewPCG(1, 2))
-	lines := make([]opacity.Line, n)
+	lines := make([]lbl.Line, n)
 	for i := range lines {
-		lines[i] = opacity.Line{Mol: 5, Iso: 1, Nu: 2000 + 400*rng.Float64(), S: 1e-19 * math.Pow(10, -5*rng.Float64()),
+		lines[i] = lbl.Line{Mol: 5, Iso: 1, Nu: 2000 + 400*rng.Float64(), S: 1e-19 * math.Pow(10, -5*rng.Float64()),
 			GammaAir: 0.04 + 0.04*rng.Float64(), GammaSelf: 0.06, NAir: 0.7, DeltaAir: -0.003, Elower: 3000 * rng.Float64()}
 	}
 	return lines
@@ -70,8 +72,8 @@ var xsecSink *opacity.XSecTable
 // which none of these grids has. The 1 cm^-1 grid is coarse against the
 // lines, like the demo grid.
 func BenchmarkCrossSectionBuild(b *testing.B) {
-	iso := opacity.IsoData{{Mol: 5, Iso: 1}: {Name: "CO_26", Q296: 107.42, Mass: 27.994915,
-		Q: &opacity.RigidRotor{Q296: 107.42, Exponent: 1}}}
+	iso := lbl.IsoData{{Mol: 5, Iso: 1}: {Name: "CO_26", Q296: 107.42, Mass: 27.994915,
+		Q: &lbl.RigidRotor{Q296: 107.42, Exponent: 1}}}
 	for _, c := range []struct {
 		lines   int
 		step    float64
@@ -89,7 +91,7 @@ func BenchmarkCrossSectionBuild(b *testing.B) {
 		for k := range grid {
 			grid[k] = (2000 + float64(k)*c.step) * 100
 		}
-		s := &opacity.XSecSettings{Gas: "CO", Log10P: []float64{5}, T: []float64{800}, Wavenumber: grid, Workers: c.workers, Quiet: true, CellAverage: c.cell}
+		s := &lbl.XSecSettings{Gas: "CO", Log10P: []float64{5}, T: []float64{800}, Wavenumber: grid, Workers: c.workers, CellAverage: c.cell}
 		if c.pt == 12 {
 			s.Log10P, s.T = []float64{2, 3, 4, 5}, []float64{300, 800, 1500}
 		}
@@ -100,7 +102,7 @@ func BenchmarkCrossSectionBuild(b *testing.B) {
 		b.Run(fmt.Sprintf("lines=%d/points=%d/pt=%d/workers=%d/sampling=%s", c.lines, npt, c.pt, c.workers, sampling), func(b *testing.B) {
 			b.ReportAllocs()
 			for b.Loop() {
-				t, err := opacity.BuildXSec(lines, iso, s)
+				t, err := lbl.BuildXSec(lines, iso, s)
 				if err != nil {
 					b.Fatal(err)
 				}
@@ -108,12 +110,12 @@ func BenchmarkCrossSectionBuild(b *testing.B) {
 			}
 			sec := b.Elapsed().Seconds() / float64(b.N)
 			b.ReportMetric(float64(c.lines)*float64(npt)*float64(c.pt)/sec, "line-points/s")
-			b.ReportMetric(float64(c.lines)*float64(c.pt)*(2*opacity.DefaultWingCutoff/c.step)/sec, "evals/s")
+			b.ReportMetric(float64(c.lines)*float64(c.pt)*(2*lbl.DefaultWingCutoff/c.step)/sec, "evals/s")
 		})
 	}
 }
 
-var linesSink []opacity.Line
+var linesSink []lbl.Line
 
 // BenchmarkReadLines parses 10^4 HITRAN 160-character records held in
 // memory (a fixed record repeated), the reader's per-record cost.
@@ -123,7 +125,7 @@ func BenchmarkReadLines(b *testing.B) {
 	b.ReportAllocs()
 	b.SetBytes(int64(len(data)))
 	for b.Loop() {
-		ls, err := opacity.ReadLines(bytes.NewReader(data), "bench", opacity.LineFilter{})
+		ls, err := hitran.ReadLines(bytes.NewReader(data), "bench", hitran.LineFilter{})
 		if err != nil {
 			b.Fatal(err)
 		}

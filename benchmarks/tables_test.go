@@ -8,6 +8,7 @@ import (
 	"testing"
 
 	"chord/forward/opacity"
+	"chord/forward/opacity/tablefile"
 )
 
 // w1XSecTable is a table of the W1 size (DESIGN.md section 7): 13 pressures
@@ -39,7 +40,7 @@ var sinkXSec *opacity.XSecTable
 // BenchmarkReadXSecFile reads (and fully checks) one W1-size table file.
 func BenchmarkReadXSecFile(b *testing.B) {
 	path := filepath.Join(b.TempDir(), "H2O.parquet")
-	if err := opacity.WriteXSecFile(path, w1XSecTable(), false); err != nil {
+	if err := tablefile.WriteXSec(path, w1XSecTable(), false); err != nil {
 		b.Fatal(err)
 	}
 	st, err := os.Stat(path)
@@ -49,7 +50,7 @@ func BenchmarkReadXSecFile(b *testing.B) {
 	b.SetBytes(st.Size())
 	b.ReportAllocs()
 	for b.Loop() {
-		t, err := opacity.ReadXSecFile(path)
+		t, err := tablefile.ReadXSec(path)
 		if err != nil {
 			b.Fatal(err)
 		}
@@ -64,7 +65,7 @@ func BenchmarkWriteXSecFile(b *testing.B) {
 	path := filepath.Join(b.TempDir(), "H2O.parquet")
 	b.ReportAllocs()
 	for b.Loop() {
-		if err := opacity.WriteXSecFile(path, t, true); err != nil {
+		if err := tablefile.WriteXSec(path, t, true); err != nil {
 			b.Fatal(err)
 		}
 	}

@@ -14,6 +14,8 @@ import (
 
 	"chord/forward"
 	"chord/forward/opacity"
+	"chord/forward/opacity/demo"
+	"chord/forward/opacity/tablefile"
 )
 
 // ModelConfig is the model part of a configuration file: the sections
@@ -658,13 +660,13 @@ func (c *ModelConfig) Bins() (*forward.Bins, error) {
 }
 
 // DemoCacheDir is where the demo opacity tables are cached:
-// os.UserCacheDir()/chord/demo-<opacity.DemoVersion>.
+// os.UserCacheDir()/chord/demo-<demo.Version>.
 func DemoCacheDir() (string, error) {
 	d, err := os.UserCacheDir()
 	if err != nil {
 		return "", fmt.Errorf("demo opacities: no cache directory: %w", err)
 	}
-	return filepath.Join(d, "chord", "demo-"+opacity.DemoVersion), nil
+	return filepath.Join(d, "chord", "demo-"+demo.Version), nil
 }
 
 // LoadOpacity returns the tables [opacity] asks for: the table files of
@@ -681,7 +683,7 @@ func (c *ModelConfig) LoadOpacity(demoCache string, progress io.Writer) (*opacit
 				return nil, keyWrap("opacity.demo", err)
 			}
 		}
-		s, err := opacity.DemoSet(demoCache, progress)
+		s, err := demo.Load(demoCache, progress)
 		if err != nil {
 			return nil, keyWrap("opacity.demo", err)
 		}
@@ -691,7 +693,7 @@ func (c *ModelConfig) LoadOpacity(demoCache string, progress io.Writer) (*opacit
 		if !filepath.IsAbs(dir) && c.BaseDir != "" {
 			dir = filepath.Join(c.BaseDir, dir)
 		}
-		s, err := opacity.LoadDir(dir)
+		s, err := tablefile.LoadDir(dir)
 		if err != nil {
 			return nil, keyWrap("opacity.dir", err)
 		}

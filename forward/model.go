@@ -39,6 +39,19 @@ type Config struct {
 	// 0.35 um.
 	HazeRefWavelength float64
 
+	// KTables are k-distribution tables, at most one per gas of the
+	// composition. With them the model works per bin (k-distribution
+	// mode): Bins are required, XSec must be empty, and Wavelength is not
+	// used (leave it nil). Each table is merged onto the bins
+	// (opacity.KTable.Rebin), so its bins must tile every model bin.
+	KTables []*opacity.KTable
+	// Overlap is how the k-distributions of several gases combine in a
+	// bin (k-distribution mode only); "" means OverlapProduct.
+	Overlap Overlap
+	// BinTolerance is how far (a fraction of a bin's width) a model bin's
+	// edge may lie from a k-table bin edge; 0 means 1e-6.
+	BinTolerance float64
+
 	// Bins, when not nil, are the wavelength bins Transit averages onto;
 	// nil means Transit returns the model grid.
 	Bins *Bins
@@ -73,9 +86,12 @@ type Model struct {
 	rayleigh [][]float64 // sigma per point for each species (nil when none)
 	grey     opacity.Grey
 	hazeSig  float64 // H2 Rayleigh at hazeRef, m^2
+	hazeRef  float64 // lambda_ref of the haze, m
 
 	bins *binner
 	nOut int
+
+	k *kModel // k-distribution mode; nil for cross-section tables
 }
 
 // tableGroup is a set of tables on one (log10 P, T) grid; it is mixed
@@ -98,7 +114,13 @@ type groupMember struct {
 // cfg.
 func NewModel(cfg Config) (*Model, error) {
 	m := &Model{}
+	if len(cfg.KTables) > 0 || (cfg.Wavelength == nil && cfg.Bins != nil) {
+		return newKModel(m, cfg)
+	}
 	if err := m.setGrid(cfg); err != nil {
+		return nil, err
+	}
+	if err := m.setLayers(cfg); err != nil {
 		return nil, err
 	}
 	if err := m.setComposition(cfg); err != nil {
@@ -146,6 +168,10 @@ func (m *Model) setGrid(cfg Config) error {
 	for k, v := range wl {
 		m.nu[k] = 1 / v
 	}
+	return nil
+}
+
+func (m *Model) setLayers(cfg Config) error {
 	lv, err := PressureLevels(cfg.TopPressure, cfg.BottomPressure, cfg.Layers)
 	if err != nil {
 		return err
@@ -329,25 +355,39 @@ func reverseRows[E float32 | float64](src []E, n int) []float64 {
 }
 
 func (m *Model) setScattering(cfg Config) error {
-	m.rayleigh = make([][]float64, len(m.species))
+	var err error
+	m.rayleigh, m.lnw, err = m.scatteringTables(cfg, m.wl)
+	return err
+}
+
+// scatteringTables validates the scattering and grey settings of cfg, sets
+// the grey absorber and the haze reference cross-section, and returns the
+// Rayleigh cross-section of each scattering species at the wavelengths wl
+// (nil for the others) and ln(wl/lambda_ref) for the haze.
+func (m *Model) scatteringTables(cfg Config, wl []float64) (rayleigh [][]float64, lnw []float64, err error) {
+	nu := make([]float64, len(wl))
+	for k, v := range wl {
+		nu[k] = 1 / v
+	}
+	rayleigh = make([][]float64, len(m.species))
 	for _, g := range cfg.Rayleigh {
 		r, err := opacity.NewRayleigh(g)
 		if err != nil {
-			return err
+			return nil, nil, err
 		}
 		sp := m.speciesIndex(g)
 		if sp < 0 {
-			return fmt.Errorf("forward: Rayleigh scattering by %q, a gas not in the composition (%s)", g, m.composition())
+			return nil, nil, fmt.Errorf("forward: Rayleigh scattering by %q, a gas not in the composition (%s)", g, m.composition())
 		}
-		if m.rayleigh[sp] != nil {
-			return fmt.Errorf("forward: Rayleigh scattering by %q listed twice", g)
+		if rayleigh[sp] != nil {
+			return nil, nil, fmt.Errorf("forward: Rayleigh scattering by %q listed twice", g)
 		}
-		s := make([]float64, len(m.nu))
-		r.SigmaTo(s, m.nu)
-		m.rayleigh[sp] = s
+		s := make([]float64, len(nu))
+		r.SigmaTo(s, nu)
+		rayleigh[sp] = s
 	}
 	if err := cfg.Grey.Validate(); err != nil {
-		return fmt.Errorf("forward: %w", err)
+		return nil, nil, fmt.Errorf("forward: %w", err)
 	}
 	m.grey = cfg.Grey
 	ref := cfg.HazeRefWavelength
@@ -355,15 +395,15 @@ func (m *Model) setScattering(cfg Config) error {
 		ref = 0.35 * Micron
 	}
 	if !(ref > 0) || math.IsInf(ref, 0) {
-		return fmt.Errorf("forward: haze reference wavelength %g m, must be positive", ref)
+		return nil, nil, fmt.Errorf("forward: haze reference wavelength %g m, must be positive", ref)
 	}
 	h2, _ := opacity.NewRayleigh("H2")
-	m.hazeSig = h2.Sigma(1 / ref)
-	m.lnw = make([]float64, len(m.wl))
-	for k, v := range m.wl {
-		m.lnw[k] = math.Log(v / ref)
+	m.hazeSig, m.hazeRef = h2.Sigma(1/ref), ref
+	lnw = make([]float64, len(wl))
+	for k, v := range wl {
+		lnw[k] = math.Log(v / ref)
 	}
-	return nil
+	return rayleigh, lnw, nil
 }
 
 // Gases returns the trace gases in State.VMR order.

@@ -5,6 +5,8 @@ import (
 	"testing"
 
 	"chord/forward/opacity"
+	"chord/forward/opacity/demo"
+	"chord/forward/opacity/lbl"
 )
 
 // TestOzoneBand: ozone absorbs near 9.6 um (its nu3 band at 1042 cm^-1;
@@ -13,7 +15,7 @@ import (
 // (band centres at the real positions), shows a larger transit depth at
 // 9.6 um than in the windows at 8.3 and 11 um.
 func TestOzoneBand(t *testing.T) {
-	lines, iso, err := opacity.DemoLines("O3")
+	lines, iso, err := demo.Lines("O3")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -22,8 +24,8 @@ func TestOzoneBand(t *testing.T) {
 	for k := range wl {
 		nu[k] = 1 / wl[len(wl)-1-k]
 	}
-	tab, err := opacity.BuildXSec(lines, iso, &opacity.XSecSettings{
-		Gas: "O3", Log10P: []float64{0, 2.5, 5.2}, T: []float64{200, 300}, Wavenumber: nu, Quiet: true,
+	tab, err := lbl.BuildXSec(lines, iso, &lbl.XSecSettings{
+		Gas: "O3", Log10P: []float64{0, 2.5, 5.2}, T: []float64{200, 300}, Wavenumber: nu,
 	})
 	if err != nil {
 		t.Fatal(err)

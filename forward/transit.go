@@ -19,6 +19,7 @@ const (
 	badFineLen   = "forward: TransitFine: dst length differs from the model grid"
 	badWorkspace = "forward: workspace belongs to another model"
 	badVMRLen    = "forward: State.VMR length differs from Model.Gases"
+	badKFine     = "forward: TransitFine: a k-distribution model has no fine grid"
 )
 
 // satTau is the slant optical depth beyond which 1 - exp(-tau) rounds to
@@ -45,6 +46,7 @@ type Workspace struct {
 	low   []float64 // rays below the cloud ray (patchy clouds)
 	tkc   []float64 // 1 - exp(-tau) of the cloud ray
 	grp   []groupWork
+	k     *kWork // k-distribution mode
 	err   StateError
 
 	// Clamped is set by the last call when some layer's pressure or
@@ -91,6 +93,9 @@ func (m *Model) NewWorkspace() *Workspace {
 		tkc:   make([]float64, blockLen),
 		grp:   make([]groupWork, len(m.groups)),
 	}
+	if m.k != nil {
+		w.k = m.newKWork(n)
+	}
 	for gi, g := range m.groups {
 		rows := g.nP * g.nT
 		gw := &w.grp[gi]
@@ -131,6 +136,9 @@ func (m *Model) Transit(dst []float64, s *State, w *Workspace) error {
 	if len(dst) != m.nOut {
 		panic(badOutputLen)
 	}
+	if m.k != nil {
+		return m.transitK(dst, s, w)
+	}
 	if m.bins == nil {
 		return m.TransitFine(dst, s, w)
 	}
@@ -142,20 +150,156 @@ func (m *Model) Transit(dst []float64, s *State, w *Workspace) error {
 }
 
 // TransitFine fills dst (length len(Model.Wavelength())) with the transit
-// depth on the model grid, unbinned.
+// depth on the model grid, unbinned. It is not available in k-distribution
+// mode, whose model has no fine grid.
 func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
-	if w.m != m {
-		panic(badWorkspace)
+	if m.k != nil {
+		panic(badKFine)
 	}
 	if len(dst) != len(m.wl) {
 		panic(badFineLen)
+	}
+	g, err := m.atmosphere(s, w)
+	if err != nil {
+		return err
+	}
+	if g.covered() {
+		g.fillCovered(dst, s)
+		return nil
+	}
+	m.prepareGroups(w, g.jlo)
+	m.scattering(w, s)
+	n := len(m.pLayer)
+	M := len(m.wl)
+	for k0 := 0; k0 < M; k0 += blockLen {
+		k1 := min(k0+blockLen, M)
+		nb := k1 - k0
+		m.mixBlock(w, k0, k1)
+		m.alphaBlock(w, g.jlo, k0, k1)
+
+		acc, low, tkc := w.acc[:nb], w.low[:nb], w.tkc[:nb]
+		for k := range acc {
+			acc[k], low[k], tkc[k] = 0, 0, 0
+		}
+		tau := w.tau[:nb]
+		for i := g.jlo; i < n; i++ {
+			// tau_i = sum_{j>=i} ds_ij alpha_j, from the ray's own (densest)
+			// shell outwards. Every term is non-negative, so a partial sum
+			// is a lower bound: once it reaches satTau at every point of the
+			// block, 1 - exp(-tau) is exactly 1 there and the rest of the
+			// sum cannot change the depth. Checks at doubling intervals.
+			ds := w.path[i*n : (i+1)*n]
+			floats.ScaleTo(tau, ds[i], w.alpha[(i-g.jlo)*blockLen:(i-g.jlo)*blockLen+nb])
+			saturated := false
+			check := i + 1
+			for j := i + 1; j < n; j++ {
+				floats.AddScaled(tau, ds[j], w.alpha[(j-g.jlo)*blockLen:(j-g.jlo)*blockLen+nb])
+				if j == check {
+					if allSaturated(tau) {
+						saturated = true
+						break
+					}
+					check += check - i
+				}
+			}
+			a, dst := g.rayArea(i, w), g.rayDest(i, acc, low, tkc)
+			if saturated {
+				for k := range dst {
+					dst[k] += a
+				}
+			} else {
+				addAbsorbed(dst, a, tau)
+			}
+		}
+		g.depths(dst[k0:k1], acc, low, tkc)
+	}
+	return nil
+}
+
+// geometry is what atmosphere computes for one state: the rays that need
+// an optical depth and the cloud deck. Radii, areas and path-matrix rows
+// are in the Workspace.
+type geometry struct {
+	n    int     // layers
+	jlo  int     // lowest ray that needs an optical depth
+	kc   int     // ray holding the cloud top (-1: no deck; n: above the model top)
+	rc   float64 // cloud-top radius, m
+	phi  float64 // cloud fraction
+	rs2  float64 // stellar radius squared
+	r0sq float64 // r_0^2
+	// The cloud ray's annulus above the deck (cloudy limb) and whole (clear
+	// limb); 0 when the deck lies above the model top.
+	kcAbove, kcWhole float64
+}
+
+// covered reports whether the deck covers the whole atmosphere, so every
+// point's depth is that of the cloud-top disc.
+func (g *geometry) covered() bool { return g.jlo == g.n }
+
+func (g *geometry) fillCovered(dst []float64, s *State) {
+	d := g.rc * g.rc / g.rs2
+	for k := range dst {
+		dst[k] = d
+	}
+}
+
+// rayArea is the annulus area that ray i's absorption is weighted by: 1
+// for the cloud ray (whose two annuli depths applies), else r_{i+1}^2 - r_i^2.
+func (g *geometry) rayArea(i int, w *Workspace) float64 {
+	if i == g.kc {
+		return 1
+	}
+	return w.area[i]
+}
+
+// rayDest picks the accumulator of ray i: the cloud ray's own, the rays
+// below the deck (seen only through the clear limb), or the rays above.
+func (g *geometry) rayDest(i int, acc, low, tkc []float64) []float64 {
+	switch {
+	case i == g.kc:
+		return tkc
+	case i < g.kc:
+		return low
+	}
+	return acc
+}
+
+// depths turns the absorbed areas of a block (acc: rays above the deck;
+// low: rays below it; tkc: the cloud ray's absorbed fraction) into transit
+// depths.
+func (g *geometry) depths(out, acc, low, tkc []float64) {
+	if g.kc < 0 {
+		for k := range out {
+			out[k] = (g.r0sq + acc[k]) / g.rs2
+		}
+		return
+	}
+	rcsq := g.rc * g.rc
+	for k := range out {
+		cloudy := rcsq + g.kcAbove*tkc[k] + acc[k]
+		d := g.phi * cloudy
+		if g.phi < 1 {
+			clear := g.r0sq + low[k] + g.kcWhole*tkc[k] + acc[k]
+			d += (1 - g.phi) * clear
+		}
+		out[k] = d / g.rs2
+	}
+}
+
+// atmosphere checks s and computes the composition, mean molecular weight,
+// temperatures, hydrostatic structure (exact for isothermal layers with
+// 1/r^2 gravity), the cloud deck and the path-matrix rows of the rays
+// that need an optical depth.
+func (m *Model) atmosphere(s *State, w *Workspace) (geometry, error) {
+	if w.m != m {
+		panic(badWorkspace)
 	}
 	if len(s.VMR) != len(m.gases) {
 		panic(badVMRLen)
 	}
 	w.Clamped = false
 	if err := m.checkState(s, w); err != nil {
-		return err
+		return geometry{}, err
 	}
 	n := len(m.pLayer)
 
@@ -177,19 +321,17 @@ func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
 		mu += v * m.mass[i]
 	}
 	if !(mu > 0) {
-		return w.fail(ErrInvalidState, "mean molecular weight", mu)
+		return geometry{}, w.fail(ErrInvalidState, "mean molecular weight", mu)
 	}
 
-	// Temperatures and hydrostatic structure (exact for isothermal layers
-	// with 1/r^2 gravity).
 	GM := Gravitation * s.Mass
 	gRef := GM / (s.RefRadius * s.RefRadius)
 	if err := s.Profile.TemperatureTo(w.temp, m.pLayer, gRef); err != nil {
-		return w.fail(ErrTemperature, "temperature", math.NaN())
+		return geometry{}, w.fail(ErrTemperature, "temperature", math.NaN())
 	}
 	for j, t := range w.temp {
 		if !(t > 0) || math.IsInf(t, 0) {
-			return w.fail(ErrTemperature, "temperature", t)
+			return geometry{}, w.fail(ErrTemperature, "temperature", t)
 		}
 		w.coef[j] = Boltzmann * t / (mu * AtomicMass * GM)
 		w.nd[j] = m.pLayer[j] / (Boltzmann * t)
@@ -205,7 +347,7 @@ func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
 		w.invR[j] = w.invR[j+1] + w.coef[j]*m.dlnp[j]
 	}
 	if !(w.invR[n] > 0) {
-		return w.fail(ErrUnbound, "", w.invR[n])
+		return geometry{}, w.fail(ErrUnbound, "", w.invR[n])
 	}
 	for i, v := range w.invR {
 		w.r[i] = 1 / v
@@ -216,36 +358,35 @@ func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
 	w.MeanMolecularWeight = mu
 
 	// Cloud deck: ray kc holds r_c; rays below it are opaque.
-	kc, rc, phi := -1, 0.0, 0.0
+	g := geometry{n: n, kc: -1, rs2: s.StarRadius * s.StarRadius, r0sq: w.r[0] * w.r[0]}
 	if s.CloudTop > 0 && s.CloudFraction > 0 {
-		phi = s.CloudFraction
+		g.phi = s.CloudFraction
 		if s.CloudTop <= m.pLevel[n] {
-			kc, rc = n, w.r[n]
+			g.kc, g.rc = n, w.r[n]
 		} else {
-			kc = n - 1
+			g.kc = n - 1
 			for j := range n {
 				if s.CloudTop >= m.pLevel[j+1] {
-					kc = j
+					g.kc = j
 					break
 				}
 			}
-			rc = 1 / (w.invR[kc] - w.coef[kc]*math.Log(m.pLevel[kc]/s.CloudTop))
+			g.rc = 1 / (w.invR[g.kc] - w.coef[g.kc]*math.Log(m.pLevel[g.kc]/s.CloudTop))
 		}
 	}
-	jlo := 0
-	if phi == 1 {
-		jlo = min(kc, n)
+	if g.phi == 1 {
+		g.jlo = min(g.kc, n)
 	}
-	if jlo == n { // the deck covers the whole atmosphere
-		d := rc * rc / (s.StarRadius * s.StarRadius)
-		for k := range dst {
-			dst[k] = d
-		}
-		return nil
+	if g.covered() {
+		return g, nil
+	}
+	if g.kc >= 0 && g.kc < n {
+		g.kcAbove = (w.r[g.kc+1] - g.rc) * (w.r[g.kc+1] + g.rc)
+		g.kcWhole = w.area[g.kc]
 	}
 
 	// Path matrix rows of the rays that need an optical depth.
-	for i := jlo; i < n; i++ {
+	for i := g.jlo; i < n; i++ {
 		b := 0.5 * (w.r[i] + w.r[i+1])
 		row := w.path[i*n : (i+1)*n]
 		prev := 0.0
@@ -255,10 +396,12 @@ func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
 			prev = cur
 		}
 	}
+	return g, nil
+}
 
-	m.prepareGroups(w, jlo)
-
-	// Scattering and haze cross-sections per molecule.
+// scattering fills w.scat with the Rayleigh and haze cross-sections per
+// molecule at every model point.
+func (m *Model) scattering(w *Workspace, s *State) {
 	sc := w.scat
 	for k := range sc {
 		sc[k] = 0
@@ -274,83 +417,6 @@ func (m *Model) TransitFine(dst []float64, s *State, w *Workspace) error {
 			sc[k] += a * math.Exp(s.HazeSlope*m.lnw[k])
 		}
 	}
-
-	M := len(m.wl)
-	rs2 := s.StarRadius * s.StarRadius
-	r0sq := w.r[0] * w.r[0]
-	// The cloud ray's annulus: above the deck (cloudy limb) and whole
-	// (clear limb); none when the deck lies above the model top.
-	var kcAbove, kcWhole float64
-	if kc >= 0 && kc < n {
-		kcAbove = (w.r[kc+1] - rc) * (w.r[kc+1] + rc)
-		kcWhole = w.area[kc]
-	}
-	rcsq := rc * rc
-	for k0 := 0; k0 < M; k0 += blockLen {
-		k1 := min(k0+blockLen, M)
-		nb := k1 - k0
-		m.mixBlock(w, k0, k1)
-		m.alphaBlock(w, jlo, k0, k1)
-
-		acc, low, tkc := w.acc[:nb], w.low[:nb], w.tkc[:nb]
-		for k := range acc {
-			acc[k], low[k], tkc[k] = 0, 0, 0
-		}
-		tau := w.tau[:nb]
-		for i := jlo; i < n; i++ {
-			// tau_i = sum_{j>=i} ds_ij alpha_j, from the ray's own (densest)
-			// shell outwards. Every term is non-negative, so a partial sum
-			// is a lower bound: once it reaches satTau at every point of the
-			// block, 1 - exp(-tau) is exactly 1 there and the rest of the
-			// sum cannot change the depth. Checks at doubling intervals.
-			ds := w.path[i*n : (i+1)*n]
-			floats.ScaleTo(tau, ds[i], w.alpha[(i-jlo)*blockLen:(i-jlo)*blockLen+nb])
-			saturated := false
-			check := i + 1
-			for j := i + 1; j < n; j++ {
-				floats.AddScaled(tau, ds[j], w.alpha[(j-jlo)*blockLen:(j-jlo)*blockLen+nb])
-				if j == check {
-					if allSaturated(tau) {
-						saturated = true
-						break
-					}
-					check += check - i
-				}
-			}
-			a, dst := w.area[i], acc
-			switch {
-			case i == kc:
-				a, dst = 1, tkc
-			case i < kc:
-				dst = low
-			}
-			if saturated {
-				for k := range dst {
-					dst[k] += a
-				}
-			} else {
-				addAbsorbed(dst, a, tau)
-			}
-		}
-		out := dst[k0:k1]
-		switch {
-		case kc < 0:
-			for k := range out {
-				out[k] = (r0sq + acc[k]) / rs2
-			}
-		default:
-			for k := range out {
-				cloudy := rcsq + kcAbove*tkc[k] + acc[k]
-				d := phi * cloudy
-				if phi < 1 {
-					clear := r0sq + low[k] + kcWhole*tkc[k] + acc[k]
-					d += (1 - phi) * clear
-				}
-				out[k] = d / rs2
-			}
-		}
-	}
-	return nil
 }
 
 // allSaturated reports whether every tau[k] >= satTau; it stops at the

@@ -11,6 +11,7 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"chord/forward/opacity"
+	"chord/forward/opacity/tablefile"
 )
 
 // opacityCommand is "chord opacity", the parent of the opacity-table
@@ -46,7 +47,7 @@ func runOpacityInfo(c *cli.Context) error {
 		return fmt.Errorf("opacity info: want one table file, got %d arguments", c.NArg())
 	}
 	path := c.Args().First()
-	x, cia, err := opacity.ReadTableFile(path)
+	x, cia, err := tablefile.Read(path)
 	if err != nil {
 		return err
 	}
@@ -66,7 +67,7 @@ func runOpacityInfo(c *cli.Context) error {
 		fmt.Fprintf(w, "DEMO TABLE:   %s\n", opacity.DemoNote)
 	}
 	if x != nil {
-		fmt.Fprintf(w, "table:        cross-sections of %s (kind %s, schema %s)\n", x.Gas, meta[opacity.MetaKind], meta[opacity.MetaSchemaVersion])
+		fmt.Fprintf(w, "table:        cross-sections of %s (kind %s, schema %s)\n", x.Gas, meta[tablefile.MetaKind], meta[tablefile.MetaSchemaVersion])
 		fmt.Fprintf(w, "shape:        %d pressures x %d temperatures x %d wavenumbers = %d values (float32)\n",
 			len(x.Log10P), len(x.T), len(x.Wavenumber), len(x.Sigma))
 		lo, hi := x.Log10P[0], x.Log10P[len(x.Log10P)-1]
@@ -74,13 +75,13 @@ func runOpacityInfo(c *cli.Context) error {
 			infoNum(lo), infoNum(hi), infoNum(math.Pow(10, lo)), infoNum(math.Pow(10, hi)), infoNum(math.Pow(10, lo)/1e5), infoNum(math.Pow(10, hi)/1e5))
 		infoAxis(w, "temperature:", x.T, "K")
 		infoWavenumbers(w, x.Wavenumber)
-		infoValues(w, "sigma", meta[opacity.MetaUnitsSigma], infoFloat64s(x.Sigma))
+		infoValues(w, "sigma", meta[tablefile.MetaUnitsSigma], infoFloat64s(x.Sigma))
 	} else {
-		fmt.Fprintf(w, "table:        collision-induced absorption of %s-%s (kind %s, schema %s)\n", cia.Pair[0], cia.Pair[1], meta[opacity.MetaKind], meta[opacity.MetaSchemaVersion])
+		fmt.Fprintf(w, "table:        collision-induced absorption of %s-%s (kind %s, schema %s)\n", cia.Pair[0], cia.Pair[1], meta[tablefile.MetaKind], meta[tablefile.MetaSchemaVersion])
 		fmt.Fprintf(w, "shape:        %d temperatures x %d wavenumbers = %d values (float64)\n", len(cia.T), len(cia.Wavenumber), len(cia.K))
 		infoAxis(w, "temperature:", cia.T, "K")
 		infoWavenumbers(w, cia.Wavenumber)
-		infoValues(w, "k", meta[opacity.MetaUnitsK], cia.K)
+		infoValues(w, "k", meta[tablefile.MetaUnitsK], cia.K)
 	}
 	fmt.Fprintf(w, "program:      %s\n", infoOrNone(meta[opacity.MetaProgramVersion]))
 	src, err := opacity.ParseSources(meta[opacity.MetaSources])
@@ -98,12 +99,12 @@ func runOpacityInfo(c *cli.Context) error {
 		fmt.Fprintf(w, "%-13s %s  sha256 %s  (%s)\n", label, s.File, s.SHA256, infoBytes(s.Bytes))
 	}
 	fmt.Fprintf(w, "build:        %s\n", infoOrNone(meta[opacity.MetaBuildSettings]))
-	fmt.Fprintf(w, "checksum:     content sha256 %s (verified)\n", meta[opacity.MetaContentSHA256])
+	fmt.Fprintf(w, "checksum:     content sha256 %s (verified)\n", meta[tablefile.MetaContentSHA256])
 	shown := map[string]bool{}
-	for _, k := range []string{opacity.MetaFormat, opacity.MetaSchemaVersion, opacity.MetaKind, opacity.MetaGas, opacity.MetaPair,
-		opacity.MetaShape, opacity.MetaContentSHA256, opacity.MetaProgramVersion, opacity.MetaSources, opacity.MetaBuildSettings,
-		opacity.MetaDemo, opacity.MetaDemoNote, opacity.MetaUnitsLog10P, opacity.MetaUnitsTemperature, opacity.MetaUnitsWavenumber,
-		opacity.MetaUnitsSigma, opacity.MetaUnitsK} {
+	for _, k := range []string{tablefile.MetaFormat, tablefile.MetaSchemaVersion, tablefile.MetaKind, tablefile.MetaGas, tablefile.MetaPair,
+		tablefile.MetaShape, tablefile.MetaContentSHA256, opacity.MetaProgramVersion, opacity.MetaSources, opacity.MetaBuildSettings,
+		opacity.MetaDemo, opacity.MetaDemoNote, tablefile.MetaUnitsLog10P, tablefile.MetaUnitsTemperature, tablefile.MetaUnitsWavenumber,
+		tablefile.MetaUnitsSigma, tablefile.MetaUnitsK} {
 		shown[k] = true
 	}
 	var other []string

@@ -8,7 +8,6 @@ import (
 	"math"
 	"os"
 	"path/filepath"
-	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -16,6 +15,11 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"chord/forward/opacity"
+	"chord/forward/opacity/build"
+	"chord/forward/opacity/demo"
+	"chord/forward/opacity/hitran"
+	"chord/forward/opacity/lbl"
+	"chord/forward/opacity/tablefile"
 	"chord/retrieve"
 )
 
@@ -49,7 +53,7 @@ var opacityBuildCommand = &cli.Command{
 		&cli.StringFlag{Name: "temperature", Value: "200,300,400,500,600,800,1000,1200,1400,1600,1800,2000", Usage: "temperature grid in K: `LIST` (T1,T2,...) or LO:HI:N evenly spaced"},
 		&cli.StringFlag{Name: "wavenumber", Usage: "wavenumber grid `LO:HI:STEP` in cm^-1"},
 		&cli.StringFlag{Name: "wavelength", Usage: "wavelength grid `LO:HI:R` in um, log-spaced at resolving power R"},
-		&cli.Float64Flag{Name: "cutoff", Value: opacity.DefaultWingCutoff, Usage: "line-wing cut-off in `CM-1` from the line centre"},
+		&cli.Float64Flag{Name: "cutoff", Value: lbl.DefaultWingCutoff, Usage: "line-wing cut-off in `CM-1` from the line centre"},
 		&cli.Float64Flag{Name: "min-intensity", Usage: "skip lines weaker than `S` at the table temperature, cm^-1/(molecule cm^-2)"},
 		&cli.Float64Flag{Name: "self-fraction", Usage: "volume mixing `RATIO` of the absorber for self-broadening (0: dilute)"},
 		&cli.StringFlag{Name: "broadener", Usage: "background gas `NAME` for provenance, with --broadener-scale (default air)"},
@@ -90,7 +94,7 @@ func runOpacityBuild(c *cli.Context) error {
 		if f, ok := firstSet(c, "lines", "cia", "molparam", "tips", "partition", "wavenumber", "wavelength", "gas", "cell-average"); ok {
 			return fmt.Errorf("opacity build: --demo builds the fixed demo set; --%s cannot be used with it", f)
 		}
-		files, err := opacity.WriteDemo(out, force, progress)
+		files, err := demo.Write(out, force, progress)
 		if errors.Is(err, fs.ErrExist) {
 			return fmt.Errorf("%w (use --force to replace it)", err)
 		}
@@ -131,184 +135,100 @@ func runOpacityBuild(c *cli.Context) error {
 
 // buildLineTable builds and writes the cross-section table of the line lists.
 func buildLineTable(c *cli.Context, files []string, nu []float64, out string, force bool, progress io.Writer) error {
-	logP, err := buildPressures(c.String("pressure"))
+	logP, temps, err := buildGrid(c, nu)
 	if err != nil {
 		return err
 	}
-	temps, err := buildTemperatures(c.String("temperature"))
+	src := &build.Source{
+		Files: files, Gas: c.String("gas"),
+		MolParam: c.String("molparam"), TIPS: c.String("tips"),
+		Abundance: c.Float64("abundance"), Gamma: c.Float64("exomol-gamma"), N: c.Float64("exomol-n"),
+	}
+	for _, spec := range c.StringSlice("partition") {
+		key, path, err := parseQSpec(spec)
+		if err != nil {
+			return err
+		}
+		src.Partition = append(src.Partition, build.PartitionFile{Iso: key, Path: path})
+	}
+	quiet := progress == nil
+	lines, err := build.ReadLines(src, nu, c.Float64("cutoff"), lbl.Observer{Note: noteWriter(c, quiet)})
 	if err != nil {
+		return sourceError(err)
+	}
+	if err := checkTableName(lines.Gas); err != nil {
 		return err
 	}
-	if n := len(logP) * len(temps) * len(nu); n > maxBuildValues {
-		return fmt.Errorf("opacity build: grid of %d x %d x %d = %d values (%.1f GB) is too large; at most %d",
-			len(logP), len(temps), len(nu), n, float64(n)*4/1e9, maxBuildValues)
-	}
-	status := func(format string, a ...any) {
-		if progress != nil {
-			fmt.Fprintf(progress, format+"\n", a...)
-		}
-	}
-
-	var (
-		lines   []opacity.Line
-		iso     opacity.IsoData
-		gas     = c.String("gas")
-		sources []string
-	)
-	var exomol, hitran []string
-	for _, f := range files {
-		if strings.HasSuffix(f, ".def") {
-			exomol = append(exomol, f)
-		} else {
-			hitran = append(hitran, f)
-		}
-	}
-	switch {
-	case len(exomol) > 1 || (len(exomol) == 1 && len(hitran) > 0):
-		return fmt.Errorf("opacity build: one table is built from HITRAN line lists or from one ExoMol .def file, not both or several (%s)", strings.Join(exomol, ", "))
-	case len(exomol) == 1:
-		if f, ok := firstSet(c, "molparam", "tips", "partition"); ok {
-			return fmt.Errorf("opacity build: --%s applies to HITRAN line lists; ExoMol lists bring their own states", f)
-		}
-		def, err := opacity.ReadExoMolDef(exomol[0])
-		if err != nil {
-			return err
-		}
-		if gas == "" {
-			if gas = def.Molecule(); gas == "" {
-				return fmt.Errorf("opacity build: %s gives no IsoFormula; name the gas with --gas", exomol[0])
-			}
-		}
-		key := opacity.IsoKey{Mol: opacity.MoleculeID(gas), Iso: 1}
-		status("reading ExoMol line list %s", exomol[0])
-		start := time.Now()
-		list, err := opacity.ReadExoMol(exomol[0], opacity.ExoMolOptions{
-			Mol: key.Mol, Iso: key.Iso,
-			Abundance: c.Float64("abundance"),
-			Gamma:     c.Float64("exomol-gamma"), N: c.Float64("exomol-n"),
-			NuMin: max(0, nu[0]/100-c.Float64("cutoff")), NuMax: nu[len(nu)-1]/100 + c.Float64("cutoff"),
-		})
-		if err != nil {
-			return err
-		}
-		status("  %d transitions in range, Q(296 K) = %.6g from %d states (%s)", len(list.Lines), list.Q296, len(list.States.ID), time.Since(start).Round(time.Millisecond))
-		lines, iso, sources = list.Lines, opacity.IsoData{key: list.Isotopologue()}, list.Files
-	default:
-		if c.IsSet("abundance") || c.IsSet("exomol-gamma") || c.IsSet("exomol-n") {
-			return errors.New("opacity build: --abundance, --exomol-gamma and --exomol-n apply to ExoMol line lists only")
-		}
-		mp := c.String("molparam")
-		if mp == "" {
-			return errors.New("opacity build: HITRAN line lists need HITRAN's molparam table (--molparam FILE) for masses, abundances and Q(296 K)")
-		}
-		if iso, err = opacity.ReadMolParam(mp); err != nil {
-			return err
-		}
-		sources = append(sources, mp)
-		if p := c.String("tips"); p != "" {
-			n, err := opacity.ReadTIPSTable(p, iso)
-			if err != nil {
-				return err
-			}
-			status("partition sums for %d isotopologues from %s", n, p)
-			sources = append(sources, p)
-		}
-		for _, spec := range c.StringSlice("partition") {
-			key, path, err := parseQSpec(spec)
-			if err != nil {
-				return err
-			}
-			d := iso[key]
-			if d == nil {
-				return fmt.Errorf("opacity build: --partition %s: %v is not in the molparam table %s", spec, key, mp)
-			}
-			if d.Q, err = opacity.ReadQFile(path); err != nil {
-				return err
-			}
-			sources = append(sources, path)
-		}
-		filter := opacity.LineFilter{NuMin: max(0, nu[0]/100-c.Float64("cutoff")), NuMax: nu[len(nu)-1]/100 + c.Float64("cutoff")}
-		var lists [][]opacity.Line
-		for _, f := range hitran {
-			status("reading HITRAN line list %s", f)
-			l, err := opacity.ReadLineFile(f, filter)
-			if err != nil {
-				return err
-			}
-			lists = append(lists, l)
-			sources = append(sources, f)
-		}
-		lines = opacity.MergeLines(lists...) // files that overlap (e.g. downloads by window) share lines
-		mols := map[int]bool{}
-		for _, l := range lines {
-			mols[l.Mol] = true
-		}
-		if len(mols) > 1 {
-			return fmt.Errorf("opacity build: the line lists hold %d molecules (%s); a table is one gas", len(mols), moleculeList(mols))
-		}
-		if gas == "" {
-			for m := range mols {
-				gas = opacity.MoleculeNames[m]
-			}
-		}
-	}
-	if len(lines) == 0 {
-		return fmt.Errorf("opacity build: no lines within %g cm^-1 of the grid's wavenumber range %g-%g cm^-1", c.Float64("cutoff"), nu[0]/100, nu[len(nu)-1]/100)
-	}
-	if err := checkTableName(gas); err != nil {
-		return err
-	}
-	path := filepath.Join(out, gas+".parquet")
+	path := filepath.Join(out, lines.Gas+".parquet")
 	if !force {
 		if _, err := os.Lstat(path); err == nil {
 			return fmt.Errorf("opacity build: %s exists; refusing to overwrite it (use --force)", path)
 		}
 	}
-	src, err := opacity.SourcesMeta(sources...)
-	if err != nil {
-		return err
-	}
-	settings := &opacity.XSecSettings{
-		Gas: gas, Log10P: logP, T: temps, Wavenumber: nu,
+	settings := lbl.XSecSettings{
+		Log10P: logP, T: temps, Wavenumber: nu,
 		WingCutoff:   c.Float64("cutoff"),
 		MinIntensity: c.Float64("min-intensity"),
 		SelfFraction: c.Float64("self-fraction"),
-		Broadening: opacity.Broadening{
+		Broadening: lbl.Broadening{
 			Name: c.String("broadener"), Scale: c.Float64("broadener-scale"), N: c.Float64("broadener-n"),
 		},
 		NoPressureShift: c.Bool("no-shift"),
 		Workers:         c.Int("workers"),
-		Quiet:           progress == nil, // else a bar on standard error when it is a terminal
-		Log:             c.App.ErrWriter,
+		Observer:        tableObserver(c, lines.Gas, quiet),
 		Version:         retrieve.Version,
-		Sources:         src,
 	}
-	settings.CellAverage = c.Bool("cell-average")
-	if !c.IsSet("cell-average") {
-		// The default: cell means when the grid does not resolve the lines.
-		// A one-point grid has no cells, and lines without isotopologue
-		// data are reported by BuildXSec: both keep point values here.
-		if r, err := opacity.GridCoarseness(lines, iso, settings); err == nil && r > opacity.CoarseGridRatio {
-			settings.CellAverage = true
-			status("grid spacing is %.3g times the median line half-width at the lowest pressure and temperature: storing cell means (--cell-average=false for point values)", r)
+	sampling := build.Auto
+	if c.IsSet("cell-average") {
+		sampling = build.PointValues
+		if c.Bool("cell-average") {
+			sampling = build.CellMeans
 		}
 	}
-	sampling := "point values"
-	if settings.CellAverage {
-		sampling = "cell means"
-	}
-	status("building %s: %d lines on %d pressures x %d temperatures x %d wavenumbers, %s", gas, len(lines), len(logP), len(temps), len(nu), sampling)
 	start := time.Now()
-	t, err := opacity.BuildXSec(lines, iso, settings)
+	t, err := lines.Table(settings, sampling)
 	if err != nil {
 		return err
 	}
-	if err := opacity.WriteXSecFile(path, t, force); err != nil {
+	if err := tablefile.WriteXSec(path, t, force); err != nil {
 		return err
 	}
-	status("wrote %s (%s)", path, time.Since(start).Round(time.Millisecond))
+	if !quiet {
+		fmt.Fprintf(progress, "wrote %s (%s)\n", path, time.Since(start).Round(time.Millisecond))
+	}
 	fmt.Fprintln(c.App.Writer, path)
 	return nil
+}
+
+// buildGrid parses the pressure and temperature grids of a line table
+// and refuses a table of more than maxBuildValues values on them and nu.
+func buildGrid(c *cli.Context, nu []float64) (logP, temps []float64, err error) {
+	if logP, err = buildPressures(c.String("pressure")); err != nil {
+		return nil, nil, err
+	}
+	if temps, err = buildTemperatures(c.String("temperature")); err != nil {
+		return nil, nil, err
+	}
+	if n := len(logP) * len(temps) * len(nu); n > maxBuildValues {
+		return nil, nil, fmt.Errorf("opacity build: grid of %d x %d x %d = %d values (%.1f GB) is too large; at most %d",
+			len(logP), len(temps), len(nu), n, float64(n)*4/1e9, maxBuildValues)
+	}
+	return logP, temps, nil
+}
+
+// sourceFlags are the flags that set the fields of build.Source.
+var sourceFlags = map[string]string{
+	"Files": "lines", "Gas": "gas", "MolParam": "molparam", "TIPS": "tips", "Partition": "partition",
+	"Abundance": "abundance", "Gamma": "exomol-gamma", "N": "exomol-n",
+}
+
+// sourceError names the flag of a build.OptionError.
+func sourceError(err error) error {
+	var oe *build.OptionError
+	if errors.As(err, &oe) && sourceFlags[oe.Option] != "" {
+		return fmt.Errorf("opacity build: --%s: %w", sourceFlags[oe.Option], oe.Err)
+	}
+	return err
 }
 
 // buildCIATables writes one CIA table file per pair of the CIA files, on
@@ -317,7 +237,7 @@ func buildCIATables(c *cli.Context, files []string, nu []float64, out string, fo
 	byPair := map[string][]string{}
 	var pairs []string
 	for _, f := range files {
-		blocks, err := opacity.ReadHITRANCIA(f)
+		blocks, err := hitran.ReadCIAFile(f)
 		if err != nil {
 			return err
 		}
@@ -340,12 +260,12 @@ func buildCIATables(c *cli.Context, files []string, nu []float64, out string, fo
 				return fmt.Errorf("opacity build: %s exists; refusing to overwrite it (use --force)", path)
 			}
 		}
-		t, err := opacity.LoadHITRANCIA(nu, byPair[name]...)
+		t, err := hitran.LoadCIA(nu, byPair[name]...)
 		if err != nil {
 			return err
 		}
 		t.Meta[opacity.MetaProgramVersion] = retrieve.Version
-		if err := opacity.WriteCIAFile(path, t, force); err != nil {
+		if err := tablefile.WriteCIA(path, t, force); err != nil {
 			return err
 		}
 		if progress != nil {
@@ -364,25 +284,16 @@ func checkTableName(gas string) error {
 	return nil
 }
 
-func moleculeList(mols map[int]bool) string {
-	var names []string
-	for m := range mols {
-		names = append(names, fmt.Sprintf("%s (%d)", opacity.MoleculeNames[m], m))
-	}
-	sort.Strings(names)
-	return strings.Join(names, ", ")
-}
-
 // parseQSpec reads "MOL/ISO=FILE".
-func parseQSpec(spec string) (opacity.IsoKey, string, error) {
+func parseQSpec(spec string) (lbl.IsoKey, string, error) {
 	k, path, ok := strings.Cut(spec, "=")
 	ms, is, ok2 := strings.Cut(k, "/")
 	mol, err1 := strconv.Atoi(ms)
 	iso, err2 := strconv.Atoi(is)
 	if !ok || !ok2 || err1 != nil || err2 != nil || path == "" {
-		return opacity.IsoKey{}, "", fmt.Errorf("opacity build: --partition %q: want MOL/ISO=FILE, e.g. 1/1=q1.txt", spec)
+		return lbl.IsoKey{}, "", fmt.Errorf("opacity build: --partition %q: want MOL/ISO=FILE, e.g. 1/1=q1.txt", spec)
 	}
-	return opacity.IsoKey{Mol: mol, Iso: iso}, path, nil
+	return lbl.IsoKey{Mol: mol, Iso: iso}, path, nil
 }
 
 // parseRange reads "LO:HI:N" (three numbers) for the flag named name.

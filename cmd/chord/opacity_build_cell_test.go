@@ -6,13 +6,14 @@ import (
 	"testing"
 
 	"chord/forward/opacity"
+	"chord/forward/opacity/tablefile"
 	"chord/internal/testenv"
 )
 
 // TestOpacityBuildCellAverage checks the --cell-average default: on for a
 // grid far coarser than the lines at the lowest pressure (1 cm^-1 against
 // CO's 0.0025 cm^-1 Doppler half-width at 1e-3 bar; the same criterion as
-// BuildXSec's sampling warning, opacity.CoarseGridRatio), off for a grid
+// BuildXSec's sampling warning, lbl.CoarseGridRatio), off for a grid
 // that resolves them (0.02 cm^-1 against about 0.07 cm^-1 at 1 bar), and
 // --cell-average=false or --cell-average overriding it. The table's
 // build_settings say which; --demo refuses the flag.
@@ -35,7 +36,7 @@ func TestOpacityBuildCellAverage(t *testing.T) {
 		if err != nil {
 			t.Fatalf("case %d: %v", i, err)
 		}
-		tab, err := opacity.ReadXSecFile(filepath.Join(out, "CO.parquet"))
+		tab, err := tablefile.ReadXSec(filepath.Join(out, "CO.parquet"))
 		if err != nil {
 			t.Fatal(err)
 		}

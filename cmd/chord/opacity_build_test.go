@@ -11,6 +11,9 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"chord/forward/opacity"
+	"chord/forward/opacity/hitran"
+	"chord/forward/opacity/lbl"
+	"chord/forward/opacity/tablefile"
 	"chord/internal/testenv"
 )
 
@@ -36,7 +39,7 @@ func TestOpacityBuildDemo(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	set, err := opacity.LoadDir(out)
+	set, err := tablefile.LoadDir(out)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -72,7 +75,7 @@ func TestOpacityBuildHITRAN(t *testing.T) {
 	if strings.TrimSpace(stdout) != path {
 		t.Errorf("stdout %q, want %q", stdout, path)
 	}
-	got, err := opacity.ReadXSecFile(path)
+	got, err := tablefile.ReadXSec(path)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -85,20 +88,20 @@ func TestOpacityBuildHITRAN(t *testing.T) {
 		t.Errorf("sources %v (%v), want molparam, TIPS and the line list", src, err)
 	}
 	// The same build through the library.
-	iso, err := opacity.ReadMolParam(molparam)
+	iso, err := hitran.ReadMolParam(molparam)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := opacity.ReadTIPSTable(tips, iso); err != nil {
+	if _, err := hitran.ReadTIPSTable(tips, iso); err != nil {
 		t.Fatal(err)
 	}
-	l, err := opacity.ReadLineFile(lines, opacity.LineFilter{NuMin: 2075, NuMax: 2225})
+	l, err := hitran.ReadLineFile(lines, hitran.LineFilter{NuMin: 2075, NuMax: 2225})
 	if err != nil {
 		t.Fatal(err)
 	}
 	// 0.05 cm^-1 is 20 Doppler half-widths at 1e-3 bar: the command
 	// defaults to cell means there.
-	want, err := opacity.BuildXSec(l, iso, &opacity.XSecSettings{Gas: "CO", Log10P: got.Log10P, T: got.T, Wavenumber: got.Wavenumber, Quiet: true, CellAverage: true})
+	want, err := lbl.BuildXSec(l, iso, &lbl.XSecSettings{Gas: "CO", Log10P: got.Log10P, T: got.T, Wavenumber: got.Wavenumber, CellAverage: true})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -130,7 +133,7 @@ func TestOpacityBuildExoMolAndCIA(t *testing.T) {
 	if !strings.Contains(stdout, "CaH.parquet") || !strings.Contains(stdout, "N2-N2.parquet") || !strings.Contains(stderr, "ExoMol") {
 		t.Errorf("stdout %q stderr %q", stdout, stderr)
 	}
-	set, err := opacity.LoadDir(out)
+	set, err := tablefile.LoadDir(out)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -182,7 +185,7 @@ func TestOpacityBuildErrors(t *testing.T) {
 		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--partition", "1-1=q.txt"}, grid...), "MOL/ISO=FILE"},
 		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--partition", "1/1=q.txt"}, grid...), "not in the molparam table"},
 		{append([]string{"-o", dir, "--lines", def, "--lines", par}, grid...), "not both"},
-		{append([]string{"-o", dir, "--lines", def, "--molparam", mp}, grid...), "--molparam applies to HITRAN"},
+		{append([]string{"-o", dir, "--lines", def, "--molparam", mp}, grid...), "--molparam: applies to HITRAN"},
 		{append([]string{"-o", dir, "--lines", def}, grid...), "no isotopologue mass"},
 		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--abundance", "0.5"}, grid...), "ExoMol line lists only"},
 		{append([]string{"-o", dir, "--demo"}, grid...), "--wavenumber cannot be used"},

@@ -9,6 +9,7 @@ import (
 	"testing"
 
 	"chord/forward/opacity"
+	"chord/forward/opacity/tablefile"
 )
 
 // runChord runs the chord command line with args and returns its output.
@@ -44,7 +45,7 @@ func TestOpacityInfo(t *testing.T) {
 		x.Sigma[i] = float32(i) * 1e-26
 	}
 	xp := filepath.Join(dir, "H2O.parquet")
-	if err := opacity.WriteXSecFile(xp, x, false); err != nil {
+	if err := tablefile.WriteXSec(xp, x, false); err != nil {
 		t.Fatal(err)
 	}
 	out, err := runChord(t, "opacity", "info", xp)
@@ -83,7 +84,7 @@ func TestOpacityInfo(t *testing.T) {
 		Meta: map[string]string{opacity.MetaProgramVersion: "9.9.9-test", opacity.MetaSources: sm},
 	}
 	cp := filepath.Join(dir, "H2-He.parquet")
-	if err := opacity.WriteCIAFile(cp, c, false); err != nil {
+	if err := tablefile.WriteCIA(cp, c, false); err != nil {
 		t.Fatal(err)
 	}
 	out, err = runChord(t, "opacity", "info", cp)

@@ -1,9 +1,10 @@
 package opacity
 
 // Set is a collection of opacity tables as loaded from a directory of table
-// files (LoadDir) or built for the demo.
+// files (tablefile.LoadDir) or built for the demo (package demo).
 type Set struct {
-	XSec map[string]*XSecTable // by gas name
+	XSec map[string]*XSecTable // point cross-section tables, by gas name
+	K    map[string]*KTable    // k-tables, by gas name
 	CIA  []*CIATable
 	// Demo is true when any table of the set is a demo table, not for
 	// science; every output made with such a set must say so.

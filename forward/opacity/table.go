@@ -48,16 +48,16 @@ func (t *XSecTable) Validate() error {
 	if t.Gas == "" {
 		return fmt.Errorf("opacity: cross-section table has no gas name")
 	}
-	if err := checkAxis(t.Log10P, "log10 pressure"); err != nil {
+	if err := CheckAxis(t.Log10P, "log10 pressure"); err != nil {
 		return fmt.Errorf("opacity: table %s: %w", t.Gas, err)
 	}
-	if err := checkAxis(t.T, "temperature"); err != nil {
+	if err := CheckAxis(t.T, "temperature"); err != nil {
 		return fmt.Errorf("opacity: table %s: %w", t.Gas, err)
 	}
 	if t.T[0] <= 0 {
 		return fmt.Errorf("opacity: table %s: temperature axis starts at %g K, must be positive", t.Gas, t.T[0])
 	}
-	if err := checkAxis(t.Wavenumber, "wavenumber"); err != nil {
+	if err := CheckAxis(t.Wavenumber, "wavenumber"); err != nil {
 		return fmt.Errorf("opacity: table %s: %w", t.Gas, err)
 	}
 	want := len(t.Log10P) * len(t.T) * len(t.Wavenumber)
@@ -80,13 +80,13 @@ func (t *CIATable) Validate() error {
 	if t.Pair[0] == "" || t.Pair[1] == "" {
 		return fmt.Errorf("opacity: CIA table has no pair name")
 	}
-	if err := checkAxis(t.T, "temperature"); err != nil {
+	if err := CheckAxis(t.T, "temperature"); err != nil {
 		return fmt.Errorf("opacity: CIA table %s: %w", name, err)
 	}
 	if t.T[0] <= 0 {
 		return fmt.Errorf("opacity: CIA table %s: temperature axis starts at %g K, must be positive", name, t.T[0])
 	}
-	if err := checkAxis(t.Wavenumber, "wavenumber"); err != nil {
+	if err := CheckAxis(t.Wavenumber, "wavenumber"); err != nil {
 		return fmt.Errorf("opacity: CIA table %s: %w", name, err)
 	}
 	if want := len(t.T) * len(t.Wavenumber); len(t.K) != want {
@@ -101,7 +101,9 @@ func (t *CIATable) Validate() error {
 	return nil
 }
 
-func checkAxis(x []float64, name string) error {
+// CheckAxis reports whether x is usable as a table axis: not empty, finite
+// and strictly ascending. name says which axis in the error.
+func CheckAxis(x []float64, name string) error {
 	if len(x) == 0 {
 		return fmt.Errorf("%s axis is empty", name)
 	}
@@ -166,7 +168,7 @@ func (t *XSecTable) Resample(nu []float64) *XSecTable {
 	}
 	for ip := range t.Log10P {
 		for it := range t.T {
-			resampleRow(out.Row(ip, it), nu, t.Row(ip, it), t.Wavenumber)
+			ResampleRow(out.Row(ip, it), nu, t.Row(ip, it), t.Wavenumber)
 		}
 	}
 	return out
@@ -183,7 +185,7 @@ func (t *CIATable) Resample(nu []float64) *CIATable {
 		Meta:       copyMeta(t.Meta),
 	}
 	for it := range t.T {
-		resampleRow(out.Row(it), nu, t.Row(it), t.Wavenumber)
+		ResampleRow(out.Row(it), nu, t.Row(it), t.Wavenumber)
 	}
 	return out
 }
@@ -198,7 +200,9 @@ func (t *CIATable) Covers(lo, hi float64) bool {
 	return lo >= t.Wavenumber[0] && hi <= t.Wavenumber[len(t.Wavenumber)-1]
 }
 
-func resampleRow[E float32 | float64](dst []E, nu []float64, src []E, x []float64) {
+// ResampleRow fills dst[k] with the row src, given on the ascending axis x,
+// interpolated linearly at nu[k]; points of nu outside x give 0.
+func ResampleRow[E float32 | float64](dst []E, nu []float64, src []E, x []float64) {
 	n := len(x)
 	for k, v := range nu {
 		if v < x[0] || v > x[n-1] {

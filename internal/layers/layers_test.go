@@ -31,6 +31,7 @@ var allowed = map[string][]string{
 	"chord/chains":              {"chord/sampler"},
 	"chord/obs":                 {"chord/forward"},
 	"chord/forward":             {"chord/forward/opacity"},
+	"chord/forward/opacity":     {},
 	"chord/forward/opacity/...": {"chord/forward/opacity/..."},
 	"chord/priors":              {},
 	"chord/sampler":             {},
@@ -46,14 +47,51 @@ func match(pattern, p string) bool {
 	return p == pattern
 }
 
-// rule returns the allowed imports of package p, and whether p is listed.
+// rule returns the allowed imports of package p, and whether p is listed:
+// an exact entry wins over a pattern.
 func rule(p string) ([]string, bool) {
+	if imps, ok := allowed[p]; ok {
+		return imps, true
+	}
 	for pat, imps := range allowed {
 		if match(pat, p) {
 			return imps, true
 		}
 	}
 	return nil, false
+}
+
+// TestForwardDependsOnGonumAlone: the forward model's whole dependency
+// closure is the standard library, gonum and chord/forward/opacity (no
+// Parquet, compression, progress-bar or terminal package): the codecs and
+// builders live in opacity's subpackages.
+func TestForwardDependsOnGonumAlone(t *testing.T) {
+	root := testenv.RepoRoot(t)
+	seen := map[string]bool{}
+	var walk func(imp string)
+	walk = func(imp string) {
+		if seen[imp] || imp == "C" {
+			return
+		}
+		seen[imp] = true
+		pkg, err := build.Import(imp, root, 0)
+		if err != nil {
+			t.Fatalf("%s: %v", imp, err)
+		}
+		if pkg.Goroot {
+			return
+		}
+		switch {
+		case imp == "chord/forward", imp == "chord/forward/opacity", strings.HasPrefix(imp, "gonum.org/v1/gonum/"):
+		default:
+			t.Errorf("chord/forward depends on %s", imp)
+			return
+		}
+		for _, i := range pkg.Imports {
+			walk(i)
+		}
+	}
+	walk("chord/forward")
 }
 
 // TestImportArrows fails on any import between chord's packages that the
