@@ -55,7 +55,7 @@ func TestDemoFiles(t *testing.T) {
 	if lp := p.NewEvaluator().LogProb(x, extra); math.IsInf(lp, -1) {
 		t.Fatalf("truth rejected: %v", p.Rejections())
 	}
-	if chi2, n := extra[3], float64(p.Model().OutputLen()); n != 86 || math.Abs(chi2-n) > 5*math.Sqrt(2*n) {
+	if chi2, n := extra[3], float64(p.Model().OutputLen()); n != 85 || math.Abs(chi2-n) > 5*math.Sqrt(2*n) {
 		t.Errorf("chi-square at the truth %.1f for %g bins", chi2, n)
 	}
 }

@@ -50,6 +50,7 @@ type kModel struct {
 	gases   []kGas
 	cia     []kCIA
 	overlap Overlap
+	merged  []string // gases whose tables were merged into the bins
 	// rayleigh (per species, nil when it does not scatter) and lnw are on
 	// the kSub sub-points of every bin (bin-major).
 	rayleigh [][]float64
@@ -147,6 +148,9 @@ func newKModel(m *Model, cfg Config) (*Model, error) {
 		if err != nil {
 			return nil, fmt.Errorf("forward: %w", err)
 		}
+		if r != t && r.Meta[opacity.MetaRebinned] != "" {
+			km.merged = append(km.merged, t.Gas)
+		}
 		kg := kGas{name: t.Gas, sp: sp, log10P: r.Log10P, t: r.T, nT: len(r.T), k: r.K}
 		ng := len(r.G)
 		kg.mean = make([]float64, len(r.K)/ng)
@@ -238,4 +242,13 @@ func (m *Model) GPoints() int {
 		return 0
 	}
 	return m.k.ng
+}
+
+// MergedK returns the gases whose k-tables were merged from finer bins into
+// the model's bins (opacity.KTable.Rebin), in table order.
+func (m *Model) MergedK() []string {
+	if m.k == nil {
+		return nil
+	}
+	return slices.Clone(m.k.merged)
 }

@@ -12,6 +12,7 @@ import (
 	"chord/config"
 	"chord/forward"
 	"chord/forward/opacity"
+	"chord/forward/opacity/lbl"
 	"chord/priors"
 	"chord/sampler"
 )
@@ -38,6 +39,7 @@ import (
 // ratios over 1, cloud below the bottom, unusable temperatures) gives
 // -Inf, and the reason is counted (Rejections).
 type Problem struct {
+	notes    []string // what the summary says about the opacity tables (OpacityNotes)
 	model    *forward.Model
 	res      *config.Resolved
 	base     forward.State
@@ -99,6 +101,30 @@ var reasonNames = [numReasons]string{
 	"other invalid physical state",
 }
 
+// OpacityNotes returns what a run's summary should say about the opacity
+// tables of fc as model m uses them: k-tables merged from finer bins (a
+// few ppm of extra error, measured in docs/opacity-accuracy.md), k-tables
+// whose fine grid was coarser than the Doppler rule, and point
+// cross-section tables (sampled at the model grid: noisy against a
+// line-by-line spectrum unless the grid resolves the lines).
+func OpacityNotes(fc forward.Config, m *forward.Model) []string {
+	var out []string
+	if merged := m.MergedK(); len(merged) > 0 {
+		out = append(out, fmt.Sprintf("the k-tables of %s were merged from finer bins into the observation's bins (Leconte 2021): a few ppm of extra error, see docs/opacity-accuracy.md", strings.Join(merged, ", ")))
+	}
+	for _, t := range fc.KTables {
+		for _, w := range strings.Split(t.Meta[lbl.MetaWarnings], "\n") {
+			if strings.Contains(w, "coarser than a third of the Doppler") {
+				out = append(out, fmt.Sprintf("k-table %s: %s", t.Gas, w))
+			}
+		}
+	}
+	if len(fc.XSec) > 0 {
+		out = append(out, "point cross-section tables sample the lines at the model grid: unless the grid resolves the lines (resolving power of about 1e6), binned depths are noisy by tens to hundreds of ppm; use k-tables for fits")
+	}
+	return out
+}
+
 // Extra values stored with every sample, in this order.
 var extraNames = []string{"log_likelihood", "mean_molecular_weight", "fill_vmr", "chi2"}
 
@@ -120,9 +146,11 @@ func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
-	for _, d := range r.Datasets {
-		if err := d.CheckCoverage(fc.Wavelength, fc.MinBinPoints); err != nil {
-			return nil, err
+	if fc.Wavelength != nil { // a model grid (point cross-sections): bins need points on it
+		for _, d := range r.Datasets {
+			if err := d.CheckCoverage(fc.Wavelength, fc.MinBinPoints); err != nil {
+				return nil, err
+			}
 		}
 	}
 	if err := checkOpacity(r, fc); err != nil {
@@ -132,11 +160,12 @@ func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
+	notes := OpacityNotes(fc, m)
 	base, err := mc.State(m)
 	if err != nil {
 		return nil, err
 	}
-	p := &Problem{model: m, res: r, base: base, gasIndex: map[string]int{}, nDS: len(r.Datasets)}
+	p := &Problem{model: m, res: r, base: base, gasIndex: map[string]int{}, nDS: len(r.Datasets), notes: notes}
 	for i, g := range m.Gases() {
 		p.gasIndex[g] = i
 	}
@@ -191,6 +220,9 @@ func checkOpacity(r *config.Resolved, fc forward.Config) error {
 		for _, t := range fc.XSec {
 			ok = ok || t.Gas == par.Gas
 		}
+		for _, t := range fc.KTables {
+			ok = ok || t.Gas == par.Gas
+		}
 		for _, t := range fc.CIA {
 			ok = ok || t.Pair[0] == par.Gas || t.Pair[1] == par.Gas
 		}
@@ -202,6 +234,9 @@ func checkOpacity(r *config.Resolved, fc forward.Config) error {
 			for _, t := range fc.XSec {
 				have = append(have, t.Gas)
 			}
+			for _, t := range fc.KTables {
+				have = append(have, t.Gas)
+			}
 			if len(have) == 0 {
 				have = append(have, "none")
 			}
@@ -211,6 +246,10 @@ func checkOpacity(r *config.Resolved, fc forward.Config) error {
 	}
 	return nil
 }
+
+// Notes returns what the run's summary should say about the opacity
+// tables (OpacityNotes).
+func (p *Problem) Notes() []string { return p.notes }
 
 // Dim returns the number of free parameters.
 func (p *Problem) Dim() int { return len(p.free) }

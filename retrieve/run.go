@@ -861,6 +861,7 @@ func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome)
 			for _, n := range j.res.Notes {
 				s.Warnings = append(s.Warnings, "note: "+n)
 			}
+			s.Warnings = append(s.Warnings, j.prob.Notes()...)
 		},
 	})
 	if err != nil {
