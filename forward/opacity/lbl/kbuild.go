@@ -120,6 +120,14 @@ func newKBuild(ls *LineSet, s *KSettings) (*kBuild, error) {
 	}
 	var warnings []string
 	warnings = append(warnings, ls.Warnings...)
+	for _, li := range ls.isos {
+		if w := partitionWarning(li.name, li.key, li.src, s.T[len(s.T)-1]); w != "" {
+			warnings = append(warnings, w)
+		}
+	}
+	if w := fallbackNote(ls.Fallbacks, ls.Lines()); w != "" {
+		warnings = append(warnings, w)
+	}
 	if r := s.Resolution; r != 0 && (!(r > 0) || math.IsInf(r, 0)) {
 		return fail("fine-grid resolving power %g, must be positive", r)
 	}
@@ -181,30 +189,28 @@ func (b *kBuild) span(g opacity.LnGrid, b0, b1 int) int {
 func (b *kBuild) meta(warnings []string) map[string]string {
 	s := b.s
 	bs := map[string]any{
-		"method":           "k-distribution from line-by-line cross-sections",
-		"profile":          "Voigt; Faddeeva function by Humlicek (1982, JQSRT 27, 437), w4; cores on the fine grid, wings on every 32nd point with cubic interpolation",
-		"intensity":        "HITRAN temperature scaling (Rothman et al. 1998, JQSRT 60, 665); c2 = hc/k, CODATA 2018",
-		"quadrature":       b.q.String(),
-		"bin_weighting":    "box-car in wavelength",
-		"fine_grid":        fineGridNote(s.Resolution),
-		"lines":            b.ls.Lines(),
-		"wing_cutoff_cm-1": b.ls.Cutoff(),
-		"min_intensity":    s.Lines.MinIntensity,
-		"self_fraction":    s.Lines.SelfFraction,
-		"broadener":        cmpOr(s.Lines.Broadening.Name, "air"),
-		"broadener_scale":  b.ls.scale,
-		"pressure_shift":   !s.Lines.NoPressureShift,
+		"method":                    "k-distribution from line-by-line cross-sections",
+		"profile":                   "Voigt; Faddeeva function by Humlicek (1982, JQSRT 27, 437), w4; cores on the fine grid, wings on every 32nd point with cubic interpolation",
+		"intensity":                 "HITRAN temperature scaling (Rothman et al. 1998, JQSRT 60, 665); c2 = hc/k, CODATA 2018",
+		"quadrature":                b.q.String(),
+		"bin_weighting":             "box-car in wavelength",
+		"fine_grid":                 fineGridNote(s.Resolution),
+		"lines":                     b.ls.Lines(),
+		"wing_cutoff_cm-1":          b.ls.Cutoff(),
+		"min_intensity":             s.Lines.MinIntensity,
+		"self_fraction":             s.Lines.SelfFraction,
+		"broadener":                 cmpOr(s.Lines.Broadening.Name, "air"),
+		"broadener_scale":           b.ls.scale,
+		"broadening_mixture":        s.Lines.Mixture.String(),
+		"broadening_fallback_lines": b.ls.Fallbacks,
+		"pressure_shift":            !s.Lines.NoPressureShift,
 	}
 	if s.Lines.Broadening.N > 0 {
 		bs["broadener_temperature_exponent"] = strconv.FormatFloat(s.Lines.Broadening.N, 'g', -1, 64)
 	}
 	part := map[string]string{}
 	for _, li := range b.ls.isos {
-		kind := "table"
-		if _, ok := li.q.(*RigidRotor); ok {
-			kind = "rigid rotor (approximate)"
-		}
-		part[fmt.Sprintf("%d/%d", li.key.Mol, li.key.Iso)] = kind
+		part[fmt.Sprintf("%d/%d", li.key.Mol, li.key.Iso)] = li.src
 	}
 	bs["partition_functions"] = part
 	js, err := json.Marshal(bs)

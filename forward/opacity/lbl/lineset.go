@@ -34,8 +34,13 @@ type LineSettings struct {
 	// SelfFraction is the absorber's own volume mixing ratio used for
 	// self-broadening, in [0, 1]; 0 is the dilute limit.
 	SelfFraction float64
-	Broadening   Broadening
-	// NoPressureShift turns the air pressure shift off.
+	// Mixture is the background gas by broadener (Mixture describes the
+	// Lorentz width and shift it gives); empty means air.
+	Mixture Mixture
+	// Broadening scales the air values, which serve the "air" component
+	// and the lines that lack a component's own parameters.
+	Broadening Broadening
+	// NoPressureShift turns the pressure shifts off.
 	NoPressureShift bool
 }
 
@@ -50,6 +55,10 @@ type LineSet struct {
 	s     LineSettings
 	cut   float64
 	scale float64 // background broadening scale
+	width widthRule
+	// Fallbacks counts, per broadener of the mixture, the lines that lack
+	// its parameters and use the air values in their place.
+	Fallbacks map[string]int
 	// Warnings says what was approximated (partition functions).
 	Warnings []string
 	pool     sync.Pool // of *lineWork
@@ -57,6 +66,7 @@ type LineSet struct {
 
 type lineIso struct {
 	key  IsoKey
+	src  string // partition-sum source
 	name string
 	mass float64
 	q    PartitionFunc
@@ -87,6 +97,10 @@ func NewLineSet(gas string, lines []Line, iso IsoData, s LineSettings) (*LineSet
 		return fail("broadening temperature exponent %g must not be negative", s.Broadening.N)
 	}
 	ls := &LineSet{Gas: gas, s: s, cut: s.WingCutoff, scale: s.Broadening.Scale}
+	var err error
+	if ls.width, err = newWidthRule(s.Mixture, s.Broadening, s.SelfFraction, s.NoPressureShift); err != nil {
+		return fail("%v", err)
+	}
 	if ls.cut == 0 {
 		ls.cut = DefaultWingCutoff
 	}
@@ -121,6 +135,7 @@ func NewLineSet(gas string, lines []Line, iso IsoData, s LineSettings) (*LineSet
 				ls.Warnings = append(ls.Warnings, fmt.Sprintf("no partition-function table for %s (%v): rigid-rotor approximation Q = Q(296 K) (T/296)^%g used, intensities away from 296 K are approximate",
 					d.Name, k, RotorExponent(k.Mol)))
 			}
+			li.src = PartitionSource(d, li.q)
 			if lo, hi := li.q.Range(); TRef < lo || TRef > hi {
 				return fail("partition function of %v covers %g-%g K, not 296 K", k, lo, hi)
 			}
@@ -131,6 +146,7 @@ func NewLineSet(gas string, lines []Line, iso IsoData, s LineSettings) (*LineSet
 		}
 		ls.iso[i] = idx
 	}
+	ls.Fallbacks = ls.width.fallbacks(ls.lines)
 	return ls, nil
 }
 
@@ -234,13 +250,7 @@ func (ls *LineSet) crossSections(dst []float64, g opacity.LnGrid, k0 int, p, t f
 		w.q[i] = li.q296 / li.q.Q(t)
 	}
 	pAtm := p / StandardAtmosphere
-	pSelf := ls.s.SelfFraction * pAtm
-	pBg := pAtm - pSelf
 	lnT := math.Log(TRef / t)
-	shift := 1.0
-	if ls.s.NoPressureShift {
-		shift = 0
-	}
 	// Lines whose window meets [nus[0], nus[n-1]].
 	lo := sort.Search(len(ls.lines), func(i int) bool { return ls.lines[i].Nu >= nus[0]-ls.cut })
 	hi := sort.Search(len(ls.lines), func(i int) bool { return ls.lines[i].Nu > nus[n-1]+ls.cut })
@@ -250,12 +260,8 @@ func (ls *LineSet) crossSections(dst []float64, g opacity.LnGrid, k0 int, p, t f
 		if S == 0 || S < ls.s.MinIntensity {
 			continue
 		}
-		nexp := l.NAir
-		if ls.s.Broadening.N > 0 {
-			nexp = ls.s.Broadening.N
-		}
-		gL := ls.scale*l.GammaAir*math.Exp(nexp*lnT)*pBg + l.GammaSelf*math.Exp(l.NAir*lnT)*pSelf
-		p := newVoigtLine(S, l.Nu+shift*l.DeltaAir*pAtm, DopplerHWHM(l.Nu, t, ls.isos[ls.iso[i]].mass), gL)
+		gL, shift := ls.width.at(l, pAtm, lnT)
+		p := newVoigtLine(S, l.Nu+shift, DopplerHWHM(l.Nu, t, ls.isos[ls.iso[i]].mass), gL)
 		ls.addLine(dst, coarse, nus, g, k0, l.Nu-ls.cut, l.Nu+ls.cut, &p, w)
 	}
 	for k := range dst {
