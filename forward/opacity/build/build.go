@@ -1,8 +1,10 @@
-// Package build makes a gas's cross-section table from its line-list
-// files: it tells HITRAN from ExoMol files, reads the isotopologue data and
-// partition sums that go with them, checks that the lines are of one
-// molecule, names the gas, chooses between point values and cell means,
-// and records provenance, leaving the physics to package lbl.
+// Package build makes a gas's k-table or cross-section table from its
+// line-list files: it tells HITRAN from ExoMol files, reads the
+// isotopologue data and the partition sums that go with them (the newest
+// edition per isotopologue), streams the lines of many compressed files in
+// order of wavenumber, checks that they are of one molecule, names the
+// gas, keeps a resumable checkpoint and records provenance, leaving the
+// physics to package lbl.
 package build
 
 import (
@@ -576,52 +578,17 @@ func moleculeList(mols map[int]bool) string {
 	return strings.Join(names, ", ")
 }
 
-// Sampling says what a table's values are.
-type Sampling int
-
-const (
-	// Auto is cell means when the grid does not resolve the lines
-	// (lbl.GridCoarseness above lbl.CoarseGridRatio), where point values
-	// would sample the lines rather than average them, and point values
-	// otherwise.
-	Auto Sampling = iota
-	// PointValues are the cross-sections at the grid wavenumbers.
-	PointValues
-	// CellMeans are the means over the grid cells
-	// (lbl.XSecSettings.CellAverage).
-	CellMeans
-)
-
-// Table builds the cross-section table of l with the settings s, sampled
-// as sampling says: s.Gas is l's gas, s.Sources records l's files with
-// their SHA-256, and s.CellAverage follows sampling. Notes on the choices
-// made, progress and warnings go to s.Observer.
-func (l *Lines) Table(s lbl.XSecSettings, sampling Sampling) (*opacity.XSecTable, error) {
+// Table builds the point cross-section table of l with the settings s:
+// s.Gas is l's gas and s.Sources records l's files with their SHA-256.
+// Notes, progress and warnings go to s.Observer.
+func (l *Lines) Table(s lbl.XSecSettings) (*opacity.XSecTable, error) {
 	src, err := opacity.SourcesMeta(l.Files...)
 	if err != nil {
 		return nil, err
 	}
 	s.Gas, s.Sources = l.Gas, src
-	switch sampling {
-	case PointValues, CellMeans:
-		s.CellAverage = sampling == CellMeans
-	case Auto:
-		// A one-point grid has no cells, and lines without isotopologue
-		// data are reported by BuildXSec: both keep point values here.
-		s.CellAverage = false
-		if r, err := lbl.GridCoarseness(l.Lines, l.Iso, &s); err == nil && r > lbl.CoarseGridRatio {
-			s.CellAverage = true
-			note(&s.Observer, fmt.Sprintf("grid spacing is %.3g times the median line half-width at the lowest pressure and temperature: storing cell means (point values can be asked for)", r))
-		}
-	default:
-		return nil, fmt.Errorf("opacity: line list: unknown sampling %d", sampling)
-	}
-	values := "point values"
-	if s.CellAverage {
-		values = "cell means"
-	}
-	note(&s.Observer, fmt.Sprintf("building %s: %d lines on %d pressures x %d temperatures x %d wavenumbers, %s",
-		l.Gas, len(l.Lines), len(s.Log10P), len(s.T), len(s.Wavenumber), values))
+	note(&s.Observer, fmt.Sprintf("building %s: %d lines on %d pressures x %d temperatures x %d wavenumbers, point values",
+		l.Gas, len(l.Lines), len(s.Log10P), len(s.T), len(s.Wavenumber)))
 	return lbl.BuildXSec(l.Lines, l.Iso, &s)
 }
 
