@@ -212,7 +212,7 @@ func (l *List) Stream(lo, hi float64, workers int) (Stream, error) {
 	}
 	var files []*streamFile
 	if l.conv != nil {
-		trans, err := exomolTransFiles(l.lineFiles[0])
+		trans, err := exomol.TransFiles(l.lineFiles[0])
 		if err != nil {
 			return nil, optionErrorf("Files", "%v", err)
 		}
@@ -366,7 +366,7 @@ func openExoMol(src *Source, def string, obs lbl.Observer) (*List, error) {
 	key := lbl.IsoKey{Mol: lbl.MoleculeID(gas), Iso: 1}
 	base := strings.TrimSuffix(def, ".def")
 	statesPath := ""
-	for _, p := range []string{base + ".states", base + ".states.bz2"} {
+	for _, p := range []string{base + ".states", base + ".states.bz2", base + ".states.gz"} {
 		if _, err := os.Stat(p); err == nil {
 			statesPath = p
 			break
@@ -412,7 +412,7 @@ func openExoMol(src *Source, def string, obs lbl.Observer) (*List, error) {
 		l.Files = append(l.Files, src.Partition[0].Path)
 	}
 	l.Iso = lbl.IsoData{key: isoData}
-	trans, err := exomolTransFiles(def)
+	trans, err := exomol.TransFiles(def)
 	if err != nil {
 		return nil, fmt.Errorf("exomol: %s: %w", def, err)
 	}
@@ -431,30 +431,6 @@ func skippedNote(m map[string]int) string {
 	}
 	sort.Strings(parts)
 	return "; not used: " + strings.Join(parts, ", ")
-}
-
-// exomolTransFiles finds the transition files beside an ExoMol .def file:
-// <base>.trans[.bz2], or the chunks <base>__*.trans[.bz2].
-func exomolTransFiles(def string) ([]string, error) {
-	base := strings.TrimSuffix(def, ".def")
-	for _, p := range []string{base + ".trans", base + ".trans.bz2"} {
-		if _, err := os.Stat(p); err == nil {
-			return []string{p}, nil
-		}
-	}
-	var out []string
-	for _, pat := range []string{base + "__*.trans", base + "__*.trans.bz2"} {
-		m, err := filepath.Glob(pat)
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, m...)
-	}
-	if len(out) == 0 {
-		return nil, fmt.Errorf("no transitions file %s.trans[.bz2] or %s__*.trans[.bz2]", base, base)
-	}
-	sort.Strings(out)
-	return out, nil
 }
 
 // openHITRAN prepares HITRAN line lists of one molecule with the

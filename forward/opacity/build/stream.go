@@ -46,6 +46,17 @@ const (
 	chanBatches = 4
 )
 
+// batches recycles the producers' batches.
+var batches = sync.Pool{New: func() any { b := make([]lbl.Line, 0, batchLines); return &b }}
+
+func newBatch() []lbl.Line { return (*batches.Get().(*[]lbl.Line))[:0] }
+
+func freeBatch(b []lbl.Line) {
+	if cap(b) == batchLines {
+		batches.Put(&b)
+	}
+}
+
 // streamFile is one file: how to read it, and its reader when open.
 type streamFile struct {
 	name  string
@@ -88,7 +99,7 @@ func (s *stream) start(f *streamFile) {
 	f.ch = make(chan []lbl.Line, chanBatches)
 	go func() {
 		defer close(f.ch)
-		batch := make([]lbl.Line, 0, batchLines)
+		batch := newBatch()
 		prev := 0.0
 		err := f.scan(s.ctx, func(l *lbl.Line) error {
 			if l.Nu < prev {
@@ -102,7 +113,7 @@ func (s *stream) start(f *streamFile) {
 				case <-s.ctx.Done():
 					return s.ctx.Err()
 				}
-				batch = make([]lbl.Line, 0, batchLines)
+				batch = newBatch()
 			}
 			return nil
 		})
@@ -128,6 +139,10 @@ func (s *stream) advance(f *streamFile) bool {
 	f.pos++
 	for f.pos >= len(f.cur) {
 		b, ok := <-f.ch
+		if f.cur != nil {
+			freeBatch(f.cur)
+			f.cur = nil
+		}
 		if !ok {
 			return false
 		}
@@ -245,4 +260,3 @@ func (h *fileHeap) Pop() any {
 	*h = old[:len(old)-1]
 	return f
 }
-

@@ -515,7 +515,7 @@ func Read(defPath string, opt Options) (*List, error) {
 		return nil, err
 	}
 	base := strings.TrimSuffix(defPath, ".def")
-	statesPath, err := exomolFindOne(base+".states", base+".states.bz2")
+	statesPath, err := exomolFindOne(base+".states", base+".states.bz2", base+".states.gz")
 	if err != nil {
 		return nil, fmt.Errorf("exomol: %s: states file: %w", defPath, err)
 	}
@@ -527,7 +527,7 @@ func Read(defPath string, opt Options) (*List, error) {
 	if def.NumStates > 0 && int64(len(states.ID)) != def.NumStates {
 		return nil, fmt.Errorf("exomol: %s has %d states, %s says %d", statesPath, len(states.ID), defPath, def.NumStates)
 	}
-	transPaths, err := exomolTransFiles(base)
+	transPaths, err := TransFiles(defPath)
 	if err != nil {
 		return nil, fmt.Errorf("exomol: %s: %w", defPath, err)
 	}
@@ -568,13 +568,17 @@ func (l *List) Isotopologue() *lbl.Isotopologue {
 	}
 }
 
-// exomolTransFiles finds the transition files of an ExoMol base path.
-func exomolTransFiles(base string) ([]string, error) {
-	if p, err := exomolFindOne(base+".trans", base+".trans.bz2"); err == nil {
+// TransFiles finds the transition files of an ExoMol list given its
+// .def file: <base>.trans, or the chunks <base>__*.trans, each plain or
+// compressed (.bz2, .gz), in name order (ExoMol names chunks by their
+// wavenumber range, so name order is wavenumber order).
+func TransFiles(def string) ([]string, error) {
+	base := strings.TrimSuffix(def, ".def")
+	if p, err := exomolFindOne(base+".trans", base+".trans.bz2", base+".trans.gz"); err == nil {
 		return []string{p}, nil
 	}
 	var out []string
-	for _, pat := range []string{base + "__*.trans", base + "__*.trans.bz2"} {
+	for _, pat := range []string{base + "__*.trans", base + "__*.trans.bz2", base + "__*.trans.gz"} {
 		m, err := filepath.Glob(pat)
 		if err != nil {
 			return nil, err
@@ -582,7 +586,7 @@ func exomolTransFiles(base string) ([]string, error) {
 		out = append(out, m...)
 	}
 	if len(out) == 0 {
-		return nil, fmt.Errorf("no transitions file %s.trans[.bz2] or %s__*.trans[.bz2]", base, base)
+		return nil, fmt.Errorf("no transitions file %s.trans[.bz2|.gz] or %s__*.trans[.bz2|.gz]", base, base)
 	}
 	sort.Strings(out)
 	return out, nil
