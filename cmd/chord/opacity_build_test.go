@@ -99,9 +99,7 @@ func TestOpacityBuildHITRAN(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// 0.05 cm^-1 is 20 Doppler half-widths at 1e-3 bar: the command
-	// defaults to cell means there.
-	want, err := lbl.BuildXSec(l, iso, &lbl.XSecSettings{Gas: "CO", Log10P: got.Log10P, T: got.T, Wavenumber: got.Wavenumber, CellAverage: true})
+	want, err := lbl.BuildXSec(l, iso, &lbl.XSecSettings{Gas: "CO", Log10P: got.Log10P, T: got.T, Wavenumber: got.Wavenumber})
 	if err != nil {
 		t.Fatal(err)
 	}
