@@ -135,7 +135,7 @@ const (
 	QCLR Quantity = "clr"
 )
 
-// Quantities lists every quantity, in the order of the README.
+// Quantities lists every quantity, in the order of docs/configuration.md.
 var Quantities = []Quantity{QLog10VMR, QTemperature, QTIrr, QTInt, QLog10KappaIR, QLog10Gamma,
 	QRadiusRjup, QRadiusRearth, QMassMjup, QMassMearth, QLog10CloudTop, QCloudFraction,
 	QLog10HazeFactor, QHazeSlope, QOffsetPPM, QErrorInflationPM}

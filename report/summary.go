@@ -40,7 +40,7 @@ import (
 // below the prior's, i.e. significance under UpperLimitSigma) is reported as
 // an upper limit, the one-sided 95% upper limit being its 95th percentile.
 
-// Rules of the summaries (stated in the README). Autocorrelation times use
+// Rules of the summaries (stated in docs/methods.md). Autocorrelation times use
 // the sampler's window (sampler.DefaultSokalWindow), and a chain counts as
 // converged when the whole chain (burn-in included, as in the sampler's
 // stopping rule, so that a run the sampler stopped as converged is
