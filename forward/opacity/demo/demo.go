@@ -46,8 +46,8 @@ const MetaVersion = "demo_version"
 const (
 	ResolvingPower     = 200
 	FineResolvingPower = 1e5
-	demoLambdaMin      = 0.5e-6 // m
-	demoLambdaMax      = 20e-6  // m
+	demoLambdaMin      = 0.5e-6  // m
+	demoLambdaMax      = 20e-6   // m
 	demoNuMinCm        = 500.0   // cm^-1 (20 um), CIA grid
 	demoNuMaxCm        = 20000.0 // cm^-1 (0.5 um)
 	demoCIAResPower    = 500     // CIA bands are smooth: a coarser grid suffices

@@ -455,4 +455,3 @@ func TestDemoBandIntegral(t *testing.T) {
 		}
 	}
 }
-
