@@ -120,10 +120,17 @@ func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
+	// The data sets checked against the model grid, which moves edges equal
+	// to the grid's ends up to rounding onto them; fc.Bins follows.
+	bins.Lo, bins.Hi = bins.Lo[:0], bins.Hi[:0]
 	for _, d := range r.Datasets {
-		if err := d.CheckCoverage(fc.Wavelength, fc.MinBinPoints); err != nil {
-			return nil, err
+		if len(fc.Wavelength) > 0 {
+			if err := d.Cover(fc.Wavelength, fc.MinBinPoints); err != nil {
+				return nil, err
+			}
 		}
+		bins.Lo = append(bins.Lo, d.Lo...)
+		bins.Hi = append(bins.Hi, d.Hi...)
 	}
 	if err := checkOpacity(r, fc); err != nil {
 		return nil, err

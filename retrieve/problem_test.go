@@ -56,7 +56,7 @@ func TestBadConfigsProblem(t *testing.T) {
 		t.Fatal(err)
 	}
 	_, err = NewProblem(r, &opacity.Set{})
-	if err == nil || !strings.Contains(err.Error(), "/testdata/obs/wide.csv:20: bin 4.4-4.6 um lies outside the model wavelength range") {
+	if err == nil || !strings.Contains(err.Error(), "/testdata/obs/wide.csv:20: bin 4.4-4.6 um ends above the model wavelength range 0.9-4.5 um") {
 		t.Errorf("bin outside the model grid: %v, want the observation file and line", err)
 	}
 }

@@ -1202,12 +1202,18 @@ func RunNoisePPM(dir string) (float64, error) {
 		return 0, err
 	}
 	var sigma []float64
-	for _, o := range rf.Config.Observations {
-		d, err := obs.ReadDataset(o.File)
+	for i, o := range rf.Config.Observations {
+		opt, err := o.ReadOptions(fmt.Sprintf("observations[%d]", i+1))
+		if err != nil {
+			return 0, config.InFile(path, err)
+		}
+		ds, err := obs.Read(o.File, opt)
 		if err != nil {
 			return 0, fmt.Errorf("%s: %w", path, err)
 		}
-		sigma = append(sigma, d.Sigma...)
+		for _, d := range ds {
+			sigma = append(sigma, d.Sigma...)
+		}
 	}
 	if len(sigma) == 0 {
 		return 0, fmt.Errorf("%s: no observations", path)
