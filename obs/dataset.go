@@ -10,13 +10,14 @@ import (
 	"chord/forward"
 )
 
-// Observation files.
+// Observation files in chord's own table format (read.go reads the other
+// formats and mapped columns through the same interpretation).
 //
 // An observed transmission spectrum is a text table, comma-separated or
-// whitespace-separated (decided by the header: a comma in it means CSV).
-// Lines that are blank or whose first non-blank character is '#' are
-// comments. The first other line is the header; it names the columns, in
-// any order, each name carrying its unit:
+// whitespace-separated (decided by the first line that is not a comment: a
+// comma in it means CSV). Lines that are blank or whose first non-blank
+// character is '#' are comments. The first other line is the header; it
+// names the columns, in any order, each name carrying its unit:
 //
 //	wavelength_um | wavelength_nm   bin centre      } one pair:
 //	width_um      | width_nm        full bin width  } centre and width,
@@ -30,20 +31,20 @@ import (
 //
 //	error                          1-sigma error, in the unit of the depth column
 //	error_plus and error_minus     asymmetric errors (magnitudes); their mean is used
+//	instrument                     optional: splits the file into data sets
 //
-// The error columns may repeat the depth column's unit (error_ppm with
-// depth_ppm, error_plus_percent with depth_percent); another unit is an
-// error.
+// The error columns may carry a depth unit of their own (error_ppm with
+// depth_percent); they are converted to fractions each by its own unit.
 //
 // Every other column name is an error. An Rp/Rs error is propagated to
 // first order: sigma_D = 2 (Rp/Rs) sigma_(Rp/Rs) (fact of the trade).
 //
 // Rows are bins. Each must have finite values, positive widths (or
 // edge_low < edge_high), a positive error, and a depth in [0, 1) after
-// conversion; two bins may not be the same bin or overlap by more than a
-// millionth of the narrower one's width (adjacent bins whose shared edge
-// was rounded differently are accepted). Rows not sorted by wavelength are
-// sorted, with a note. Every error names the file and line.
+// conversion; two bins may not be the same bin or overlap by more than
+// the edge tolerance (edges.go: shared edges rounded differently are
+// snapped, with a note). Rows not sorted by wavelength are sorted, with a
+// note. Every error names the file, line and column.
 
 // Dataset is one observed spectrum, its bins sorted by wavelength.
 type Dataset struct {
