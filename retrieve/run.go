@@ -699,6 +699,7 @@ type job struct {
 	prob   *Problem
 	spec   *RunSpec
 	inputs []InputFile
+	log    io.Writer // the run's log (the start's searches); nil for none
 }
 
 // quantityUnit is the unit of each quantity in chains and reports.
@@ -759,17 +760,20 @@ func newJob(r *config.Resolved, set *opacity.Set, runID string) (*job, error) {
 	default:
 		move = sampler.Stretch{A: 2}
 	}
+	j := &job{}
 	spec := &RunSpec{
 		Target: prob, Layout: l, Move: move, Seed: r.Seed, RunID: runID, ConfigSHA256: digest,
 		Init: func(ctx context.Context, workers int) (*sampler.State, error) {
-			pos, err := sampler.StartBall(prob, prob.DrawPrior, priorWidths(prob.Priors()), r.Walkers, r.Seed)
+			pos, found, err := sampler.StartBall(ctx, prob, prob.DrawPrior, priorWidths(prob.Priors()), sampler.StartSettings{Walkers: r.Walkers, Seed: r.Seed, Workers: workers})
 			if err != nil {
 				return nil, err
 			}
+			fmt.Fprintln(logto.First(j.log), "chord: start:", found)
 			return sampler.InitPositions(ctx, prob, pos, sampler.InitSettings{Walkers: r.Walkers, Seed: r.Seed, Workers: workers})
 		},
 	}
-	return &job{res: r, set: set, prob: prob, spec: spec, inputs: inputs}, nil
+	j.res, j.set, j.prob, j.spec, j.inputs = r, set, prob, spec, inputs
+	return j, nil
 }
 
 // priorWidths returns the central 68% widths of the priors, the scales of
@@ -1032,6 +1036,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	if err != nil {
 		return nil, config.InFile(opt.ConfigPath, err)
 	}
+	j.log = log
 	cfgHash, err := fileSHA256(opt.ConfigPath)
 	if err != nil {
 		return nil, err
