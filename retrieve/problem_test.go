@@ -226,7 +226,7 @@ func TestRejections(t *testing.T) {
 			t.Errorf("reason %q counted %d times, want 1 (all: %v)", c.reason, got[c.reason], p.Rejections())
 		}
 	}
-	if n, _ := p.Evaluations(); n != int64(len(cases)) {
+	if n := p.Evaluations(); n != int64(len(cases)) {
 		t.Errorf("%d evaluations counted, want %d", n, len(cases))
 	}
 }
@@ -279,7 +279,7 @@ func TestDrawPrior(t *testing.T) {
 			t.Errorf("draw %d has -Inf posterior", k)
 		}
 	}
-	if n, _ := p.Evaluations(); n != int64(len(a)) {
+	if n := p.Evaluations(); n != int64(len(a)) {
 		t.Errorf("initial draws were counted: %d evaluations", n)
 	}
 }

@@ -817,11 +817,15 @@ func (m *reportModel) Data() (wl, half, depth, sigma []float64) {
 	return
 }
 
-func (m *reportModel) ModelDepth(dst, x []float64) error {
+func (m *reportModel) init() {
 	if m.eval == nil {
 		m.eval = m.j.prob.NewPosteriorEvaluator()
 		m.buf = make([]float64, m.j.prob.Model().OutputLen())
 	}
+}
+
+func (m *reportModel) ModelDepth(dst, x []float64) error {
+	m.init()
 	if err := m.eval.Spectrum(m.buf, x); err != nil {
 		return err
 	}
@@ -843,6 +847,9 @@ func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome)
 	title := j.res.Config.Planet.Name
 	s, err := report.Write(dir, ck.Parts, report.Options{
 		Burn: burn, BurnAuto: auto, Thin: thin, Gases: j.gases(), Model: &reportModel{j: j}, Title: title,
+		Bounds:         paramBounds(j.res.Free, *j.res.Config.Atmosphere.BottomPressureBar),
+		ErrorsInflated: j.prob.inflate,
+		Coverage:       j.prob.Coverage(),
 		Fill: func(s *report.Summary) {
 			s.RunID = ck.RunID
 			s.DemoOpacities = j.set.Demo
@@ -857,9 +864,6 @@ func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome)
 					for _, r := range rej {
 						s.InvalidStates[r.Reason] = r.Count
 					}
-				}
-				if total, clamped := j.prob.Evaluations(); clamped > 0 {
-					s.Warnings = append(s.Warnings, fmt.Sprintf("%d of %d evaluations this session used opacity tables outside their pressure-temperature grid (edge values used); widen the tables or the temperature prior", clamped, total))
 				}
 			}
 			for _, n := range j.res.Notes {
