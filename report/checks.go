@@ -37,8 +37,9 @@ import (
 //     1, no error inflation) or that mean "absent" (the lower edge of a
 //     log abundance, reported as an upper limit) are not checked.
 //   - Table coverage: data bins outside an opacity table's wavelength
-//     range, bins where no gas has any line opacity (only continuum),
-//     temperatures of the posterior (central 95% of the samples' layer
+//     range; bins where no gas has any line opacity (only continuum), when
+//     the model does not fit or they are more than NoLinesShare of the
+//     data (otherwise they are noted in summary.txt); temperatures of the posterior (central 95% of the samples' layer
 //     temperatures) or pressures of the model atmosphere outside a
 //     table's grid (the table's edge values are used there), and gases
 //     whose table is zero in every bin. Bins where one gas's table is zero
@@ -64,6 +65,11 @@ const (
 	// median log posterior (see above).
 	ModeGapSpread = 3.0
 	ModeGapMin    = 1.0
+	// NoLinesShare is the share of the data bins without any line
+	// opacity above which the table-coverage check fires on them even
+	// when the model fits (a few such bins at the ends of a range, where
+	// only continuum is expected, are noted without a warning).
+	NoLinesShare = 0.25
 )
 
 // MisfitVerdict is added to every gas verdict of a fit that fails the
@@ -253,8 +259,11 @@ func (s *Summary) writeChecks(b *strings.Builder) {
 		fmt.Fprintf(b, "  goodness of fit: chi-square %.1f for %d degrees of freedom (%s): reduced %.2f, p-value %.2g; %s (threshold p < %g)\n",
 			g.ChiSquare, g.DegreesOfFreedom, errs, float64(g.ReducedChiSquare), float64(g.PValue), fits, MisfitPValue)
 	}
+	if c := s.Coverage; c != nil && len(c.NoLines) > 0 && !slices.ContainsFunc(s.Checks, func(k Check) bool { return strings.HasPrefix(k.Message, "no gas of the model has any line opacity") }) {
+		fmt.Fprintf(b, "  table coverage: no gas has line opacity in %d of %d data bins (continuum only): %s\n", len(c.NoLines), c.Bins, strings.Join(c.NoLines, ", "))
+	}
 	if len(s.Checks) == 0 {
-		b.WriteString("  no check fired: goodness of fit, prior edges, walker modes and table coverage are in order\n")
+		b.WriteString("  no check fired (goodness of fit, prior edges, walker modes, table coverage)\n")
 		return
 	}
 	fmt.Fprintf(b, "  %d check(s) fired: do not trust this fit before reading them\n", len(s.Checks))

@@ -131,16 +131,22 @@ func TestModesCheck(t *testing.T) {
 func TestCoverageCheck(t *testing.T) {
 	good := TableCoverage{Table: "H2O cross-sections", Gas: "H2O", Lines: true, Bins: 3, TMin: 200, TMax: 2000, PMin: 1e-2, PMax: 1e7, Zero: []string{"b2"}}
 	s := &Summary{}
-	s.checkCoverage(&Coverage{Tables: []TableCoverage{good}, PMin: 0.1, PMax: 1e6, TMin: 400, TMax: 900})
+	s.checkCoverage(&Coverage{Bins: 5, NoLines: []string{"b1"}, Tables: []TableCoverage{good}, PMin: 0.1, PMax: 1e6, TMin: 400, TMax: 900})
 	if len(s.Checks) != 0 || s.Coverage == nil || len(s.Coverage.Tables[0].Zero) != 1 {
 		t.Errorf("covered: %v", s.Checks)
+	}
+	// A bin without line opacity in 5 fires when the model does not fit.
+	s = &Summary{GoodnessOfFit: &GoodnessOfFit{Fits: false}}
+	s.checkCoverage(&Coverage{Bins: 5, NoLines: []string{"b1"}, Tables: []TableCoverage{good}, PMin: 0.1, PMax: 1e6, TMin: 400, TMax: 900})
+	if len(s.Checks) != 1 || !strings.Contains(s.Checks[0].Message, "(the model does not fit the data, and this may be why): b1") {
+		t.Errorf("misfit with a bin without lines: %v", s.Checks)
 	}
 	bad := good
 	bad.Table, bad.Gas, bad.Missing, bad.Zero, bad.TMax, bad.PMax = "CO2 cross-sections", "CO2", []string{"b3"}, []string{"b1", "b2", "b3"}, 800, 1e5
 	s = &Summary{}
-	s.checkCoverage(&Coverage{Tables: []TableCoverage{good, bad}, NoLines: []string{"b3"}, PMin: 0.1, PMax: 1e6, TMin: 400, TMax: 900})
+	s.checkCoverage(&Coverage{Bins: 3, Tables: []TableCoverage{good, bad}, NoLines: []string{"b3"}, PMin: 0.1, PMax: 1e6, TMin: 400, TMax: 900})
 	want := []string{
-		"no gas of the model has any line opacity in 1 data bin(s): b3",
+		"no gas of the model has any line opacity in 1 of 3 data bin(s) (more than 0.25 of the data): b3",
 		"the CO2 cross-sections table does not reach 1 data bin(s): b3",
 		"the CO2 cross-sections table is zero in every data bin",
 		"the fit's temperatures (central 95% of the layers: 400-900 K) reach outside the CO2 cross-sections table's 200-800 K",

@@ -15,6 +15,7 @@ import (
 // table-coverage check (checks.go) reads it.
 type Coverage struct {
 	Tables []TableCoverage `json:"tables"`
+	Bins   int             `json:"data_bins"` // number of data bins
 	// NoLines lists the data bins (as Bin strings) where no gas has any
 	// line opacity: the model there is continuum only (CIA, Rayleigh,
 	// grey, clouds, haze).
@@ -81,9 +82,14 @@ func (s *Summary) checkCoverage(cov *Coverage) {
 		}
 		return strings.Join(b[:3], ", ") + fmt.Sprintf(", ... (%d in all) ", len(b)) + b[len(b)-1]
 	}
-	if len(cov.NoLines) > 0 {
-		s.addCheck(CheckCoverage, fmt.Sprintf("no gas of the model has any line opacity in %d data bin(s): %s. The model is continuum only there (collision-induced absorption, scattering, clouds), so features in those bins cannot be fitted; add the opacity tables that cover them or leave those bins out",
-			len(cov.NoLines), list(cov.NoLines)))
+	misfit := s.GoodnessOfFit != nil && !s.GoodnessOfFit.Fits
+	if n := len(cov.NoLines); n > 0 && (misfit || float64(n) > NoLinesShare*float64(cov.Bins)) {
+		why := "the model does not fit the data, and this may be why"
+		if !misfit {
+			why = fmt.Sprintf("more than %g of the data", NoLinesShare)
+		}
+		s.addCheck(CheckCoverage, fmt.Sprintf("no gas of the model has any line opacity in %d of %d data bin(s) (%s): %s. The model is continuum only there (collision-induced absorption, scattering, clouds, haze), so absorption features in those bins cannot be fitted; add opacity tables (gases) that cover them, or leave those bins out",
+			n, cov.Bins, why, list(cov.NoLines)))
 	}
 	for _, t := range cov.Tables {
 		if len(t.Missing) > 0 {

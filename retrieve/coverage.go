@@ -25,7 +25,7 @@ func tableCoverage(fc forward.Config, ds []*obs.Dataset, lv []float64) *report.C
 			bins = append(bins, bin{d.Lo[i], d.Hi[i], d.Where(i)})
 		}
 	}
-	cov := &report.Coverage{PMin: lv[len(lv)-1], PMax: lv[0]}
+	cov := &report.Coverage{Bins: len(bins), PMin: lv[len(lv)-1], PMax: lv[0]}
 	lines := make([]bool, len(bins)) // some gas has line opacity in bin i
 	pRange := func(log10P []float64) (float64, float64) {
 		return math.Pow(10, log10P[0]), math.Pow(10, log10P[len(log10P)-1])

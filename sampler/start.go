@@ -29,9 +29,12 @@ import (
 //     evaluations (the searches run in parallel, each on its own
 //     evaluator; each is deterministic, so the result does not depend on
 //     the number of workers); the end points are grouped into distinct
-//     optima (two are one when their log posteriors differ by less than
-//     SameOptimumLogP and no coordinate by more than SameOptimumWidth
-//     prior widths), reported in a StartResult, and the best is kept;
+//     optima by the hill-valley test (Ursem 1999, Proc. CEC, 1633): two
+//     end points belong to one optimum when the log posterior at 1/4, 1/2
+//     and 3/4 of the way between them never falls more than
+//     SameOptimumLogP below the lower of the two (no valley separates
+//     them); the optima are reported in a StartResult, and the best is
+//     kept;
 //  4. walkers drawn from the Laplace approximation there, N(x, H^-1) with H
 //     the Hessian of -ln p by finite differences (so that the ensemble
 //     starts with about the posterior's spread and correlations, and the
@@ -54,7 +57,6 @@ const (
 	StartEvaluations = 150
 	StartScale       = 0.01
 	SameOptimumLogP  = 1.0
-	SameOptimumWidth = 0.1
 )
 
 // StartSettings configure StartBall.
@@ -180,7 +182,7 @@ func StartBall(ctx context.Context, t Target, draw func(dst []float64, rng *rand
 	if err := ctx.Err(); err != nil {
 		return nil, nil, err
 	}
-	res := &StartResult{Optima: distinctOptima(ends, endLP, scale), Searches: len(starts)}
+	res := &StartResult{Optima: distinctOptima(ends, endLP, func(x []float64) float64 { return eval.LogProb(x, extra) }), Searches: len(starts)}
 	best := res.Optima[0].X
 	step := make([]float64, dim)
 	for k := range step {
@@ -290,8 +292,22 @@ func distance(x, y, scale []float64) float64 {
 }
 
 // distinctOptima groups the searches' end points (ends, log posteriors
-// lps) into distinct optima, best first.
-func distinctOptima(ends [][]float64, lps []float64, scale []float64) []Optimum {
+// lps) into distinct optima, best first, by the hill-valley test on the
+// log posterior logP.
+func distinctOptima(ends [][]float64, lps []float64, logP func([]float64) float64) []Optimum {
+	y := make([]float64, len(ends[0]))
+	valley := func(a, b []float64, lpa, lpb float64) bool {
+		floor := math.Min(lpa, lpb) - SameOptimumLogP
+		for _, f := range []float64{0.25, 0.5, 0.75} {
+			for k := range y {
+				y[k] = a[k] + f*(b[k]-a[k])
+			}
+			if lp := logP(y); !(lp >= floor) {
+				return true
+			}
+		}
+		return false
+	}
 	idx := make([]int, len(ends))
 	for i := range idx {
 		idx[i] = i
@@ -309,7 +325,7 @@ func distinctOptima(ends [][]float64, lps []float64, scale []float64) []Optimum 
 	for _, i := range idx {
 		found := false
 		for k := range out {
-			if math.Abs(out[k].LogP-lps[i]) < SameOptimumLogP && distance(out[k].X, ends[i], scale) < SameOptimumWidth {
+			if !valley(out[k].X, ends[i], out[k].LogP, lps[i]) {
 				out[k].Count++
 				found = true
 				break
