@@ -2,6 +2,7 @@ package retrieve
 
 import (
 	"math"
+	"slices"
 
 	"chord/config"
 	"chord/forward"
@@ -30,6 +31,23 @@ func tableCoverage(fc forward.Config, ds []*obs.Dataset, lv []float64) *report.C
 	pRange := func(log10P []float64) (float64, float64) {
 		return math.Pow(10, log10P[0]), math.Pow(10, log10P[len(log10P)-1])
 	}
+	// classify sorts the bins into those outside a table (missing), those
+	// where it is zero everywhere, and those where it has lines; where(lo,
+	// hi) says whether a bin lies inside the table and the table is
+	// non-zero somewhere in it.
+	classify := func(tc report.TableCoverage, where func(lo, hi float64) (inside, nonzero bool)) {
+		for i, b := range bins {
+			switch inside, nonzero := where(b.lo, b.hi); {
+			case !inside:
+				tc.Missing = append(tc.Missing, report.Bin(b.lo, b.hi, b.where))
+			case nonzero:
+				lines[i] = true
+			default:
+				tc.Zero = append(tc.Zero, report.Bin(b.lo, b.hi, b.where))
+			}
+		}
+		cov.Tables = append(cov.Tables, tc)
+	}
 	for _, t := range fc.XSec {
 		tc := report.TableCoverage{Table: t.Gas + " cross-sections", Gas: t.Gas, Lines: true, Bins: len(bins), TMin: t.T[0], TMax: t.T[len(t.T)-1]}
 		tc.PMin, tc.PMax = pRange(t.Log10P)
@@ -42,11 +60,10 @@ func tableCoverage(fc forward.Config, ds []*obs.Dataset, lv []float64) *report.C
 			}
 		}
 		nu := t.Wavenumber
-		for i, b := range bins {
-			a, c := 1/b.hi, 1/b.lo // the bin in wavenumber
+		classify(tc, func(lo, hi float64) (bool, bool) {
+			a, c := 1/hi, 1/lo // the bin in wavenumber
 			if !obs.Inside(a, c, nu[0], nu[n-1]) {
-				tc.Missing = append(tc.Missing, report.Bin(b.lo, b.hi, b.where))
-				continue
+				return false, false
 			}
 			// The table points inside the bin and the two around it (the
 			// interpolation reaches them).
@@ -57,17 +74,8 @@ func tableCoverage(fc forward.Config, ds []*obs.Dataset, lv []float64) *report.C
 			for k1 > 0 && nu[k1-1] > c {
 				k1--
 			}
-			any := false
-			for k := k0; k <= k1; k++ {
-				any = any || nonzero[k]
-			}
-			if any {
-				lines[i] = true
-			} else {
-				tc.Zero = append(tc.Zero, report.Bin(b.lo, b.hi, b.where))
-			}
-		}
-		cov.Tables = append(cov.Tables, tc)
+			return true, slices.Contains(nonzero[k0:k1+1], true)
+		})
 	}
 	for _, t := range fc.KTables {
 		tc := report.TableCoverage{Table: t.Gas + " k-table", Gas: t.Gas, Lines: true, Bins: len(bins), TMin: t.T[0], TMax: t.T[len(t.T)-1]}
@@ -76,29 +84,20 @@ func tableCoverage(fc forward.Config, ds []*obs.Dataset, lv []float64) *report.C
 		nonzero := make([]bool, nb)
 		for r := 0; r < len(t.K); r += nb * ng {
 			for b := range nb {
-				for _, v := range t.K[r+b*ng : r+(b+1)*ng] {
-					nonzero[b] = nonzero[b] || v != 0
-				}
+				nonzero[b] = nonzero[b] || slices.ContainsFunc(t.K[r+b*ng:r+(b+1)*ng], func(v float32) bool { return v != 0 })
 			}
 		}
-		for i, b := range bins {
-			if !obs.Inside(b.lo, b.hi, t.Lo[0], t.Hi[nb-1]) {
-				tc.Missing = append(tc.Missing, report.Bin(b.lo, b.hi, b.where))
-				continue
+		classify(tc, func(lo, hi float64) (bool, bool) {
+			if !obs.Inside(lo, hi, t.Lo[0], t.Hi[nb-1]) {
+				return false, false
 			}
-			any := false
 			for k := range nb {
-				if t.Hi[k] > b.lo && t.Lo[k] < b.hi {
-					any = any || nonzero[k]
+				if t.Hi[k] > lo && t.Lo[k] < hi && nonzero[k] {
+					return true, true
 				}
 			}
-			if any {
-				lines[i] = true
-			} else {
-				tc.Zero = append(tc.Zero, report.Bin(b.lo, b.hi, b.where))
-			}
-		}
-		cov.Tables = append(cov.Tables, tc)
+			return true, false
+		})
 	}
 	for _, t := range fc.CIA {
 		name := t.Pair[0] + "-" + t.Pair[1] + " CIA"
