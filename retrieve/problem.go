@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"strings"
 	"sync"
 	"sync/atomic"
@@ -14,6 +15,7 @@ import (
 	"chord/forward/opacity"
 	"chord/forward/opacity/lbl"
 	"chord/priors"
+	"chord/report"
 	"chord/sampler"
 )
 
@@ -63,9 +65,10 @@ type Problem struct {
 	clrN   int
 	clrGas []int
 
+	cover *report.Coverage // what the opacity tables cover
+
 	counts [numReasons]atomic.Int64
 	evals  atomic.Int64
-	clamp  atomic.Int64
 
 	initOnce sync.Once
 	initMu   sync.Mutex
@@ -146,12 +149,17 @@ func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
-	if fc.Wavelength != nil { // a model grid (point cross-sections): bins need points on it
-		for _, d := range r.Datasets {
-			if err := d.CheckCoverage(fc.Wavelength, fc.MinBinPoints); err != nil {
+	// The data sets checked against the model grid, which moves edges equal
+	// to the grid's ends up to rounding onto them; fc.Bins follows.
+	bins.Lo, bins.Hi = bins.Lo[:0], bins.Hi[:0]
+	for _, d := range r.Datasets {
+		if len(fc.Wavelength) > 0 {
+			if err := d.Cover(fc.Wavelength, fc.MinBinPoints); err != nil {
 				return nil, err
 			}
 		}
+		bins.Lo = append(bins.Lo, d.Lo...)
+		bins.Hi = append(bins.Hi, d.Hi...)
 	}
 	if err := checkOpacity(r, fc); err != nil {
 		return nil, err
@@ -165,7 +173,8 @@ func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
-	p := &Problem{model: m, res: r, base: base, gasIndex: map[string]int{}, nDS: len(r.Datasets), notes: notes}
+	p := &Problem{model: m, res: r, base: base, gasIndex: map[string]int{}, nDS: len(r.Datasets), notes: notes,
+		cover: tableCoverage(fc, r.Datasets, m.LevelPressures())}
 	for i, g := range m.Gases() {
 		p.gasIndex[g] = i
 	}
@@ -312,10 +321,8 @@ func (p *Problem) Rejections() []Rejection {
 	return out
 }
 
-// Evaluations returns the number of posterior evaluations so far, and
-// how many of them used opacity tables outside their (P, T) grid (edge
-// values used; see opacity.XSecTable).
-func (p *Problem) Evaluations() (total, clamped int64) { return p.evals.Load(), p.clamp.Load() }
+// Evaluations returns the number of posterior evaluations so far.
+func (p *Problem) Evaluations() int64 { return p.evals.Load() }
 
 // PosteriorEvaluator evaluates the posterior for one goroutine.
 type PosteriorEvaluator struct {
@@ -440,9 +447,6 @@ func (e *PosteriorEvaluator) LogProb(x, extra []float64) float64 {
 	if err != nil {
 		return e.reject(reasonOf(err), extra)
 	}
-	if e.count && e.ws.Clamped {
-		p.clamp.Add(1)
-	}
 	extra[0], extra[1], extra[2], extra[3] = ll, e.ws.MeanMolecularWeight, fill, chi2
 	return lp + ll
 }
@@ -450,6 +454,17 @@ func (e *PosteriorEvaluator) LogProb(x, extra []float64) float64 {
 // evaluate sets the state from x, runs the forward model and returns the
 // log-likelihood, chi-square and fill-gas mixing ratio.
 func (e *PosteriorEvaluator) evaluate(x []float64) (ll, chi2, fill float64, err error) {
+	fill = e.setState(x)
+	if err := e.p.model.Transit(e.spec, &e.state, e.ws); err != nil {
+		return 0, 0, 0, err
+	}
+	ll, chi2 = e.p.logLikelihood(e.spec, e.off, e.s2)
+	return ll, chi2, fill, nil
+}
+
+// setState sets the evaluator's state, offsets and inflation variances
+// from x and returns the fill gas's mixing ratio.
+func (e *PosteriorEvaluator) setState(x []float64) (fill float64) {
 	p := e.p
 	s := &e.state
 	s.CloudTop, s.CloudFraction, s.HazeFactor, s.HazeSlope = p.base.CloudTop, p.base.CloudFraction, p.base.HazeFactor, p.base.HazeSlope
@@ -477,11 +492,21 @@ func (e *PosteriorEvaluator) evaluate(x []float64) (ll, chi2, fill float64, err 
 	for _, v := range s.VMR {
 		fill -= v
 	}
-	if err := p.model.Transit(e.spec, s, e.ws); err != nil {
-		return 0, 0, 0, err
+	return fill
+}
+
+// TemperatureRange returns the coldest and hottest level temperature (K)
+// of the model atmosphere at x, without running the forward model.
+func (e *PosteriorEvaluator) TemperatureRange(x []float64) (lo, hi float64, err error) {
+	e.setState(x)
+	p := e.p.model.LevelPressures()
+	t := make([]float64, len(p))
+	s := &e.state
+	g := forward.Gravitation * s.Mass / (s.RefRadius * s.RefRadius)
+	if err := s.Profile.TemperatureTo(t, p, g); err != nil {
+		return 0, 0, err
 	}
-	ll, chi2 = p.logLikelihood(e.spec, e.off, e.s2)
-	return ll, chi2, fill, nil
+	return slices.Min(t), slices.Max(t), nil
 }
 
 // logLikelihood returns the Gaussian log-likelihood of the model depths m
