@@ -2,15 +2,9 @@ package report
 
 import (
 	"bufio"
-	"errors"
 	"fmt"
 	"io"
-	"math"
 	"strconv"
-
-	"gonum.org/v1/plot"
-	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/vg"
 
 	"chord/forward"
 	"chord/internal/version"
@@ -51,33 +45,29 @@ func (s *ModelSpectrum) WriteCSV(w io.Writer) error {
 	return bw.Flush()
 }
 
-// Plot draws the spectrum to path as PNG on a logarithmic wavelength axis,
-// bins as steps.
+// Plot draws the spectrum to base.png and base.svg (a .png or .svg
+// extension of path is dropped), bins as steps.
 func (s *ModelSpectrum) Plot(path string) error {
-	p := spectrumPlot(s.Title, s.Demo)
-	p.X.Scale = plot.LogScale{}
-	p.X.Tick.Marker = plot.LogTicks{Prec: -1}
-	pts := make(plotter.XYs, 0, 2*len(s.Depth))
-	for i := range s.Depth {
-		if s.Lo != nil { // bins as steps
-			pts = append(pts, plotter.XY{X: s.Lo[i] / forward.Micron, Y: s.Depth[i] * 1e6}, plotter.XY{X: s.Hi[i] / forward.Micron, Y: s.Depth[i] * 1e6})
-			continue
-		}
-		pts = append(pts, plotter.XY{X: s.Wavelength[i] / forward.Micron, Y: s.Depth[i] * 1e6})
+	return PlotGases(path, &GasesPlot{Title: s.Title, Demo: s.Demo, Wavelength: um(s.Wavelength), Lo: um(s.Lo), Hi: um(s.Hi), Full: ppm(s.Depth)})
+}
+
+// um converts metres to micrometres (nil stays nil).
+func um(m []float64) []float64 {
+	if m == nil {
+		return nil
 	}
-	for _, q := range pts {
-		if math.IsNaN(q.Y) || math.IsInf(q.Y, 0) {
-			return errors.New("spectrum plot: depth is not finite")
-		}
+	out := make([]float64, len(m))
+	for i, v := range m {
+		out[i] = v / forward.Micron
 	}
-	l, err := plotter.NewLine(pts)
-	if err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
+	return out
+}
+
+// ppm converts fractions to parts per million.
+func ppm(f []float64) []float64 {
+	out := make([]float64, len(f))
+	for i, v := range f {
+		out[i] = v * 1e6
 	}
-	l.Width = vg.Points(1)
-	p.Add(l)
-	if err := saveSpectrum(p, path); err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
-	}
-	return nil
+	return out
 }

@@ -1,24 +1,20 @@
 package report
 
 import (
-	"bytes"
 	"fmt"
 	"image/color"
-	"io"
 	"math"
 	"slices"
 	"sort"
 	"strconv"
 
 	"chord/chains"
-	"chord/internal/atomicfile"
 
 	"gonum.org/v1/gonum/stat"
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
-	"gonum.org/v1/plot/vg/vgimg"
 )
 
 // Plots of a run: corner.png and spectrum.png, drawn with gonum.org/v1/plot.
@@ -31,13 +27,6 @@ var (
 	mass2Sigma2D = 1 - math.Exp(-2)
 )
 
-// Band quantiles of the spectrum plot: the central 68.27% and 95.45% of the
-// model depths in each bin (1 and 2 sigma of a normal distribution).
-const (
-	band1Lo, band1Hi = 0.158655, 0.841345
-	band2Lo, band2Hi = 0.02275, 0.97725
-)
-
 const (
 	cornerBins   = 30     // histogram bins per axis
 	cornerPanel  = 2.2    // panel size, inches
@@ -45,18 +34,30 @@ const (
 )
 
 var (
-	colorBlue  = color.RGBA{R: 31, G: 90, B: 160, A: 255}
-	colorBand1 = color.NRGBA{R: 31, G: 90, B: 160, A: 110}
-	colorBand2 = color.NRGBA{R: 31, G: 90, B: 160, A: 50}
-	colorGrey  = color.Gray{Y: 150}
+	colorBlue = color.RGBA{R: 31, G: 90, B: 160, A: 255}
+	colorGrey = color.Gray{Y: 150}
 )
 
-// PlotCorner draws the corner plot of the named columns of c (every column
-// of role parameter when names is nil) to path: 1-D marginal histograms
-// with the 16th, 50th and 84th percentiles marked, and 2-D histograms with
-// the contours enclosing 39.3% and 86.5% of the samples (1 and 2 sigma in
-// two dimensions). thin keeps every thin-th step.
-func PlotCorner(path string, c *chains.Chain, names []string, thin int, demo bool) error {
+// CornerOptions configures PlotCorner.
+type CornerOptions struct {
+	// Names are the columns drawn; nil means every column of role
+	// parameter.
+	Names []string
+	Thin  int // keep every Thin-th step; 0 means 1
+	Demo  bool
+	// Truth gives true values by column name (demo, simulations); a column
+	// without one has no truth line.
+	Truth map[string]float64
+}
+
+// PlotCorner draws the corner plot of the columns of c to base.png and
+// base.svg: 1-D marginal histograms with the median and the 68% interval
+// marked and written above each, and 2-D histograms with the contours
+// enclosing 39.3% and 86.5% of the samples (1 and 2 sigma in two
+// dimensions), with the true values when known. A parameter has the same
+// axis range in every panel where it appears.
+func PlotCorner(base string, c *chains.Chain, opt CornerOptions) error {
+	names := opt.Names
 	if names == nil {
 		for _, col := range c.Columns {
 			if col.Role == chains.RoleParameter {
@@ -67,31 +68,38 @@ func PlotCorner(path string, c *chains.Chain, names []string, thin int, demo boo
 	if len(names) == 0 {
 		return fmt.Errorf("corner plot: no parameters")
 	}
-	if thin < 1 {
-		thin = 1
-	}
+	thin := max(opt.Thin, 1)
 	n := len(names)
 	data := make([][]float64, n)
 	labels := make([]string, n)
+	truth := make([]float64, n)
 	for i, name := range names {
 		v := c.Column(name)
 		if v == nil {
 			return fmt.Errorf("corner plot: no column %q in the chains", name)
 		}
-		labels[i] = name
 		for _, col := range c.Columns {
-			if col.Name == name && col.Unit != "" {
-				labels[i] += " [" + col.Unit + "]"
+			if col.Name == name {
+				labels[i] = paramLabel(col)
 			}
 		}
 		data[i] = thinSamples(c, v, thin)
+		truth[i] = math.NaN()
+		if t, ok := opt.Truth[name]; ok {
+			truth[i] = t
+		}
 	}
 	lo, hi := make([]float64, n), make([]float64, n)
+	med, q16, q84 := make([]float64, n), make([]float64, n), make([]float64, n)
 	for i, x := range data {
 		s := slices.Clone(x)
 		slices.Sort(s)
-		lo[i] = stat.Quantile(0.002, stat.Empirical, s, nil)
-		hi[i] = stat.Quantile(0.998, stat.Empirical, s, nil)
+		q := func(p float64) float64 { return stat.Quantile(p, stat.Empirical, s, nil) }
+		med[i], q16[i], q84[i] = q(0.5), q(0.16), q(0.84)
+		lo[i], hi[i] = q(0.002), q(0.998)
+		if !math.IsNaN(truth[i]) {
+			lo[i], hi[i] = math.Min(lo[i], truth[i]), math.Max(hi[i], truth[i])
+		}
 		if !(hi[i] > lo[i]) {
 			lo[i], hi[i] = lo[i]-0.5-math.Abs(lo[i])*1e-3, hi[i]+0.5+math.Abs(hi[i])*1e-3
 		}
@@ -106,14 +114,21 @@ func PlotCorner(path string, c *chains.Chain, names []string, thin int, demo boo
 			p := plot.New()
 			var err error
 			if row == col {
-				err = marginalPanel(p, data[col], lo[col], hi[col])
+				err = marginalPanel(p, data[col], lo[col], hi[col], [3]float64{q16[col], med[col], q84[col]}, truth[col])
+				p.Title.Text = labels[col] + "\n" + intervalText(med[col], q16[col], q84[col])
+				p.Title.TextStyle.Font.Size = vg.Points(9)
 			} else {
-				err = jointPanel(p, data[col], data[row], lo[col], hi[col], lo[row], hi[row])
+				err = jointPanel(p, data[col], data[row], lo[col], hi[col], lo[row], hi[row], truth[col], truth[row])
 			}
 			if err != nil {
 				return fmt.Errorf("corner plot %s/%s: %w", names[col], names[row], err)
 			}
+			// The same range for a parameter in every panel, set after the
+			// plotters (which widen the axes to their data) were added.
 			p.X.Min, p.X.Max = lo[col], hi[col]
+			if row != col {
+				p.Y.Min, p.Y.Max = lo[row], hi[row]
+			}
 			p.X.Tick.Marker, p.Y.Tick.Marker = exactTicks{}, exactTicks{}
 			if row == n-1 {
 				p.X.Label.Text = labels[col]
@@ -125,58 +140,26 @@ func PlotCorner(path string, c *chains.Chain, names []string, thin int, demo boo
 			} else {
 				p.Y.Tick.Label.Color = color.Transparent
 			}
-			if row == 0 && col == 0 && demo {
-				p.Title.Text = "demo opacities: not for science"
-			}
 			plots[row][col] = p
 		}
 	}
 	size := vg.Length(n) * cornerPanel * vg.Inch
-	img := vgimg.New(size+0.6*vg.Inch, size+0.6*vg.Inch)
-	dc := draw.New(img)
-	tiles := draw.Tiles{Rows: n, Cols: n, PadX: vg.Millimeter, PadY: vg.Millimeter, PadTop: 2 * vg.Millimeter, PadRight: 4 * vg.Millimeter, PadLeft: 2 * vg.Millimeter, PadBottom: 2 * vg.Millimeter}
-	canvases := plot.Align(plots, tiles, dc)
-	for row := range n {
-		for col := 0; col <= row; col++ {
-			plots[row][col].Draw(canvases[row][col])
+	margin := 0.9 * vg.Inch
+	return figure{w: size + margin, h: size + margin, draw: func(dc draw.Canvas) error {
+		if opt.Demo {
+			// The demo label at the top right, where the corner leaves room.
+			dc.FillText(draw.TextStyle{Color: colorTruth, Font: plot.DefaultFont, Handler: plot.DefaultTextHandler, XAlign: draw.XRight, YAlign: draw.YTop},
+				vg.Point{X: dc.Max.X - vg.Points(6), Y: dc.Max.Y - vg.Points(6)}, "demo opacities: not for science")
 		}
-	}
-	if err := writePNG(path, vgimg.PngCanvas{Canvas: img}); err != nil {
-		return fmt.Errorf("corner plot: %w", err)
-	}
-	return nil
-}
-
-// writePNG renders img into path atomically (atomicfile).
-func writePNG(path string, img io.WriterTo) error {
-	var buf bytes.Buffer
-	if _, err := img.WriteTo(&buf); err != nil {
-		return err
-	}
-	return atomicfile.Write(path, buf.Bytes(), true)
-}
-
-// spectrumPlot is the frame of a spectrum plot: the title (marked when the
-// opacities are the demo's), wavelength in um and transit depth in ppm.
-func spectrumPlot(title string, demo bool) *plot.Plot {
-	p := plot.New()
-	p.Title.Text = title
-	if demo {
-		p.Title.Text += " (demo opacities: not for science)"
-	}
-	p.X.Label.Text = "wavelength [um]"
-	p.Y.Label.Text = "transit depth [ppm]"
-	return p
-}
-
-// saveSpectrum writes a spectrum plot as a 9 x 5 inch PNG to path.
-func saveSpectrum(p *plot.Plot, path string) error {
-	p.Add(plotter.NewGrid())
-	wt, err := p.WriterTo(9*vg.Inch, 5*vg.Inch, "png")
-	if err != nil {
-		return err
-	}
-	return writePNG(path, wt)
+		tiles := draw.Tiles{Rows: n, Cols: n, PadX: vg.Millimeter, PadY: 2 * vg.Millimeter, PadTop: 2 * vg.Millimeter, PadRight: 4 * vg.Millimeter, PadLeft: 2 * vg.Millimeter, PadBottom: 2 * vg.Millimeter}
+		canvases := plot.Align(plots, tiles, dc)
+		for row := range n {
+			for col := 0; col <= row; col++ {
+				plots[row][col].Draw(canvases[row][col])
+			}
+		}
+		return nil
+	}}.save(pathBase(base))
 }
 
 // thinSamples keeps every thin-th step of v and thins further, evenly, to
@@ -199,7 +182,7 @@ func thinSamples(c *chains.Chain, v []float64, thin int) []float64 {
 	return out
 }
 
-func marginalPanel(p *plot.Plot, x []float64, lo, hi float64) error {
+func marginalPanel(p *plot.Plot, x []float64, lo, hi float64, q [3]float64, truth float64) error {
 	counts := make([]float64, cornerBins)
 	w := (hi - lo) / cornerBins
 	for _, v := range x {
@@ -220,19 +203,24 @@ func marginalPanel(p *plot.Plot, x []float64, lo, hi float64) error {
 	}
 	l.Color = colorBlue
 	p.Add(l)
-	s := slices.Clone(x)
-	slices.Sort(s)
-	for _, q := range []float64{0.16, 0.5, 0.84} {
-		v := stat.Quantile(q, stat.Empirical, s, nil)
+	for k, v := range q {
 		ql, err := plotter.NewLine(plotter.XYs{{X: v, Y: 0}, {X: v, Y: 1.05 * top}})
 		if err != nil {
 			return err
 		}
 		ql.Color = color.Black
-		if q != 0.5 {
+		if k != 1 {
 			ql.Dashes = []vg.Length{vg.Points(3), vg.Points(2)}
 		}
 		p.Add(ql)
+	}
+	if !math.IsNaN(truth) {
+		tl, err := plotter.NewLine(plotter.XYs{{X: truth, Y: 0}, {X: truth, Y: 1.05 * top}})
+		if err != nil {
+			return err
+		}
+		tl.Color, tl.Width = colorTruth, vg.Points(1.2)
+		p.Add(tl)
 	}
 	p.Y.Min, p.Y.Max = 0, 1.1*top
 	return nil
@@ -268,7 +256,7 @@ func (g *density2D) massLevel(m float64) float64 {
 	return s[len(s)-1]
 }
 
-func jointPanel(p *plot.Plot, x, y []float64, xlo, xhi, ylo, yhi float64) error {
+func jointPanel(p *plot.Plot, x, y []float64, xlo, xhi, ylo, yhi, tx, ty float64) error {
 	n := cornerBins
 	g := &density2D{n: n, x0: xlo, dx: (xhi - xlo) / float64(n), y0: ylo, dy: (yhi - ylo) / float64(n)}
 	raw := make([]float64, n*n)
@@ -318,112 +306,15 @@ func jointPanel(p *plot.Plot, x, y []float64, xlo, xhi, ylo, yhi float64) error 
 		}
 		p.Add(ct)
 	}
-	p.Y.Min, p.Y.Max = ylo, yhi
-	return nil
-}
-
-// SpectrumPlot is the content of spectrum.png.
-type SpectrumPlot struct {
-	Wavelength []float64   // bin centres, um
-	HalfWidth  []float64   // bin half widths, um
-	Depth      []float64   // observed transit depth, ppm
-	Error      []float64   // its 1-sigma error, ppm
-	Models     [][]float64 // model depths at the bins, ppm, one per posterior sample
-	Title      string
-	Demo       bool
-}
-
-// PlotSpectrum draws the data with error bars, the median model and the 1
-// and 2 sigma bands of the posterior models to path.
-func PlotSpectrum(path string, s *SpectrumPlot) error {
-	nb := len(s.Wavelength)
-	if nb == 0 || len(s.Depth) != nb || len(s.Error) != nb || len(s.HalfWidth) != nb {
-		return fmt.Errorf("spectrum plot: %d wavelengths, %d half widths, %d depths, %d errors", nb, len(s.HalfWidth), len(s.Depth), len(s.Error))
-	}
-	order := make([]int, nb)
-	for i := range order {
-		order[i] = i
-	}
-	sort.SliceStable(order, func(a, b int) bool { return s.Wavelength[order[a]] < s.Wavelength[order[b]] })
-
-	p := spectrumPlot(s.Title, s.Demo)
-	if len(s.Models) > 0 {
-		q := func(lo, hi float64) (plotter.XYs, plotter.XYs) {
-			a, b := make(plotter.XYs, nb), make(plotter.XYs, nb)
-			col := make([]float64, len(s.Models))
-			for i, j := range order {
-				for m, mod := range s.Models {
-					col[m] = mod[j]
-				}
-				slices.Sort(col)
-				a[i] = plotter.XY{X: s.Wavelength[j], Y: stat.Quantile(lo, stat.Empirical, col, nil)}
-				b[i] = plotter.XY{X: s.Wavelength[j], Y: stat.Quantile(hi, stat.Empirical, col, nil)}
-			}
-			return a, b
-		}
-		for _, band := range []struct {
-			lo, hi float64
-			c      color.Color
-		}{{band2Lo, band2Hi, colorBand2}, {band1Lo, band1Hi, colorBand1}} {
-			a, b := q(band.lo, band.hi)
-			slices.Reverse(b)
-			poly, err := plotter.NewPolygon(append(a, b...))
-			if err != nil {
-				return fmt.Errorf("spectrum plot: %w", err)
-			}
-			poly.Color = band.c
-			poly.LineStyle.Width = 0
-			p.Add(poly)
-		}
-		med, _ := q(0.5, 0.5)
-		l, err := plotter.NewLine(med)
+	if !math.IsNaN(tx) && !math.IsNaN(ty) {
+		tp, err := plotter.NewScatter(plotter.XYs{{X: tx, Y: ty}})
 		if err != nil {
-			return fmt.Errorf("spectrum plot: %w", err)
+			return err
 		}
-		l.Color = colorBlue
-		l.Width = vg.Points(1.3)
-		p.Add(l)
-		p.Legend.Add("median model", l)
-	}
-	pts := make(errPoints, nb)
-	for i, j := range order {
-		pts[i] = errPoint{X: s.Wavelength[j], Y: s.Depth[j], XErr: s.HalfWidth[j], YErr: s.Error[j]}
-	}
-	yb, err := plotter.NewYErrorBars(pts)
-	if err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
-	}
-	xb, err := plotter.NewXErrorBars(pts)
-	if err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
-	}
-	sc, err := plotter.NewScatter(pts)
-	if err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
-	}
-	sc.GlyphStyle.Radius = vg.Points(1.5)
-	p.Add(yb, xb, sc)
-	p.Legend.Add("data", sc)
-	p.Legend.Top = true
-	p.Legend.Left = true
-	if err := saveSpectrum(p, path); err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
+		tp.GlyphStyle = draw.GlyphStyle{Color: colorTruth, Radius: vg.Points(5), Shape: draw.CrossGlyph{}}
+		p.Add(tp)
 	}
 	return nil
-}
-
-// errPoint is a data point with x and y errors.
-type errPoint struct{ X, Y, XErr, YErr float64 }
-
-type errPoints []errPoint
-
-func (e errPoints) Len() int                    { return len(e) }
-func (e errPoints) XY(i int) (float64, float64) { return e[i].X, e[i].Y }
-func (e errPoints) XError(i int) (float64, float64) {
-	return e[i].XErr, e[i].XErr
-}
-func (e errPoints) YError(i int) (float64, float64) {
-	return e[i].YErr, e[i].YErr
 }
 
 // exactTicks are gonum/plot's default ticks with labels given as many

@@ -1,10 +1,7 @@
 package report
 
 import (
-	"image/png"
 	"math"
-	"math/rand/v2"
-	"os"
 	"path/filepath"
 	"testing"
 )
@@ -27,56 +24,12 @@ func TestCornerContourMass(t *testing.T) {
 	}
 }
 
-func TestPlots(t *testing.T) {
-	dir := t.TempDir()
+func TestPlotCornerErrors(t *testing.T) {
 	c := syntheticChains(16, 200, -1, 3)
-	corner := filepath.Join(dir, "corner.png")
-	if err := PlotCorner(corner, c, nil, 2, true); err != nil {
-		t.Fatal(err)
-	}
-	rng := rand.New(rand.NewPCG(5, 6))
-	s := &SpectrumPlot{Title: "test", Demo: true}
-	for i := 0; i < 40; i++ {
-		wl := 0.8 + 0.1*float64(i)
-		s.Wavelength = append(s.Wavelength, wl)
-		s.HalfWidth = append(s.HalfWidth, 0.05)
-		s.Depth = append(s.Depth, 2000+30*math.Sin(3*wl)+20*rng.NormFloat64())
-		s.Error = append(s.Error, 20)
-	}
-	for m := 0; m < 100; m++ {
-		mod := make([]float64, 40)
-		a := 30 + 5*rng.NormFloat64()
-		for i := range mod {
-			mod[i] = 2000 + a*math.Sin(3*s.Wavelength[i])
-		}
-		s.Models = append(s.Models, mod)
-	}
-	spec := filepath.Join(dir, "spectrum.png")
-	if err := PlotSpectrum(spec, s); err != nil {
-		t.Fatal(err)
-	}
-	for _, path := range []string{corner, spec} {
-		f, err := os.Open(path)
-		if err != nil {
-			t.Fatal(err)
-		}
-		img, err := png.Decode(f)
-		f.Close()
-		if err != nil {
-			t.Fatalf("%s: %v", path, err)
-		}
-		if b := img.Bounds(); b.Dx() < 300 || b.Dy() < 300 {
-			t.Errorf("%s: %v", path, b)
-		}
-	}
-	if os.Getenv("CHORD_KEEP_PLOTS") != "" {
-		os.Rename(corner, os.Getenv("CHORD_KEEP_PLOTS")+"/corner.png")
-		os.Rename(spec, os.Getenv("CHORD_KEEP_PLOTS")+"/spectrum.png")
-	}
-	if err := PlotCorner(corner, c, []string{"nope"}, 1, false); err == nil {
+	if err := PlotCorner(filepath.Join(t.TempDir(), "corner"), c, CornerOptions{Names: []string{"nope"}}); err == nil {
 		t.Error("unknown column: no error")
 	}
-	if err := PlotSpectrum(spec, &SpectrumPlot{Wavelength: []float64{1}}); err == nil {
+	if err := PlotSpectrum(filepath.Join(t.TempDir(), "spectrum"), &SpectrumPlot{Datasets: []PlotDataset{{Wavelength: []float64{1}}}}); err == nil {
 		t.Error("mismatched lengths: no error")
 	}
 }

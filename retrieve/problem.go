@@ -411,6 +411,20 @@ func (e *PosteriorEvaluator) LogProb(x, extra []float64) float64 {
 // evaluate sets the state from x, runs the forward model and returns the
 // log-likelihood, chi-square and fill-gas mixing ratio.
 func (e *PosteriorEvaluator) evaluate(x []float64) (ll, chi2, fill float64, err error) {
+	e.setState(x)
+	fill = 1
+	for _, v := range e.state.VMR {
+		fill -= v
+	}
+	if err := e.p.model.Transit(e.spec, &e.state, e.ws); err != nil {
+		return 0, 0, 0, err
+	}
+	ll, chi2 = e.p.logLikelihood(e.spec, e.off, e.s2)
+	return ll, chi2, fill, nil
+}
+
+// setState sets the evaluator's state, offsets and inflations from x.
+func (e *PosteriorEvaluator) setState(x []float64) {
 	p := e.p
 	s := &e.state
 	s.CloudTop, s.CloudFraction, s.HazeFactor, s.HazeSlope = p.base.CloudTop, p.base.CloudFraction, p.base.HazeFactor, p.base.HazeSlope
@@ -434,15 +448,6 @@ func (e *PosteriorEvaluator) evaluate(x []float64) (ll, chi2, fill float64, err 
 			s.VMR[gi] = e.xvmr[j]
 		}
 	}
-	fill = 1
-	for _, v := range s.VMR {
-		fill -= v
-	}
-	if err := p.model.Transit(e.spec, s, e.ws); err != nil {
-		return 0, 0, 0, err
-	}
-	ll, chi2 = p.logLikelihood(e.spec, e.off, e.s2)
-	return ll, chi2, fill, nil
 }
 
 // logLikelihood returns the Gaussian log-likelihood of the model depths m
@@ -495,6 +500,35 @@ func (e *PosteriorEvaluator) Spectrum(dst, x []float64) error {
 	}
 	for i := range dst {
 		dst[i] = e.spec[i] + e.off[e.p.ds[i]]
+	}
+	return nil
+}
+
+// View fills what a report shows at x: depth (len Model().OutputLen())
+// with the model per bin without offsets, offset and inflation (len the
+// number of data sets) with the data sets' offsets and error inflations
+// (fractions of the stellar disc), and temp with the temperatures (K) at
+// the pressures p (Pa). It returns the forward model's error for a
+// rejected state. A gas named in without (an index in Model().Gases(), or
+// -1 for none) is removed.
+func (e *PosteriorEvaluator) View(depth, offset, inflation, temp, p []float64, x []float64, without int) error {
+	e.setState(x)
+	if without >= 0 {
+		e.state.VMR[without] = 0
+	}
+	if err := e.p.model.Transit(e.spec, &e.state, e.ws); err != nil {
+		return err
+	}
+	copy(depth, e.spec)
+	copy(offset, e.off)
+	for k := range inflation {
+		inflation[k] = math.Sqrt(e.s2[k])
+	}
+	if len(p) > 0 {
+		g := forward.Gravitation * e.state.Mass / (e.state.RefRadius * e.state.RefRadius)
+		if err := e.state.Profile.TemperatureTo(temp, p, g); err != nil {
+			return err
+		}
 	}
 	return nil
 }
