@@ -57,6 +57,103 @@ type CornerOptions struct {
 // dimensions), with the true values when known. A parameter has the same
 // axis range in every panel where it appears.
 func PlotCorner(base string, c *chains.Chain, opt CornerOptions) error {
+	plots, labels, err := cornerPlots(c, opt)
+	if err != nil {
+		return err
+	}
+	n := len(plots)
+	w := vg.Length(n)*cornerPanel*vg.Inch + cornerLeft + cornerRight
+	h := vg.Length(n)*cornerPanel*vg.Inch + cornerBottom + cornerTop
+	return figure{w: w, h: h, draw: func(dc draw.Canvas) error {
+		if opt.Demo {
+			// The demo label at the top right, where the corner leaves room.
+			st := draw.TextStyle{Color: colorTruth, Font: plot.DefaultFont, Handler: plot.DefaultTextHandler, XAlign: draw.XRight, YAlign: draw.YTop}
+			st.Font.Size = vg.Points(14)
+			dc.FillText(st, vg.Point{X: dc.Max.X - vg.Points(10), Y: dc.Max.Y - vg.Points(10)}, "demo opacities: not for science")
+		}
+		canvases := cornerCanvases(plots, dc)
+		for row := range n {
+			for col := 0; col <= row; col++ {
+				plots[row][col].Draw(canvases[row][col])
+			}
+		}
+		// The axis labels in the margins: below the bottom row, and turned
+		// up beside the first column.
+		style := draw.TextStyle{Color: color.Black, Font: plot.DefaultFont, Handler: plot.DefaultTextHandler, XAlign: draw.XCenter}
+		style.Font.Size = vg.Points(11)
+		for col := range n {
+			da := plots[n-1][col].DataCanvas(canvases[n-1][col])
+			st := style
+			st.YAlign = draw.YTop
+			dc.FillText(st, vg.Point{X: (da.Min.X + da.Max.X) / 2, Y: da.Min.Y - vg.Points(24)}, labels[col])
+		}
+		for row := 1; row < n; row++ {
+			da := plots[row][0].DataCanvas(canvases[row][0])
+			st := style
+			st.Rotation = math.Pi / 2
+			st.YAlign = draw.YTop
+			dc.FillText(st, vg.Point{X: dc.Min.X + vg.Points(6), Y: (da.Min.Y + da.Max.Y) / 2}, labels[row])
+		}
+		return nil
+	}}.save(pathBase(base))
+}
+
+// Margins of the corner plot: room for the tick labels and axis labels at
+// the left and bottom, the diagonal panels' two-line titles above each row.
+const (
+	cornerLeft   = 0.85 * vg.Inch
+	cornerBottom = 0.7 * vg.Inch
+	cornerTop    = 0.6 * vg.Inch
+	cornerRight  = 0.15 * vg.Inch
+	cornerGapX   = 0.22 * vg.Inch
+	cornerGapY   = 0.42 * vg.Inch
+)
+
+// cornerCanvases lays the corner plot's panels out on dc so that every
+// panel's data area is one cell of a regular grid: a parameter then sits
+// at one place across a row and down a column. (plot.Align aligns only
+// approximately: gonum/plot pads each panel by what its glyphs and labels
+// need, so panels whose samples crowd an edge, such as a cloud top piled
+// at its prior edge, came out shifted against their row, the bug of
+// issue 15.)
+func cornerCanvases(plots [][]*plot.Plot, dc draw.Canvas) [][]draw.Canvas {
+	n := len(plots)
+	w := (dc.Max.X - dc.Min.X - cornerLeft - cornerRight - vg.Length(n-1)*cornerGapX) / vg.Length(n)
+	h := (dc.Max.Y - dc.Min.Y - cornerBottom - cornerTop - vg.Length(n-1)*cornerGapY) / vg.Length(n)
+	out := make([][]draw.Canvas, n)
+	for row := range n {
+		out[row] = make([]draw.Canvas, n)
+		for col := 0; col <= row; col++ {
+			x0 := dc.Min.X + cornerLeft + vg.Length(col)*(w+cornerGapX)
+			y0 := dc.Min.Y + cornerBottom + vg.Length(n-1-row)*(h+cornerGapY)
+			target := vg.Rectangle{Min: vg.Point{X: x0, Y: y0}, Max: vg.Point{X: x0 + w, Y: y0 + h}}
+			out[row][col] = fitDataArea(plots[row][col], target, dc)
+		}
+	}
+	return out
+}
+
+// fitDataArea returns the canvas on which p draws its data area at target:
+// the padding of the tick marks and labels is found by trying (it depends
+// on the canvas only through the labels' normalised positions, so a round
+// or two settle it). The panels carry no axis labels, which gonum/plot
+// would pad for as well: PlotCorner writes them in the margins.
+func fitDataArea(p *plot.Plot, target vg.Rectangle, dc draw.Canvas) draw.Canvas {
+	c := dc
+	c.Rectangle = target
+	for range 6 {
+		d := p.DataCanvas(c)
+		c.Min.X += target.Min.X - d.Min.X
+		c.Min.Y += target.Min.Y - d.Min.Y
+		c.Max.X += target.Max.X - d.Max.X
+		c.Max.Y += target.Max.Y - d.Max.Y
+	}
+	return c
+}
+
+// cornerPlots builds the panels of the corner plot, row by row (panels
+// above the diagonal are nil), and the parameters' labels.
+func cornerPlots(c *chains.Chain, opt CornerOptions) ([][]*plot.Plot, []string, error) {
 	names := opt.Names
 	if names == nil {
 		for _, col := range c.Columns {
@@ -66,7 +163,7 @@ func PlotCorner(base string, c *chains.Chain, opt CornerOptions) error {
 		}
 	}
 	if len(names) == 0 {
-		return fmt.Errorf("corner plot: no parameters")
+		return nil, nil, fmt.Errorf("corner plot: no parameters")
 	}
 	thin := max(opt.Thin, 1)
 	n := len(names)
@@ -76,7 +173,7 @@ func PlotCorner(base string, c *chains.Chain, opt CornerOptions) error {
 	for i, name := range names {
 		v := c.Column(name)
 		if v == nil {
-			return fmt.Errorf("corner plot: no column %q in the chains", name)
+			return nil, nil, fmt.Errorf("corner plot: no column %q in the chains", name)
 		}
 		for _, col := range c.Columns {
 			if col.Name == name {
@@ -121,7 +218,7 @@ func PlotCorner(base string, c *chains.Chain, opt CornerOptions) error {
 				err = jointPanel(p, data[col], data[row], lo[col], hi[col], lo[row], hi[row], truth[col], truth[row])
 			}
 			if err != nil {
-				return fmt.Errorf("corner plot %s/%s: %w", names[col], names[row], err)
+				return nil, nil, fmt.Errorf("corner plot %s/%s: %w", names[col], names[row], err)
 			}
 			// The same range for a parameter in every panel, set after the
 			// plotters (which widen the axes to their data) were added.
@@ -129,37 +226,20 @@ func PlotCorner(base string, c *chains.Chain, opt CornerOptions) error {
 			if row != col {
 				p.Y.Min, p.Y.Max = lo[row], hi[row]
 			}
-			p.X.Tick.Marker, p.Y.Tick.Marker = exactTicks{}, exactTicks{}
-			if row == n-1 {
-				p.X.Label.Text = labels[col]
-			} else {
-				p.X.Tick.Label.Color = color.Transparent
+			p.X.Tick.Marker, p.Y.Tick.Marker = innerTicks{}, innerTicks{}
+			if row != n-1 {
+				p.X.Tick.Marker = unlabelled{p.X.Tick.Marker}
 			}
-			if col == 0 && row > 0 {
-				p.Y.Label.Text = labels[row]
-			} else {
-				p.Y.Tick.Label.Color = color.Transparent
+			if col != 0 || row == 0 {
+				p.Y.Tick.Marker = unlabelled{p.Y.Tick.Marker}
 			}
+			// No background: each panel's canvas reaches under its
+			// neighbours' tick labels, which a white fill would cover.
+			p.BackgroundColor = nil
 			plots[row][col] = p
 		}
 	}
-	size := vg.Length(n) * cornerPanel * vg.Inch
-	margin := 0.9 * vg.Inch
-	return figure{w: size + margin, h: size + margin, draw: func(dc draw.Canvas) error {
-		if opt.Demo {
-			// The demo label at the top right, where the corner leaves room.
-			dc.FillText(draw.TextStyle{Color: colorTruth, Font: plot.DefaultFont, Handler: plot.DefaultTextHandler, XAlign: draw.XRight, YAlign: draw.YTop},
-				vg.Point{X: dc.Max.X - vg.Points(6), Y: dc.Max.Y - vg.Points(6)}, "demo opacities: not for science")
-		}
-		tiles := draw.Tiles{Rows: n, Cols: n, PadX: vg.Millimeter, PadY: 2 * vg.Millimeter, PadTop: 2 * vg.Millimeter, PadRight: 4 * vg.Millimeter, PadLeft: 2 * vg.Millimeter, PadBottom: 2 * vg.Millimeter}
-		canvases := plot.Align(plots, tiles, dc)
-		for row := range n {
-			for col := 0; col <= row; col++ {
-				plots[row][col].Draw(canvases[row][col])
-			}
-		}
-		return nil
-	}}.save(pathBase(base))
+	return plots, labels, nil
 }
 
 // thinSamples keeps every thin-th step of v and thins further, evenly, to
@@ -225,6 +305,14 @@ func marginalPanel(p *plot.Plot, x []float64, lo, hi float64, q [3]float64, trut
 	p.Y.Min, p.Y.Max = 0, 1.1*top
 	return nil
 }
+
+// noGlyphBoxes hides a plotter's glyph boxes. gonum/plot shrinks a
+// panel's data area so that the glyphs near its edges fit inside, by as
+// much as the glyphs near the edge need: panels of one row of a corner plot
+// whose samples crowd an edge differently (a cloud top piled at its prior
+// edge) then drew the same parameter over different heights, the bug of
+// issue 15. Glyphs at the edge are clipped by half their size instead.
+type noGlyphBoxes struct{ plot.Plotter }
 
 // density2D is a smoothed 2-D histogram, a plotter.GridXYZ.
 type density2D struct {
@@ -296,7 +384,7 @@ func jointPanel(p *plot.Plot, x, y []float64, xlo, xhi, ylo, yhi, tx, ty float64
 	}
 	sc.GlyphStyle.Radius = vg.Points(0.6)
 	sc.GlyphStyle.Color = colorGrey
-	p.Add(sc)
+	p.Add(noGlyphBoxes{sc})
 	l1, l2 := g.massLevel(mass1Sigma2D), g.massLevel(mass2Sigma2D)
 	if l1 > l2 && l2 > 0 {
 		ct := plotter.NewContour(g, []float64{l2, l1}, nil)
@@ -312,9 +400,45 @@ func jointPanel(p *plot.Plot, x, y []float64, xlo, xhi, ylo, yhi, tx, ty float64
 			return err
 		}
 		tp.GlyphStyle = draw.GlyphStyle{Color: colorTruth, Radius: vg.Points(5), Shape: draw.CrossGlyph{}}
-		p.Add(tp)
+		p.Add(noGlyphBoxes{tp})
 	}
 	return nil
+}
+
+// unlabelled keeps a ticker's ticks and drops their labels (a colour of
+// alpha 0 hides them in PNG but not in every SVG viewer).
+type unlabelled struct{ plot.Ticker }
+
+func (u unlabelled) Ticks(min, max float64) []plot.Tick {
+	t := u.Ticker.Ticks(min, max)
+	for i := range t {
+		t[i].Label = ""
+	}
+	return t
+}
+
+// innerTicks are exactTicks without labels in the outer 8% at either end
+// of the axis (3% where that would leave fewer than two), where a corner
+// plot's label would run into the next panel.
+type innerTicks struct{}
+
+func (innerTicks) Ticks(min, max float64) []plot.Tick {
+	for _, frac := range []float64{0.08, 0.03} {
+		ticks := exactTicks{}.Ticks(min, max)
+		edge, n := frac*(max-min), 0
+		for i := range ticks {
+			if v := ticks[i].Value; v < min+edge || v > max-edge {
+				ticks[i].Label = ""
+			}
+			if ticks[i].Label != "" {
+				n++
+			}
+		}
+		if n >= 2 {
+			return ticks
+		}
+	}
+	return exactTicks{}.Ticks(min, max)
 }
 
 // exactTicks are gonum/plot's default ticks with labels given as many

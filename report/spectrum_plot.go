@@ -108,7 +108,7 @@ func PlotSpectrum(base string, s *SpectrumPlot) error {
 	}
 	setWavelengthAxis(top, lo, hi)
 	top.X.Label.Text = ""
-	top.X.Tick.Label.Color = color.Transparent
+	top.X.Tick.Marker = unlabelled{top.X.Tick.Marker}
 	top.Y.Label.Text = "Transit depth [ppm]"
 	top.Y.Tick.Marker = exactTicks{}
 	top.Add(plotter.NewGrid())

@@ -123,7 +123,7 @@ func PlotTraces(base string, c *chains.Chain, burn int, demo bool) error {
 		if r == len(cols)-1 {
 			p.X.Label.Text = "Step"
 		} else {
-			p.X.Tick.Label.Color = color.Transparent
+			p.X.Tick.Marker = unlabelled{p.X.Tick.Marker}
 		}
 		if r == 0 {
 			p.Title.Text = "Walkers against step"
