@@ -51,6 +51,33 @@ func (s *ModelSpectrum) Plot(path string) error {
 	return PlotGases(path, &GasesPlot{Title: s.Title, Demo: s.Demo, Wavelength: um(s.Wavelength), Lo: um(s.Lo), Hi: um(s.Hi), Full: ppm(s.Depth)})
 }
 
+// WithoutEachGas computes the spectrum of state s of model m with each
+// trace gas of the model removed in turn (its mixing ratio set to 0, the
+// fill gas taking its place), in ppm: what chord spectrum --by-gas draws.
+func WithoutEachGas(m *forward.Model, s forward.State) ([]GasCurve, error) {
+	w := m.NewWorkspace()
+	var out []GasCurve
+	vmr := append([]float64(nil), s.VMR...)
+	defer func() { copy(s.VMR, vmr) }()
+	for i, g := range m.Gases() {
+		copy(s.VMR, vmr)
+		s.VMR[i] = 0
+		d := make([]float64, m.OutputLen())
+		if err := m.Transit(d, &s, w); err != nil {
+			return nil, fmt.Errorf("spectrum without %s: %w", g, err)
+		}
+		out = append(out, GasCurve{Gas: g, Depth: ppm(d)})
+	}
+	return out, nil
+}
+
+// PlotByGas draws the spectrum and the spectrum with each gas removed
+// (WithoutEachGas) to base.png and base.svg.
+func (s *ModelSpectrum) PlotByGas(path string, without []GasCurve) error {
+	return PlotGases(path, &GasesPlot{Title: s.Title + ": each gas removed", Demo: s.Demo, Wavelength: um(s.Wavelength), Lo: um(s.Lo), Hi: um(s.Hi),
+		Full: ppm(s.Depth), FullLabel: "all gases", Without: without})
+}
+
 // um converts metres to micrometres (nil stays nil).
 func um(m []float64) []float64 {
 	if m == nil {

@@ -172,6 +172,28 @@ func TestReportFiles(t *testing.T) {
 	if n < 5 {
 		t.Errorf("spectrum.svg: %d of the wavelength labels 0.8, 1, 1.5, 2, 3", n)
 	}
+	// chord compare's overlay of marginal posteriors.
+	c, err := chains.Read(filepath.Join(dir, chains.DirName), parts, 60, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	marg := filepath.Join(dir, "marginals")
+	if err := PlotMarginals(marg, []MarginalRun{{"run-a", c}, {"run-b", c}}, []string{"log10_vmr_H2O", "temperature_k"}); err != nil {
+		t.Fatal(err)
+	}
+	checkPNG(t, marg+".png", 600, 300)
+	svg, err := os.ReadFile(marg + ".svg")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, w := range []string{"run-a", "run-b", "log10 H2O mixing ratio", "Temperature [K]", "posterior density"} {
+		if !strings.Contains(svgText(svg), w) {
+			t.Errorf("marginals.svg lacks %q", w)
+		}
+	}
+	if err := PlotMarginals(marg, []MarginalRun{{"run-a", c}}, []string{"nope"}); err == nil {
+		t.Error("a parameter the run lacks: no error")
+	}
 	if os.Getenv("CHORD_KEEP_PLOTS") != "" {
 		for _, f := range Files() {
 			if b, err := os.ReadFile(filepath.Join(dir, f)); err == nil {

@@ -12,6 +12,7 @@ import (
 
 	"github.com/BurntSushi/toml"
 
+	"chord/chains"
 	"chord/config"
 	"chord/forward"
 	"chord/internal/atomicfile"
@@ -282,4 +283,18 @@ func toPPM(v []float64) {
 	for i := range v {
 		v[i] *= 1e6
 	}
+}
+
+// ReadPosterior reads the chain of the run in dir after the burn-in its
+// summary.json states (the samples behind its intervals).
+func ReadPosterior(dir string) (*chains.Chain, error) {
+	s, err := report.ReadSummary(dir)
+	if err != nil {
+		return nil, err
+	}
+	ck, err := ReadCheckpoint(filepath.Join(dir, CheckpointFile))
+	if err != nil {
+		return nil, err
+	}
+	return chains.Read(filepath.Join(dir, chains.DirName), ck.Parts, s.Burn, 1)
 }

@@ -25,7 +25,8 @@ func spectrumCommand() *cli.Command {
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "model configuration `FILE` (TOML)", Required: true},
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "CSV `FILE` to write (\"-\" for standard output)", Required: true},
-			&cli.StringFlag{Name: "plot", Usage: "also draw the spectrum to `FILE`.png"},
+			&cli.StringFlag{Name: "plot", Usage: "also draw the spectrum to `FILE`.png (and FILE.svg)"},
+			&cli.StringFlag{Name: "by-gas", Usage: "also draw the spectrum with each gas removed in turn to `FILE`.png (and FILE.svg)"},
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		},
 		Action: runSpectrum,
@@ -78,11 +79,25 @@ func runSpectrum(c *cli.Context) error {
 	if err := writeSpectrumCSV(c, c.String("output"), spec); err != nil {
 		return err
 	}
-	if p := c.String("plot"); p != "" {
-		if filepath.Ext(p) != ".png" {
-			return errors.New("spectrum: --plot needs a .png file name")
+	for _, flag := range []string{"plot", "by-gas"} {
+		if p := c.String(flag); p != "" && filepath.Ext(p) != ".png" {
+			return fmt.Errorf("spectrum: --%s %s: name the plot FILE.png (FILE.svg is written beside it)", flag, p)
 		}
+	}
+	if p := c.String("plot"); p != "" {
 		if err := spec.Plot(p); err != nil {
+			return fmt.Errorf("spectrum: %w", err)
+		}
+	}
+	if p := c.String("by-gas"); p != "" {
+		if len(m.Gases()) == 0 {
+			return errors.New("spectrum: --by-gas: the atmosphere has no trace gas to remove ([atmosphere.gases] is empty)")
+		}
+		without, err := report.WithoutEachGas(m, s)
+		if err != nil {
+			return fmt.Errorf("%s: %w", cfgPath, err)
+		}
+		if err := spec.PlotByGas(p, without); err != nil {
 			return fmt.Errorf("spectrum: %w", err)
 		}
 	}
