@@ -118,12 +118,9 @@ func testRun(t *testing.T, dir string) []chains.PartInfo {
 	return w.Committed()
 }
 
-// TestReportFiles writes a whole report of a small run and checks each
-// plot: a PNG of a readable size, and an SVG holding the labels and legend
-// entries a reader needs (fact of the trade: a figure without axis units,
-// band meanings or a legend cannot be read).
-func TestReportFiles(t *testing.T) {
-	dir := t.TempDir()
+// writeTestReport writes the whole report of the test run into dir.
+func writeTestReport(t *testing.T, dir string) ([]chains.PartInfo, *Summary) {
+	t.Helper()
 	parts := testRun(t, dir)
 	truth := map[string]float64{"log10_vmr_H2O": -3, "log10_vmr_CO2": -4.5, "temperature_k": 900, "offset_ppm_red": 40, "error_inflation_ppm_blue": 10}
 	s, err := Write(dir, parts, Options{
@@ -137,6 +134,16 @@ func TestReportFiles(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	return parts, s
+}
+
+// TestReportFiles writes a whole report of a small run and checks each
+// plot: a PNG of a readable size, and an SVG holding the labels and legend
+// entries a reader needs (fact of the trade: a figure without axis units,
+// band meanings or a legend cannot be read).
+func TestReportFiles(t *testing.T) {
+	dir := t.TempDir()
+	parts, s := writeTestReport(t, dir)
 	if s.Burn != 60 || s.Best.DataPoints != 60 {
 		t.Errorf("burn %d, %d data points", s.Burn, s.Best.DataPoints)
 	}
