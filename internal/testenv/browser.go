@@ -320,7 +320,9 @@ func (r *PageLoad) note(e cdpMessage, self string) {
 	case "Runtime.exceptionThrown":
 		r.Errors = append(r.Errors, "exception: "+string(e.Params))
 	case "Log.entryAdded":
-		var p struct{ Entry struct{ Level, Text, URL string } }
+		var p struct {
+			Entry struct{ Level, Text, URL string }
+		}
 		json.Unmarshal(e.Params, &p)
 		if p.Entry.Level == "error" {
 			r.Errors = append(r.Errors, "log: "+p.Entry.Text+" "+p.Entry.URL)
