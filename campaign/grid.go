@@ -1121,6 +1121,11 @@ type LocalOptions struct {
 	Log       io.Writer // one line per point started and finished; nil discards
 	// Points to run; nil means every point not done.
 	Points []int
+	// OnPoint, when set, is told after each point that ends (done,
+	// stopped or failed) how many of the grid's points are done and how
+	// many it has; it is called once before the first point, and from one
+	// goroutine at a time.
+	OnPoint func(done, total int)
 }
 
 // LocalReport is what RunLocal returns.
@@ -1174,6 +1179,25 @@ func (g *Grid) RunLocal(ctx context.Context, opt LocalOptions) (*LocalReport, er
 		pset[i] = sets[k]
 	}
 	rep := &LocalReport{}
+	doneBefore := len(g.Points) - len(pts)
+	if opt.Points != nil {
+		st, err := g.Status()
+		if err != nil {
+			return nil, err
+		}
+		doneBefore = 0
+		for _, s := range st {
+			if s.State == PointDone {
+				doneBefore++
+			}
+		}
+	}
+	progress := func() {
+		if opt.OnPoint != nil {
+			opt.OnPoint(doneBefore+len(rep.Done), len(g.Points))
+		}
+	}
+	progress()
 	var mu sync.Mutex
 	sem := make(chan struct{}, jobs)
 	var wg sync.WaitGroup
@@ -1209,6 +1233,7 @@ func (g *Grid) RunLocal(ctx context.Context, opt LocalOptions) (*LocalReport, er
 				rep.Done = append(rep.Done, i)
 				fmt.Fprintf(log, "chord grid: point %d: done\n", i)
 			}
+			progress()
 		}()
 	}
 	wg.Wait()

@@ -25,6 +25,7 @@ import (
 	"chord/config"
 	"chord/forward/opacity"
 	"chord/internal/atomicfile"
+	"chord/internal/eta"
 	"chord/internal/logto"
 	"chord/internal/version"
 	"chord/obs"
@@ -287,12 +288,22 @@ func (r *runner) newHistories(st *sampler.State) error {
 			return err
 		}
 	}
-	if r.opt.Progress.Writer != nil {
+	// The progress display reads the convergence rule's history when there
+	// is one, so that its tau and time left are the rule's own.
+	if r.opt.Progress.Writer != nil && r.conv == nil {
 		if r.progHist, err = sampler.NewHistory(st.Walkers, st.Dim, 256); err != nil {
 			return err
 		}
 	}
 	return nil
+}
+
+// tauHistory is the history the progress display estimates tau from.
+func (r *runner) tauHistory() *sampler.History {
+	if r.conv != nil {
+		return r.conv
+	}
+	return r.progHist
 }
 
 // histories lists the histories to replay a stored chain into.
@@ -317,7 +328,9 @@ func (r *runner) Record(s *sampler.Step) error {
 		if err := r.progHist.Record(s); err != nil {
 			return err
 		}
-		r.prog.step(s, r.progHist)
+	}
+	if h := r.tauHistory(); h != nil && r.prog != nil {
+		r.prog.step(s, h)
 	}
 	return nil
 }
@@ -425,8 +438,8 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 	out.Step = st.Step
 	out.TotalElapsed = secs(r.last.Elapsed)
 	out.Evaluations = r.evals
-	if out.Tau == nil && r.progHist != nil {
-		if tau, ok := r.progHist.Tau(nil, sampler.DefaultSokalWindow); ok {
+	if h := r.tauHistory(); out.Tau == nil && h != nil {
+		if tau, ok := h.Tau(nil, sampler.DefaultSokalWindow); ok {
 			out.Tau = tau
 		}
 	}
@@ -490,6 +503,7 @@ type progress struct {
 	bestLL                  float64
 	tau                     float64
 	drawn                   bool
+	left                    eta.Smoother
 }
 
 func newProgress(opt Progress, stop config.StopRule, st *sampler.State, base time.Duration, ll int) *progress {
@@ -551,7 +565,9 @@ func (p *progress) print(final bool) {
 	if p.proposed > 0 {
 		fmt.Fprintf(&b, ", acceptance %.2f", float64(p.accepted)/float64(p.proposed))
 	}
-	if !math.IsNaN(p.tau) && p.tau > 0 {
+	if !final && !math.IsNaN(p.tau) && p.tau > 0 {
+		// The estimate while sampling; the final line leaves tau to the
+		// summary, which estimates it after the burn-in.
 		fmt.Fprintf(&b, ", tau %.1f", p.tau)
 	}
 	if !math.IsInf(p.bestLL, -1) {
@@ -574,6 +590,7 @@ func (p *progress) print(final bool) {
 			left = secs(math.Max(need, 0) / rate)
 		}
 		if ok {
+			left = p.left.Update(time.Now(), left)
 			fmt.Fprintf(&b, ", about %s left", left.Round(time.Second))
 			if p.stop.UntilConverged {
 				fmt.Fprintf(&b, " to %g tau", sampler.DefaultConvergedTaus)

@@ -43,7 +43,7 @@ func runCompare(c *cli.Context) error {
 	}
 	for _, flag := range []string{"plot", "marginals"} {
 		if p := c.String(flag); p != "" && filepath.Ext(p) != ".png" {
-			return fmt.Errorf("compare: --%s %s: name the plot FILE.png (FILE.svg is written beside it)", flag, p)
+			return fmt.Errorf("compare: --%s %s: the plot is a PNG file (with an SVG beside it); name it FILE.png", flag, p)
 		}
 	}
 	cmp, err := campaign.CompareDirs(c.Args().Slice())

@@ -155,9 +155,19 @@ func finishRun(c *cli.Context, rep *retrieve.RunReport, err error) error {
 		fmt.Fprintf(w, "chord: continue it with:  chord resume %s\n", rep.Dir)
 		return errInterrupted
 	}
-	if rep.Summary != nil {
+	if s := rep.Summary; s != nil {
+		// tau as the summary states it (estimated after the burn-in), so
+		// that the last line and summary.txt agree.
+		fmt.Fprintf(w, "chord: largest autocorrelation time %.1f steps; the chain is %.1f of them long; converged: %v (summary.txt)\n", float64(s.MaxTau), float64(s.ChainTaus), yesNo(s.Converged))
 		fmt.Fprintf(c.App.Writer, "%s\n", rep.SummaryText)
 		fmt.Fprintf(w, "chord: the summary (summary.txt, summary.json) and plots are in %s\n", rep.Dir)
 	}
 	return nil
+}
+
+func yesNo(b bool) string {
+	if b {
+		return "yes"
+	}
+	return "no"
 }
