@@ -47,19 +47,21 @@ type docCommand struct {
 }
 
 // documentedCommands returns the chord command lines of the fenced code
-// blocks of a Markdown text: lines starting "chord " or "go run
-// ./cmd/chord ", joined over trailing backslashes, without "# comments".
+// blocks of a Markdown text (not those marked text, which show output):
+// lines starting "chord " or "go run ./cmd/chord ", joined over trailing
+// backslashes, without "# comments".
 func documentedCommands(text string) []docCommand {
 	var out []docCommand
 	lines := strings.Split(text, "\n")
-	inBlock := false
+	inBlock, output := false, false
 	for i := 0; i < len(lines); i++ {
 		l := strings.TrimSpace(lines[i])
 		if strings.HasPrefix(l, "```") {
 			inBlock = !inBlock
+			output = inBlock && strings.TrimPrefix(l, "```") == "text" // a block of output, not commands
 			continue
 		}
-		if !inBlock {
+		if !inBlock || output {
 			continue
 		}
 		start := i + 1
@@ -187,7 +189,7 @@ func TestCheckCommandRejects(t *testing.T) {
 			t.Errorf("chord %s: %v", good, err)
 		}
 	}
-	got := documentedCommands("text\n```sh\nchord fit -c x.toml \\\n    -o run   # a comment\nls\n```\nchord outside a block\n")
+	got := documentedCommands("text\n```sh\nchord fit -c x.toml \\\n    -o run   # a comment\nls\n```\nchord outside a block\n```text\nchord 0.1.0-dev, run 12\n```\n")
 	if len(got) != 1 || strings.Join(got[0].args, " ") != "fit -c x.toml -o run" || got[0].line != 3 {
 		t.Errorf("extracted %+v", got)
 	}
