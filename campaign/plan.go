@@ -240,7 +240,7 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 	onLevel(0)
 	for i := range lv {
 		l := &lv[i]
-		r, err := fitOrResume(ctx, "chord plan", l.cfg, l.run, set, spec.stop(), opt.Workers, opt.DemoCache, opt.Progress, log)
+		r, err := fitOrResume(ctx, "chord plan", l.cfg, l.run, set, spec.stop(), opt.Workers, opt.DemoCache, opt.Progress, log, &sc.Config.ModelConfig)
 		if err != nil {
 			return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
 		}
