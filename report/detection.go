@@ -435,23 +435,37 @@ func ClassifyGas(samples []float64, low, high, ess float64) (GasDetection, error
 // "upper limit, log10 < -5.32 (95%)". Whenever the significance is not a
 // plain estimate the note says why.
 func (d GasDetection) Describe() string {
-	var s string
+	s := verdictHead(d.Class, d.Sigma, d.SigmaIsBound, d.Upper95)
 	switch {
-	case d.Class == Undetermined:
-		s = "undetermined"
 	case d.Class == UpperLimit:
-		s = fmt.Sprintf("upper limit, log10 < %.2f (95%%)", d.Upper95)
-	case d.SigmaIsBound && d.Sigma == 0:
-		s = fmt.Sprintf("%s, significance not measurable", d.Class)
-	case d.SigmaIsBound:
-		s = fmt.Sprintf("%s, > %s sigma (lower bound)", d.Class, floorTenth(d.Sigma))
-	default:
-		s = fmt.Sprintf("%s, %.1f sigma (ln B = %.1f +- %.1f)", d.Class, d.Sigma, d.LnB10, d.LnB10Err)
+		s += " (95%)"
+	case d.SigmaIsBound && d.Sigma > 0:
+		s += " (lower bound)"
+	case !d.SigmaIsBound && d.Class != Undetermined:
+		s += fmt.Sprintf(" (ln B = %.1f +- %.1f)", d.LnB10, d.LnB10Err)
 	}
 	if d.Note != "" {
 		s += "; " + d.Note
 	}
 	return s
+}
+
+// verdictHead is the short verdict: the class and the significance (a
+// lower bound rounded down, floorTenth), or the upper limit:
+// "detected, 4.1 sigma", "detected, > 3.8 sigma", "upper limit, log10 <
+// -5.32", "undetermined".
+func verdictHead(class GasClass, sigma float64, bound bool, upper95 float64) string {
+	switch {
+	case class == Undetermined:
+		return "undetermined"
+	case class == UpperLimit:
+		return fmt.Sprintf("upper limit, log10 < %.2f", upper95)
+	case bound && sigma == 0:
+		return fmt.Sprintf("%s, significance not measurable", class)
+	case bound:
+		return fmt.Sprintf("%s, > %s sigma", class, floorTenth(sigma))
+	}
+	return fmt.Sprintf("%s, %.1f sigma", class, sigma)
 }
 
 // LifeCautionGases are the gases whose detection, on Earth, is associated

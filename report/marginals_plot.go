@@ -61,19 +61,8 @@ func PlotMarginals(base string, runs []MarginalRun, names []string) error {
 		lo, hi = lo-pad, hi+pad
 		top := 0.0
 		for r, x := range data {
-			counts := make([]float64, cornerBins)
-			w := (hi - lo) / cornerBins
-			for _, v := range x {
-				if b := int((v - lo) / w); b >= 0 && b < cornerBins {
-					counts[b]++
-				}
-			}
-			steps := make(plotter.XYs, 0, 2*cornerBins)
-			for b, n := range counts {
-				d := n / (float64(len(x)) * w)
-				top = math.Max(top, d)
-				steps = append(steps, plotter.XY{X: lo + float64(b)*w, Y: d}, plotter.XY{X: lo + float64(b+1)*w, Y: d})
-			}
+			steps, t := histogramSteps(x, lo, hi)
+			top = math.Max(top, t)
 			l, err := plotter.NewLine(steps)
 			if err != nil {
 				return err

@@ -262,7 +262,9 @@ func thinSamples(c *chains.Chain, v []float64, thin int) []float64 {
 	return out
 }
 
-func marginalPanel(p *plot.Plot, x []float64, lo, hi float64, q [3]float64, truth float64) error {
+// histogramSteps is the normalised cornerBins-bin histogram of x over
+// [lo, hi] as a step line, and its highest density.
+func histogramSteps(x []float64, lo, hi float64) (plotter.XYs, float64) {
 	counts := make([]float64, cornerBins)
 	w := (hi - lo) / cornerBins
 	for _, v := range x {
@@ -277,6 +279,11 @@ func marginalPanel(p *plot.Plot, x []float64, lo, hi float64, q [3]float64, trut
 		top = math.Max(top, d)
 		steps = append(steps, plotter.XY{X: lo + float64(b)*w, Y: d}, plotter.XY{X: lo + float64(b+1)*w, Y: d})
 	}
+	return steps, top
+}
+
+func marginalPanel(p *plot.Plot, x []float64, lo, hi float64, q [3]float64, truth float64) error {
+	steps, top := histogramSteps(x, lo, hi)
 	l, err := plotter.NewLine(steps)
 	if err != nil {
 		return err

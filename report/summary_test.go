@@ -151,7 +151,7 @@ func TestSummarize(t *testing.T) {
 	if err := s.WriteText(&txt); err != nil {
 		t.Fatal(err)
 	}
-	for _, want := range []string{"NOT FOR SCIENCE", "upper limit < -9.0", "log_h2o", "32 walkers x 500 steps", "reduced 1.562", UpperLimitNote} {
+	for _, want := range []string{"NOT FOR SCIENCE", "upper limit, log10 < -9.0", "log_h2o", "32 walkers x 500 steps", "reduced 1.562", UpperLimitNote} {
 		if !strings.Contains(txt.String(), want) {
 			t.Errorf("summary.txt lacks %q:\n%s", want, txt.String())
 		}
@@ -255,7 +255,7 @@ func TestSummaryTextLayout(t *testing.T) {
 	s.Parameters[0].Gas = gas(UpperLimit, 1, false, "upper limit, log10 < -5.32 (95%)")
 	b.Reset()
 	s.WriteText(&b)
-	if !strings.Contains(b.String(), UpperLimitNote) || !strings.Contains(b.String(), "upper limit < -5.32 [1]") {
+	if !strings.Contains(b.String(), UpperLimitNote) || !strings.Contains(b.String(), "upper limit, log10 < -5.32 [1]") {
 		t.Errorf("upper limit without its note:\n%s", b.String())
 	}
 }

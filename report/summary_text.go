@@ -54,18 +54,7 @@ func (f *footnotes) add(s string) int {
 // (a lower bound rounded down), and the explanation of the verdict (the
 // part of GasVerdict.Verdict after the first "; ") for a footnote.
 func shortVerdict(g *GasVerdict) (short, note string) {
-	switch {
-	case g.Class == Undetermined:
-		short = "undetermined"
-	case g.Class == UpperLimit:
-		short = fmt.Sprintf("upper limit < %.2f", g.Upper95)
-	case g.SigmaIsBound && g.Sigma == 0:
-		short = fmt.Sprintf("%s, significance not measurable", g.Class)
-	case g.SigmaIsBound:
-		short = fmt.Sprintf("%s, > %s sigma", g.Class, floorTenth(float64(g.Sigma)))
-	default:
-		short = fmt.Sprintf("%s, %.1f sigma", g.Class, float64(g.Sigma))
-	}
+	short = verdictHead(g.Class, float64(g.Sigma), g.SigmaIsBound, g.Upper95)
 	if _, rest, ok := strings.Cut(g.Verdict, "; "); ok {
 		note = rest
 	}
