@@ -586,8 +586,11 @@ func (p *progress) print(final bool) {
 			left = secs(p.stop.Budget) - p.base - el
 		default:
 			need := sampler.DefaultConvergedTaus*p.tau - float64(p.cur)
-			ok = !math.IsNaN(p.tau) && p.tau > 0
-			left = secs(math.Max(need, 0) / rate)
+			ok = !math.IsNaN(p.tau) && p.tau > 0 && need > 0
+			left = secs(need / rate)
+			if !math.IsNaN(p.tau) && p.tau > 0 && need <= 0 {
+				fmt.Fprintf(&b, ", past %g tau, waiting for tau to settle", sampler.DefaultConvergedTaus)
+			}
 		}
 		if ok {
 			left = p.left.Update(time.Now(), left)
