@@ -42,6 +42,12 @@ type htmlPlot struct {
 	Src           template.URL
 }
 
+// htmlCaution is a caution; Note marks the milder chemistry note.
+type htmlCaution struct {
+	Text string
+	Note bool
+}
+
 type htmlPage struct {
 	Title, Program, RunID string
 	Demo                  bool
@@ -50,7 +56,8 @@ type htmlPage struct {
 	Convention            string
 	Params, Derived       []tableRow
 	Notes                 []string
-	Warnings, Cautions    []string
+	Warnings              []string
+	Cautions              []htmlCaution
 	Plots                 []htmlPlot
 	Config                string
 	Inputs                []Input
@@ -65,10 +72,13 @@ func WriteHTML(dir string, s *Summary, d *RunDetails) error {
 		Title: d.Title, Program: s.Program, RunID: s.RunID, Demo: s.DemoOpacities, DemoWarning: DemoWarning,
 		Overview: s.overview(), Convention: IntervalConvention,
 		Params: rows(s.Parameters, fn), Derived: rows(s.Derived, fn),
-		Warnings: s.warningsWithoutBanner(), Cautions: s.Cautions,
+		Warnings: s.warningsWithoutBanner(),
 		Config: d.Config, Inputs: d.Inputs, Converged: s.Converged,
 	}
 	page.Notes = fn.text
+	for _, c := range s.Cautions {
+		page.Cautions = append(page.Cautions, htmlCaution{Text: c, Note: c == MethaneChemistryNote})
+	}
 	for _, name := range PlotNames {
 		b, err := os.ReadFile(filepath.Join(dir, name+".png"))
 		if os.IsNotExist(err) {
@@ -105,6 +115,7 @@ section { margin-top: 2em; }
 h2 { font-size: 1.2em; border-bottom: 2px solid #d8d2c4; padding-bottom: 0.2em; color: #243447; }
 .banner { background: #fff1d6; border-left: 6px solid #d08a00; padding: 0.8em 1em; margin-top: 1.5em; font-weight: 600; }
 .caution { background: #fde9e6; border-left: 6px solid #b3261e; padding: 0.8em 1em; margin: 0.8em 0; }
+.note { background: #e6f0f7; border-left: 6px solid #2f6d96; padding: 0.8em 1em; margin: 0.8em 0; }
 .warning { background: #fff8e1; border-left: 4px solid #c49000; padding: 0.4em 0.8em; margin: 0.4em 0; }
 .ok { color: #1e6b36; font-weight: 600; } .notok { color: #b3261e; font-weight: 600; }
 table { border-collapse: collapse; font-size: 0.88em; margin: 0.6em 0; }
@@ -131,7 +142,7 @@ pre { background: #f3f0e8; padding: 0.8em; overflow-x: auto; font-size: 0.8em; }
 <nav><a href="#summary">Summary</a><a href="#convergence">Convergence</a><a href="#plots">Plots</a><a href="#warnings">Warnings</a><a href="#inputs">Inputs</a><a href="#configuration">Configuration</a></nav>
 <main>
 {{if .Demo}}<div class="banner">{{.DemoWarning}}</div>{{end}}
-{{range .Cautions}}<div class="caution">{{.}}</div>{{end}}
+{{range .Cautions}}<div class="{{if .Note}}note{{else}}caution{{end}}">{{.Text}}</div>{{end}}
 <section id="summary">
 <h2>Summary</h2>
 <p>Parameters: {{.Convention}}.</p>
@@ -161,7 +172,7 @@ pre { background: #f3f0e8; padding: 0.8em; overflow-x: auto; font-size: 0.8em; }
 {{end}}</section>
 <section id="warnings">
 <h2>Warnings and cautions</h2>
-{{if or .Warnings .Cautions}}{{range .Warnings}}<div class="warning">{{.}}</div>{{end}}{{range .Cautions}}<div class="caution">{{.}}</div>{{end}}{{else}}<p>None.</p>{{end}}
+{{if or .Warnings .Cautions}}{{range .Warnings}}<div class="warning">{{.}}</div>{{end}}{{range .Cautions}}<div class="{{if .Note}}note{{else}}caution{{end}}">{{.Text}}</div>{{end}}{{else}}<p>None.</p>{{end}}
 </section>
 <section id="inputs">
 <h2>Inputs</h2>

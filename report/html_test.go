@@ -31,6 +31,15 @@ func TestReportHTMLContent(t *testing.T) {
 	if n := strings.Count(page, `src="data:image/png;base64,`); n != len(PlotNames) {
 		t.Errorf("%d embedded images, want %d", n, len(PlotNames))
 	}
+	// The cautions: the full one, and the chemistry note in its own style.
+	s := &Summary{Program: "chord test", Cautions: []string{LifeCaution, MethaneChemistryNote}}
+	if err := WriteHTML(dir, s, &RunDetails{}); err != nil {
+		t.Fatal(err)
+	}
+	b, _ = os.ReadFile(filepath.Join(dir, HTMLFile))
+	if !strings.Contains(string(b), `<div class="caution">Caution: a detected gas`) || !strings.Contains(string(b), `<div class="note">Note on methane`) {
+		t.Errorf("cautions not laid out")
+	}
 	for _, bad := range []string{"<script", "http://", "https://", "<link", "@import", "url("} {
 		if strings.Contains(page, bad) {
 			t.Errorf("report.html holds %q: it must fetch nothing", bad)
