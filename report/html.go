@@ -73,7 +73,7 @@ func WriteHTML(dir string, s *Summary, d *RunDetails) error {
 		Overview: s.overview(), Convention: IntervalConvention,
 		Params: rows(s.Parameters, fn), Derived: rows(s.Derived, fn),
 		Warnings: s.warningsWithoutBanner(),
-		Config: d.Config, Inputs: d.Inputs, Converged: s.Converged,
+		Config:   d.Config, Inputs: d.Inputs, Converged: s.Converged,
 	}
 	page.Notes = fn.text
 	for _, c := range s.Cautions {
