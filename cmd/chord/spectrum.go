@@ -32,7 +32,8 @@ func spectrumCommand() *cli.Command {
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "model configuration `FILE` (TOML)", Required: true},
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "CSV `FILE` to write (\"-\" for standard output)", Required: true},
-			&cli.StringFlag{Name: "plot", Usage: "also draw the spectrum to `FILE`.png"},
+			&cli.StringFlag{Name: "plot", Usage: "also draw the spectrum to `FILE`.png (and FILE.svg)"},
+			&cli.StringFlag{Name: "by-gas", Usage: "also draw the spectrum with each gas removed in turn to `FILE`.png (and FILE.svg)"},
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 			&cli.StringSliceFlag{Name: "resolved", Usage: "compute the spectrum line by line instead (the reference the k-tables are checked against) from the line list of each gas, `GAS=FILE[,FILE...]`; repeatable, one per absorbing gas; needs [spectrum] bins"},
 			&cli.Float64Flag{Name: "fine-resolution", Value: 1e6, Usage: "with --resolved: resolving power nu/dnu of the fine grid"},
@@ -95,7 +96,17 @@ func runSpectrum(c *cli.Context) error {
 			wl[i] = 0.5 * (lo[i] + hi[i])
 		}
 	}
-	return writeSpectrum(c, cfg, set.Demo, wl, depth, lo, hi)
+	byGas := func(spec *report.ModelSpectrum, p string) error {
+		if len(m.Gases()) == 0 {
+			return errors.New("spectrum: --by-gas: the atmosphere has no trace gas to remove ([atmosphere.gases] is empty)")
+		}
+		without, err := report.WithoutEachGas(m, s)
+		if err != nil {
+			return fmt.Errorf("%s: %w", cfgPath, err)
+		}
+		return spec.PlotByGas(p, without)
+	}
+	return writeSpectrum(c, cfg, set.Demo, wl, depth, lo, hi, byGas)
 }
 
 // mustForwardConfig returns the forward configuration Build used (it
@@ -105,8 +116,10 @@ func mustForwardConfig(cfg *config.ModelConfig, set *opacity.Set) forward.Config
 	return fc
 }
 
-// writeSpectrum writes the spectrum's CSV and, with --plot, its PNG.
-func writeSpectrum(c *cli.Context, cfg *config.ModelConfig, demo bool, wl, depth, lo, hi []float64) error {
+// writeSpectrum writes the spectrum's CSV and, with --plot, its PNG, and
+// with --by-gas the plot byGas draws (nil: not available).
+func writeSpectrum(c *cli.Context, cfg *config.ModelConfig, demo bool, wl, depth, lo, hi []float64,
+	byGas func(spec *report.ModelSpectrum, path string) error) error {
 	title := cfg.Planet.Name
 	if title == "" {
 		title = "model spectrum"
@@ -115,11 +128,21 @@ func writeSpectrum(c *cli.Context, cfg *config.ModelConfig, demo bool, wl, depth
 	if err := writeSpectrumCSV(c, c.String("output"), spec); err != nil {
 		return err
 	}
-	if p := c.String("plot"); p != "" {
-		if filepath.Ext(p) != ".png" {
-			return errors.New("spectrum: --plot needs a .png file name")
+	for _, flag := range []string{"plot", "by-gas"} {
+		if p := c.String(flag); p != "" && filepath.Ext(p) != ".png" {
+			return fmt.Errorf("spectrum: --%s %s: name the plot FILE.png (FILE.svg is written beside it)", flag, p)
 		}
+	}
+	if p := c.String("plot"); p != "" {
 		if err := spec.Plot(p); err != nil {
+			return fmt.Errorf("spectrum: %w", err)
+		}
+	}
+	if p := c.String("by-gas"); p != "" {
+		if byGas == nil {
+			return errors.New("spectrum: --by-gas goes with the tables' spectrum, not --resolved")
+		}
+		if err := byGas(spec, p); err != nil {
 			return fmt.Errorf("spectrum: %w", err)
 		}
 	}
@@ -231,5 +254,5 @@ func runSpectrumResolved(c *cli.Context, cfgPath string, cfg *config.ModelConfig
 	for i := range wl {
 		wl[i] = 0.5 * (bins.Lo[i] + bins.Hi[i])
 	}
-	return writeSpectrum(c, cfg, set.Demo, wl, depth, bins.Lo, bins.Hi)
+	return writeSpectrum(c, cfg, set.Demo, wl, depth, bins.Lo, bins.Hi, nil)
 }
