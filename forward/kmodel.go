@@ -70,6 +70,7 @@ type kGas struct {
 	nT        int
 	k         []float32 // rows (iP*nT+iT) of nb*ng values
 	mean      []float64 // rows of nb values: sum_g W_g k
+	top       []float64 // rows of nb values: k at the last node, its largest
 }
 
 // kCIA is one collision-induced-absorption table averaged over the model's
@@ -150,10 +151,12 @@ func newKModel(m *Model, cfg Config) (*Model, error) {
 		kg := kGas{name: t.Gas, sp: sp, log10P: r.Log10P, t: r.T, nT: len(r.T), k: r.K}
 		ng := len(r.G)
 		kg.mean = make([]float64, len(r.K)/ng)
+		kg.top = make([]float64, len(r.K)/ng)
 		for i := range kg.mean {
 			for q, v := range r.K[i*ng : (i+1)*ng] {
 				kg.mean[i] += r.W[q] * float64(v)
 			}
+			kg.top[i] = float64(r.K[(i+1)*ng-1])
 		}
 		km.gases = append(km.gases, kg)
 	}
