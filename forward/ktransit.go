@@ -13,7 +13,8 @@ import (
 
 // kWork is the k-distribution part of a Workspace.
 type kWork struct {
-	bpb    int           // bins per block
+	bpb    int           // bins per block of the resort-rebin overlap
+	pbb    int           // bins per block of the product overlap
 	corner [][][4]corner // per gas, per layer: table rows (slot = row) and weights
 	ciaW   [][]corner    // per CIA table, per layer: row it (slot) and weight of it+1 (w)
 	scat   []float64     // per bin: Rayleigh and haze cross-section per molecule
@@ -37,6 +38,7 @@ type kWork struct {
 	live     []int     // per bin: lowest ray that transmits
 	column   []float64 // per ray: molecules per unit area along it
 	kmax     []float64 // nb
+	kbar     []float64 // nb
 	rg       []int     // per bin: lowest ray from which the current gas is grey
 	greyBins []int     // the current gas's bins that take it as grey
 	rows     []int     // the current gas's table rows that the layers touch
@@ -45,8 +47,8 @@ type kWork struct {
 	nRows    []int     // per ray: rows [0, nRows[i]) are those it crosses
 	rowPath  []float64 // n x 4n: per ray, the weight of each row
 	rowAcc   []float64 // 4n
-	tau32    []float32 // bpb*ng
-	tm       []float64 // bpb
+	tau32    []float32 // pbb*ng
+	tm       []float64 // pbb
 	fullRuns []binRun
 	greyRuns []binRun
 	order    []int     // gases, strongest first
@@ -61,9 +63,12 @@ type mergeAtom struct{ v, w float64 }
 
 func (m *Model) newKWork(n int) *kWork {
 	km := m.k
-	bpb := blockLen
+	// The product overlap's blocks are wider: every ray reads the block's
+	// part of the table rows it crosses (a few hundred KB, in L2) and the
+	// longer runs of bins cut the calls per row.
+	bpb, pbb := blockLen, blockLen
 	if km.ng > 0 {
-		bpb = max(1, 2*blockLen/km.ng)
+		bpb, pbb = max(1, blockLen/km.ng), max(1, 4*blockLen/km.ng)
 	}
 	maxRows := 0
 	for _, kg := range km.gases {
@@ -71,6 +76,7 @@ func (m *Model) newKWork(n int) *kWork {
 	}
 	kw := &kWork{
 		bpb:    bpb,
+		pbb:    pbb,
 		corner: make([][][4]corner, len(km.gases)),
 		ciaW:   make([][]corner, len(km.cia)),
 		scat:   make([]float64, km.nb),
@@ -93,6 +99,7 @@ func (m *Model) newKWork(n int) *kWork {
 		live:     make([]int, km.nb),
 		column:   make([]float64, n),
 		kmax:     make([]float64, km.nb),
+		kbar:     make([]float64, km.nb),
 		rg:       make([]int, km.nb),
 		greyBins: make([]int, 0, km.nb),
 		rows:     make([]int, 0, 4*n),
@@ -101,10 +108,10 @@ func (m *Model) newKWork(n int) *kWork {
 		nRows:    make([]int, n),
 		rowPath:  make([]float64, n*4*n),
 		rowAcc:   make([]float64, 4*n),
-		tau32:    make([]float32, bpb*km.ng),
-		tm:       make([]float64, bpb),
-		fullRuns: make([]binRun, 0, bpb),
-		greyRuns: make([]binRun, 0, bpb),
+		tau32:    make([]float32, pbb*km.ng),
+		tm:       make([]float64, pbb),
+		fullRuns: make([]binRun, 0, pbb),
+		greyRuns: make([]binRun, 0, pbb),
 		order:    make([]int, 0, len(km.gases)),
 		strength: make([]float64, len(km.gases)),
 		bins:     make([]int, 0, km.nb),
@@ -146,13 +153,27 @@ func (m *Model) transitK(dst []float64, s *State, w *Workspace) error {
 	return nil
 }
 
-// greyTau is the largest optical depth at a gas's strongest g-node, along
-// a ray, below which the gas is taken as grey there (its mean k instead of
-// its k-distribution). Replacing sum_g W_g exp(-tau_g) by
-// exp(-sum_g W_g tau_g) errs by at most about max(tau)^2 / 8 of the
-// transmission (the variance of tau over g, which is below max(tau)^2 / 4,
-// halved; Jensen's inequality), 5e-5 at 0.02: far below a ppm of depth.
-const greyTau = 0.02
+// greyErr is the largest error in a ray's transmission that taking a gas
+// as grey (its mean k instead of its k-distribution) may cause. Replacing
+// sum_g W_g exp(-tau_g) by exp(-tbar), tbar = sum_g W_g tau_g, errs by at
+// most half the variance of tau over g (Jensen's inequality; exp(-t)” <= 1
+// for t >= 0), and the variance is at most (max(tau) - tbar) tbar (the
+// Bhatia-Davis inequality, M. Bhatia & C. Davis 2000, Amer. Math. Monthly
+// 107, 353), below max(tau)^2 / 4. 5e-5, the error of a gas whose optical
+// depth is 0.02 at every node: far below a ppm of depth.
+const greyErr = 5e-5
+
+// greyEnough reports whether a gas whose optical depth along a ray is at
+// most mx at its strongest node and at most mean on average over g may be
+// taken as grey there: half the largest variance those bounds allow is
+// below greyErr.
+func greyEnough(mx, mean float64) bool {
+	v := mx * mx / 4
+	if mean < mx/2 {
+		v = mean * (mx - mean)
+	}
+	return v < 2*greyErr
+}
 
 // transitProduct computes the depths with the product overlap: the grey
 // absorbers of all bins first, then each gas over the bins where it is not
@@ -184,8 +205,8 @@ func (m *Model) transitProduct(dst []float64, w *Workspace, g geometry) {
 		m.gasRows(w, gi, jlo)
 		anyGrey = m.classifyGas(w, gi, jlo) || anyGrey
 		bins := kw.bins
-		for c0 := 0; c0 < len(bins); c0 += kw.bpb {
-			m.gasBlock(w, gi, bins[c0:min(c0+kw.bpb, len(bins))])
+		for c0 := 0; c0 < len(bins); c0 += kw.pbb {
+			m.gasBlock(w, gi, bins[c0:min(c0+kw.pbb, len(bins))])
 		}
 	}
 	if anyGrey {
@@ -387,11 +408,11 @@ func (m *Model) gasRows(w *Workspace, gi, jlo int) {
 }
 
 // classifyGas decides, per bin, how gas gi enters the rays that still
-// transmit: kw.rg[b] is the lowest ray from which up x N_i kmax, an upper
-// bound on the gas's optical depth along ray i at its strongest node (N_i
-// the ray's column, kmax the largest top-node k of the table rows it
-// crosses, which bound the interpolant), stays below greyTau; those rays
-// take the gas as grey. Bins whose every live ray does are listed in kw.greyBins
+// transmit: kw.rg[b] is the lowest ray from which up greyEnough holds for
+// the bounds x N_i kmax and x N_i kbar of the gas's optical depth along ray
+// i at its strongest node and on average over g (N_i the ray's column,
+// kmax and kbar the largest top-node and mean k of the table rows it
+// crosses, which bound the interpolants); those rays take the gas as grey. Bins whose every live ray does are listed in kw.greyBins
 // and the gas's mean, x n_j kmean_j, is added to their kw.agg; the others
 // are listed in kw.bins. It reports whether any bin was grey.
 func (m *Model) classifyGas(w *Workspace, gi, jlo int) bool {
@@ -399,10 +420,11 @@ func (m *Model) classifyGas(w *Workspace, gi, jlo int) bool {
 	n, nb := len(m.pLayer), km.nb
 	kg := &km.gases[gi]
 	x := w.x[kg.sp]
-	// kmax[b]: the largest top-node k of the rows ray i crosses,
-	// accumulated from the top down.
-	kmax, rg := kw.kmax, kw.rg
+	// kmax[b], kbar[b]: the largest top-node and mean k of the rows ray i
+	// crosses, accumulated from the top down.
+	kmax, kbar, rg := kw.kmax, kw.kbar[:len(kw.kmax)], kw.rg[:len(kw.kmax)]
 	clear(kmax)
+	clear(kbar)
 	for b := range rg {
 		rg[b] = n
 	}
@@ -410,15 +432,20 @@ func (m *Model) classifyGas(w *Workspace, gi, jlo int) bool {
 	for i := n - 1; i >= jlo; i-- {
 		for ; p < kw.nRows[i]; p++ {
 			r := kw.rows[p]
-			for b, v := range kg.top[r*nb : (r+1)*nb] {
-				if v > kmax[b] {
-					kmax[b] = v
+			top, mean := kg.top[r*nb:(r+1)*nb], kg.mean[r*nb:(r+1)*nb]
+			top, mean = top[:len(kmax)], mean[:len(kmax)]
+			for b := range kmax {
+				if top[b] > kmax[b] {
+					kmax[b] = top[b]
+				}
+				if mean[b] > kbar[b] {
+					kbar[b] = mean[b]
 				}
 			}
 		}
-		lim := greyTau / (x * kw.column[i])
+		xn := x * kw.column[i]
 		for b, k := range kmax {
-			if rg[b] == i+1 && k < lim {
+			if rg[b] == i+1 && greyEnough(xn*k, xn*kbar[b]) {
 				rg[b] = i
 			}
 		}
@@ -601,9 +628,8 @@ func transmission(w []float64, tau []float32) float64 {
 	}
 	w = w[:len(tau)]
 	var s0, s1 float64
-	q := 0
-	for ; q+1 < len(tau); q += 2 {
-		t0, t1 := float64(tau[q]), float64(tau[q+1])
+	for len(tau) >= 2 && len(w) >= 2 {
+		t0, t1 := float64(tau[0]), float64(tau[1])
 		if t0 > satTau {
 			t0 = satTau
 		}
@@ -616,11 +642,12 @@ func transmission(w []float64, tau []float32) float64 {
 		i0, i1 := int(k0), int(k1)
 		p0 := (1 - r0) + r0*r0*(0.5-r0*(1.0/6))
 		p1 := (1 - r1) + r1*r1*(0.5-r1*(1.0/6))
-		s0 += w[q] * p0 * math.Float64frombits(uint64(1023-(i0>>8))<<52) * transmittedTable[i0&255]
-		s1 += w[q+1] * p1 * math.Float64frombits(uint64(1023-(i1>>8))<<52) * transmittedTable[i1&255]
+		s0 += w[0] * p0 * math.Float64frombits(uint64(1023-(i0>>8))<<52) * transmittedTable[i0&255]
+		s1 += w[1] * p1 * math.Float64frombits(uint64(1023-(i1>>8))<<52) * transmittedTable[i1&255]
+		tau, w = tau[2:], w[2:]
 	}
-	if q < len(tau) {
-		s0 += w[q] * expNeg(float64(tau[q]))
+	if len(tau) > 0 && len(w) > 0 {
+		s0 += w[0] * expNeg(float64(tau[0]))
 	}
 	return s0 + s1
 }
