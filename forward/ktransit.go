@@ -156,11 +156,12 @@ func (m *Model) transitK(dst []float64, s *State, w *Workspace) error {
 // greyErr is the largest error in a ray's transmission that taking a gas
 // as grey (its mean k instead of its k-distribution) may cause. Replacing
 // sum_g W_g exp(-tau_g) by exp(-tbar), tbar = sum_g W_g tau_g, errs by at
-// most half the variance of tau over g (Jensen's inequality; exp(-t)” <= 1
-// for t >= 0), and the variance is at most (max(tau) - tbar) tbar (the
-// Bhatia-Davis inequality, M. Bhatia & C. Davis 2000, Amer. Math. Monthly
-// 107, 353), below max(tau)^2 / 4. 5e-5, the error of a gas whose optical
-// depth is 0.02 at every node: far below a ppm of depth.
+// most half the variance of tau over g (Jensen's inequality, with the
+// second derivative of exp(-t) at most 1 for t >= 0), and the variance is
+// at most (max(tau) - tbar) tbar (the Bhatia-Davis inequality: R. Bhatia &
+// C. Davis 2000, Amer. Math. Monthly 107, 353; from memory), never more
+// than max(tau)^2 / 4. 5e-5 is that bound for max(tau) = 0.02: far below a
+// ppm of depth, since only the few rays near the limit come close to it.
 const greyErr = 5e-5
 
 // greyEnough reports whether a gas whose optical depth along a ray is at
