@@ -31,32 +31,34 @@ type kWork struct {
 	mix    []float64   // resort-rebin: ng
 
 	// The product overlap works on all bins at once.
-	agAll    []float64 // n x nb: grey absorption coefficients
-	agg      []float64 // n x nb: gases taken as grey
-	transAll []float64 // n x nb: transmission of each ray and bin
-	tauAll   []float64 // nb
-	live     []int     // per bin: lowest ray that transmits
-	column   []float64 // per ray: molecules per unit area along it
-	kmax     []float64 // nb
-	kbar     []float64 // nb
-	rg       []int     // per bin: lowest ray from which the current gas is grey
-	greyBins []int     // the current gas's bins that take it as grey
-	rows     []int     // the current gas's table rows that the layers touch
-	rowOf    []int     // table row -> index in rows, -1 when untouched
-	pos      [][4]int  // per layer: index in rows of each corner
-	nRows    []int     // per ray: rows [0, nRows[i]) are those it crosses
-	rowPath  []float64 // n x 4n: per ray, the weight of each row
-	rowAcc   []float64 // 4n
-	tau32    []float32 // pbb*ng
-	tm       []float64 // pbb
-	fullRuns []binRun
-	greyRuns []binRun
-	order    []int     // gases, strongest first
-	strength []float64 // per gas
-	bins     []int     // a gas's bins that need it
-	accAll   []float64 // nb
-	lowAll   []float64
-	tkcAll   []float64
+	agAll       []float64 // n x nb: grey absorption coefficients
+	agg         []float64 // n x nb: gases taken as grey
+	transAll    []float64 // n x nb: transmission of each ray and bin
+	tauAll      []float64 // nb
+	live        []int     // per bin: lowest ray that transmits
+	column      []float64 // per ray: molecules per unit area along it
+	kmax        []float64 // nb
+	kbar        []float64 // nb
+	rg          []int     // per bin: lowest ray from which the current gas is grey
+	state       []int8    // per bin: rayDark, rayGrey or rayFull for the current gas
+	candRuns    []binRun  // runs of bins that may need the current gas's k-distribution
+	greyBinRuns []binRun  // runs of bins that take the current gas as grey
+	rows        []int     // the current gas's table rows that the layers touch
+	rowOf       []int     // table row -> index in rows, -1 when untouched
+	pos         [][4]int  // per layer: index in rows of each corner
+	nRows       []int     // per ray: rows [0, nRows[i]) are those it crosses
+	rowPath     []float64 // n x 4n: per ray, the weight of each row
+	rowAcc      []float64 // 4n
+	tau32       []float32 // pbb*ng
+	tm          []float64 // pbb
+	fullRuns    []binRun
+	greyRuns    []binRun
+	order       []int     // gases, strongest first
+	strength    []float64 // per gas
+	bins        []int     // a gas's bins that need it
+	accAll      []float64 // nb
+	lowAll      []float64
+	tkcAll      []float64
 }
 
 type mergeAtom struct{ v, w float64 }
@@ -92,32 +94,34 @@ func (m *Model) newKWork(n int) *kWork {
 		merge:  make([]mergeAtom, km.ng*km.ng),
 		mix:    make([]float64, km.ng),
 
-		agAll:    make([]float64, n*km.nb),
-		agg:      make([]float64, n*km.nb),
-		transAll: make([]float64, n*km.nb),
-		tauAll:   make([]float64, km.nb),
-		live:     make([]int, km.nb),
-		column:   make([]float64, n),
-		kmax:     make([]float64, km.nb),
-		kbar:     make([]float64, km.nb),
-		rg:       make([]int, km.nb),
-		greyBins: make([]int, 0, km.nb),
-		rows:     make([]int, 0, 4*n),
-		rowOf:    make([]int, maxRows),
-		pos:      make([][4]int, n),
-		nRows:    make([]int, n),
-		rowPath:  make([]float64, n*4*n),
-		rowAcc:   make([]float64, 4*n),
-		tau32:    make([]float32, pbb*km.ng),
-		tm:       make([]float64, pbb),
-		fullRuns: make([]binRun, 0, pbb),
-		greyRuns: make([]binRun, 0, pbb),
-		order:    make([]int, 0, len(km.gases)),
-		strength: make([]float64, len(km.gases)),
-		bins:     make([]int, 0, km.nb),
-		accAll:   make([]float64, km.nb),
-		lowAll:   make([]float64, km.nb),
-		tkcAll:   make([]float64, km.nb),
+		agAll:       make([]float64, n*km.nb),
+		agg:         make([]float64, n*km.nb),
+		transAll:    make([]float64, n*km.nb),
+		tauAll:      make([]float64, km.nb),
+		live:        make([]int, km.nb),
+		column:      make([]float64, n),
+		kmax:        make([]float64, km.nb),
+		kbar:        make([]float64, km.nb),
+		rg:          make([]int, km.nb),
+		state:       make([]int8, km.nb),
+		candRuns:    make([]binRun, 0, km.nb),
+		greyBinRuns: make([]binRun, 0, km.nb),
+		rows:        make([]int, 0, 4*n),
+		rowOf:       make([]int, maxRows),
+		pos:         make([][4]int, n),
+		nRows:       make([]int, n),
+		rowPath:     make([]float64, n*4*n),
+		rowAcc:      make([]float64, 4*n),
+		tau32:       make([]float32, pbb*km.ng),
+		tm:          make([]float64, pbb),
+		fullRuns:    make([]binRun, 0, pbb),
+		greyRuns:    make([]binRun, 0, pbb),
+		order:       make([]int, 0, len(km.gases)),
+		strength:    make([]float64, len(km.gases)),
+		bins:        make([]int, 0, km.nb),
+		accAll:      make([]float64, km.nb),
+		lowAll:      make([]float64, km.nb),
+		tkcAll:      make([]float64, km.nb),
 	}
 	for i := range kw.corner {
 		kw.corner[i] = make([][4]corner, n)
@@ -409,59 +413,90 @@ func (m *Model) gasRows(w *Workspace, gi, jlo int) {
 }
 
 // classifyGas decides, per bin, how gas gi enters the rays that still
-// transmit: kw.rg[b] is the lowest ray from which up greyEnough holds for
-// the bounds x N_i kmax and x N_i kbar of the gas's optical depth along ray
-// i at its strongest node and on average over g (N_i the ray's column,
-// kmax and kbar the largest top-node and mean k of the table rows it
-// crosses, which bound the interpolants); those rays take the gas as grey. Bins whose every live ray does are listed in kw.greyBins
-// and the gas's mean, x n_j kmean_j, is added to their kw.agg; the others
-// are listed in kw.bins. It reports whether any bin was grey.
+// transmit. Where greyEnough holds, along every live ray, for the bounds
+// x N_i kmax and x N_i kbar of the gas's optical depth along ray i at its
+// strongest node and on average over g (N_i the ray's column, kmax and
+// kbar the largest top-node and mean k of the table rows it crosses, which
+// bound the interpolants), the bin is in kw.greyBinRuns and the gas's
+// mean, x n_j kmean_j, is added to its kw.agg. The others are listed in
+// kw.bins, with kw.rg[b] the lowest ray from which up the test holds:
+// rays from there take the gas as grey. It reports whether any bin was
+// grey.
 func (m *Model) classifyGas(w *Workspace, gi, jlo int) bool {
 	km, kw := m.k, w.k
 	n, nb := len(m.pLayer), km.nb
 	kg := &km.gases[gi]
 	x := w.x[kg.sp]
+	// Bins that pass at every live ray even with the table's largest k
+	// and the largest column are grey without a closer look.
+	nmax := 0.0
+	for _, c := range kw.column[jlo:n] {
+		nmax = max(nmax, c)
+	}
+	st := kw.state
+	for b, l := range kw.live {
+		switch {
+		case l == n:
+			st[b] = rayDark
+		case greyEnough(x*nmax*kg.topMax[b], x*nmax*kg.meanMax[b]):
+			st[b] = rayGrey
+		default:
+			st[b] = rayFull // a candidate
+		}
+	}
+	cand := stateRuns(kw.candRuns[:0], st, rayFull)
+	kw.candRuns = cand
 	// kmax[b], kbar[b]: the largest top-node and mean k of the rows ray i
 	// crosses, accumulated from the top down.
-	kmax, kbar, rg := kw.kmax, kw.kbar[:len(kw.kmax)], kw.rg[:len(kw.kmax)]
-	clear(kmax)
-	clear(kbar)
-	for b := range rg {
-		rg[b] = n
+	kmax, kbar, rg := kw.kmax, kw.kbar, kw.rg
+	for _, c := range cand {
+		clear(kmax[c.lo:c.hi])
+		clear(kbar[c.lo:c.hi])
+		for b := c.lo; b < c.hi; b++ {
+			rg[b] = n
+		}
 	}
 	p := 0
 	for i := n - 1; i >= jlo; i-- {
 		for ; p < kw.nRows[i]; p++ {
 			r := kw.rows[p]
-			top, mean := kg.top[r*nb:(r+1)*nb], kg.mean[r*nb:(r+1)*nb]
-			top, mean = top[:len(kmax)], mean[:len(kmax)]
-			for b := range kmax {
-				if top[b] > kmax[b] {
-					kmax[b] = top[b]
-				}
-				if mean[b] > kbar[b] {
-					kbar[b] = mean[b]
+			for _, c := range cand {
+				top, mean := kg.top[r*nb+c.lo:r*nb+c.hi], kg.mean[r*nb+c.lo:r*nb+c.hi]
+				kx, kb := kmax[c.lo:c.hi], kbar[c.lo:c.hi]
+				kx, kb = kx[:len(top)], kb[:len(top)]
+				mean = mean[:len(top)]
+				for k, v := range top {
+					if v > kx[k] {
+						kx[k] = v
+					}
+					if mean[k] > kb[k] {
+						kb[k] = mean[k]
+					}
 				}
 			}
 		}
 		xn := x * kw.column[i]
-		for b, k := range kmax {
-			if rg[b] == i+1 && greyEnough(xn*k, xn*kbar[b]) {
-				rg[b] = i
+		for _, c := range cand {
+			for b := c.lo; b < c.hi; b++ {
+				if rg[b] == i+1 && greyEnough(xn*kmax[b], xn*kbar[b]) {
+					rg[b] = i
+				}
 			}
 		}
 	}
-	full, grey := kw.bins[:0], kw.greyBins[:0]
-	for b, l := range kw.live {
-		switch {
-		case l == n:
-		case rg[b] > l:
-			full = append(full, b)
-		default:
-			grey = append(grey, b)
+	full := kw.bins[:0]
+	for _, c := range cand {
+		for b := c.lo; b < c.hi; b++ {
+			if rg[b] > kw.live[b] {
+				full = append(full, b)
+			} else {
+				st[b] = rayGrey
+			}
 		}
 	}
-	kw.bins, kw.greyBins = full, grey
+	kw.bins = full
+	grey := stateRuns(kw.greyBinRuns[:0], st, rayGrey)
+	kw.greyBinRuns = grey
 	if len(grey) == 0 {
 		return false
 	}
@@ -474,19 +509,23 @@ func (m *Model) classifyGas(w *Workspace, gi, jlo int) bool {
 			}
 			mean := kg.mean[c.slot*nb : (c.slot+1)*nb]
 			cw := f * c.w
-			for _, b := range grey {
-				row[b] += cw * mean[b]
+			for _, r := range grey {
+				a, mn := row[r.lo:r.hi], mean[r.lo:r.hi]
+				mn = mn[:len(a)]
+				for k := range a {
+					a[k] += cw * mn[k]
+				}
 			}
 		}
 	}
 	return true
 }
 
-// Ray states of a bin in gasBlock.
+// States of a bin along a ray, or along all of them, for one gas.
 const (
-	rayDark = iota // transmits nothing
-	rayFull        // needs the gas's k-distribution
-	rayGrey        // takes the gas as grey
+	rayDark int8 = iota // transmits nothing
+	rayFull             // needs the gas's k-distribution
+	rayGrey             // takes the gas as grey
 )
 
 // gasBlock multiplies the transmissions of the bins blk (ascending) by that
@@ -558,8 +597,9 @@ func (m *Model) gasBlock(w *Workspace, gi int, blk []int) {
 				t := tm[r.lo:r.hi]
 				clear(t)
 				for p, c := range mp {
-					row := kw.rows[p] * nb
-					for bb, v := range kg.mean[row+blk[r.lo] : row+blk[r.lo]+len(t)] {
+					row := kw.rows[p]*nb + blk[r.lo]
+					mean := kg.mean[row : row+len(t)]
+					for bb, v := range mean {
 						t[bb] += c * v
 					}
 				}
@@ -571,8 +611,23 @@ func (m *Model) gasBlock(w *Workspace, gi int, blk []int) {
 	}
 }
 
-// binRun is a run [lo, hi) of positions in a block.
+// binRun is a run [lo, hi) of bins, or of positions in a block.
 type binRun struct{ lo, hi int }
+
+// stateRuns appends to dst the runs of bins b with st[b] == want.
+func stateRuns(dst []binRun, st []int8, want int8) []binRun {
+	for b, v := range st {
+		if v != want {
+			continue
+		}
+		if len(dst) > 0 && dst[len(dst)-1].hi == b {
+			dst[len(dst)-1].hi = b + 1
+		} else {
+			dst = append(dst, binRun{b, b + 1})
+		}
+	}
+	return dst
+}
 
 // runs splits the bins blk along ray i into runs of bins in the same state
 // (rayFull or rayGrey) and consecutive in the table.
