@@ -37,8 +37,8 @@ type kWork struct {
 	tauAll      []float64 // nb
 	live        []int     // per bin: lowest ray that transmits
 	column      []float64 // per ray: molecules per unit area along it
-	kmax        []float64 // nb
-	kbar        []float64 // nb
+	kmax        []float64 // per bin: largest top-node k of the rows a ray crosses
+	kbar        []float64 // per bin: largest mean k of the rows a ray crosses
 	rg          []int     // per bin: lowest ray from which the current gas is grey
 	state       []int8    // per bin: rayDark, rayGrey or rayFull for the current gas
 	candRuns    []binRun  // runs of bins that may need the current gas's k-distribution
@@ -51,11 +51,11 @@ type kWork struct {
 	rowAcc      []float64 // 4n
 	tau32       []float32 // pbb*ng
 	tm          []float64 // pbb
-	fullRuns    []binRun
-	greyRuns    []binRun
+	fullRuns    []binRun  // along one ray: runs of a block's bins that need the k-distribution
+	greyRuns    []binRun  // along one ray: runs of a block's bins that take the gas as grey
 	order       []int     // gases, strongest first
 	strength    []float64 // per gas
-	bins        []int     // a gas's bins that need it
+	bins        []int     // the current gas's bins that need its k-distribution along some ray
 	accAll      []float64 // nb
 	lowAll      []float64
 	tkcAll      []float64
@@ -181,8 +181,8 @@ func greyEnough(mx, mean float64) bool {
 }
 
 // transitProduct computes the depths with the product overlap: the grey
-// absorbers of all bins first, then each gas over the bins where it is not
-// negligible.
+// absorbers of all bins first, then each gas, with its k-distribution
+// along the rays where it is not negligible and as grey elsewhere.
 func (m *Model) transitProduct(dst []float64, w *Workspace, g geometry) {
 	km, kw := m.k, w.k
 	n, nb := g.n, km.nb
@@ -193,12 +193,13 @@ func (m *Model) transitProduct(dst []float64, w *Workspace, g geometry) {
 	m.addOpticalDepth(w, g.jlo, kw.agAll)
 	m.transFromTau(w, g.jlo)
 	m.columns(w, g.jlo)
-	// The gases, strongest first, each over the bins where it is not
-	// negligible against what the rays still transmit; where it is, its
-	// mean joins kw.agg, whose transmission multiplies in at the end.
+	// The gases, strongest first, each along the rays that still transmit:
+	// in bins where it is grey along all of them its mean joins kw.agg,
+	// whose transmission multiplies in at the end; in the others gasBlock
+	// takes it with its k-distribution below kw.rg[b], as grey above.
 	clear(kw.agg[g.jlo*nb : n*nb])
 	anyGrey := false
-	for _, gi := range m.gasOrder(w) {
+	for _, gi := range m.gasOrder(w, g.jlo) {
 		m.liveRays(w, g.jlo)
 		jlo := n
 		for _, l := range kw.live {
@@ -335,9 +336,10 @@ func (m *Model) columns(w *Workspace, jlo int) {
 }
 
 // gasOrder returns the gases with a mixing ratio above 0, strongest first:
-// by x times the largest top-node k of any bin at the reference layer, a
-// rough measure that only orders the work (every gas is still computed).
-func (m *Model) gasOrder(w *Workspace) []int {
+// by x times the largest top-node k of any bin at layer jlo, the deepest
+// whose interpolation corners this call has set, a rough measure that only
+// orders the work.
+func (m *Model) gasOrder(w *Workspace, jlo int) []int {
 	km, kw := m.k, w.k
 	nb := km.nb
 	ord := kw.order[:0]
@@ -347,7 +349,7 @@ func (m *Model) gasOrder(w *Workspace) []int {
 		}
 		kg := &km.gases[gi]
 		s := 0.0
-		for _, c := range kw.corner[gi][m.refLay] {
+		for _, c := range kw.corner[gi][jlo] {
 			if c.slot < 0 {
 				continue
 			}
