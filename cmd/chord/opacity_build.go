@@ -67,7 +67,7 @@ var opacityBuildCommand = &cli.Command{
 		&cli.StringFlag{Name: "bins-from", Usage: "k-table bins: the bin edges of an observation `FILE`"},
 		&cli.StringFlag{Name: "quadrature", Value: "12,4@0.95", Usage: "k-table g quadrature: Gauss-Legendre `N[,N2,...@SPLIT,...]`, e.g. 16 or 12,4@0.95"},
 		&cli.Float64Flag{Name: "wing-widths", Usage: "k-tables: cut each line at min(--cutoff, `N` Voigt half-widths) (0: --cutoff alone)"},
-		&cli.Float64Flag{Name: "weak-cut", Usage: "k-tables: lines weaker than `F` times the strongest line within --weak-ref go into a pseudo-continuum (0: none)"},
+		&cli.Float64Flag{Name: "weak-cut", Value: lbl.DefaultWeakCut, Usage: "k-tables: a line weaker than `F` times the strongest line within --weak-ref and whose peak is below F times the local absorption goes into a pseudo-continuum (0: every line profiled)"},
 		&cli.Float64Flag{Name: "weak-ref", Usage: "k-tables: half-width of the neighbourhood of --weak-cut in `CM-1` (0: 1)"},
 		&cli.Float64Flag{Name: "resolution", Usage: "k-tables: resolving power `R` of the fine grid (0: a third of the Doppler half-width at each temperature)"},
 		&cli.IntFlag{Name: "window-lines", Usage: "k-tables: at most about `N` lines held at once (0: 2000000)"},
