@@ -249,3 +249,16 @@ func fallbackNote(counts map[string]int, n int) string {
 	sort.Strings(parts)
 	return "lines without their own broadening parameters use the air values (scaled as given) in their place: " + strings.Join(parts, "; ")
 }
+
+// LorentzWidth returns the Lorentz half-width and the centre shift
+// (cm^-1) of line l at pressure pAtm (atm) and temperature t (K) in the
+// background m (with Broadening b for the air values) and absorber
+// fraction self, as the builders compute them (see Mixture).
+func LorentzWidth(l *Line, m Mixture, b Broadening, self, pAtm, t float64) (gammaL, shift float64, err error) {
+	r, err := newWidthRule(m, b, self, false)
+	if err != nil {
+		return 0, 0, err
+	}
+	gammaL, shift = r.at(l, pAtm, math.Log(TRef/t))
+	return gammaL, shift, nil
+}
