@@ -16,7 +16,7 @@ import (
 	"chord/forward/opacity"
 	"chord/forward/opacity/build"
 	"chord/forward/opacity/exomol"
-	"chord/forward/opacity/internal/synthlines"
+	"chord/internal/synthlines"
 	"chord/forward/opacity/lbl"
 )
 
