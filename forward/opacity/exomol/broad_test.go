@@ -95,3 +95,24 @@ func TestBroadBadInput(t *testing.T) {
 		}
 	}
 }
+
+// FuzzBroad: any .broad input is read or refused with an error naming
+// it; what is read gives finite, non-negative widths.
+func FuzzBroad(f *testing.F) {
+	f.Add([]byte("a0 0.1184 0.500 0\na0 0.1133 0.500 5\n"))
+	f.Add([]byte("a4 0.1133 0.500       5  0  1  1  0\na1 0.05 0.5 3 4\n"))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		b, err := exomol.ParseBroad(strings.NewReader(string(data)), "fuzz.broad", lbl.He)
+		if err != nil {
+			if !strings.Contains(err.Error(), "fuzz.broad") {
+				t.Fatalf("error does not name the input: %v", err)
+			}
+			return
+		}
+		for j := -1.0; j <= b.MaxJ+1; j++ {
+			if g, n, ok := b.Lookup(j, j+1); ok && (!(g >= 0) || math.IsInf(g, 0) || math.IsNaN(n) || math.IsInf(n, 0)) {
+				t.Fatalf("J'' %g: gamma %g, n %g", j, g, n)
+			}
+		}
+	})
+}
