@@ -4,10 +4,10 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"chord/retrieve"
+	"chord/report"
 )
 
-var sinkDetection retrieve.GasDetection
+var sinkDetection report.GasDetection
 
 // BenchmarkClassifyGas: the Savage-Dickey verdict of one gas from a chain
 // of 32 walkers x 1000 steps (once per gas per summary; it sorts a copy
@@ -29,7 +29,7 @@ func BenchmarkClassifyGas(b *testing.B) {
 			}
 			b.ReportAllocs()
 			for b.Loop() {
-				d, err := retrieve.ClassifyGas(x, -12, -1, 1000)
+				d, err := report.ClassifyGas(x, -12, -1, 1000)
 				if err != nil {
 					b.Fatal(err)
 				}

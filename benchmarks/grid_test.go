@@ -5,7 +5,7 @@ import (
 	"strconv"
 	"testing"
 
-	"chord/retrieve"
+	"chord/campaign"
 )
 
 // BenchmarkGridExpand12 expands the example 3 x 4 grid (testdata/grid/
@@ -20,7 +20,7 @@ func BenchmarkGridExpand12(b *testing.B) {
 	n := 0
 	for b.Loop() {
 		n++
-		if _, err := retrieve.CreateGrid(spec, filepath.Join(dir, strconv.Itoa(n)), retrieve.GridOptions{}); err != nil {
+		if _, err := campaign.CreateGrid(spec, filepath.Join(dir, strconv.Itoa(n)), campaign.GridOptions{}); err != nil {
 			b.Fatal(err)
 		}
 	}

@@ -13,6 +13,7 @@ import (
 	"time"
 	"unsafe"
 
+	"chord/config"
 	"chord/forward"
 	"chord/forward/opacity"
 	"chord/retrieve"
@@ -94,7 +95,7 @@ steps = 10
 		fmt.Fprintf(&cfg, "[[parameters]]\nsets = \"log10_vmr\"\ngas = %q\nprior = \"uniform\"\nlow = -12\nhigh = -1\n", g.name)
 		x = append(x, math.Log10(g.vmr))
 	}
-	c, err := retrieve.DecodeConfig(cfg.String(), "w1.toml", dir)
+	c, err := config.Decode(cfg.String(), "w1.toml", dir)
 	if err != nil {
 		tb.Fatal(err)
 	}

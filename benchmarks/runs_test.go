@@ -10,6 +10,8 @@ import (
 	"strings"
 	"testing"
 
+	"chord/chains"
+	"chord/config"
 	"chord/retrieve"
 	"chord/sampler"
 )
@@ -25,14 +27,14 @@ const (
 	runExtra   = 4 // log_likelihood and three derived quantities
 )
 
-func runLayout() retrieve.ChainLayout {
-	l := retrieve.ChainLayout{Walkers: runWalkers, Dim: runDim, NumExtra: runExtra}
-	l.Columns = append(l.Columns, retrieve.ChainColumn{Name: "log_likelihood", Role: retrieve.RoleDerived, Source: 0})
+func runLayout() chains.Layout {
+	l := chains.Layout{Walkers: runWalkers, Dim: runDim, NumExtra: runExtra}
+	l.Columns = append(l.Columns, chains.Column{Name: "log_likelihood", Role: chains.RoleDerived, Source: 0})
 	for j := range runDim {
-		l.Columns = append(l.Columns, retrieve.ChainColumn{Name: fmt.Sprintf("p%02d", j), Role: retrieve.RoleParameter, Source: j, Prior: "uniform(0, 1)"})
+		l.Columns = append(l.Columns, chains.Column{Name: fmt.Sprintf("p%02d", j), Role: chains.RoleParameter, Source: j, Prior: "uniform(0, 1)"})
 	}
 	for j := 1; j < runExtra; j++ {
-		l.Columns = append(l.Columns, retrieve.ChainColumn{Name: fmt.Sprintf("d%d", j), Role: retrieve.RoleDerived, Source: j})
+		l.Columns = append(l.Columns, chains.Column{Name: fmt.Sprintf("d%d", j), Role: chains.RoleDerived, Source: j})
 	}
 	return l
 }
@@ -70,7 +72,7 @@ func BenchmarkChainStore1e6(b *testing.B) {
 	var peakHeap uint64
 	for b.Loop() {
 		dir := b.TempDir()
-		w, err := retrieve.CreateChains(dir, l)
+		w, err := chains.Create(dir, l)
 		if err != nil {
 			b.Fatal(err)
 		}
@@ -144,7 +146,7 @@ func BenchmarkRunOverhead(b *testing.B) {
 	}
 	dir := b.TempDir()
 	b.ResetTimer()
-	out, err := retrieve.StartRun(context.Background(), dir, spec, retrieve.RunOptions{Stop: retrieve.StopRule{Steps: max(b.N, 1)}, Workers: 1, CheckpointSteps: 100})
+	out, err := retrieve.StartRun(context.Background(), dir, spec, retrieve.RunOptions{Stop: config.StopRule{Steps: max(b.N, 1)}, Workers: 1, CheckpointSteps: 100})
 	if err != nil {
 		b.Fatal(err)
 	}

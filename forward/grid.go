@@ -14,6 +14,14 @@ const (
 	DefaultRefPressure    = 10 * Bar
 )
 
+// Default haze power law (Lecavelier des Etangs et al. 2008, A&A 481, L83):
+// slope gamma = -4, the Rayleigh-like slope, at the reference wavelength
+// 0.35 um.
+const (
+	DefaultHazeSlope     = -4.0
+	DefaultHazeReference = 0.35 * Micron
+)
+
 // PressureLevels returns n+1 level pressures (Pa) of n layers, log-spaced
 // from bottom (index 0) to top (index n):
 //

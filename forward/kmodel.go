@@ -50,6 +50,7 @@ type kModel struct {
 	gases   []kGas
 	cia     []kCIA
 	overlap Overlap
+	merged  []string // gases whose tables were merged into the bins
 	// rayleigh (per species, nil when it does not scatter) and lnw are on
 	// the kSub sub-points of every bin (bin-major).
 	rayleigh [][]float64
@@ -69,6 +70,7 @@ type kGas struct {
 	log10P, t []float64 // table axes
 	nT        int
 	k         []float32 // rows (iP*nT+iT) of nb*ng values
+	mean      []float64 // rows of nb values: sum_g W_g k
 }
 
 // kCIA is one collision-induced-absorption table averaged over the model's
@@ -146,7 +148,18 @@ func newKModel(m *Model, cfg Config) (*Model, error) {
 		if err != nil {
 			return nil, fmt.Errorf("forward: %w", err)
 		}
-		km.gases = append(km.gases, kGas{name: t.Gas, sp: sp, log10P: r.Log10P, t: r.T, nT: len(r.T), k: r.K})
+		if r != t && r.Meta[opacity.MetaRebinned] != "" {
+			km.merged = append(km.merged, t.Gas)
+		}
+		kg := kGas{name: t.Gas, sp: sp, log10P: r.Log10P, t: r.T, nT: len(r.T), k: r.K}
+		ng := len(r.G)
+		kg.mean = make([]float64, len(r.K)/ng)
+		for i := range kg.mean {
+			for q, v := range r.K[i*ng : (i+1)*ng] {
+				kg.mean[i] += r.W[q] * float64(v)
+			}
+		}
+		km.gases = append(km.gases, kg)
 	}
 	// Sub-points of every bin, for grey quantities.
 	sub := make([]float64, km.nb*kSub)
@@ -229,4 +242,13 @@ func (m *Model) GPoints() int {
 		return 0
 	}
 	return m.k.ng
+}
+
+// MergedK returns the gases whose k-tables were merged from finer bins into
+// the model's bins (opacity.KTable.Rebin), in table order.
+func (m *Model) MergedK() []string {
+	if m.k == nil {
+		return nil
+	}
+	return slices.Clone(m.k.merged)
 }

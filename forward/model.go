@@ -392,7 +392,7 @@ func (m *Model) scatteringTables(cfg Config, wl []float64) (rayleigh [][]float64
 	m.grey = cfg.Grey
 	ref := cfg.HazeRefWavelength
 	if ref == 0 {
-		ref = 0.35 * Micron
+		ref = DefaultHazeReference
 	}
 	if !(ref > 0) || math.IsInf(ref, 0) {
 		return nil, nil, fmt.Errorf("forward: haze reference wavelength %g m, must be positive", ref)

@@ -47,7 +47,7 @@ type State struct {
 // solar He/H2 ratio and a cloud fraction of 1; radii, mass and profile are
 // left for the caller.
 func (m *Model) DefaultState() State {
-	return State{VMR: make([]float64, len(m.gases)), HeH2: DefaultHeH2, CloudFraction: 1, HazeSlope: -4}
+	return State{VMR: make([]float64, len(m.gases)), HeH2: DefaultHeH2, CloudFraction: 1, HazeSlope: DefaultHazeSlope}
 }
 
 // Reasons a state is rejected, for errors.Is; a retrieval counts them.

@@ -49,11 +49,10 @@ func NewFillGas(fill string, gases []string, log10 []Prior) (*FillGas, error) {
 		if log10[i] == nil {
 			return nil, fmt.Errorf("priors: fill-gas composition: gas %q has no prior", g)
 		}
-		lo, _ := log10[i].Support()
-		if lo > 0 {
+		if lo := log10[i].Quantile(0); lo > 0 {
 			return nil, paramError(g, "log10 mixing ratio prior starts at %g > 0: a mixing ratio above 1", lo)
 		}
-		sumLow += math.Pow(10, lo)
+		sumLow += math.Pow(10, log10[i].Quantile(0))
 	}
 	if !(sumLow < 1) {
 		return nil, fmt.Errorf("priors: fill-gas composition: the lowest mixing ratios the priors allow already sum to %g >= 1", sumLow)
@@ -241,4 +240,10 @@ func CLRCoords(xi, x []float64) {
 	for i := range xi {
 		xi[i] = math.Log(x[i]) - m
 	}
+}
+
+// paramError is the error of an invalid composition-prior definition; it
+// names the gas's parameter.
+func paramError(name, format string, args ...any) error {
+	return fmt.Errorf("prior of parameter %q: %s", name, fmt.Sprintf(format, args...))
 }

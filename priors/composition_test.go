@@ -10,7 +10,7 @@ import (
 )
 
 func TestFillGas(t *testing.T) {
-	u := must(NewUniform("H2O", -12, -0.1))
+	u := must(NewUniform(-12, -0.1))
 	c, err := NewFillGas("H2+He", []string{"H2O", "CH4"}, []Prior{u, u})
 	if err != nil {
 		t.Fatal(err)
@@ -62,14 +62,14 @@ func TestFillGas(t *testing.T) {
 }
 
 func TestFillGasErrors(t *testing.T) {
-	u := must(NewUniform("g", -1, -0.1))
+	u := must(NewUniform(-1, -0.1))
 	for i, f := range []func() error{
 		func() error { _, err := NewFillGas("N2", []string{"H2O", "H2O"}, []Prior{u, u}); return err },
 		func() error { _, err := NewFillGas("N2", []string{"N2"}, []Prior{u}); return err },
 		func() error { _, err := NewFillGas("N2", []string{"a"}, []Prior{u, u}); return err },
 		func() error { _, err := NewFillGas("N2", []string{"a"}, []Prior{nil}); return err },
 		func() error {
-			_, err := NewFillGas("N2", []string{"a"}, []Prior{must(NewUniform("a", 0.5, 1))})
+			_, err := NewFillGas("N2", []string{"a"}, []Prior{must(NewUniform(0.5, 1))})
 			return err
 		},
 		// Lower ends 0.1 x 11 gases > 1: no valid composition.

@@ -6,27 +6,36 @@ import (
 	"math/rand/v2"
 )
 
-// Prior is a one-dimensional prior distribution of a retrieval parameter.
-//
-// LogProb is the normalised log density (-Inf outside the support; Fixed,
-// a point mass, is the exception and says so). Quantile is the inverse of
-// the cumulative distribution, used to place walkers at chosen prior
-// probabilities. Rand draws from the prior with the random source it is
-// given; priors never use a global generator.
-type Prior interface {
+// LogProber is a normalised log density (-Inf outside the support; Fixed,
+// a point mass, is the exception and says so).
+type LogProber interface {
 	LogProb(x float64) float64
-	// Support returns the closed interval outside which LogProb is -Inf;
-	// the ends may be infinite.
-	Support() (lo, hi float64)
+}
+
+// Rander draws from a distribution with the random source it is given;
+// priors never use a global generator.
+type Rander interface {
 	Rand(rng *rand.Rand) float64
-	// Quantile returns x with P(X <= x) = p, for p in [0, 1]. It panics
-	// for p outside [0, 1] (a programmer error).
+}
+
+// Quantiler is the inverse of a cumulative distribution: Quantile returns
+// x with P(X <= x) = p, for p in [0, 1] (Quantile(0) and Quantile(1) are
+// the ends of the support, possibly infinite). It panics for p outside
+// [0, 1] (a programmer error).
+type Quantiler interface {
 	Quantile(p float64) float64
-	Mean() float64
-	Variance() float64
-	// String describes the prior in the notation of the configuration
-	// file, e.g. "uniform(-12, -1)".
-	String() string
+}
+
+// Prior is what a retrieval needs of a one-dimensional prior: its log
+// density (the posterior), draws (initial walkers), quantiles (the start
+// of a chain, range checks) and its description in the notation of the
+// configuration file, e.g. "uniform(-12, -1)". The one-dimensional
+// priors also have Support, Mean and Variance, as methods of their own.
+type Prior interface {
+	LogProber
+	Rander
+	Quantiler
+	fmt.Stringer
 }
 
 var (
@@ -47,25 +56,19 @@ func checkProb(p float64) {
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
-// paramError is the error of an invalid prior definition; it names the
-// parameter whose prior it is.
-func paramError(name, format string, args ...any) error {
-	return fmt.Errorf("prior of parameter %q: %s", name, fmt.Sprintf(format, args...))
-}
-
 // Uniform is the uniform distribution on [Low, High]:
 //
 //	p(x) = 1/(High-Low) for Low <= x <= High.
 type Uniform struct{ Low, High float64 }
 
-// NewUniform returns the uniform prior on [low, high] of the named
-// parameter; both bounds must be finite and low < high.
-func NewUniform(name string, low, high float64) (Uniform, error) {
+// NewUniform returns the uniform prior on [low, high]; both bounds must be
+// finite and low < high.
+func NewUniform(low, high float64) (Uniform, error) {
 	if !finite(low) || !finite(high) {
-		return Uniform{}, paramError(name, "uniform bounds must be finite numbers (got low=%g, high=%g)", low, high)
+		return Uniform{}, fmt.Errorf("uniform bounds must be finite numbers (got low=%g, high=%g)", low, high)
 	}
 	if !(low < high) {
-		return Uniform{}, paramError(name, "uniform prior needs low < high (got low=%g, high=%g)", low, high)
+		return Uniform{}, fmt.Errorf("uniform prior needs low < high (got low=%g, high=%g)", low, high)
 	}
 	return Uniform{low, high}, nil
 }
@@ -96,17 +99,17 @@ func (u Uniform) String() string    { return fmt.Sprintf("uniform(%g, %g)", u.Lo
 // mixing ratio, takes a Uniform prior instead.)
 type LogUniform struct{ Low, High float64 }
 
-// NewLogUniform returns the log-uniform prior on [low, high] of the named
-// parameter; it needs 0 < low < high < +Inf.
-func NewLogUniform(name string, low, high float64) (LogUniform, error) {
+// NewLogUniform returns the log-uniform prior on [low, high]; it needs
+// 0 < low < high < +Inf.
+func NewLogUniform(low, high float64) (LogUniform, error) {
 	if !finite(low) || !finite(high) {
-		return LogUniform{}, paramError(name, "log-uniform bounds must be finite numbers (got low=%g, high=%g)", low, high)
+		return LogUniform{}, fmt.Errorf("log-uniform bounds must be finite numbers (got low=%g, high=%g)", low, high)
 	}
 	if low <= 0 || high <= 0 {
-		return LogUniform{}, paramError(name, "log-uniform bounds must be positive (got low=%g, high=%g)", low, high)
+		return LogUniform{}, fmt.Errorf("log-uniform bounds must be positive (got low=%g, high=%g)", low, high)
 	}
 	if !(low < high) {
-		return LogUniform{}, paramError(name, "log-uniform prior needs low < high (got low=%g, high=%g)", low, high)
+		return LogUniform{}, fmt.Errorf("log-uniform prior needs low < high (got low=%g, high=%g)", low, high)
 	}
 	return LogUniform{low, high}, nil
 }
@@ -146,14 +149,14 @@ func (u LogUniform) String() string { return fmt.Sprintf("log-uniform(%g, %g)", 
 //	p(x) = exp(-(x-Mu)^2 / (2 Sigma^2)) / (Sigma sqrt(2 pi)).
 type Normal struct{ Mu, Sigma float64 }
 
-// NewNormal returns the normal prior of the named parameter; mu must be
-// finite and sigma finite and positive.
-func NewNormal(name string, mu, sigma float64) (Normal, error) {
+// NewNormal returns the normal prior N(mu, sigma); mu must be finite and
+// sigma finite and positive.
+func NewNormal(mu, sigma float64) (Normal, error) {
 	if !finite(mu) {
-		return Normal{}, paramError(name, "normal mean must be a finite number (got %g)", mu)
+		return Normal{}, fmt.Errorf("normal mean must be a finite number (got %g)", mu)
 	}
 	if !finite(sigma) || sigma <= 0 {
-		return Normal{}, paramError(name, "normal width sigma must be positive and finite (got %g)", sigma)
+		return Normal{}, fmt.Errorf("normal width sigma must be positive and finite (got %g)", sigma)
 	}
 	return Normal{mu, sigma}, nil
 }
@@ -199,22 +202,21 @@ type TruncatedNormal struct {
 	lnZ                  float64 // ln Z
 }
 
-// NewTruncatedNormal returns the truncated normal prior of the named
-// parameter. mu must be finite, sigma positive and finite, low < high; the
+// NewTruncatedNormal returns the truncated normal prior. mu must be finite, sigma positive and finite, low < high; the
 // bounds may be infinite but not NaN, and the interval must carry
 // probability mass representable in float64.
-func NewTruncatedNormal(name string, mu, sigma, low, high float64) (TruncatedNormal, error) {
+func NewTruncatedNormal(mu, sigma, low, high float64) (TruncatedNormal, error) {
 	if !finite(mu) {
-		return TruncatedNormal{}, paramError(name, "truncated-normal mean must be a finite number (got %g)", mu)
+		return TruncatedNormal{}, fmt.Errorf("truncated-normal mean must be a finite number (got %g)", mu)
 	}
 	if !finite(sigma) || sigma <= 0 {
-		return TruncatedNormal{}, paramError(name, "truncated-normal width sigma must be positive and finite (got %g)", sigma)
+		return TruncatedNormal{}, fmt.Errorf("truncated-normal width sigma must be positive and finite (got %g)", sigma)
 	}
 	if math.IsNaN(low) || math.IsNaN(high) {
-		return TruncatedNormal{}, paramError(name, "truncated-normal bounds must not be NaN (got low=%g, high=%g)", low, high)
+		return TruncatedNormal{}, fmt.Errorf("truncated-normal bounds must not be NaN (got low=%g, high=%g)", low, high)
 	}
 	if !(low < high) {
-		return TruncatedNormal{}, paramError(name, "truncated-normal prior needs low < high (got low=%g, high=%g)", low, high)
+		return TruncatedNormal{}, fmt.Errorf("truncated-normal prior needs low < high (got low=%g, high=%g)", low, high)
 	}
 	t := TruncatedNormal{Mu: mu, Sigma: sigma, Low: low, High: high}
 	t.alpha = (low - mu) / sigma
@@ -227,7 +229,7 @@ func NewTruncatedNormal(name string, mu, sigma, low, high float64) (TruncatedNor
 		z = stdNormalCDF(t.beta) - stdNormalCDF(t.alpha)
 	}
 	if !(z > 0) {
-		return TruncatedNormal{}, paramError(name, "truncated-normal interval [%g, %g] is too far in the tail of normal(%g, %g): no probability left", low, high, mu, sigma)
+		return TruncatedNormal{}, fmt.Errorf("truncated-normal interval [%g, %g] is too far in the tail of normal(%g, %g): no probability left", low, high, mu, sigma)
 	}
 	t.lnZ = math.Log(z)
 	return t, nil
@@ -284,11 +286,10 @@ func (t TruncatedNormal) String() string {
 // density; 0 keeps sums of log priors unchanged).
 type Fixed struct{ Value float64 }
 
-// NewFixed returns the fixed "prior" of the named parameter; value must be
-// finite.
-func NewFixed(name string, value float64) (Fixed, error) {
+// NewFixed returns the fixed "prior" at value, which must be finite.
+func NewFixed(value float64) (Fixed, error) {
 	if !finite(value) {
-		return Fixed{}, paramError(name, "fixed value must be a finite number (got %g)", value)
+		return Fixed{}, fmt.Errorf("fixed value must be a finite number (got %g)", value)
 	}
 	return Fixed{value}, nil
 }

@@ -11,6 +11,15 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 )
 
+// dist is a one-dimensional prior with the methods of its own that the
+// tests check beside Prior's.
+type dist interface {
+	Prior
+	Support() (lo, hi float64)
+	Mean() float64
+	Variance() float64
+}
+
 // must returns p, panicking on a constructor error (test definitions are
 // all valid).
 func must[T any](p T, err error) T {
@@ -32,14 +41,14 @@ func TestAgainstGonum(t *testing.T) {
 		Variance() float64
 	}
 	cases := []struct {
-		p  Prior
+		p  dist
 		r  ref
 		xs []float64
 	}{
-		{must(NewUniform("a", -12, -1)), distuv.Uniform{Min: -12, Max: -1}, []float64{-12, -11.5, -3, -1}},
-		{must(NewUniform("a", 300, 2500)), distuv.Uniform{Min: 300, Max: 2500}, []float64{300, 1000, 2499}},
-		{must(NewNormal("b", 1.2, 0.05)), distuv.Normal{Mu: 1.2, Sigma: 0.05}, []float64{1, 1.2, 1.31, 2}},
-		{must(NewNormal("b", -3, 2)), distuv.Normal{Mu: -3, Sigma: 2}, []float64{-20, -3, 0, 5}},
+		{must(NewUniform(-12, -1)), distuv.Uniform{Min: -12, Max: -1}, []float64{-12, -11.5, -3, -1}},
+		{must(NewUniform(300, 2500)), distuv.Uniform{Min: 300, Max: 2500}, []float64{300, 1000, 2499}},
+		{must(NewNormal(1.2, 0.05)), distuv.Normal{Mu: 1.2, Sigma: 0.05}, []float64{1, 1.2, 1.31, 2}},
+		{must(NewNormal(-3, 2)), distuv.Normal{Mu: -3, Sigma: 2}, []float64{-20, -3, 0, 5}},
 	}
 	for i, c := range cases {
 		for _, x := range c.xs {
@@ -74,7 +83,7 @@ func TestTruncatedNormalAgainstGonum(t *testing.T) {
 		{0, 1, 2, 4}, // both ends in the upper tail
 		{-1, 0.3, -3, -2},
 	} {
-		p := must(NewTruncatedNormal("t", c.mu, c.sigma, c.lo, c.hi))
+		p := must(NewTruncatedNormal(c.mu, c.sigma, c.lo, c.hi))
 		n := distuv.Normal{Mu: c.mu, Sigma: c.sigma}
 		lnZ := math.Log(n.CDF(c.hi) - n.CDF(c.lo))
 		for _, q := range []float64{0.01, 0.3, 0.5, 0.9, 0.999} {
@@ -117,16 +126,16 @@ func integrate(f func(float64) float64, lo, hi float64, pieces int, logSpaced bo
 // below 1e-40).
 func TestNormalisationAndMoments(t *testing.T) {
 	for i, c := range []struct {
-		p         Prior
+		p         dist
 		logSpaced bool
 	}{
-		{must(NewUniform("u", -12, -1)), false},
-		{must(NewLogUniform("l", 1e-3, 1e3)), true},
-		{must(NewLogUniform("l", 0.5, 2)), true},
-		{must(NewNormal("n", 3, 0.7)), false},
-		{must(NewTruncatedNormal("tn", 0, 1, -0.5, 3)), false},
-		{must(NewTruncatedNormal("tn", 2, 0.5, 2.5, math.Inf(1))), false},
-		{must(NewTruncatedNormal("tn", 0, 1, 3, 5)), false},
+		{must(NewUniform(-12, -1)), false},
+		{must(NewLogUniform(1e-3, 1e3)), true},
+		{must(NewLogUniform(0.5, 2)), true},
+		{must(NewNormal(3, 0.7)), false},
+		{must(NewTruncatedNormal(0, 1, -0.5, 3)), false},
+		{must(NewTruncatedNormal(2, 0.5, 2.5, math.Inf(1))), false},
+		{must(NewTruncatedNormal(0, 1, 3, 5)), false},
 	} {
 		lo, hi := c.p.Support()
 		m, v := c.p.Mean(), c.p.Variance()
@@ -168,11 +177,11 @@ func TestNormalisationAndMoments(t *testing.T) {
 func TestRandMoments(t *testing.T) {
 	const n = 200000
 	rng := rand.New(rand.NewPCG(7, 11))
-	for _, p := range []Prior{
-		must(NewUniform("u", -12, -1)),
-		must(NewLogUniform("l", 1e-2, 1e2)),
-		must(NewNormal("n", 1.1, 0.2)),
-		must(NewTruncatedNormal("tn", 0, 1, 1, 4)),
+	for _, p := range []dist{
+		must(NewUniform(-12, -1)),
+		must(NewLogUniform(1e-2, 1e2)),
+		must(NewNormal(1.1, 0.2)),
+		must(NewTruncatedNormal(0, 1, 1, 4)),
 	} {
 		var s, s2, s4 float64
 		xs := make([]float64, n)
@@ -201,7 +210,7 @@ func TestRandMoments(t *testing.T) {
 }
 
 func TestFixed(t *testing.T) {
-	f := must(NewFixed("f", 2.5))
+	f := must(NewFixed(2.5))
 	rng := rand.New(rand.NewPCG(1, 1))
 	if f.LogProb(2.5) != 0 || !math.IsInf(f.LogProb(2.4), -1) || f.Rand(rng) != 2.5 || f.Quantile(0.3) != 2.5 || f.Variance() != 0 {
 		t.Errorf("fixed prior misbehaves: %v", f)
@@ -211,9 +220,9 @@ func TestFixed(t *testing.T) {
 // TestSpecialValues: NaN and values outside the support have -Inf log prior.
 func TestSpecialValues(t *testing.T) {
 	for _, p := range []Prior{
-		must(NewUniform("u", 0, 1)),
-		must(NewLogUniform("l", 1, 2)),
-		must(NewTruncatedNormal("tn", 0, 1, 0, 1)),
+		must(NewUniform(0, 1)),
+		must(NewLogUniform(1, 2)),
+		must(NewTruncatedNormal(0, 1, 0, 1)),
 	} {
 		for _, x := range []float64{math.NaN(), math.Inf(1), math.Inf(-1), -0.1, 2.1} {
 			if lp := p.LogProb(x); !math.IsInf(lp, -1) {
@@ -227,35 +236,38 @@ func TestSpecialValues(t *testing.T) {
 }
 
 // TestConstructorErrors: every invalid definition is an error naming the
-// parameter.
+// kind of prior (the configuration adds the parameter and its key).
 func TestConstructorErrors(t *testing.T) {
 	nan, inf := math.NaN(), math.Inf(1)
-	for i, f := range []func() error{
-		func() error { _, err := NewUniform("T_iso", 2, 1); return err },
-		func() error { _, err := NewUniform("T_iso", 1, 1); return err },
-		func() error { _, err := NewUniform("T_iso", nan, 1); return err },
-		func() error { _, err := NewUniform("T_iso", 0, inf); return err },
-		func() error { _, err := NewLogUniform("T_iso", 0, 1); return err },
-		func() error { _, err := NewLogUniform("T_iso", -1, 1); return err },
-		func() error { _, err := NewLogUniform("T_iso", 2, 1); return err },
-		func() error { _, err := NewLogUniform("T_iso", 1, nan); return err },
-		func() error { _, err := NewNormal("T_iso", 0, 0); return err },
-		func() error { _, err := NewNormal("T_iso", 0, -1); return err },
-		func() error { _, err := NewNormal("T_iso", nan, 1); return err },
-		func() error { _, err := NewNormal("T_iso", 0, inf); return err },
-		func() error { _, err := NewTruncatedNormal("T_iso", 0, -1, 0, 1); return err },
-		func() error { _, err := NewTruncatedNormal("T_iso", 0, 1, 1, 0); return err },
-		func() error { _, err := NewTruncatedNormal("T_iso", 0, 1, nan, 0); return err },
-		func() error { _, err := NewTruncatedNormal("T_iso", 0, 1, 50, 60); return err },
-		func() error { _, err := NewFixed("T_iso", nan); return err },
+	for i, c := range []struct {
+		kind string
+		f    func() error
+	}{
+		{"uniform", func() error { _, err := NewUniform(2, 1); return err }},
+		{"uniform", func() error { _, err := NewUniform(1, 1); return err }},
+		{"uniform", func() error { _, err := NewUniform(nan, 1); return err }},
+		{"uniform", func() error { _, err := NewUniform(0, inf); return err }},
+		{"log-uniform", func() error { _, err := NewLogUniform(0, 1); return err }},
+		{"log-uniform", func() error { _, err := NewLogUniform(-1, 1); return err }},
+		{"log-uniform", func() error { _, err := NewLogUniform(2, 1); return err }},
+		{"log-uniform", func() error { _, err := NewLogUniform(1, nan); return err }},
+		{"normal", func() error { _, err := NewNormal(0, 0); return err }},
+		{"normal", func() error { _, err := NewNormal(0, -1); return err }},
+		{"normal", func() error { _, err := NewNormal(nan, 1); return err }},
+		{"normal", func() error { _, err := NewNormal(0, inf); return err }},
+		{"truncated-normal", func() error { _, err := NewTruncatedNormal(0, -1, 0, 1); return err }},
+		{"truncated-normal", func() error { _, err := NewTruncatedNormal(0, 1, 1, 0); return err }},
+		{"truncated-normal", func() error { _, err := NewTruncatedNormal(0, 1, nan, 0); return err }},
+		{"truncated-normal", func() error { _, err := NewTruncatedNormal(0, 1, 50, 60); return err }},
+		{"fixed", func() error { _, err := NewFixed(nan); return err }},
 	} {
-		err := f()
+		err := c.f()
 		if err == nil {
 			t.Errorf("case %d: no error", i)
 			continue
 		}
-		if !strings.Contains(err.Error(), `"T_iso"`) {
-			t.Errorf("case %d: error %q does not name the parameter", i, err)
+		if !strings.HasPrefix(err.Error(), c.kind+" ") {
+			t.Errorf("case %d: error %q does not name the %s prior", i, err, c.kind)
 		}
 	}
 }

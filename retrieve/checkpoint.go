@@ -8,13 +8,18 @@ import (
 	"errors"
 	"fmt"
 	"os"
+
+	"chord/chains"
+	"chord/config"
+	"chord/internal/atomicfile"
+	"chord/internal/version"
 )
 
 // Checkpoint file.
 //
-// RUNDIR/checkpoint is written to checkpoint.tmp, synced, renamed and the
-// directory synced, so it is always either the previous or the new
-// checkpoint. Layout (integers little-endian):
+// RUNDIR/checkpoint is written to a temporary file, synced, renamed and
+// the directory synced (atomicfile), so it is always either the previous
+// or the new checkpoint. Layout (integers little-endian):
 //
 //	8 bytes   magic "CHORDCKP"
 //	uint32    format version (checkpointFormat)
@@ -35,26 +40,19 @@ const (
 
 // CheckpointHeader is the part of a checkpoint chord itself reads.
 type CheckpointHeader struct {
-	Version      string     `json:"version"`       // program version that wrote it
-	RunID        string     `json:"run_id"`        // random identity of the run, also in every part
-	ConfigSHA256 string     `json:"config_sha256"` // digest of the resolved configuration and input files
-	Seed         uint64     `json:"seed"`
-	Walkers      int        `json:"walkers"`
-	Dim          int        `json:"dim"`
-	Step         int        `json:"step"`      // steps done; the state is after this step
-	PrevStep     int        `json:"prev_step"` // step of the previous state (start of the newest part)
-	Parts        []PartInfo `json:"parts"`     // committed parts, steps 1 ... Step
-	Elapsed      float64    `json:"elapsed"`   // seconds spent sampling so far, for budgets
-	Evaluations  int64      `json:"evaluations"`
+	Version      string            `json:"version"`       // program version that wrote it
+	RunID        string            `json:"run_id"`        // random identity of the run, also in every part
+	ConfigSHA256 string            `json:"config_sha256"` // digest of the resolved configuration and input files
+	Seed         uint64            `json:"seed"`
+	Walkers      int               `json:"walkers"`
+	Dim          int               `json:"dim"`
+	Step         int               `json:"step"`      // steps done; the state is after this step
+	PrevStep     int               `json:"prev_step"` // step of the previous state (start of the newest part)
+	Parts        []chains.PartInfo `json:"parts"`     // committed parts, steps 1 ... Step
+	Elapsed      float64           `json:"elapsed"`   // seconds spent sampling so far, for budgets
+	Evaluations  int64             `json:"evaluations"`
 	// Stop is the run's stopping rule as set at the start or last resume.
-	Stop StopRule `json:"stop"`
-}
-
-// StopRule is a run's stopping rule: exactly one of its fields is set.
-type StopRule struct {
-	Steps          int     `json:"steps,omitempty"`           // total steps of the run
-	Budget         float64 `json:"budget,omitempty"`          // total sampling seconds
-	UntilConverged bool    `json:"until_converged,omitempty"` // chain longer than 50 tau, tau stable
+	Stop config.StopRule `json:"stop"`
 }
 
 // Checkpoint is a decoded checkpoint file.
@@ -98,7 +96,7 @@ func (c *Checkpoint) UnmarshalBinary(data []byte) error {
 		return damaged("checksum mismatch")
 	}
 	if f := binary.LittleEndian.Uint32(body[8:]); f != checkpointFormat {
-		return fmt.Errorf("checkpoint format %d, this chord (%s) reads format %d", f, Version, checkpointFormat)
+		return fmt.Errorf("checkpoint format %d, this chord (%s) reads format %d", f, version.Version, checkpointFormat)
 	}
 	rest := body[12:]
 	var parts [3][]byte
@@ -132,16 +130,16 @@ func (c *Checkpoint) UnmarshalBinary(data []byte) error {
 // WriteCheckpoint writes c to path atomically (temporary file, fsync,
 // rename, directory fsync).
 func WriteCheckpoint(path string, c *Checkpoint) error {
-	return writeCheckpoint(osFS{}, path, c)
+	return writeCheckpoint(atomicfile.OS, path, c)
 }
 
-func writeCheckpoint(fsys fileSystem, path string, c *Checkpoint) error {
+func writeCheckpoint(fsys atomicfile.FS, path string, c *Checkpoint) error {
 	data, err := c.MarshalBinary()
 	if err != nil {
 		return fmt.Errorf("checkpoint %s: %w", path, err)
 	}
-	if err := writeFileAtomic(fsys, path, data); err != nil {
-		return fmt.Errorf("writing checkpoint %s: %w", path, err)
+	if err := atomicfile.WriteFS(fsys, path, data, true); err != nil {
+		return fmt.Errorf("checkpoint: %w", err)
 	}
 	return nil
 }
@@ -157,7 +155,7 @@ func ReadCheckpoint(path string) (*Checkpoint, error) {
 	}
 	c := new(Checkpoint)
 	if err := c.UnmarshalBinary(data); err != nil {
-		return nil, fmt.Errorf("checkpoint %s: %w; it is not used (no silent restart): restore it from a copy, or start the run again with chord fit --force", path, err)
+		return nil, fmt.Errorf("checkpoint %s: %w; it is not used (no silent restart): restore it from a copy, or start the run again", path, err)
 	}
 	return c, nil
 }

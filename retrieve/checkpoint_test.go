@@ -9,15 +9,21 @@ import (
 	"strings"
 	"syscall"
 	"testing"
+
+	"chord/chains"
+	"chord/config"
+	"chord/internal/atomicfile"
+	"chord/internal/testenv"
+	"chord/internal/version"
 )
 
 func testCheckpoint() *Checkpoint {
 	return &Checkpoint{
 		CheckpointHeader: CheckpointHeader{
-			Version: Version, RunID: "r1", ConfigSHA256: "abc", Seed: 7, Walkers: 4, Dim: 3,
+			Version: version.Version, RunID: "r1", ConfigSHA256: "abc", Seed: 7, Walkers: 4, Dim: 3,
 			Step: 10, PrevStep: 6, Elapsed: 1.5, Evaluations: 40,
-			Parts: []PartInfo{{Name: partName(1), FirstStep: 1, LastStep: 6, Rows: 24, Size: 99, SHA256: "00"}},
-			Stop:  StopRule{Steps: 100},
+			Parts: []chains.PartInfo{{Name: "part-000001.parquet", FirstStep: 1, LastStep: 6, Rows: 24, Size: 99, SHA256: "00"}},
+			Stop:  config.StopRule{Steps: 100},
 		},
 		State: []byte("state after 10"),
 		Prev:  []byte("state after 6"),
@@ -37,8 +43,8 @@ func TestCheckpointRoundTrip(t *testing.T) {
 	if !reflect.DeepEqual(got, c) {
 		t.Errorf("read %+v, wrote %+v", got, c)
 	}
-	if _, err := os.Stat(path + ".tmp"); !os.IsNotExist(err) {
-		t.Errorf("temporary file left: %v", err)
+	if left, _ := filepath.Glob(filepath.Join(filepath.Dir(path), atomicfile.TempPattern(path))); len(left) > 0 {
+		t.Errorf("temporary file left: %v", left)
 	}
 }
 
@@ -87,7 +93,7 @@ func TestCheckpointFullDisk(t *testing.T) {
 	}
 	c := testCheckpoint()
 	c.Step = 20
-	err := writeCheckpoint(&fullDisk{limit: 10}, path, c)
+	err := writeCheckpoint(&testenv.FullDisk{Limit: 10}, path, c)
 	if !errors.Is(err, syscall.ENOSPC) || !strings.Contains(err.Error(), path) {
 		t.Fatalf("error %v", err)
 	}
@@ -95,8 +101,8 @@ func TestCheckpointFullDisk(t *testing.T) {
 	if err != nil || got.Step != 10 {
 		t.Fatalf("previous checkpoint lost: %v %v", got, err)
 	}
-	if _, err := os.Stat(path + ".tmp"); !os.IsNotExist(err) {
-		t.Errorf("temporary file left: %v", err)
+	if left, _ := filepath.Glob(filepath.Join(filepath.Dir(path), atomicfile.TempPattern(path))); len(left) > 0 {
+		t.Errorf("temporary file left: %v", left)
 	}
 }
 

@@ -1,7 +1,6 @@
-// Package retrieve runs retrievals: configuration, observations, likelihood,
-// orchestration of the sampler, the chain store, summaries, plots and
-// comparisons between runs.
+// Package retrieve fits one retrieval configuration: its posterior
+// (Problem: parameter vector to forward-model state, priors and Gaussian
+// likelihood), sampled into a resumable run directory (Fit, Resume and
+// Report of one run: run.toml, the chain store, the checkpoint and the
+// report).
 package retrieve
-
-// Version is the program version, written into every output chord makes.
-const Version = "0.1.0-dev"

@@ -9,8 +9,10 @@ import (
 	"sync"
 	"sync/atomic"
 
+	"chord/config"
 	"chord/forward"
 	"chord/forward/opacity"
+	"chord/forward/opacity/lbl"
 	"chord/priors"
 	"chord/sampler"
 )
@@ -37,8 +39,9 @@ import (
 // ratios over 1, cloud below the bottom, unusable temperatures) gives
 // -Inf, and the reason is counted (Rejections).
 type Problem struct {
+	notes    []string // what the summary says about the opacity tables (OpacityNotes)
 	model    *forward.Model
-	res      *Resolved
+	res      *config.Resolved
 	base     forward.State
 	free     []binding
 	fixed    []binding
@@ -72,7 +75,7 @@ type Problem struct {
 // binding is a parameter bound to the model: its quantity, its index (gas
 // in State.VMR or data set) and its prior.
 type binding struct {
-	q     Quantity
+	q     config.Quantity
 	index int
 	prior priors.Prior
 	value float64 // for fixed parameters
@@ -98,6 +101,30 @@ var reasonNames = [numReasons]string{
 	"other invalid physical state",
 }
 
+// OpacityNotes returns what a run's summary should say about the opacity
+// tables of fc as model m uses them: k-tables merged from finer bins (a
+// few ppm of extra error, measured in docs/opacity-accuracy.md), k-tables
+// whose fine grid was coarser than the Doppler rule, and point
+// cross-section tables (sampled at the model grid: noisy against a
+// line-by-line spectrum unless the grid resolves the lines).
+func OpacityNotes(fc forward.Config, m *forward.Model) []string {
+	var out []string
+	if merged := m.MergedK(); len(merged) > 0 {
+		out = append(out, fmt.Sprintf("the k-tables of %s were merged from finer bins into the observation's bins (Leconte 2021): a few ppm of extra error, see docs/opacity-accuracy.md", strings.Join(merged, ", ")))
+	}
+	for _, t := range fc.KTables {
+		for _, w := range strings.Split(t.Meta[lbl.MetaWarnings], "\n") {
+			if strings.Contains(w, "coarser than a third of the Doppler") {
+				out = append(out, fmt.Sprintf("k-table %s: %s", t.Gas, w))
+			}
+		}
+	}
+	if len(fc.XSec) > 0 {
+		out = append(out, "point cross-section tables sample the lines at the model grid: unless the grid resolves the lines (resolving power of about 1e6), binned depths are noisy by tens to hundreds of ppm; use k-tables for fits")
+	}
+	return out
+}
+
 // Extra values stored with every sample, in this order.
 var extraNames = []string{"log_likelihood", "mean_molecular_weight", "fill_vmr", "chi2"}
 
@@ -105,7 +132,7 @@ var extraNames = []string{"log_likelihood", "mean_molecular_weight", "fill_vmr",
 // (as loaded by r.Config.LoadOpacity). It checks that every bin lies
 // within the model grid and that every free gas has an opacity source;
 // errors name the file and line or the key.
-func NewProblem(r *Resolved, set *opacity.Set) (*Problem, error) {
+func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if set == nil {
 		set = &opacity.Set{XSec: map[string]*opacity.XSecTable{}}
 	}
@@ -119,13 +146,11 @@ func NewProblem(r *Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
-	minPts := 2
-	if mc.Spectrum.MinBinPoints != nil {
-		minPts = *mc.Spectrum.MinBinPoints
-	}
-	for _, d := range r.Datasets {
-		if err := d.CheckCoverage(fc.Wavelength, minPts); err != nil {
-			return nil, err
+	if fc.Wavelength != nil { // a model grid (point cross-sections): bins need points on it
+		for _, d := range r.Datasets {
+			if err := d.CheckCoverage(fc.Wavelength, fc.MinBinPoints); err != nil {
+				return nil, err
+			}
 		}
 	}
 	if err := checkOpacity(r, fc); err != nil {
@@ -135,11 +160,12 @@ func NewProblem(r *Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
+	notes := OpacityNotes(fc, m)
 	base, err := mc.State(m)
 	if err != nil {
 		return nil, err
 	}
-	p := &Problem{model: m, res: r, base: base, gasIndex: map[string]int{}, nDS: len(r.Datasets)}
+	p := &Problem{model: m, res: r, base: base, gasIndex: map[string]int{}, nDS: len(r.Datasets), notes: notes}
 	for i, g := range m.Gases() {
 		p.gasIndex[g] = i
 	}
@@ -155,12 +181,12 @@ func NewProblem(r *Resolved, set *opacity.Set) (*Problem, error) {
 			p.ds = append(p.ds, k)
 		}
 	}
-	bind := func(par Param) binding {
+	bind := func(par config.Param) binding {
 		b := binding{q: par.Sets, index: par.Dataset, prior: par.Prior}
-		if par.Sets == QLog10VMR {
+		if par.Sets == config.QLog10VMR {
 			b.index = p.gasIndex[par.Gas]
 		}
-		if par.Sets == QErrorInflationPM {
+		if par.Sets == config.QErrorInflationPM {
 			p.inflate = true
 		}
 		if f, ok := par.Prior.(priors.Fixed); ok {
@@ -170,7 +196,7 @@ func NewProblem(r *Resolved, set *opacity.Set) (*Problem, error) {
 	}
 	for _, par := range r.Free {
 		p.free = append(p.free, bind(par))
-		if par.Sets == QCLR {
+		if par.Sets == config.QCLR {
 			p.clrGas = append(p.clrGas, p.gasIndex[par.Gas])
 		}
 	}
@@ -185,13 +211,16 @@ func NewProblem(r *Resolved, set *opacity.Set) (*Problem, error) {
 
 // checkOpacity rejects a free gas with no opacity source: no cross-section
 // table, no CIA pair and no Rayleigh scattering in the model.
-func checkOpacity(r *Resolved, fc forward.Config) error {
-	for _, par := range append(append([]Param(nil), r.Free...), r.Fixed...) {
-		if par.Sets != QLog10VMR {
+func checkOpacity(r *config.Resolved, fc forward.Config) error {
+	for _, par := range append(append([]config.Param(nil), r.Free...), r.Fixed...) {
+		if par.Sets != config.QLog10VMR {
 			continue
 		}
 		ok := false
 		for _, t := range fc.XSec {
+			ok = ok || t.Gas == par.Gas
+		}
+		for _, t := range fc.KTables {
 			ok = ok || t.Gas == par.Gas
 		}
 		for _, t := range fc.CIA {
@@ -205,15 +234,22 @@ func checkOpacity(r *Resolved, fc forward.Config) error {
 			for _, t := range fc.XSec {
 				have = append(have, t.Gas)
 			}
+			for _, t := range fc.KTables {
+				have = append(have, t.Gas)
+			}
 			if len(have) == 0 {
 				have = append(have, "none")
 			}
-			return keyErr(par.key+".gas", "gas %q has no opacity: no cross-section table (tables loaded for: %s), no CIA pair and no Rayleigh scattering; its abundance cannot be measured",
-				par.Gas, strings.Join(have, ", "))
+			return &config.KeyError{Key: par.Key + ".gas", Msg: fmt.Sprintf("gas %q has no opacity: no cross-section table (tables loaded for: %s), no CIA pair and no Rayleigh scattering; its abundance cannot be measured",
+				par.Gas, strings.Join(have, ", "))}
 		}
 	}
 	return nil
 }
+
+// Notes returns what the run's summary should say about the opacity
+// tables (OpacityNotes).
+func (p *Problem) Notes() []string { return p.notes }
 
 // Dim returns the number of free parameters.
 func (p *Problem) Dim() int { return len(p.free) }
@@ -251,7 +287,7 @@ func (p *Problem) Priors() []priors.Prior {
 func (p *Problem) Model() *forward.Model { return p.model }
 
 // Resolved returns the configuration the problem was built from.
-func (p *Problem) Resolved() *Resolved { return p.res }
+func (p *Problem) Resolved() *config.Resolved { return p.res }
 
 // NewEvaluator returns an evaluator for one goroutine (sampler.Target).
 func (p *Problem) NewEvaluator() sampler.Evaluator { return p.NewPosteriorEvaluator() }
@@ -335,37 +371,37 @@ func (e *PosteriorEvaluator) reject(reason int, extra []float64) float64 {
 func (e *PosteriorEvaluator) set(b *binding, v float64) {
 	s := &e.state
 	switch b.q {
-	case QLog10VMR:
+	case config.QLog10VMR:
 		s.VMR[b.index] = math.Pow(10, v)
-	case QTemperature:
+	case config.QTemperature:
 		e.iso.T = v
-	case QTIrr:
+	case config.QTIrr:
 		e.gui.TIrr = v
-	case QTInt:
+	case config.QTInt:
 		e.gui.TInt = v
-	case QLog10KappaIR:
+	case config.QLog10KappaIR:
 		e.gui.KappaIR = math.Pow(10, v)
-	case QLog10Gamma:
+	case config.QLog10Gamma:
 		e.gui.Gamma = math.Pow(10, v)
-	case QRadiusRjup:
+	case config.QRadiusRjup:
 		s.RefRadius = v * forward.JupiterRadius
-	case QRadiusRearth:
+	case config.QRadiusRearth:
 		s.RefRadius = v * forward.EarthRadius
-	case QMassMjup:
+	case config.QMassMjup:
 		s.Mass = v * forward.JupiterMass
-	case QMassMearth:
+	case config.QMassMearth:
 		s.Mass = v * forward.EarthMass
-	case QLog10CloudTop:
+	case config.QLog10CloudTop:
 		s.CloudTop = math.Pow(10, v) * forward.Bar
-	case QCloudFraction:
+	case config.QCloudFraction:
 		s.CloudFraction = v
-	case QLog10HazeFactor:
+	case config.QLog10HazeFactor:
 		s.HazeFactor = math.Pow(10, v)
-	case QHazeSlope:
+	case config.QHazeSlope:
 		s.HazeSlope = v
-	case QOffsetPPM:
+	case config.QOffsetPPM:
 		e.off[b.index] = v * 1e-6
-	case QErrorInflationPM:
+	case config.QErrorInflationPM:
 		s := v * 1e-6
 		if b.index < 0 {
 			for k := range e.s2 {

@@ -2,15 +2,20 @@ package retrieve
 
 import (
 	"context"
+	"errors"
 	"math"
 	"math/rand/v2"
+	"path/filepath"
+	"strings"
 	"sync"
 	"testing"
 
 	"gonum.org/v1/gonum/floats/scalar"
 	"gonum.org/v1/gonum/stat/distuv"
 
+	"chord/config"
 	"chord/forward"
+	"chord/forward/opacity"
 	"chord/priors"
 	"chord/sampler"
 )
@@ -20,14 +25,40 @@ import (
 // cloud fraction, log10 haze, haze slope, mass (Earth), offset, inflation.
 var likelihoodX = []float64{1000, 1.1, -3, -4, -2, 0.6, 1, -4, 222, 0, 0}
 
-func loadProblem(t *testing.T, name string) (*Resolved, *Problem) {
+func loadProblem(t *testing.T, name string) (*config.Resolved, *Problem) {
 	t.Helper()
-	r := loadGood(t, name)
+	r, err := config.Load(filepath.Join("..", "testdata", "cfg", name))
+	if err != nil {
+		t.Fatal(err)
+	}
 	p, err := NewProblem(r, nil)
 	if err != nil {
 		t.Fatal(err)
 	}
 	return r, p
+}
+
+// TestBadConfigsProblem: configurations whose errors are found only once
+// the model and opacities are known (config's TestBadConfigs checks that
+// they resolve) are errors naming the key or the observation file and line.
+func TestBadConfigsProblem(t *testing.T) {
+	// A key at fault, or the observation file's error.
+	r, err := config.Load(filepath.Join("..", "testdata", "bad", "cfg-no-opacity-gas.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, err = NewProblem(r, &opacity.Set{})
+	if ke := (*config.KeyError)(nil); !errors.As(err, &ke) || ke.Key != "parameters[2].gas" {
+		t.Errorf("gas without opacity: %v, want a KeyError of parameters[2].gas", err)
+	}
+	r, err = config.Load(filepath.Join("..", "testdata", "bad", "cfg-bins-outside.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, err = NewProblem(r, &opacity.Set{})
+	if err == nil || !strings.Contains(err.Error(), "/testdata/obs/wide.csv:20: bin 4.4-4.6 um lies outside the model wavelength range") {
+		t.Errorf("bin outside the model grid: %v, want the observation file and line", err)
+	}
 }
 
 // TestLogLikelihoodClosedForm: with the data equal to the model the
@@ -240,7 +271,7 @@ func TestDrawPrior(t *testing.T) {
 			if v != b[k][i] {
 				t.Fatalf("draw %d not reproducible", k)
 			}
-			if lo, hi := p.Priors()[i].Support(); v < lo || v > hi {
+			if lo, hi := p.Priors()[i].Quantile(0), p.Priors()[i].Quantile(1); v < lo || v > hi {
 				t.Errorf("draw %d: %s = %g outside the prior", k, p.ParamNames()[i], v)
 			}
 		}

@@ -2,73 +2,24 @@ package retrieve
 
 import (
 	"context"
+	"errors"
 	"fmt"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"chord/chains"
+	"chord/config"
+	"chord/internal/testenv"
+	"chord/simulate"
 )
 
-// A small scenario for fits in tests: the demo's Ossery b with a coarse
-// model (20 layers, R = 120) and coarse bins (R = 20, 43 bins), four free
-// parameters.
-const smallTruth = `
-[star]
-name = "Ossery"
-radius_rsun = 0.42
-[planet]
-name = "Ossery b"
-radius_rearth = 2.45
-mass_mearth = 6.8
-[atmosphere]
-top_pressure_bar = 1e-6
-bottom_pressure_bar = 10
-layers = 20
-[atmosphere.gases]
-H2O = 3e-3
-CH4 = 1e-3
-CO2 = 1e-4
-[atmosphere.temperature]
-profile = "isothermal"
-temperature_k = 520
-[clouds]
-haze_factor = 100
-[opacity]
-demo = true
-cia = ["H2-H2", "H2-He"]
-rayleigh = ["H2", "He"]
-[spectrum]
-wavelength_min_um = 0.6
-wavelength_max_um = 5.2
-resolving_power = 120
-bin_resolving_power = 20
-`
-
-// smallFit is the retrieval configuration of smallTruth (%d: steps, %d: seed).
-const smallFit = `
-[star]
-radius_rsun = 0.42
-[planet]
-mass_mearth = 6.8
-[atmosphere]
-top_pressure_bar = 1e-6
-bottom_pressure_bar = 10
-layers = 20
-[atmosphere.gases]
-CO2 = 1e-4
-[atmosphere.temperature]
-profile = "isothermal"
-[clouds]
-haze_factor = 100
-[opacity]
-demo = true
-cia = ["H2-H2", "H2-He"]
-rayleigh = ["H2", "He"]
-[spectrum]
-wavelength_min_um = 0.6
-wavelength_max_um = 5.2
-resolving_power = 120
+// smallParameters are the small scenario's free parameters and sampler
+// settings (%d: steps, %d: seed).
+const smallParameters = `
 [[observations]]
 file = "obs.csv"
 [[parameters]]
@@ -108,7 +59,7 @@ var smallTruthValues = map[string]float64{
 // testDemoCache is the demo opacity cache the tests share (built once).
 func testDemoCache(t *testing.T) string {
 	t.Helper()
-	cache, err := DemoCacheDir()
+	cache, err := config.DemoCacheDir()
 	if err != nil {
 		t.Skip(err)
 	}
@@ -117,9 +68,9 @@ func testDemoCache(t *testing.T) string {
 
 // demoProblem loads the retrieval configuration at path and its problem,
 // with the demo opacity tables of the shared cache.
-func demoProblem(t *testing.T, path string) (*Resolved, *Problem) {
+func demoProblem(t *testing.T, path string) (*config.Resolved, *Problem) {
 	t.Helper()
-	r, err := LoadConfig(path)
+	r, err := config.Load(path)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -150,22 +101,19 @@ func chi2At(t *testing.T, p *Problem, x []float64) (chi2, n float64) {
 // returns the configuration's path.
 func setupSmall(t *testing.T, dir string, steps int, seed uint64, noisy bool) string {
 	t.Helper()
-	truthPath := filepath.Join(dir, "truth.toml")
-	if err := os.WriteFile(truthPath, []byte(smallTruth), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	truth, err := DecodeModelConfig(truthPath)
+	truth, err := config.LoadModel(testenv.Fixture(t, "ossery-small.toml").Write(filepath.Join(dir, "truth.toml")))
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := SimulateObservation(filepath.Join(dir, "obs.csv"), truth, testDemoCache(t), nil, 35, noisy, seed); err != nil {
+	if err := simulate.ObserveModel(filepath.Join(dir, "obs.csv"), truth, testDemoCache(t), nil, 35, noisy, seed); err != nil {
 		t.Fatal(err)
 	}
-	cfg := filepath.Join(dir, "fit.toml")
-	if err := os.WriteFile(cfg, []byte(fmt.Sprintf(smallFit, steps, seed)), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	return cfg
+	// The retrieval configuration: the truth without the values of the four
+	// free parameters and without bins (the observation's are used).
+	return testenv.Fixture(t, "ossery-small.toml").Delete("star.name").Delete("planet.name").
+		Delete("planet.radius_rearth").Delete("atmosphere.gases.H2O").Delete("atmosphere.gases.CH4").
+		Delete("atmosphere.temperature.temperature_k").Delete("spectrum.bin_resolving_power").
+		Append(fmt.Sprintf(smallParameters, steps, seed)).Write(filepath.Join(dir, "fit.toml"))
 }
 
 // Injection and recovery: observations simulated from known parameters
@@ -217,7 +165,7 @@ func TestInjectionRecovery(t *testing.T) {
 	}
 	// The chain files read back with the independent reader: walkers x
 	// steps rows, the configuration's parameter names as columns.
-	cols, rows := readIndependent(t, filepath.Join(dir, "run", ChainsDir))
+	cols, rows := testenv.ParquetRows(t, filepath.Join(dir, "run", chains.DirName, "part-*.parquet"))
 	if len(rows) != 16*steps {
 		t.Errorf("%d rows, want 16 x %d", len(rows), steps)
 	}
@@ -250,10 +198,10 @@ func TestRunBadInputs(t *testing.T) {
 	runDir := filepath.Join(dir, "run")
 	os.MkdirAll(runDir, 0o755)
 	os.WriteFile(filepath.Join(runDir, "notes.txt"), []byte("mine"), 0o644)
-	if _, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "not empty") || !strings.Contains(err.Error(), "--force") {
+	if _, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, DemoCache: testDemoCache(t)}); !errors.As(err, new(*NotEmptyError)) || !errors.Is(err, fs.ErrExist) {
 		t.Errorf("non-empty run directory: %v", err)
 	}
-	rep, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, Force: true, DemoCache: testDemoCache(t), Stop: StopRule{Steps: 6}})
+	rep, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, Force: true, DemoCache: testDemoCache(t), Stop: config.StopRule{Steps: 6}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -275,7 +223,7 @@ func TestRunBadInputs(t *testing.T) {
 	}
 	// The observation changes: resume refuses, naming it.
 	os.WriteFile(obs, append(data, []byte("# edited\n")...), 0o644)
-	if _, err := Resume(ctx, runDir, ResumeOptions{Stop: StopRule{Steps: 10}, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "obs.csv changed since the run started") {
+	if _, err := Resume(ctx, runDir, ResumeOptions{Stop: config.StopRule{Steps: 10}, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "obs.csv changed since the run started") {
 		t.Errorf("changed observation: %v", err)
 	}
 	os.WriteFile(obs, data, 0o644)
@@ -283,44 +231,14 @@ func TestRunBadInputs(t *testing.T) {
 	rt := filepath.Join(runDir, RunFile)
 	text, _ := os.ReadFile(rt)
 	os.WriteFile(rt, []byte(strings.Replace(string(text), "low = 250.0", "low = 260.0", 1)), 0o644)
-	if _, err := Resume(ctx, runDir, ResumeOptions{Stop: StopRule{Steps: 10}, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "changed since the run started") {
+	if _, err := Resume(ctx, runDir, ResumeOptions{Stop: config.StopRule{Steps: 10}, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "changed since the run started") {
 		t.Errorf("edited run.toml: %v", err)
 	}
 	os.WriteFile(rt, text, 0o644)
-	if rep, err := Resume(ctx, runDir, ResumeOptions{Stop: StopRule{Steps: 10}, DemoCache: testDemoCache(t)}); err != nil || rep.Outcome.Step != 10 {
+	if rep, err := Resume(ctx, runDir, ResumeOptions{Stop: config.StopRule{Steps: 10}, DemoCache: testDemoCache(t)}); err != nil || rep.Outcome.Step != 10 {
 		t.Errorf("resume after restoring: %v", err)
 	}
 	if _, err := Resume(ctx, dir, ResumeOptions{}); err == nil || !strings.Contains(err.Error(), "not a run directory") {
 		t.Errorf("resume of a non-run: %v", err)
-	}
-}
-
-// The demo's files: the observation it simulates and the configuration it
-// leaves are accepted as they are by the configuration loader (what chord
-// fit -c does), and at the truth the chi-square of the noisy observation is
-// N +- 5 sqrt(2N) (chi-square distribution with N = 86 degrees of freedom,
-// fact of statistics; the demo's seed gives 86.4).
-func TestDemoFiles(t *testing.T) {
-	if testing.Short() {
-		t.Skip("builds or loads the demo opacities")
-	}
-	dir := t.TempDir()
-	truth, err := DemoTruth()
-	if err != nil {
-		t.Fatal(err)
-	}
-	if err := SimulateObservation(filepath.Join(dir, DemoObservationFile), truth, testDemoCache(t), nil, DemoNoisePPM, true, DemoNoiseSeed); err != nil {
-		t.Fatal(err)
-	}
-	text, err := demoFiles.ReadFile("testdata/demo/" + DemoConfigFile)
-	if err != nil {
-		t.Fatal(err)
-	}
-	cfg := filepath.Join(dir, DemoConfigFile)
-	os.WriteFile(cfg, text, 0o644)
-	_, p := demoProblem(t, cfg)
-	x := []float64{math.Log10(3e-3), -3, -4, 520, 2.45, 2} // ossery-b-truth.toml
-	if chi2, n := chi2At(t, p, x); n != 86 || math.Abs(chi2-n) > 5*math.Sqrt(2*n) {
-		t.Errorf("chi-square at the truth %.1f for %g bins", chi2, n)
 	}
 }

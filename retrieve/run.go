@@ -9,8 +9,8 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
-	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"slices"
@@ -20,13 +20,17 @@ import (
 	"time"
 
 	"github.com/BurntSushi/toml"
-	"github.com/parquet-go/parquet-go"
-	"gonum.org/v1/gonum/mat"
-	"gonum.org/v1/gonum/optimize"
 
+	"chord/chains"
+	"chord/config"
 	"chord/forward"
 	"chord/forward/opacity"
+	"chord/internal/atomicfile"
+	"chord/internal/logto"
+	"chord/internal/version"
+	"chord/obs"
 	"chord/priors"
+	"chord/report"
 	"chord/sampler"
 )
 
@@ -42,12 +46,14 @@ import (
 // sampler's position history is rebuilt by replaying the stored chain, so
 // that the rule stops at the same step as an uninterrupted run.
 
-// Names inside a run directory.
+// Names inside a run directory (the chain store is chains.DirName).
 const (
 	RunFile        = "run.toml"
-	ChainsDir      = "chains"
 	CheckpointFile = "checkpoint"
 )
+
+// convergenceRule describes the until-converged stopping rule.
+var convergenceRule = fmt.Sprintf("chain longer than %g tau, tau stable to %g%%", sampler.DefaultConvergedTaus, 100*sampler.DefaultTauRelChange)
 
 // CheckpointInterval is the wall-clock time aimed at between checkpoints
 // when RunOptions.CheckpointSteps is 0.
@@ -56,8 +62,8 @@ const CheckpointInterval = time.Minute
 // RunSpec is a validated retrieval ready to sample.
 type RunSpec struct {
 	Target sampler.Target
-	Layout ChainLayout  // must agree with Target (Dim, NumExtra)
-	Move   sampler.Move // nil means the stretch move, a = 2
+	Layout chains.Layout // must agree with Target (Dim, NumExtra)
+	Move   sampler.Move  // nil means the stretch move, a = 2
 	Seed   uint64
 	// Init draws the initial ensemble (step 0) from Seed.
 	Init func(ctx context.Context, workers int) (*sampler.State, error)
@@ -72,7 +78,7 @@ type RunOptions struct {
 	Workers int // goroutines evaluating the posterior; 0 means GOMAXPROCS
 	// Stop is the stopping rule; for ContinueRun the zero value keeps the
 	// run's rule.
-	Stop StopRule
+	Stop config.StopRule
 	// CheckpointSteps is the number of steps between checkpoints; 0 chooses
 	// it so that checkpoints come about every CheckpointInterval.
 	CheckpointSteps int
@@ -118,7 +124,7 @@ func StartRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions) (*
 		return nil, fmt.Errorf("initial walkers: %w", err)
 	}
 	stepTime := time.Since(t0)
-	w, err := CreateChains(filepath.Join(dir, ChainsDir), spec.Layout)
+	w, err := chains.Create(filepath.Join(dir, chains.DirName), spec.Layout)
 	if err != nil {
 		return nil, err
 	}
@@ -143,16 +149,16 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 		return nil, err
 	}
 	if ck.ConfigSHA256 != spec.ConfigSHA256 {
-		return nil, fmt.Errorf("%s: the checkpoint belongs to a run with configuration digest %s, the run's configuration and inputs now give %s: they changed since the run started; start a new run with chord fit instead", dir, short(ck.ConfigSHA256), short(spec.ConfigSHA256))
+		return nil, fmt.Errorf("%s: the checkpoint belongs to a run with configuration digest %s, the run's configuration and inputs now give %s: they changed since the run started; start a new run instead", dir, short(ck.ConfigSHA256), short(spec.ConfigSHA256))
 	}
 	if ck.Walkers != spec.Layout.Walkers || ck.Dim != spec.Layout.Dim {
 		return nil, fmt.Errorf("%s: the checkpoint holds %d walkers x %d parameters, the configuration gives %d x %d", dir, ck.Walkers, ck.Dim, spec.Layout.Walkers, spec.Layout.Dim)
 	}
 	out := &RunOutcome{}
-	chains := filepath.Join(dir, ChainsDir)
+	store := filepath.Join(dir, chains.DirName)
 	parts, stateBytes := ck.Parts, ck.State
-	if err := CheckParts(chains, parts); err != nil {
-		var pe *PartError
+	if err := chains.CheckParts(store, parts); err != nil {
+		var pe *chains.PartError
 		n := len(parts)
 		if !errors.As(err, &pe) || pe.Index != n-1 || ck.Prev == nil || ck.PrevStep != parts[n-1].FirstStep-1 {
 			return nil, fmt.Errorf("%s: %w; the rows of these steps cannot be recovered", dir, err)
@@ -174,17 +180,17 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 	if st.Step != last {
 		return nil, fmt.Errorf("%s: the checkpoint's state is at step %d but its parts end at step %d", dir, st.Step, last)
 	}
-	removed, err := trimParts(osFS{}, chains, parts)
+	removed, err := chains.Trim(store, parts)
 	out.Removed = removed
 	if err != nil {
 		return nil, err
 	}
-	w, err := newChainWriter(osFS{}, chains, spec.Layout, parts)
+	w, err := chains.NewWriter(atomicfile.OS, store, spec.Layout, parts)
 	if err != nil {
 		return nil, err
 	}
 	stop := opt.Stop
-	if stop == (StopRule{}) {
+	if stop == (config.StopRule{}) {
 		stop = ck.Stop
 	}
 	if err := checkStop(stop); err != nil {
@@ -206,7 +212,7 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 		return nil, err
 	}
 	if len(parts) > 0 {
-		if err := replay(chains, parts, &spec.Layout, r.histories()...); err != nil {
+		if err := replay(store, parts, &spec.Layout, r.histories()...); err != nil {
 			return nil, fmt.Errorf("%s: replaying the chain: %w", dir, err)
 		}
 	}
@@ -223,7 +229,7 @@ func checkSpec(spec *RunSpec) error {
 	return nil
 }
 
-func checkStop(s StopRule) error {
+func checkStop(s config.StopRule) error {
 	n := 0
 	if s.Steps > 0 {
 		n++
@@ -263,8 +269,8 @@ type runner struct {
 	dir   string
 	spec  *RunSpec
 	opt   RunOptions
-	stop  StopRule
-	w     *ChainWriter
+	stop  config.StopRule
+	w     *chains.Writer
 	last  *Checkpoint
 	evals int64
 	base  time.Duration // sampling time of earlier sessions
@@ -304,7 +310,7 @@ func (r *runner) histories() []sampler.Recorder {
 
 // Record implements sampler.Recorder.
 func (r *runner) Record(s *sampler.Step) error {
-	if err := r.w.WriteStep(s.Index, s.Pos, s.LogP, s.Extra); err != nil {
+	if err := r.w.Record(s); err != nil {
 		return err
 	}
 	r.evals += int64(s.Walkers)
@@ -347,8 +353,8 @@ func (r *runner) writeCheckpoint(st *sampler.State) error {
 	}
 	ck := &Checkpoint{
 		CheckpointHeader: CheckpointHeader{
-			Version: Version, RunID: r.spec.RunID, ConfigSHA256: r.spec.ConfigSHA256, Seed: r.spec.Seed,
-			Walkers: st.Walkers, Dim: st.Dim, Step: st.Step, Parts: append([]PartInfo(nil), parts...),
+			Version: version.Version, RunID: r.spec.RunID, ConfigSHA256: r.spec.ConfigSHA256, Seed: r.spec.Seed,
+			Walkers: st.Walkers, Dim: st.Dim, Step: st.Step, Parts: append([]chains.PartInfo(nil), parts...),
 			Elapsed: elapsed.Seconds(), Evaluations: r.evals, Stop: r.stop,
 		},
 		State: data,
@@ -394,7 +400,7 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 		}
 		set.MaxDuration = left
 	case r.stop.UntilConverged:
-		set.Convergence = &sampler.Convergence{Factor: ConvergedTaus, Window: SokalWindow, History: r.conv}
+		set.Convergence = &sampler.Convergence{History: r.conv}
 	}
 	if r.opt.Progress.Writer != nil {
 		r.prog = newProgress(r.opt.Progress, r.stop, st, r.base, r.layoutLogLikelihood())
@@ -408,21 +414,20 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 	out.Tau = res.Tau
 	if err != nil {
 		r.w.Abort()
-		safe := "no checkpoint was written"
-		if r.last != nil {
-			safe = fmt.Sprintf("the chain up to the last checkpoint (step %d) is intact; fix the cause and continue it with: chord resume %s", r.last.Step, r.dir)
+		if r.last == nil {
+			return out, fmt.Errorf("%w; no checkpoint was written", err)
 		}
-		return out, fmt.Errorf("%w; %s", err, safe)
+		return out, &StoppedError{Dir: r.dir, Step: r.last.Step, Err: err}
 	}
 	if err := r.checkpoint(st); err != nil {
-		return out, fmt.Errorf("%w; the chain up to step %d is intact: chord resume %s", err, r.last.Step, r.dir)
+		return out, &StoppedError{Dir: r.dir, Step: r.last.Step, Err: err}
 	}
 	out.Stop = res.Stop
 	out.Step = st.Step
 	out.TotalElapsed = secs(r.last.Elapsed)
 	out.Evaluations = r.evals
 	if out.Tau == nil && r.progHist != nil {
-		if tau, ok := r.progHist.Tau(nil, SokalWindow); ok {
+		if tau, ok := r.progHist.Tau(nil, sampler.DefaultSokalWindow); ok {
 			out.Tau = tau
 		}
 	}
@@ -432,7 +437,7 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 // layoutLogLikelihood is the extra index of the log_likelihood column, or -1.
 func (r *runner) layoutLogLikelihood() int {
 	for _, c := range r.spec.Layout.Columns {
-		if c.Name == "log_likelihood" && c.Role == RoleDerived {
+		if c.Name == "log_likelihood" && c.Role == chains.RoleDerived {
 			return c.Source
 		}
 	}
@@ -440,37 +445,35 @@ func (r *runner) layoutLogLikelihood() int {
 }
 
 // replay streams the stored chain, step by step, into the recorders.
-func replay(dir string, parts []PartInfo, l *ChainLayout, recs ...sampler.Recorder) error {
+func replay(dir string, parts []chains.PartInfo, l *chains.Layout, recs ...sampler.Recorder) error {
 	if len(recs) == 0 {
 		return nil
 	}
+	r, err := chains.NewReader(dir, parts)
+	if err != nil {
+		return err
+	}
+	defer r.Close()
 	step := &sampler.Step{
 		Walkers: l.Walkers, Dim: l.Dim, NumExtra: l.NumExtra,
 		Pos: make([]float64, l.Walkers*l.Dim), LogP: make([]float64, l.Walkers),
 		Extra: make([]float64, l.Walkers*l.NumExtra), Accepted: make([]bool, l.Walkers),
 	}
-	_, err := scanParts(dir, parts, func(cols []ChainColumn, walkers int) {}, func(s, k int, row parquet.Row) error {
-		step.Index = s
-		step.LogP[k] = row[2].Double()
-		for j, c := range l.Columns {
-			v := row[3+j].Double()
-			if c.Role == RoleParameter {
-				step.Pos[k*l.Dim+c.Source] = v
-			} else {
-				step.Extra[k*l.NumExtra+c.Source] = v
-			}
-		}
-		if k < l.Walkers-1 {
+	for {
+		if _, err := r.Next(); err == io.EOF {
 			return nil
+		} else if err != nil {
+			return err
+		}
+		if err := r.StepTo(step); err != nil {
+			return err
 		}
 		for _, rec := range recs {
 			if err := rec.Record(step); err != nil {
 				return err
 			}
 		}
-		return nil
-	})
-	return err
+	}
 }
 
 // progress reports a session's progress.
@@ -478,7 +481,7 @@ type progress struct {
 	w        io.Writer
 	terminal bool
 	every    time.Duration
-	stop     StopRule
+	stop     config.StopRule
 	base     time.Duration
 	llIndex  int
 
@@ -490,7 +493,7 @@ type progress struct {
 	drawn                   bool
 }
 
-func newProgress(opt Progress, stop StopRule, st *sampler.State, base time.Duration, ll int) *progress {
+func newProgress(opt Progress, stop config.StopRule, st *sampler.State, base time.Duration, ll int) *progress {
 	every := opt.LogInterval
 	if every == 0 {
 		every = 30 * time.Second
@@ -525,7 +528,7 @@ func (p *progress) step(s *sampler.Step, h *sampler.History) {
 		return
 	}
 	if now.Sub(p.lastTau) > 5*time.Second || !p.terminal {
-		tau, _ := h.Tau(nil, SokalWindow)
+		tau, _ := h.Tau(nil, sampler.DefaultSokalWindow)
 		p.tau = 0
 		for _, t := range tau {
 			if t > p.tau || math.IsNaN(t) {
@@ -567,14 +570,14 @@ func (p *progress) print(final bool) {
 		case p.stop.Budget > 0:
 			left = secs(p.stop.Budget) - p.base - el
 		default:
-			need := ConvergedTaus*p.tau - float64(p.cur)
+			need := sampler.DefaultConvergedTaus*p.tau - float64(p.cur)
 			ok = !math.IsNaN(p.tau) && p.tau > 0
 			left = secs(math.Max(need, 0) / rate)
 		}
 		if ok {
 			fmt.Fprintf(&b, ", about %s left", left.Round(time.Second))
 			if p.stop.UntilConverged {
-				b.WriteString(" to 50 tau")
+				fmt.Fprintf(&b, " to %g tau", sampler.DefaultConvergedTaus)
 			}
 		}
 	}
@@ -628,7 +631,7 @@ type InputFile struct {
 
 // runFile is run.toml as decoded.
 type runFile struct {
-	Config
+	config.Config
 	Run RunInfo `toml:"run"`
 }
 
@@ -647,7 +650,7 @@ func fileSHA256(path string) (string, error) {
 
 // runInputs lists the inputs of a resolved configuration whose contents
 // the chain depends on, with their digests.
-func runInputs(r *Resolved, set *opacity.Set) ([]InputFile, error) {
+func runInputs(r *config.Resolved, set *opacity.Set) ([]InputFile, error) {
 	var in []InputFile
 	add := func(role, path string) error {
 		h, err := fileSHA256(path)
@@ -675,7 +678,7 @@ func runInputs(r *Resolved, set *opacity.Set) ([]InputFile, error) {
 // configDigest is the digest a checkpoint is bound to: the resolved
 // configuration (without the stopping rule and workers, which resume may
 // change) and the digests of the inputs.
-func configDigest(r *Resolved, inputs []InputFile) (string, error) {
+func configDigest(r *config.Resolved, inputs []InputFile) (string, error) {
 	c := r.Config
 	c.Sampler.Steps, c.Sampler.Budget, c.Sampler.UntilConverged, c.Sampler.Workers = nil, "", nil, nil
 	var b bytes.Buffer
@@ -691,7 +694,7 @@ func configDigest(r *Resolved, inputs []InputFile) (string, error) {
 
 // job is a resolved configuration made ready to run.
 type job struct {
-	res    *Resolved
+	res    *config.Resolved
 	set    *opacity.Set
 	prob   *Problem
 	spec   *RunSpec
@@ -699,10 +702,10 @@ type job struct {
 }
 
 // quantityUnit is the unit of each quantity in chains and reports.
-var quantityUnit = map[Quantity]string{
-	QTemperature: "K", QTIrr: "K", QTInt: "K", QLog10KappaIR: "log10(m^2/kg)",
-	QRadiusRjup: "R_jup", QRadiusRearth: "R_earth", QMassMjup: "M_jup", QMassMearth: "M_earth",
-	QLog10CloudTop: "log10(bar)", QOffsetPPM: "ppm", QErrorInflationPM: "ppm",
+var quantityUnit = map[config.Quantity]string{
+	config.QTemperature: "K", config.QTIrr: "K", config.QTInt: "K", config.QLog10KappaIR: "log10(m^2/kg)",
+	config.QRadiusRjup: "R_jup", config.QRadiusRearth: "R_earth", config.QMassMjup: "M_jup", config.QMassMearth: "M_earth",
+	config.QLog10CloudTop: "log10(bar)", config.QOffsetPPM: "ppm", config.QErrorInflationPM: "ppm",
 }
 
 // derivedInfo describes the Problem's extra values after the first.
@@ -712,7 +715,7 @@ var derivedInfo = map[string][2]string{
 	"chi2":                  {"chi-square with the (inflated) errors", ""},
 }
 
-func newJob(r *Resolved, set *opacity.Set, runID string) (*job, error) {
+func newJob(r *config.Resolved, set *opacity.Set, runID string) (*job, error) {
 	prob, err := NewProblem(r, set)
 	if err != nil {
 		return nil, err
@@ -729,23 +732,23 @@ func newJob(r *Resolved, set *opacity.Set, runID string) (*job, error) {
 	if len(extras) == 0 || extras[0] != "log_likelihood" {
 		return nil, fmt.Errorf("run: the problem's first extra value is %v, want log_likelihood", extras)
 	}
-	l := ChainLayout{Walkers: r.Walkers, Dim: prob.Dim(), NumExtra: prob.NumExtra(),
-		Meta: map[string]string{"chord.version": Version, "chord.run_id": runID, "chord.seed": strconv.FormatUint(r.Seed, 10),
+	l := chains.Layout{Walkers: r.Walkers, Dim: prob.Dim(), NumExtra: prob.NumExtra(),
+		Meta: map[string]string{"chord.version": version.Version, "chord.run_id": runID, "chord.seed": strconv.FormatUint(r.Seed, 10),
 			"chord.demo_opacities": strconv.FormatBool(set.Demo)}}
-	l.Columns = append(l.Columns, ChainColumn{Name: "log_likelihood", Role: RoleDerived, Source: 0, Quantity: "natural log of the likelihood, with its normalising term"})
+	l.Columns = append(l.Columns, chains.Column{Name: "log_likelihood", Role: chains.RoleDerived, Source: 0, Quantity: "natural log of the likelihood, with its normalising term"})
 	for i, par := range r.Free {
 		q := string(par.Sets)
 		switch {
 		case par.Gas != "":
 			q += " of " + par.Gas
-		case par.Dataset >= 0 && (par.Sets == QOffsetPPM || par.Sets == QErrorInflationPM):
+		case par.Dataset >= 0 && (par.Sets == config.QOffsetPPM || par.Sets == config.QErrorInflationPM):
 			q += " of " + r.Datasets[par.Dataset].Name
 		}
-		l.Columns = append(l.Columns, ChainColumn{Name: par.Name, Role: RoleParameter, Source: i, Quantity: q, Unit: quantityUnit[par.Sets], Prior: fmt.Sprint(par.Prior)})
+		l.Columns = append(l.Columns, chains.Column{Name: par.Name, Role: chains.RoleParameter, Source: i, Quantity: q, Unit: quantityUnit[par.Sets], Prior: fmt.Sprint(par.Prior)})
 	}
 	for j := 1; j < len(extras); j++ {
 		info := derivedInfo[extras[j]]
-		l.Columns = append(l.Columns, ChainColumn{Name: extras[j], Role: RoleDerived, Source: j, Quantity: info[0], Unit: info[1]})
+		l.Columns = append(l.Columns, chains.Column{Name: extras[j], Role: chains.RoleDerived, Source: j, Quantity: info[0], Unit: info[1]})
 	}
 	var move sampler.Move
 	switch r.Move {
@@ -759,7 +762,7 @@ func newJob(r *Resolved, set *opacity.Set, runID string) (*job, error) {
 	spec := &RunSpec{
 		Target: prob, Layout: l, Move: move, Seed: r.Seed, RunID: runID, ConfigSHA256: digest,
 		Init: func(ctx context.Context, workers int) (*sampler.State, error) {
-			pos, err := startBall(prob, r.Walkers, r.Seed)
+			pos, err := sampler.StartBall(prob, prob.DrawPrior, priorWidths(prob.Priors()), r.Walkers, r.Seed)
 			if err != nil {
 				return nil, err
 			}
@@ -769,189 +772,23 @@ func newJob(r *Resolved, set *opacity.Set, runID string) (*job, error) {
 	return &job{res: r, set: set, prob: prob, spec: spec, inputs: inputs}, nil
 }
 
-// Start of a chain. Walkers drawn from the whole prior can stay stuck in
-// poor local modes (a walker whose proposals come from walkers far away
-// rarely moves), so the initial ensemble is a small ball around a good
-// point instead, found before the first step:
-//
-//  1. StartDraws x walkers draws from the prior (Problem.DrawPrior, valid
-//     states only); the one of highest posterior is kept;
-//  2. a Nelder-Mead search of at most StartEvaluations x dim evaluations
-//     from it;
-//  3. walkers drawn from the Laplace approximation there, N(x, H^-1) with H
-//     the Hessian of -ln p by finite differences (so that the ensemble
-//     starts with about the posterior's spread and correlations, and the
-//     burn-in is short), or, where H is not positive definite, from
-//     x + N(0, (StartScale w_k)^2), w_k being the prior's central 68%
-//     width; each walker redrawn where the posterior is zero (next to a
-//     prior edge, say), up to 1000 times.
-//
-// Everything is drawn from the run's seed (its own PCG stream), so a fit is
-// reproducible from its seed; the ensemble then spreads over the posterior
-// during the burn-in. Common practice for ensemble samplers.
-const (
-	StartDraws       = 8
-	StartEvaluations = 150
-	StartScale       = 0.01
-)
-
-func startBall(prob *Problem, walkers int, seed uint64) ([]float64, error) {
-	rng := rand.New(rand.NewPCG(seed, 0x9e3779b97f4a7c15))
-	dim := prob.Dim()
-	eval := prob.NewPosteriorEvaluator()
-	extra := make([]float64, prob.NumExtra())
-	x := make([]float64, dim)
-	best, bestLP := make([]float64, dim), math.Inf(-1)
-	for range StartDraws * walkers {
-		if err := prob.DrawPrior(x, rng); err != nil {
-			return nil, fmt.Errorf("initial walkers: %w", err)
-		}
-		if lp := eval.LogProb(x, extra); lp > bestLP {
-			bestLP = lp
-			copy(best, x)
-		}
+// priorWidths returns the central 68% widths of the priors, the scales of
+// the start of a chain (sampler.StartBall).
+func priorWidths(ps []priors.Prior) []float64 {
+	w := make([]float64, len(ps))
+	for k, pr := range ps {
+		w[k] = pr.Quantile(0.84) - pr.Quantile(0.16)
 	}
-	scale := make([]float64, dim)
-	for k, pr := range prob.Priors() {
-		w := pr.Quantile(0.84) - pr.Quantile(0.16)
-		if !(w > 0) || math.IsInf(w, 0) {
-			w = 1
-		}
-		scale[k] = StartScale * w
-	}
-	negLP := func(x []float64) float64 {
-		lp := eval.LogProb(x, extra)
-		if math.IsNaN(lp) || math.IsInf(lp, -1) {
-			return math.Inf(1)
-		}
-		return -lp
-	}
-	nelderMead(best, negLP, scale, StartEvaluations*dim)
-	u := laplaceFactor(best, negLP, scale)
-	pos := make([]float64, walkers*dim)
-	z := make([]float64, dim)
-	for k := range walkers {
-		w := pos[k*dim : (k+1)*dim]
-		ok := false
-		for try := 0; try < 1000 && !ok; try++ {
-			for i := range z {
-				z[i] = rng.NormFloat64()
-			}
-			if u != nil {
-				// w = best + U^-1 z (back substitution): covariance (U^T U)^-1.
-				for i := dim - 1; i >= 0; i-- {
-					v := z[i]
-					for j := i + 1; j < dim; j++ {
-						v -= u.At(i, j) * (w[j] - best[j])
-					}
-					w[i] = best[i] + v/u.At(i, i)
-				}
-			} else {
-				for i := range w {
-					w[i] = best[i] + scale[i]*z[i]
-				}
-			}
-			lp := eval.LogProb(w, extra)
-			ok = !math.IsNaN(lp) && !math.IsInf(lp, 0)
-		}
-		if !ok {
-			return nil, fmt.Errorf("initial walkers: no valid point in 1000 draws around the best start %v", best)
-		}
-	}
-	return pos, nil
-}
-
-// laplaceFactor returns the upper Cholesky factor U of the Hessian H = U^T U
-// of f (the negative log posterior) at its minimum x, from central finite
-// differences with steps 0.1 step[k], or nil when H is not positive
-// definite or its implied standard deviations exceed 100 step[k] (then the
-// plain ball is used). N(x, H^-1) is the Laplace approximation of the
-// posterior (a normal with the curvature at the mode; standard result).
-func laplaceFactor(x []float64, f func([]float64) float64, step []float64) *mat.TriDense {
-	n := len(x)
-	f0 := f(x)
-	if math.IsInf(f0, 0) || math.IsNaN(f0) {
-		return nil
-	}
-	y := slices.Clone(x)
-	at := func(i int, di float64, j int, dj float64) float64 {
-		copy(y, x)
-		y[i] += di
-		y[j] += dj
-		return f(y)
-	}
-	h := mat.NewSymDense(n, nil)
-	for i := range n {
-		hi := 0.1 * step[i]
-		h.SetSym(i, i, (at(i, hi, i, 0)-2*f0+at(i, -hi, i, 0))/(hi*hi))
-		for j := i + 1; j < n; j++ {
-			hj := 0.1 * step[j]
-			h.SetSym(i, j, (at(i, hi, j, hj)-at(i, hi, j, -hj)-at(i, -hi, j, hj)+at(i, -hi, j, -hj))/(4*hi*hj))
-		}
-	}
-	var ch mat.Cholesky
-	if !ch.Factorize(h) {
-		return nil
-	}
-	var cov mat.SymDense
-	if err := ch.InverseTo(&cov); err != nil {
-		return nil
-	}
-	for i := range n {
-		if sd := math.Sqrt(cov.At(i, i)); !(sd > 0) || sd > 100*step[i] {
-			return nil
-		}
-	}
-	u := mat.NewTriDense(n, mat.Upper, nil)
-	ch.UTo(u)
-	return u
-}
-
-// nelderMead minimises f from x (overwritten with the best point found)
-// with gonum's Nelder-Mead simplex method (gonum v0.17.0 optimize; Nelder &
-// Mead 1965, Comput. J. 7, 308), the initial simplex stepping 10 step[k]
-// along each axis, for at most maxEval evaluations. A search that ends
-// early or fails keeps the best point it saw; x is only a start for the
-// walkers, so no convergence is needed.
-func nelderMead(x []float64, f func([]float64) float64, step []float64, maxEval int) {
-	n := len(x)
-	verts := make([][]float64, n+1)
-	vals := make([]float64, n+1)
-	for i := range verts {
-		verts[i] = slices.Clone(x)
-		if i > 0 {
-			verts[i][i-1] += 10 * step[i-1]
-		}
-		vals[i] = f(verts[i])
-	}
-	method := &optimize.NelderMead{InitialVertices: verts, InitialValues: vals}
-	settings := &optimize.Settings{
-		FuncEvaluations: maxEval,
-		Converger:       &optimize.FunctionConverge{Absolute: 1e-6, Iterations: 20 * n},
-	}
-	// The search is a heuristic start: an error (evaluation limit, a
-	// failed step) still leaves the best point seen in res.
-	res, _ := optimize.Minimize(optimize.Problem{Func: f}, x, settings, method)
-	if res != nil && !math.IsNaN(res.F) && res.F <= vals[0] {
-		copy(x, res.X)
-		return
-	}
-	b := 0
-	for i := range vals {
-		if vals[i] < vals[b] {
-			b = i
-		}
-	}
-	copy(x, verts[b])
+	return w
 }
 
 // gases lists the free log10 mixing ratios with a uniform prior, for the
 // detection verdicts.
-func (j *job) gases() []GasParam {
-	var g []GasParam
+func (j *job) gases() []report.GasParam {
+	var g []report.GasParam
 	for _, par := range j.res.Free {
-		if u, ok := par.Prior.(priors.Uniform); ok && par.Sets == QLog10VMR {
-			g = append(g, GasParam{Column: par.Name, Gas: par.Gas, Low: u.Low, High: u.High})
+		if u, ok := par.Prior.(priors.Uniform); ok && par.Sets == config.QLog10VMR {
+			g = append(g, report.GasParam{Column: par.Name, Gas: par.Gas, Low: u.Low, High: u.High})
 		}
 	}
 	return g
@@ -991,7 +828,7 @@ func (m *reportModel) ModelDepth(dst, x []float64) error {
 }
 
 // report writes the report of the job's run in dir.
-func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome) (*Summary, string, error) {
+func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome) (*report.Summary, string, error) {
 	ck, err := ReadCheckpoint(filepath.Join(dir, CheckpointFile))
 	if err != nil {
 		return nil, "", err
@@ -1000,13 +837,13 @@ func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome)
 		return nil, "", fmt.Errorf("%s: the chain has no steps yet", dir)
 	}
 	title := j.res.Config.Planet.Name
-	s, err := WriteReport(dir, ck.Parts, ReportOptions{
+	s, err := report.Write(dir, ck.Parts, report.Options{
 		Burn: burn, BurnAuto: auto, Thin: thin, Gases: j.gases(), Model: &reportModel{j: j}, Title: title,
-		Fill: func(s *Summary) {
+		Fill: func(s *report.Summary) {
 			s.RunID = ck.RunID
 			s.DemoOpacities = j.set.Demo
 			if s.DemoOpacities {
-				s.Warnings = append(s.Warnings, DemoWarning)
+				s.Warnings = append(s.Warnings, report.DemoWarning)
 			}
 			if out != nil {
 				s.Stop = out.Stop.String()
@@ -1024,6 +861,7 @@ func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome)
 			for _, n := range j.res.Notes {
 				s.Warnings = append(s.Warnings, "note: "+n)
 			}
+			s.Warnings = append(s.Warnings, j.prob.Notes()...)
 		},
 	})
 	if err != nil {
@@ -1038,13 +876,13 @@ func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome)
 type FitOptions struct {
 	ConfigPath string
 	RunDir     string
-	Force      bool      // replace a run in a non-empty RunDir
-	Seed       *uint64   // overrides sampler.seed
-	Workers    *int      // overrides sampler.workers
-	Stop       StopRule  // overrides the configuration's rule when set
-	DemoCache  string    // where demo opacities are cached; "" means DemoCacheDir
-	Progress   Progress  // progress reports
-	Log        io.Writer // notes (opacity building, observation notes); nil means Progress.Writer
+	Force      bool            // replace a run in a non-empty RunDir
+	Seed       *uint64         // overrides sampler.seed
+	Workers    *int            // overrides sampler.workers
+	Stop       config.StopRule // overrides the configuration's rule when set
+	DemoCache  string          // where demo opacities are cached; "" means config.DemoCacheDir
+	Progress   Progress        // progress reports
+	Log        io.Writer       // notes (opacity building, observation notes); nil means Progress.Writer
 	// CheckpointSteps is the number of steps between checkpoints; 0 means
 	// about one every CheckpointInterval.
 	CheckpointSteps int
@@ -1058,14 +896,43 @@ type RunReport struct {
 	Dir         string
 	Walkers     int
 	Outcome     *RunOutcome
-	Summary     *Summary // nil when the run was interrupted
+	Summary     *report.Summary // nil when the run was interrupted
 	SummaryText string
 	// ConfigFile and ObservationFile are the demo's files (Demo only).
 	ConfigFile, ObservationFile string
 }
 
-// runEntries are the names chord writes in a run directory.
-var runEntries = []string{RunFile, ChainsDir, CheckpointFile, CheckpointFile + ".tmp", "summary.json", "summary.txt", "corner.png", "spectrum.png", RunFile + ".tmp", "summary.json.tmp", "summary.txt.tmp", "corner.png.tmp", "spectrum.png.tmp"}
+// runEntries are the names chord writes in a run directory (their
+// temporary files, atomicfile.TempPattern, too).
+var runEntries = []string{RunFile, chains.DirName, CheckpointFile, "summary.json", "summary.txt", "corner.png", "spectrum.png"}
+
+// StoppedError is the error of a session that stopped on an error after a
+// checkpoint: the chain up to the checkpoint's step is intact, and the run
+// can be resumed from it once the cause is fixed.
+type StoppedError struct {
+	Dir  string // the run directory
+	Step int    // the step of the last checkpoint
+	Err  error  // why the session stopped
+}
+
+func (e *StoppedError) Error() string {
+	return fmt.Sprintf("%v; the chain up to the last checkpoint (step %d) is intact", e.Err, e.Step)
+}
+
+func (e *StoppedError) Unwrap() error { return e.Err }
+
+// NotEmptyError refuses a new run in a directory that holds something
+// (FitOptions.Force replaces the run in it). It is an fs.ErrExist.
+type NotEmptyError struct {
+	Dir, Entry string // the directory and an entry in it
+}
+
+func (e *NotEmptyError) Error() string {
+	return fmt.Sprintf("run directory %s is not empty (it holds %s)", e.Dir, e.Entry)
+}
+
+// Is reports whether target is fs.ErrExist.
+func (e *NotEmptyError) Is(target error) bool { return target == fs.ErrExist }
 
 // checkRunDir refuses a non-empty dir unless force: a new run needs an
 // absent or empty directory.
@@ -1078,7 +945,7 @@ func checkRunDir(dir string, force bool) error {
 		return err
 	}
 	if len(ents) > 0 && !force {
-		return fmt.Errorf("run directory %s is not empty (it holds %s): choose another, or pass --force to replace the run in it", dir, ents[0].Name())
+		return &NotEmptyError{Dir: dir, Entry: ents[0].Name()}
 	}
 	return nil
 }
@@ -1091,29 +958,14 @@ func prepareRunDir(dir string) error {
 		return err
 	}
 	for _, name := range runEntries {
-		if err := os.RemoveAll(filepath.Join(dir, name)); err != nil {
-			return err
+		tmp, _ := filepath.Glob(filepath.Join(dir, atomicfile.TempPattern(name)))
+		for _, p := range append(tmp, filepath.Join(dir, name)) {
+			if err := os.RemoveAll(p); err != nil {
+				return err
+			}
 		}
 	}
 	return nil
-}
-
-func demoCache(dir string, r *Resolved) (string, error) {
-	if dir != "" || !r.Config.Opacity.Demo {
-		return dir, nil
-	}
-	return DemoCacheDir()
-}
-
-// logTo returns the first of ws that is not nil, else io.Discard: where
-// a command's messages go when its options leave them unset.
-func logTo(ws ...io.Writer) io.Writer {
-	for _, w := range ws {
-		if w != nil {
-			return w
-		}
-	}
-	return io.Discard
 }
 
 func newRunID() string {
@@ -1124,14 +976,14 @@ func newRunID() string {
 
 // Fit validates a configuration, starts a run in opt.RunDir and reports it.
 func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
-	log := logTo(opt.Log, opt.Progress.Writer)
-	r, err := LoadConfig(opt.ConfigPath)
+	log := logto.First(opt.Log, opt.Progress.Writer)
+	r, err := config.Load(opt.ConfigPath)
 	if err != nil {
 		return nil, err
 	}
 	if opt.Seed != nil {
 		if *opt.Seed > math.MaxInt64 { // TOML integers are signed 64-bit
-			return nil, fmt.Errorf("--seed %d: must be below 2^63", *opt.Seed)
+			return nil, fmt.Errorf("seed %d: must be below 2^63", *opt.Seed)
 		}
 		r.Seed = *opt.Seed
 		s := int64(*opt.Seed)
@@ -1140,13 +992,13 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	}
 	if opt.Workers != nil {
 		if *opt.Workers < 0 {
-			return nil, fmt.Errorf("--workers %d: must not be negative", *opt.Workers)
+			return nil, fmt.Errorf("workers %d: must not be negative", *opt.Workers)
 		}
 		r.Workers = *opt.Workers
 		w := r.Workers
 		r.Config.Sampler.Workers = &w
 	}
-	if opt.Stop != (StopRule{}) {
+	if opt.Stop != (config.StopRule{}) {
 		r.Stop = opt.Stop
 		sc := &r.Config.Sampler
 		sc.Steps, sc.Budget, sc.UntilConverged = nil, "", nil
@@ -1167,30 +1019,26 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	if err := checkRunDir(opt.RunDir, opt.Force); err != nil {
 		return nil, err
 	}
-	cache, err := demoCache(opt.DemoCache, r)
-	if err != nil {
-		return nil, err
-	}
 	set := opt.Opacity
 	if set == nil {
-		if set, err = r.Config.LoadOpacity(cache, log); err != nil {
-			return nil, fmt.Errorf("%s: %w", opt.ConfigPath, err)
+		if set, err = r.Config.LoadOpacity(opt.DemoCache, log); err != nil {
+			return nil, config.InFile(opt.ConfigPath, err)
 		}
 	}
 	if set.Demo {
-		fmt.Fprintln(log, "chord: "+DemoWarning)
+		fmt.Fprintln(log, "chord: "+report.DemoWarning)
 	}
 	runID := newRunID()
 	j, err := newJob(r, set, runID)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w", opt.ConfigPath, err)
+		return nil, config.InFile(opt.ConfigPath, err)
 	}
 	cfgHash, err := fileSHA256(opt.ConfigPath)
 	if err != nil {
 		return nil, err
 	}
 	abs, _ := filepath.Abs(opt.ConfigPath)
-	info := RunInfo{Version: Version, RunID: runID, Created: time.Now().UTC().Format(time.RFC3339), ConfigFile: abs, Demo: set.Demo,
+	info := RunInfo{Version: version.Version, RunID: runID, Created: time.Now().UTC().Format(time.RFC3339), ConfigFile: abs, Demo: set.Demo,
 		Inputs: append([]InputFile{{Role: "configuration", Path: abs, SHA256: cfgHash}}, j.inputs...)}
 	var buf bytes.Buffer
 	if err := r.WriteTOML(&buf); err != nil {
@@ -1205,8 +1053,8 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	if err := prepareRunDir(opt.RunDir); err != nil {
 		return nil, err
 	}
-	if err := writeFileAtomic(osFS{}, filepath.Join(opt.RunDir, RunFile), buf.Bytes()); err != nil {
-		return nil, fmt.Errorf("writing %s: %w", RunFile, err)
+	if err := atomicfile.Write(filepath.Join(opt.RunDir, RunFile), buf.Bytes(), true); err != nil {
+		return nil, err
 	}
 	fmt.Fprintf(log, "chord: run %s: %d free parameters, %d walkers, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.Walkers, r.Seed, describeStop(r.Stop))
 	out, err := StartRun(ctx, opt.RunDir, j.spec, RunOptions{Workers: r.Workers, Stop: r.Stop, Progress: opt.Progress, CheckpointSteps: opt.CheckpointSteps})
@@ -1216,14 +1064,14 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	return j.finish(opt.RunDir, out)
 }
 
-func describeStop(s StopRule) string {
+func describeStop(s config.StopRule) string {
 	switch {
 	case s.Steps > 0:
 		return fmt.Sprintf("%d steps", s.Steps)
 	case s.Budget > 0:
 		return "a budget of " + secs(s.Budget).String()
 	}
-	return fmt.Sprintf("until converged (chain longer than %g tau, tau stable to 1%%)", ConvergedTaus)
+	return "until converged (" + convergenceRule + ")"
 }
 
 // finish reports a run session unless it was interrupted.
@@ -1249,21 +1097,18 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 		return nil, nil, fmt.Errorf("%s is not a run directory: %w", dir, err)
 	}
 	rf := &runFile{}
-	if _, err := DecodeStrict(path, rf); err != nil {
+	if _, err := config.DecodeStrict(path, rf); err != nil {
 		return nil, nil, err
 	}
 	rf.Config.BaseDir = dir
 	r, err := rf.Config.Resolve()
 	if err != nil {
-		return nil, nil, fmt.Errorf("%s: %w", path, err)
+		return nil, nil, config.InFile(path, err)
 	}
-	if cache, err = demoCache(cache, r); err != nil {
-		return nil, nil, err
-	}
-	log = logTo(log)
+	log = logto.First(log)
 	if set == nil {
 		if set, err = r.Config.LoadOpacity(cache, log); err != nil {
-			return nil, nil, fmt.Errorf("%s: %w", path, err)
+			return nil, nil, config.InFile(path, err)
 		}
 	}
 	// After loading: loading the demo tables rebuilds them when their
@@ -1277,20 +1122,20 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 			return nil, nil, fmt.Errorf("%s: input %s of the run: %w", dir, in.Path, err)
 		}
 		if h != in.SHA256 {
-			return nil, nil, fmt.Errorf("%s: the %s file %s changed since the run started (SHA-256 %s, run.toml records %s): the chain cannot be continued or reported against it; restore the file, or start a new run with chord fit", dir, in.Role, in.Path, short(h), short(in.SHA256))
+			return nil, nil, fmt.Errorf("%s: the %s file %s changed since the run started (SHA-256 %s, run.toml records %s): the chain cannot be continued or reported against it; restore the file, or start a new run", dir, in.Role, in.Path, short(h), short(in.SHA256))
 		}
 	}
 	j, err := newJob(r, set, rf.Run.RunID)
 	if err != nil {
-		return nil, nil, fmt.Errorf("%s: %w", path, err)
+		return nil, nil, config.InFile(path, err)
 	}
 	return j, &rf.Run, nil
 }
 
 // ResumeOptions configures Resume.
 type ResumeOptions struct {
-	Stop      StopRule // the zero rule keeps the run's
-	Workers   *int     // overrides the run's workers
+	Stop      config.StopRule // the zero rule keeps the run's
+	Workers   *int            // overrides the run's workers
 	DemoCache string
 	Progress  Progress
 	Log       io.Writer
@@ -1303,18 +1148,18 @@ type ResumeOptions struct {
 
 // Resume continues the run in dir from its checkpoint and reports it.
 func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, error) {
-	log := logTo(opt.Log, opt.Progress.Writer)
+	log := logto.First(opt.Log, opt.Progress.Writer)
 	j, _, err := loadRun(dir, opt.DemoCache, opt.Opacity, log)
 	if err != nil {
 		return nil, err
 	}
 	if j.set.Demo {
-		fmt.Fprintln(log, "chord: "+DemoWarning)
+		fmt.Fprintln(log, "chord: "+report.DemoWarning)
 	}
 	workers := j.res.Workers
 	if opt.Workers != nil {
 		if *opt.Workers < 0 {
-			return nil, fmt.Errorf("--workers %d: must not be negative", *opt.Workers)
+			return nil, fmt.Errorf("workers %d: must not be negative", *opt.Workers)
 		}
 		workers = *opt.Workers
 	}
@@ -1341,10 +1186,32 @@ type ReportRunOptions struct {
 
 // Report recomputes the summaries and plots of the run in dir; it returns
 // the summary and its text.
-func Report(dir string, opt ReportRunOptions) (*Summary, string, error) {
+func Report(dir string, opt ReportRunOptions) (*report.Summary, string, error) {
 	j, _, err := loadRun(dir, opt.DemoCache, nil, nil)
 	if err != nil {
 		return nil, "", err
 	}
 	return j.report(dir, opt.Burn, opt.BurnAuto, max(opt.Thin, 1), nil)
+}
+
+// RunNoisePPM is the noise level of a run directory's observations (all
+// data sets together), read through the observation files run.toml names.
+func RunNoisePPM(dir string) (float64, error) {
+	path := filepath.Join(dir, RunFile)
+	rf := &runFile{}
+	if _, err := config.DecodeStrict(path, rf); err != nil {
+		return 0, err
+	}
+	var sigma []float64
+	for _, o := range rf.Config.Observations {
+		d, err := obs.ReadDataset(o.File)
+		if err != nil {
+			return 0, fmt.Errorf("%s: %w", path, err)
+		}
+		sigma = append(sigma, d.Sigma...)
+	}
+	if len(sigma) == 0 {
+		return 0, fmt.Errorf("%s: no observations", path)
+	}
+	return obs.NoisePPM(sigma), nil
 }

@@ -1,9 +1,11 @@
 package retrieve
 
 import (
+	"bytes"
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -14,8 +16,11 @@ import (
 	"testing"
 	"time"
 
-	"github.com/parquet-go/parquet-go"
-
+	"chord/chains"
+	"chord/config"
+	"chord/internal/atomicfile"
+	"chord/internal/testenv"
+	"chord/report"
 	"chord/sampler"
 )
 
@@ -41,12 +46,12 @@ func gaussSpec(walkers int, seed uint64, delay time.Duration) *RunSpec {
 	t := gaussTarget{delay: delay}
 	return &RunSpec{
 		Target: t,
-		Layout: ChainLayout{Walkers: walkers, Dim: 3, NumExtra: 2, Columns: []ChainColumn{
-			{Name: "log_likelihood", Role: RoleDerived, Source: 0},
-			{Name: "a", Role: RoleParameter, Source: 0, Prior: "none"},
-			{Name: "b", Role: RoleParameter, Source: 1},
-			{Name: "c", Role: RoleParameter, Source: 2, Unit: "K"},
-			{Name: "a_plus_b", Role: RoleDerived, Source: 1},
+		Layout: chains.Layout{Walkers: walkers, Dim: 3, NumExtra: 2, Columns: []chains.Column{
+			{Name: "log_likelihood", Role: chains.RoleDerived, Source: 0},
+			{Name: "a", Role: chains.RoleParameter, Source: 0, Prior: "none"},
+			{Name: "b", Role: chains.RoleParameter, Source: 1},
+			{Name: "c", Role: chains.RoleParameter, Source: 2, Unit: "K"},
+			{Name: "a_plus_b", Role: chains.RoleDerived, Source: 1},
 		}},
 		Seed: seed,
 		Init: func(ctx context.Context, workers int) (*sampler.State, error) {
@@ -60,23 +65,29 @@ func gaussSpec(walkers int, seed uint64, delay time.Duration) *RunSpec {
 // row, every value printed exactly (bit-for-bit comparison).
 func allRows(t *testing.T, dir string) []string {
 	t.Helper()
-	var rows []string
-	_, err := scanParts(filepath.Join(dir, ChainsDir), nil, func([]ChainColumn, int) {}, func(s, k int, r parquet.Row) error {
-		var b strings.Builder
-		for i, v := range r {
-			if i < 2 {
-				fmt.Fprintf(&b, "%d ", v.Int64())
-			} else {
-				fmt.Fprintf(&b, "%x ", math.Float64bits(v.Double()))
-			}
-		}
-		rows = append(rows, b.String())
-		return nil
-	})
+	r, err := chains.NewReader(filepath.Join(dir, chains.DirName), nil)
 	if err != nil {
 		t.Fatal(err)
 	}
-	return rows
+	defer r.Close()
+	var rows []string
+	for {
+		s, err := r.Next()
+		if err == io.EOF {
+			return rows
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		for k := range r.Walkers() {
+			var b strings.Builder
+			fmt.Fprintf(&b, "%d %d ", s, k)
+			for _, v := range r.Walker(k) {
+				fmt.Fprintf(&b, "%x ", math.Float64bits(v))
+			}
+			rows = append(rows, b.String())
+		}
+	}
 }
 
 func sameRows(t *testing.T, what string, got, want []string) {
@@ -91,7 +102,7 @@ func sameRows(t *testing.T, what string, got, want []string) {
 	}
 }
 
-func reference(t *testing.T, stop StopRule) []string {
+func reference(t *testing.T, stop config.StopRule) []string {
 	t.Helper()
 	dir := t.TempDir()
 	out, err := StartRun(context.Background(), dir, gaussSpec(8, 42, 0), RunOptions{Stop: stop, Workers: 1, CheckpointSteps: 50})
@@ -107,13 +118,13 @@ func reference(t *testing.T, stop StopRule) []string {
 // Stopped at a step count, resumed with the same total: the rows of an
 // uninterrupted run (the sampler's resume guarantee, through our store).
 func TestResumeSameChain(t *testing.T) {
-	want := reference(t, StopRule{Steps: 60})
+	want := reference(t, config.StopRule{Steps: 60})
 	dir := t.TempDir()
 	ctx := context.Background()
-	if _, err := StartRun(ctx, dir, gaussSpec(8, 42, 0), RunOptions{Stop: StopRule{Steps: 25}, Workers: 2, CheckpointSteps: 7}); err != nil {
+	if _, err := StartRun(ctx, dir, gaussSpec(8, 42, 0), RunOptions{Stop: config.StopRule{Steps: 25}, Workers: 2, CheckpointSteps: 7}); err != nil {
 		t.Fatal(err)
 	}
-	out, err := ContinueRun(ctx, dir, gaussSpec(8, 42, 0), RunOptions{Stop: StopRule{Steps: 60}, Workers: 1, CheckpointSteps: 7})
+	out, err := ContinueRun(ctx, dir, gaussSpec(8, 42, 0), RunOptions{Stop: config.StopRule{Steps: 60}, Workers: 1, CheckpointSteps: 7})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -127,17 +138,17 @@ func TestResumeSameChain(t *testing.T) {
 	if err != nil || out.Steps != 0 || out.Stop != sampler.StopMaxSteps {
 		t.Errorf("resume of a finished run: %+v %v", out, err)
 	}
-	if _, err := ContinueRun(ctx, dir, gaussSpec(8, 42, 0), RunOptions{Stop: StopRule{Steps: 50}}); err == nil || !strings.Contains(err.Error(), "already holds 60 steps") {
+	if _, err := ContinueRun(ctx, dir, gaussSpec(8, 42, 0), RunOptions{Stop: config.StopRule{Steps: 50}}); err == nil || !strings.Contains(err.Error(), "already holds 60 steps") {
 		t.Errorf("shorter total: %v", err)
 	}
 	// A changed configuration is refused.
 	spec := gaussSpec(8, 42, 0)
 	spec.ConfigSHA256 = "digest-2"
-	if _, err := ContinueRun(ctx, dir, spec, RunOptions{Stop: StopRule{Steps: 80}}); err == nil || !strings.Contains(err.Error(), "changed since the run started") {
+	if _, err := ContinueRun(ctx, dir, spec, RunOptions{Stop: config.StopRule{Steps: 80}}); err == nil || !strings.Contains(err.Error(), "changed since the run started") {
 		t.Errorf("mismatched configuration: %v", err)
 	}
 	// No checkpoint: a clear error, no restart.
-	if _, err := ContinueRun(ctx, t.TempDir(), gaussSpec(8, 42, 0), RunOptions{Stop: StopRule{Steps: 80}}); err == nil || !strings.Contains(err.Error(), "does not exist") {
+	if _, err := ContinueRun(ctx, t.TempDir(), gaussSpec(8, 42, 0), RunOptions{Stop: config.StopRule{Steps: 80}}); err == nil || !strings.Contains(err.Error(), "does not exist") {
 		t.Errorf("missing checkpoint: %v", err)
 	}
 }
@@ -145,13 +156,13 @@ func TestResumeSameChain(t *testing.T) {
 // A cancelled context stops after the current step with a checkpoint; the
 // resumed chain is the uninterrupted one.
 func TestCancelResume(t *testing.T) {
-	want := reference(t, StopRule{Steps: 60})
+	want := reference(t, config.StopRule{Steps: 60})
 	dir := t.TempDir()
 	ctx, cancel := context.WithCancel(context.Background())
 	spec := gaussSpec(8, 42, 0)
 	n := 0
 	spec.Target = cancelAfter{gaussTarget{}, &n, 8 * 20, cancel}
-	out, err := StartRun(ctx, dir, spec, RunOptions{Stop: StopRule{Steps: 60}, Workers: 1, CheckpointSteps: 1000})
+	out, err := StartRun(ctx, dir, spec, RunOptions{Stop: config.StopRule{Steps: 60}, Workers: 1, CheckpointSteps: 1000})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -187,21 +198,21 @@ func (c cancelAfter) LogProb(x, extra []float64) float64 {
 // The newest part damaged after the checkpoint (truncated at random
 // lengths): the run resumes one part earlier and ends with the same rows.
 func TestRecoverDamagedNewestPart(t *testing.T) {
-	want := reference(t, StopRule{Steps: 60})
+	want := reference(t, config.StopRule{Steps: 60})
 	rng := rand.New(rand.NewPCG(11, 12))
 	for trial := 0; trial < 3; trial++ {
 		dir := t.TempDir()
 		ctx := context.Background()
-		if _, err := StartRun(ctx, dir, gaussSpec(8, 42, 0), RunOptions{Stop: StopRule{Steps: 30}, Workers: 1, CheckpointSteps: 10}); err != nil {
+		if _, err := StartRun(ctx, dir, gaussSpec(8, 42, 0), RunOptions{Stop: config.StopRule{Steps: 30}, Workers: 1, CheckpointSteps: 10}); err != nil {
 			t.Fatal(err)
 		}
-		p := filepath.Join(dir, ChainsDir, partName(3))
+		p := filepath.Join(dir, chains.DirName, "part-000003.parquet")
 		data, err := os.ReadFile(p)
 		if err != nil {
 			t.Fatal(err)
 		}
 		os.WriteFile(p, data[:rng.IntN(len(data))], 0o644)
-		out, err := ContinueRun(ctx, dir, gaussSpec(8, 42, 0), RunOptions{Stop: StopRule{Steps: 60}, Workers: 2, CheckpointSteps: 10})
+		out, err := ContinueRun(ctx, dir, gaussSpec(8, 42, 0), RunOptions{Stop: config.StopRule{Steps: 60}, Workers: 2, CheckpointSteps: 10})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -212,9 +223,9 @@ func TestRecoverDamagedNewestPart(t *testing.T) {
 	}
 	// An older part damaged: a clear error naming it.
 	dir := t.TempDir()
-	StartRun(context.Background(), dir, gaussSpec(8, 42, 0), RunOptions{Stop: StopRule{Steps: 30}, Workers: 1, CheckpointSteps: 10})
-	os.WriteFile(filepath.Join(dir, ChainsDir, partName(1)), []byte("PAR1"), 0o644)
-	_, err := ContinueRun(context.Background(), dir, gaussSpec(8, 42, 0), RunOptions{Stop: StopRule{Steps: 60}})
+	StartRun(context.Background(), dir, gaussSpec(8, 42, 0), RunOptions{Stop: config.StopRule{Steps: 30}, Workers: 1, CheckpointSteps: 10})
+	os.WriteFile(filepath.Join(dir, chains.DirName, "part-000001.parquet"), []byte("PAR1"), 0o644)
+	_, err := ContinueRun(context.Background(), dir, gaussSpec(8, 42, 0), RunOptions{Stop: config.StopRule{Steps: 60}})
 	if err == nil || !strings.Contains(err.Error(), "part-000001.parquet") || !strings.Contains(err.Error(), "cannot be recovered") {
 		t.Errorf("damaged old part: %v", err)
 	}
@@ -223,13 +234,13 @@ func TestRecoverDamagedNewestPart(t *testing.T) {
 // Until-converged, interrupted and resumed, stops at the same step with the
 // same rows (the convergence history is rebuilt from the stored chain).
 func TestResumeUntilConverged(t *testing.T) {
-	want := reference(t, StopRule{UntilConverged: true})
+	want := reference(t, config.StopRule{UntilConverged: true})
 	dir := t.TempDir()
 	ctx, cancel := context.WithCancel(context.Background())
 	spec := gaussSpec(8, 42, 0)
 	n := 0
 	spec.Target = cancelAfter{gaussTarget{}, &n, 8 * 250, cancel}
-	if _, err := StartRun(ctx, dir, spec, RunOptions{Stop: StopRule{UntilConverged: true}, Workers: 1, CheckpointSteps: 50}); err != nil {
+	if _, err := StartRun(ctx, dir, spec, RunOptions{Stop: config.StopRule{UntilConverged: true}, Workers: 1, CheckpointSteps: 50}); err != nil {
 		t.Fatal(err)
 	}
 	out, err := ContinueRun(context.Background(), dir, gaussSpec(8, 42, 0), RunOptions{})
@@ -245,24 +256,26 @@ func TestResumeUntilConverged(t *testing.T) {
 // A full disk mid-run: the error says what happened, the chain up to the
 // last checkpoint is intact and resumes to the uninterrupted rows.
 func TestRunFullDisk(t *testing.T) {
-	want := reference(t, StopRule{Steps: 60})
+	want := reference(t, config.StopRule{Steps: 60})
 	dir := t.TempDir()
 	spec := gaussSpec(8, 42, 0)
-	r := &runner{dir: dir, spec: spec, opt: RunOptions{Workers: 1, CheckpointSteps: 10}, stop: StopRule{Steps: 60}}
+	r := &runner{dir: dir, spec: spec, opt: RunOptions{Workers: 1, CheckpointSteps: 10}, stop: config.StopRule{Steps: 60}}
 	st, err := spec.Init(context.Background(), 1)
 	if err != nil {
 		t.Fatal(err)
 	}
-	disk := &fullDisk{limit: math.MaxInt64}
-	if r.w, err = newChainWriter(disk, filepath.Join(dir, ChainsDir), spec.Layout, nil); err != nil {
+	// The third part's file fails (the checkpoint files do not count:
+	// they are written to the operating system's file system).
+	disk := &countdownDisk{FullDisk: &testenv.FullDisk{Limit: math.MaxInt64}, creates: 3}
+	if r.w, err = chains.NewWriter(disk, filepath.Join(dir, chains.DirName), spec.Layout, nil); err != nil {
 		t.Fatal(err)
 	}
 	if err := r.checkpoint(st); err != nil {
 		t.Fatal(err)
 	}
-	r.w.fs = &countdownDisk{fullDisk: disk, creates: 3} // the third part's file fails
 	_, err = r.sample(context.Background(), st, &RunOutcome{})
-	if !errors.Is(err, syscall.ENOSPC) || !strings.Contains(err.Error(), "last checkpoint (step 20) is intact") || !strings.Contains(err.Error(), "chord resume") {
+	var se *StoppedError
+	if !errors.Is(err, syscall.ENOSPC) || !errors.As(err, &se) || se.Step != 20 || se.Dir != dir {
 		t.Fatalf("error %v", err)
 	}
 	if _, err := ContinueRun(context.Background(), dir, gaussSpec(8, 42, 0), RunOptions{}); err != nil {
@@ -273,15 +286,15 @@ func TestRunFullDisk(t *testing.T) {
 
 // countdownDisk fills up when the creates-th file is written.
 type countdownDisk struct {
-	*fullDisk
+	*testenv.FullDisk
 	creates int
 }
 
-func (d *countdownDisk) Create(name string) (writableFile, error) {
+func (d *countdownDisk) Create(name string) (atomicfile.File, error) {
 	if d.creates--; d.creates == 0 {
-		d.limit = 50
+		d.Limit = 50
 	}
-	return d.fullDisk.Create(name)
+	return d.FullDisk.Create(name)
 }
 
 // Kill at random moments: a child process (this test binary) samples a slow
@@ -291,7 +304,7 @@ func TestKillResume(t *testing.T) {
 	if testing.Short() {
 		t.Skip("kill test skipped in -short mode")
 	}
-	want := reference(t, StopRule{Steps: 60})
+	want := reference(t, config.StopRule{Steps: 60})
 	rng := rand.New(rand.NewPCG(21, 22))
 	dir := t.TempDir()
 	kills := 0
@@ -302,6 +315,8 @@ func TestKillResume(t *testing.T) {
 		}
 		cmd := exec.Command(os.Args[0], "-test.run=^TestKillChild$")
 		cmd.Env = append(os.Environ(), "CHORD_KILL_CHILD="+mode+":"+dir)
+		var out bytes.Buffer
+		cmd.Stdout, cmd.Stderr = &out, &out
 		if err := cmd.Start(); err != nil {
 			t.Fatal(err)
 		}
@@ -310,7 +325,7 @@ func TestKillResume(t *testing.T) {
 		select {
 		case err := <-done:
 			if err != nil {
-				t.Fatalf("child: %v", err)
+				t.Fatalf("child: %v\n%s", err, out.Bytes())
 			}
 			rows := allRows(t, dir)
 			sameRows(t, fmt.Sprintf("after %d kills", kills), rows, want)
@@ -323,9 +338,20 @@ func TestKillResume(t *testing.T) {
 			cmd.Process.Signal(syscall.SIGKILL)
 			<-done
 			kills++
-			// Sometimes also damage the newest part file, as a lost write would.
-			if names, _ := listParts(filepath.Join(dir, ChainsDir)); len(names) > 0 && rng.IntN(3) == 0 {
-				p := filepath.Join(dir, ChainsDir, names[len(names)-1])
+			// Sometimes also damage the newest part file, as a lost write
+			// would: one the checkpoint does not list yet, or its newest.
+			// Parts it lists before its newest were synced before it was
+			// written, and a resume that recovered from a damaged newest
+			// part can leave an older one newest on disk until it writes
+			// the next checkpoint: damaging that is no lost write, and no
+			// chain could survive it.
+			names, _ := filepath.Glob(filepath.Join(dir, chains.DirName, "part-*.parquet"))
+			newest := ""
+			if ck, err := ReadCheckpoint(filepath.Join(dir, CheckpointFile)); err == nil && len(ck.Parts) > 0 {
+				newest = ck.Parts[len(ck.Parts)-1].Name
+			}
+			if len(names) > 0 && filepath.Base(names[len(names)-1]) >= newest && rng.IntN(3) == 0 {
+				p := names[len(names)-1]
 				if data, err := os.ReadFile(p); err == nil && len(data) > 0 {
 					os.WriteFile(p, data[:rng.IntN(len(data))], 0o644)
 				}
@@ -343,7 +369,7 @@ func TestKillChild(t *testing.T) {
 	}
 	mode, dir, _ := strings.Cut(env, ":")
 	spec := gaussSpec(8, 42, 300*time.Microsecond)
-	opt := RunOptions{Stop: StopRule{Steps: 60}, Workers: 2, CheckpointSteps: 3}
+	opt := RunOptions{Stop: config.StopRule{Steps: 60}, Workers: 2, CheckpointSteps: 3}
 	var err error
 	if mode == "start" {
 		// A kill before the step-0 checkpoint leaves a half-made store.
@@ -379,14 +405,14 @@ func (lineModel) ModelDepth(dst, x []float64) error {
 
 func TestWriteReport(t *testing.T) {
 	dir := t.TempDir()
-	if _, err := StartRun(context.Background(), dir, gaussSpec(8, 42, 0), RunOptions{Stop: StopRule{Steps: 300}, Workers: 1, CheckpointSteps: 100}); err != nil {
+	if _, err := StartRun(context.Background(), dir, gaussSpec(8, 42, 0), RunOptions{Stop: config.StopRule{Steps: 300}, Workers: 1, CheckpointSteps: 100}); err != nil {
 		t.Fatal(err)
 	}
 	ck, err := ReadCheckpoint(filepath.Join(dir, CheckpointFile))
 	if err != nil {
 		t.Fatal(err)
 	}
-	s, err := WriteReport(dir, ck.Parts, ReportOptions{BurnAuto: true, Model: lineModel{}, Fill: func(s *Summary) { s.RunID = "test" }})
+	s, err := report.Write(dir, ck.Parts, report.Options{BurnAuto: true, Model: lineModel{}, Fill: func(s *report.Summary) { s.RunID = "test" }})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -408,18 +434,5 @@ func TestWriteReport(t *testing.T) {
 		if st, err := os.Stat(filepath.Join(dir, f)); err != nil || st.Size() == 0 {
 			t.Errorf("%s: %v", f, err)
 		}
-	}
-}
-
-// Nelder-Mead finds the minimum (1, 1) of Rosenbrock's function
-// (Rosenbrock 1960, Comput. J. 3, 175: f = 100 (y - x^2)^2 + (1 - x)^2),
-// the classic test of the simplex method; 1e-3 is well within what 2000
-// evaluations reach from (-1.2, 1) (fact of the trade).
-func TestNelderMead(t *testing.T) {
-	x := []float64{-1.2, 1}
-	f := func(v []float64) float64 { a, b := v[1]-v[0]*v[0], 1-v[0]; return 100*a*a + b*b }
-	nelderMead(x, f, []float64{0.05, 0.05}, 2000)
-	if math.Abs(x[0]-1) > 1e-3 || math.Abs(x[1]-1) > 2e-3 {
-		t.Errorf("minimum at %v, want (1, 1)", x)
 	}
 }

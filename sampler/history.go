@@ -134,12 +134,23 @@ func (h *History) Tau(dst []float64, c float64) (tau []float64, ok bool) {
 // for ensemble samplers). Checks happen at steps that are multiples of
 // Every, so a resumed run checks at the same steps as an uninterrupted one.
 type Convergence struct {
-	Every     int      // check interval in steps; 0 means 100
-	Factor    float64  // required chain length in units of tau; 0 means 50
-	RelChange float64  // required relative stability of tau; 0 means 0.01
-	Window    float64  // Sokal's window constant c; 0 means 5
+	Every     int      // check interval in steps; 0 means DefaultCheckEvery
+	Factor    float64  // required chain length in units of tau; 0 means DefaultConvergedTaus
+	RelChange float64  // required relative stability of tau; 0 means DefaultTauRelChange
+	Window    float64  // Sokal's window constant c; 0 means DefaultSokalWindow
 	History   *History // positions the rule looks at; nil means a new one covering this call only
 }
+
+// Defaults of the convergence rule: a chain longer than 50 integrated
+// autocorrelation times with tau stable to 1% (common practice for
+// ensemble samplers), tau estimated with Sokal's window c = 5 (Goodman &
+// Weare 2010). Reports and progress messages use the same constants.
+const (
+	DefaultCheckEvery    = 100
+	DefaultConvergedTaus = 50.0
+	DefaultTauRelChange  = 0.01
+	DefaultSokalWindow   = 5.0
+)
 
 type convergence struct {
 	every               int
@@ -151,16 +162,16 @@ type convergence struct {
 func (c *Convergence) resolve(st *State) (convergence, error) {
 	r := convergence{every: c.Every, factor: c.Factor, rel: c.RelChange, window: c.Window, h: c.History}
 	if r.every == 0 {
-		r.every = 100
+		r.every = DefaultCheckEvery
 	}
 	if r.factor == 0 {
-		r.factor = 50
+		r.factor = DefaultConvergedTaus
 	}
 	if r.rel == 0 {
-		r.rel = 0.01
+		r.rel = DefaultTauRelChange
 	}
 	if r.window == 0 {
-		r.window = 5
+		r.window = DefaultSokalWindow
 	}
 	if r.every < 1 || !(r.factor > 0) || !(r.rel > 0) || !(r.window > 0) || math.IsInf(r.factor+r.rel+r.window, 0) {
 		return r, fmt.Errorf("sampler: convergence rule: every %d, factor %v, relative change %v, window %v; want positive finite values", c.Every, c.Factor, c.RelChange, c.Window)

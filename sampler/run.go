@@ -36,6 +36,7 @@ const (
 	StopBudget                          // the wall-clock budget was spent
 	StopConverged                       // the convergence rule was met
 	StopCanceled                        // the context was cancelled
+	StopEvidence                        // nested sampling: the evidence tolerance was met and the run finished
 )
 
 func (r StopReason) String() string {
@@ -48,6 +49,8 @@ func (r StopReason) String() string {
 		return "converged"
 	case StopCanceled:
 		return "cancelled"
+	case StopEvidence:
+		return "evidence converged"
 	}
 	return fmt.Sprintf("StopReason(%d)", int(r))
 }

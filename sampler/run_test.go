@@ -151,17 +151,22 @@ func TestCorruptStateIsError(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	checkCorruption(t, b, func(c []byte) error { var s sampler.State; return s.UnmarshalBinary(c) })
+}
+
+// checkCorruption checks that decode refuses every single flipped bit
+// pattern and every truncation of the encoding b with ErrCorruptState.
+func checkCorruption(t *testing.T, b []byte, decode func([]byte) error) {
+	t.Helper()
 	for i := range b {
 		c := append([]byte(nil), b...)
 		c[i] ^= 0x10
-		var s sampler.State
-		if err := s.UnmarshalBinary(c); !errors.Is(err, sampler.ErrCorruptState) {
+		if err := decode(c); !errors.Is(err, sampler.ErrCorruptState) {
 			t.Fatalf("byte %d flipped: error %v, want ErrCorruptState", i, err)
 		}
 	}
 	for _, n := range []int{0, 3, 12, len(b) - 1} {
-		var s sampler.State
-		if err := s.UnmarshalBinary(b[:n]); !errors.Is(err, sampler.ErrCorruptState) {
+		if err := decode(b[:n]); !errors.Is(err, sampler.ErrCorruptState) {
 			t.Fatalf("truncated to %d bytes: error %v, want ErrCorruptState", n, err)
 		}
 	}

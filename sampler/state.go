@@ -324,23 +324,34 @@ func (r *reader) floats(n uint64) []float64 {
 	return v
 }
 
+// openFrame checks the frame of an encoded state (magic, version, CRC-32C
+// of everything before the last 4 bytes) and returns a reader of what
+// follows the version; kind names the state in errors.
+func openFrame(data []byte, magic string, version uint64, kind string) (*reader, error) {
+	if len(data) < len(magic)+4 {
+		return nil, fmt.Errorf("%w: %d bytes is too short", ErrCorruptState, len(data))
+	}
+	body, sum := data[:len(data)-4], binary.LittleEndian.Uint32(data[len(data)-4:])
+	if string(body[:len(magic)]) != magic {
+		return nil, fmt.Errorf("%w: not a %s (bad magic)", ErrCorruptState, kind)
+	}
+	if crc32.Checksum(body, crcTable) != sum {
+		return nil, fmt.Errorf("%w: checksum mismatch", ErrCorruptState)
+	}
+	r := &reader{b: body[len(magic):]}
+	if v := r.u32(); v != version {
+		return nil, fmt.Errorf("%w: %s version %d, this program reads version %d", ErrCorruptState, kind, v, version)
+	}
+	return r, nil
+}
+
 // UnmarshalBinary decodes a state written by MarshalBinary. A wrong
 // checksum, magic, version or length is an error wrapping ErrCorruptState;
 // st is unchanged then.
 func (st *State) UnmarshalBinary(data []byte) error {
-	if len(data) < len(stateMagic)+4 {
-		return fmt.Errorf("%w: %d bytes is too short", ErrCorruptState, len(data))
-	}
-	body, sum := data[:len(data)-4], binary.LittleEndian.Uint32(data[len(data)-4:])
-	if string(body[:len(stateMagic)]) != stateMagic {
-		return fmt.Errorf("%w: not a sampler state (bad magic)", ErrCorruptState)
-	}
-	if crc32.Checksum(body, crcTable) != sum {
-		return fmt.Errorf("%w: checksum mismatch", ErrCorruptState)
-	}
-	r := &reader{b: body[len(stateMagic):]}
-	if v := r.u32(); v != stateVersion {
-		return fmt.Errorf("%w: version %d, this program reads version %d", ErrCorruptState, v, stateVersion)
+	r, err := openFrame(data, stateMagic, stateVersion, "sampler state")
+	if err != nil {
+		return err
 	}
 	w, d, ne := r.u32(), r.u32(), r.u32()
 	step, tauStep := r.u64(), r.u64()

@@ -1,17 +1,20 @@
 package main
 
 import (
+	"errors"
 	"fmt"
+	"io/fs"
 	"path/filepath"
 	"strings"
 
-	"github.com/urfave/cli/v2"
+	"chord/campaign"
 
-	"chord/retrieve"
+	"github.com/urfave/cli/v2"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// compareCommand returns the compare command.
+func compareCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "compare",
 		Usage:     "compare posterior widths of runs side by side",
 		ArgsUsage: "RUNDIR...",
@@ -25,7 +28,7 @@ func init() {
 			&cli.StringFlag{Name: "plot", Usage: "draw the 68% width against noise (log-log, with the width-proportional-to-noise line) to `FILE`.png"},
 		},
 		Action: runCompare,
-	})
+	}
 }
 
 func runCompare(c *cli.Context) error {
@@ -40,7 +43,10 @@ func runCompare(c *cli.Context) error {
 	if p := c.String("plot"); p != "" && filepath.Ext(p) != ".png" {
 		return fmt.Errorf("compare: --plot %s: the plot is a PNG file; name it FILE.png", p)
 	}
-	cmp, err := retrieve.CompareDirs(c.Args().Slice())
+	cmp, err := campaign.CompareDirs(c.Args().Slice())
+	if errors.Is(err, fs.ErrNotExist) {
+		return fmt.Errorf("%w (chord report RUNDIR writes a run's summary)", err)
+	}
 	if err != nil {
 		return err
 	}

@@ -3,13 +3,15 @@ package main
 import (
 	"fmt"
 
-	"github.com/urfave/cli/v2"
+	"chord/campaign"
+	"chord/report"
 
-	"chord/retrieve"
+	"github.com/urfave/cli/v2"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// demoCommand returns the demo command.
+func demoCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "demo",
 		Usage:     "simulate an invented planet's spectrum, fit it and report (a few minutes)",
 		ArgsUsage: " ",
@@ -25,7 +27,7 @@ func init() {
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		},
 		Action: runDemo,
-	})
+	}
 }
 
 func runDemo(c *cli.Context) error {
@@ -35,15 +37,15 @@ func runDemo(c *cli.Context) error {
 	ctx, cancel, prog := session(c)
 	defer cancel()
 	w := c.App.ErrWriter
-	fmt.Fprintln(w, "chord demo: "+retrieve.DemoWarning)
-	opt := retrieve.DemoOptions{Dir: c.String("output"), Force: c.Bool("force"), DemoCache: c.String("demo-cache"), Progress: prog, Log: w}
+	fmt.Fprintln(w, "chord demo: "+report.DemoWarning)
+	opt := campaign.DemoOptions{Dir: c.String("output"), Force: c.Bool("force"), DemoCache: c.String("demo-cache"), Progress: prog, Log: w}
 	opt.Workers = flagIfSet(c, "workers", c.Int)
-	rep, err := retrieve.Demo(ctx, opt)
+	rep, err := campaign.Demo(ctx, opt)
 	if err := finishRun(c, rep, err); err != nil {
 		return err
 	}
 	fmt.Fprintf(w, "chord demo: the configuration %s and observation %s are in %s; try  chord fit -c %s -o another-run\n",
 		rep.ConfigFile, rep.ObservationFile, opt.Dir, rep.ConfigFile)
-	fmt.Fprintln(w, "chord demo: "+retrieve.DemoWarning)
+	fmt.Fprintln(w, "chord demo: "+report.DemoWarning)
 	return nil
 }

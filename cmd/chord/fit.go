@@ -2,7 +2,9 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
+	"io/fs"
 	"os"
 	"os/signal"
 	"syscall"
@@ -11,6 +13,7 @@ import (
 	"github.com/urfave/cli/v2"
 	"golang.org/x/term"
 
+	"chord/config"
 	"chord/retrieve"
 	"chord/sampler"
 )
@@ -19,13 +22,14 @@ import (
 var stopFlags = []cli.Flag{
 	&cli.IntFlag{Name: "steps", Usage: "stop when the chain holds `N` steps in total"},
 	&cli.DurationFlag{Name: "budget", Usage: "stop when the run has sampled for `DURATION` in total (e.g. 8h, 90m)"},
-	&cli.BoolFlag{Name: "until-converged", Usage: "stop when the chain is longer than 50 autocorrelation times, tau stable to 1%"},
+	&cli.BoolFlag{Name: "until-converged", Usage: fmt.Sprintf("stop when the chain is longer than %g autocorrelation times, tau stable to %g%%", sampler.DefaultConvergedTaus, 100*sampler.DefaultTauRelChange)},
 	&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior (default: the configuration's, else one per core)"},
 	&cli.IntFlag{Name: "checkpoint-every", Usage: "write a checkpoint every `N` steps (default: about one a minute)"},
 }
 
-func init() {
-	commands = append(commands, &cli.Command{
+// fitCommand returns the fit command.
+func fitCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "fit",
 		Usage:     "sample the posterior of a retrieval configuration into a run directory",
 		ArgsUsage: " ",
@@ -42,12 +46,12 @@ func init() {
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		}, stopFlags...),
 		Action: runFit,
-	})
+	}
 }
 
 // stopRule reads the stopping-rule flags; the zero rule means "not given".
-func stopRule(c *cli.Context) (retrieve.StopRule, error) {
-	var s retrieve.StopRule
+func stopRule(c *cli.Context) (config.StopRule, error) {
+	var s config.StopRule
 	n := 0
 	if c.IsSet("steps") {
 		n++
@@ -111,11 +115,23 @@ func runFit(c *cli.Context) error {
 	return finishRun(c, rep, err)
 }
 
+// runAdvice adds to the error of a run what to do next with chord.
+func runAdvice(err error) error {
+	var se *retrieve.StoppedError
+	switch {
+	case errors.As(err, &se):
+		return fmt.Errorf("%w; fix the cause and continue it with: chord resume %s", err, se.Dir)
+	case errors.Is(err, fs.ErrExist):
+		return fmt.Errorf("%w: choose another directory with -o, or pass --force to replace it", err)
+	}
+	return err
+}
+
 // finishRun prints the end of a fit or resume and maps an interruption to
 // errInterrupted.
 func finishRun(c *cli.Context, rep *retrieve.RunReport, err error) error {
 	if err != nil {
-		return err
+		return runAdvice(err)
 	}
 	w := c.App.ErrWriter
 	out := rep.Outcome

@@ -1,6 +1,12 @@
 package main
 
-import "github.com/urfave/cli/v2"
+import (
+	"errors"
+	"fmt"
+	"io/fs"
+
+	"github.com/urfave/cli/v2"
+)
 
 // flagIfSet returns the value of the flag name read by get (c.Int,
 // c.Uint64, ...) when the command line gives it, else nil: the "not given,
@@ -22,4 +28,13 @@ func firstSet(c *cli.Context, names ...string) (string, bool) {
 		}
 	}
 	return "", false
+}
+
+// forceAdvice adds the --force advice to an error saying an output file
+// exists.
+func forceAdvice(err error) error {
+	if errors.Is(err, fs.ErrExist) {
+		return fmt.Errorf("%w (use --force to replace it)", err)
+	}
+	return err
 }

@@ -9,9 +9,9 @@ import (
 	"strings"
 	"text/tabwriter"
 
-	"github.com/urfave/cli/v2"
+	"chord/campaign"
 
-	"chord/retrieve"
+	"github.com/urfave/cli/v2"
 )
 
 // slurmFlags are the resources of each array task; they override the
@@ -25,8 +25,9 @@ var slurmFlags = []cli.Flag{
 	&cli.BoolFlag{Name: "submit", Usage: "submit the script with sbatch and print the job id"},
 }
 
-func init() {
-	commands = append(commands, &cli.Command{
+// gridCommand returns the grid command.
+func gridCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "grid",
 		Usage:     "expand a grid of fits (scenarios or configurations x axes) and run it here or as a Slurm job array",
 		ArgsUsage: " ",
@@ -74,7 +75,7 @@ func init() {
 				ArgsUsage: "GRIDDIR", Action: runGridCollect,
 			},
 		},
-	})
+	}
 }
 
 func runGrid(c *cli.Context) error {
@@ -96,25 +97,25 @@ func runGrid(c *cli.Context) error {
 	if dir == "" {
 		return errors.New("grid: give the grid directory with -o GRIDDIR (and a grid file with -c to expand one)")
 	}
-	var g *retrieve.Grid
+	var g *campaign.Grid
 	var err error
 	if c.IsSet("config") {
-		g, err = retrieve.CreateGrid(c.String("config"), dir, retrieve.GridOptions{DemoCache: c.String("demo-cache"), Log: c.App.ErrWriter})
+		g, err = campaign.CreateGrid(c.String("config"), dir, campaign.GridOptions{DemoCache: c.String("demo-cache"), Log: c.App.ErrWriter})
 		if err == nil {
 			fmt.Fprintf(c.App.ErrWriter, "chord grid: %d points in %s (identity %s); index in index.csv\n", len(g.Points), g.Dir, g.Identity()[:12])
 		}
 	} else {
-		g, err = retrieve.OpenGrid(dir)
+		g, err = campaign.OpenGrid(dir)
 	}
 	if err != nil {
-		return err
+		return gridAdvice(err, dir)
 	}
 	switch {
 	case c.Bool("local"):
 		if c.Int("jobs") < 1 {
 			return fmt.Errorf("grid: --jobs %d: must be at least 1", c.Int("jobs"))
 		}
-		opt := retrieve.LocalOptions{Jobs: c.Int("jobs"), DemoCache: c.String("demo-cache"), Log: c.App.ErrWriter}
+		opt := campaign.LocalOptions{Jobs: c.Int("jobs"), DemoCache: c.String("demo-cache"), Log: c.App.ErrWriter}
 		if c.IsSet("workers") {
 			w := c.Int("workers")
 			if w < 1 {
@@ -144,8 +145,8 @@ func runGrid(c *cli.Context) error {
 }
 
 // slurmSettings are the grid file's [slurm] with the flags applied.
-func slurmSettings(c *cli.Context, g *retrieve.Grid) retrieve.SlurmSettings {
-	return g.Slurm().Merge(retrieve.SlurmSettings{Time: c.String("time"), CPUsPerTask: c.Int("cpus-per-task"),
+func slurmSettings(c *cli.Context, g *campaign.Grid) campaign.SlurmSettings {
+	return g.Slurm().Merge(campaign.SlurmSettings{Time: c.String("time"), CPUsPerTask: c.Int("cpus-per-task"),
 		Memory: c.String("mem"), Partition: c.String("partition"), MaxRunning: c.Int("max-running")})
 }
 
@@ -162,7 +163,7 @@ func chordBinary() (string, error) {
 	return filepath.Abs(exe)
 }
 
-func writeSlurm(c *cli.Context, g *retrieve.Grid, points []int) error {
+func writeSlurm(c *cli.Context, g *campaign.Grid, points []int) error {
 	exe, err := chordBinary()
 	if err != nil {
 		return err
@@ -189,9 +190,9 @@ func runGridPoint(c *cli.Context) error {
 	if c.NArg() != 2 {
 		return fmt.Errorf("grid run-point: give GRIDDIR and INDEX (got %d arguments)", c.NArg())
 	}
-	g, err := retrieve.OpenGrid(c.Args().Get(0))
+	g, err := campaign.OpenGrid(c.Args().Get(0))
 	if err != nil {
-		return err
+		return gridAdvice(err, c.Args().Get(0))
 	}
 	i, err := strconv.Atoi(c.Args().Get(1))
 	if err != nil {
@@ -204,7 +205,7 @@ func runGridPoint(c *cli.Context) error {
 	if j := os.Getenv("SLURM_ARRAY_JOB_ID"); j != "" {
 		holder += fmt.Sprintf(", Slurm job %s_%s", j, os.Getenv("SLURM_ARRAY_TASK_ID"))
 	}
-	opt := retrieve.PointOptions{DemoCache: c.String("demo-cache"), Progress: prog, Log: c.App.ErrWriter, Holder: holder}
+	opt := campaign.PointOptions{DemoCache: c.String("demo-cache"), Progress: prog, Log: c.App.ErrWriter, Holder: holder}
 	w, set := 0, false
 	if c.IsSet("workers") {
 		w, set = c.Int("workers"), true
@@ -227,18 +228,30 @@ func runGridPoint(c *cli.Context) error {
 	return finishRun(c, rep, nil)
 }
 
-func settingsOrEmpty(g *retrieve.Grid, i int) string {
+func settingsOrEmpty(g *campaign.Grid, i int) string {
 	if i < 0 || i >= len(g.Points) {
 		return "no such point"
 	}
 	return g.Settings(i)
 }
 
-func oneGridDir(c *cli.Context, cmd string) (*retrieve.Grid, error) {
+func oneGridDir(c *cli.Context, cmd string) (*campaign.Grid, error) {
 	if c.NArg() != 1 {
 		return nil, fmt.Errorf("grid %s: give one grid directory (got %d arguments)", cmd, c.NArg())
 	}
-	return retrieve.OpenGrid(c.Args().First())
+	g, err := campaign.OpenGrid(c.Args().First())
+	return g, gridAdvice(err, c.Args().First())
+}
+
+// gridAdvice adds to a grid's error what to do next with chord.
+func gridAdvice(err error, dir string) error {
+	switch {
+	case errors.Is(err, campaign.ErrNoGrid):
+		return fmt.Errorf("%w: expand one with chord grid -c GRID.toml -o %s", err, dir)
+	case errors.Is(err, campaign.ErrNotDone):
+		return fmt.Errorf("%w; chord grid status %s lists them", err, dir)
+	}
+	return err
 }
 
 func runGridStatus(c *cli.Context) error {
@@ -252,14 +265,14 @@ func runGridStatus(c *cli.Context) error {
 	}
 	tw := tabwriter.NewWriter(c.App.Writer, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "point\tdir\tsettings\tstate")
-	count := map[retrieve.PointState]int{}
+	count := map[campaign.PointState]int{}
 	for _, s := range st {
 		count[s.State]++
 		fmt.Fprintf(tw, "%d\tpoints/%s\t%s\t%s\n", s.Index, g.Points[s.Index].Name, g.Settings(s.Index), s)
 	}
 	tw.Flush()
 	var parts []string
-	for _, k := range []retrieve.PointState{retrieve.PointDone, retrieve.PointRunning, retrieve.PointQueued, retrieve.PointStopped, retrieve.PointFailed, retrieve.PointNotStarted} {
+	for _, k := range []campaign.PointState{campaign.PointDone, campaign.PointRunning, campaign.PointQueued, campaign.PointStopped, campaign.PointFailed, campaign.PointNotStarted} {
 		if count[k] > 0 {
 			parts = append(parts, fmt.Sprintf("%d %s", count[k], k))
 		}
@@ -292,7 +305,7 @@ func runGridCollect(c *cli.Context) error {
 	}
 	col, err := g.CollectGrid()
 	if err != nil {
-		return err
+		return gridAdvice(err, g.Dir)
 	}
 	fmt.Fprint(c.App.Writer, col.Table)
 	fmt.Fprintf(c.App.ErrWriter, "chord grid: summary.csv and summary.parquet (%d rows), comparison.txt and comparison.json written to %s\n", col.Rows, g.Dir)

@@ -13,45 +13,10 @@ import (
 	"testing"
 	"time"
 
+	"chord/campaign"
+	"chord/chains"
 	"chord/internal/testenv"
-	"chord/retrieve"
 )
-
-// slurmScenario is a small clear H2/He sub-Neptune (invented) fitted for
-// radius and temperature, with enough steps that a fit takes some seconds.
-const slurmScenario = `
-[star]
-radius_rsun = 0.5
-[planet]
-name = "Slurm Test b"
-radius_rearth = 2.5
-mass_mearth = 6
-[atmosphere]
-layers = 30
-fill = "H2+He"
-[atmosphere.temperature]
-profile = "isothermal"
-temperature_k = 600
-[opacity]
-rayleigh = ["H2", "He"]
-[spectrum]
-wavelength_min_um = 0.8
-wavelength_max_um = 2.0
-resolving_power = 300
-bin_resolving_power = 20
-[[parameters]]
-sets = "radius_rearth"
-prior = "uniform"
-low = 2
-high = 3
-[[parameters]]
-sets = "temperature_k"
-prior = "uniform"
-low = 300
-high = 900
-[sampler]
-walkers = 8
-`
 
 const slurmGrid = `
 base = "scenario.toml"
@@ -130,7 +95,7 @@ func TestGridOnSlurm(t *testing.T) {
 	}
 	tmp := t.TempDir()
 	exe := testenv.BuildChord(t)
-	os.WriteFile(filepath.Join(tmp, "scenario.toml"), []byte(slurmScenario), 0o644)
+	os.WriteFile(filepath.Join(tmp, "scenario.toml"), []byte(testenv.Fixture(t, "sub-neptune.toml").String()), 0o644)
 	spec := filepath.Join(tmp, "grid.toml")
 	os.WriteFile(spec, []byte(slurmGrid), 0o644)
 
@@ -171,7 +136,7 @@ func TestGridOnSlurm(t *testing.T) {
 		t.Fatalf("scancel: %v %s", err, out)
 	}
 	waitJob(t, job, 150*time.Second)
-	g, err := retrieve.OpenGrid(cut)
+	g, err := campaign.OpenGrid(cut)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -179,7 +144,7 @@ func TestGridOnSlurm(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if st[0].State != retrieve.PointStopped || st[0].Step < 1 || st[0].Step >= 1500 || st[1].State != retrieve.PointDone || st[2].State != retrieve.PointDone {
+	if st[0].State != campaign.PointStopped || st[0].Step < 1 || st[0].Step >= 1500 || st[1].State != campaign.PointDone || st[2].State != campaign.PointDone {
 		t.Fatalf("after scancel: %v / %v / %v; task 0 log:\n%s", st[0], st[1], st[2], taskLog(t, cut, job, 0))
 	}
 	k := st[0].Step
@@ -194,7 +159,7 @@ func TestGridOnSlurm(t *testing.T) {
 	}
 	// While the resubmitted task is queued or running, the point is not
 	// resubmitted again.
-	if st, err := g.Status(); err != nil || st[0].State == retrieve.PointStopped || st[0].State == retrieve.PointNotStarted {
+	if st, err := g.Status(); err != nil || st[0].State == campaign.PointStopped || st[0].State == campaign.PointNotStarted {
 		t.Errorf("status of a resubmitted point: %v %v", st[0], err)
 	}
 	if again, err := g.Unfinished(); err != nil || len(again) != 0 {
@@ -214,11 +179,11 @@ func TestGridOnSlurm(t *testing.T) {
 		t.Errorf("summary after cancel and resubmit differs from the uninterrupted grid's:\n%s\n----\n%s", got, want)
 	}
 	// The chain itself is the uninterrupted one, row for row.
-	a, err := retrieve.ReadChains(filepath.Join(whole, "points", "p0000", "run", "chains"), nil, 0, 1)
+	a, err := chains.Read(filepath.Join(whole, "points", "p0000", "run", "chains"), nil, 0, 1)
 	if err != nil {
 		t.Fatal(err)
 	}
-	b, err := retrieve.ReadChains(filepath.Join(cut, "points", "p0000", "run", "chains"), nil, 0, 1)
+	b, err := chains.Read(filepath.Join(cut, "points", "p0000", "run", "chains"), nil, 0, 1)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -21,7 +21,7 @@ import (
 	"chord/forward/opacity/hitran"
 	"chord/forward/opacity/lbl"
 	"chord/forward/opacity/tablefile"
-	"chord/retrieve"
+	"chord/internal/version"
 )
 
 // opacityBuildCommand is the "build" subcommand of "chord opacity": line
@@ -202,7 +202,7 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 		NoPressureShift: c.Bool("no-shift"),
 		Workers:         c.Int("workers"),
 		Observer:        tableObserver(c, "cross-sections", lines.Gas, quiet),
-		Version:         retrieve.Version,
+		Version:         version.Version,
 	}
 	start := time.Now()
 	t, err := lines.Table(settings)
@@ -322,7 +322,7 @@ func buildCIATables(c *cli.Context, files []string, nu []float64, out string, fo
 		if err != nil {
 			return err
 		}
-		t.Meta[opacity.MetaProgramVersion] = retrieve.Version
+		t.Meta[opacity.MetaProgramVersion] = version.Version
 		if err := tablefile.WriteCIA(path, t, force); err != nil {
 			return err
 		}

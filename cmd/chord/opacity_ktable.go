@@ -18,7 +18,8 @@ import (
 	"chord/forward/opacity/build"
 	"chord/forward/opacity/lbl"
 	"chord/forward/opacity/tablefile"
-	"chord/retrieve"
+	"chord/internal/version"
+	"chord/obs"
 )
 
 // buildKTable builds and writes the k-table of the line lists, resuming a
@@ -88,7 +89,7 @@ func buildKTable(c *cli.Context, files []string, out string, force bool, progres
 		Workers:     c.Int("workers"),
 		WindowLines: c.Int("window-lines"),
 		Observer:    tableObserver(c, "k-table", list.Gas, quiet),
-		Version:     retrieve.Version,
+		Version:     version.Version,
 	}
 	// The fingerprint needs the sources as the build records them.
 	srcMeta, err := opacity.SourcesMeta(list.Files...)
@@ -139,7 +140,7 @@ func kBins(c *cli.Context) (lo, hi []float64, err error) {
 		return nil, nil, errors.New("opacity build: give --bins or --bins-from, not both")
 	}
 	if c.IsSet("bins-from") {
-		d, err := retrieve.ReadDataset(c.String("bins-from"))
+		d, err := obs.ReadDataset(c.String("bins-from"))
 		if err != nil {
 			return nil, nil, fmt.Errorf("opacity build: --bins-from: %w", err)
 		}

@@ -6,13 +6,14 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/urfave/cli/v2"
+	"chord/campaign"
 
-	"chord/retrieve"
+	"github.com/urfave/cli/v2"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// planCommand returns the plan command.
+func planCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "plan",
 		Usage:     "simulate, fit and compare a scenario at several noise levels or numbers of transits",
 		ArgsUsage: " ",
@@ -35,7 +36,7 @@ func init() {
 			&cli.Uint64Flag{Name: "seed", Usage: "draw Gaussian noise, level i with seed `N`+i (default: noise-free observations)"},
 		}, observingFlags...), stopFlags...),
 		Action: runPlan,
-	})
+	}
 }
 
 func runPlan(c *cli.Context) error {
@@ -46,7 +47,7 @@ func runPlan(c *cli.Context) error {
 	if err != nil {
 		return err
 	}
-	opt := retrieve.PlanOptions{Dir: c.String("output"), ScenarioPath: c.String("config"), DemoCache: c.String("demo-cache")}
+	opt := campaign.PlanOptions{Dir: c.String("output"), ScenarioPath: c.String("config"), DemoCache: c.String("demo-cache")}
 	if c.Bool("demo") {
 		if opt.ScenarioPath != "" {
 			return errors.New("plan: give -c SCENARIO or --demo, not both")
@@ -62,7 +63,7 @@ func runPlan(c *cli.Context) error {
 		if err != nil {
 			return fmt.Errorf("plan: %w", err)
 		}
-		spec := retrieve.PlanSpec{
+		spec := campaign.PlanSpec{
 			BinsFile: obs.BinsFile, RangeUm: obs.RangeUm, ResolvingPower: obs.ResolvingPower, NoiseFile: obs.NoiseFile,
 			Scatter: c.IsSet("seed"), NoiseSeed: c.Uint64("seed"),
 			Steps: stop.Steps, Budget: stop.Budget, UntilConverged: stop.UntilConverged,
@@ -88,13 +89,24 @@ func runPlan(c *cli.Context) error {
 		} else if c.IsSet("noise") {
 			spec.NoisePPM = noise
 		}
+		switch {
+		case !c.IsSet("noise") && !c.IsSet("transits"):
+			return errors.New("plan: give the noise levels (--noise 30,60,120) or the numbers of transits (--transits 1,4,16)")
+		case c.IsSet("transits") && !c.IsSet("noise") && !c.IsSet("noise-file"):
+			return errors.New("plan: a plan over transits needs the single-transit noise (--noise PPM or --noise-file FILE)")
+		case !c.IsSet("transits") && c.IsSet("noise-file"):
+			return errors.New("plan: noise levels and a noise file exclude each other; with --noise-file, plan over --transits")
+		}
 		opt.Spec = spec
 	}
 	opt.Workers = flagIfSet(c, "workers", c.Int)
 	ctx, cancel, prog := session(c)
 	defer cancel()
 	opt.Progress = prog
-	rep, err := retrieve.RunPlan(ctx, opt)
+	rep, err := campaign.RunPlan(ctx, opt)
+	if errors.Is(err, campaign.ErrOtherPlan) {
+		return fmt.Errorf("%w; resume it with chord plan -o %s alone, or choose another directory", err, opt.Dir)
+	}
 	if err != nil {
 		return err
 	}

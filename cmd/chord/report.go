@@ -9,8 +9,9 @@ import (
 	"chord/retrieve"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// reportCommand returns the report command.
+func reportCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "report",
 		Usage:     "recompute a run's summaries and plots from its chains",
 		ArgsUsage: "RUNDIR",
@@ -23,7 +24,7 @@ func init() {
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		},
 		Action: interspersed(runReport),
-	})
+	}
 }
 
 func runReport(c *cli.Context) error {

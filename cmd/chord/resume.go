@@ -8,8 +8,9 @@ import (
 	"chord/retrieve"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// resumeCommand returns the resume command.
+func resumeCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "resume",
 		Usage:     "continue a stopped or killed run from its checkpoint",
 		ArgsUsage: "RUNDIR",
@@ -21,7 +22,7 @@ func init() {
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		}, stopFlags...),
 		Action: interspersed(runResume),
-	})
+	}
 }
 
 func runResume(c *cli.Context) error {

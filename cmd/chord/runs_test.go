@@ -18,79 +18,33 @@ import (
 
 	"github.com/parquet-go/parquet-go"
 
+	"chord/config"
 	"chord/internal/testenv"
-	"chord/retrieve"
+	"chord/simulate"
 )
 
-// A tiny retrieval that needs no opacity tables: an invented sub-Neptune
-// with a grey absorber and H2/He Rayleigh scattering, two free parameters.
-const runsTruth = `
-[star]
-radius_rsun = 0.5
-[planet]
-name = "Test world"
-radius_rearth = 2.5
-mass_mearth = 7
-[atmosphere]
-layers = 30
-[atmosphere.temperature]
-temperature_k = 700
-[opacity]
-grey_cross_section_m2 = 1e-31
-[spectrum]
-wavelength_min_um = 0.4
-wavelength_max_um = 3
-resolving_power = 150
-bin_resolving_power = 15
-`
-
-const runsFit = `
-[star]
-radius_rsun = 0.5
-[planet]
-mass_mearth = 7
-[atmosphere]
-layers = 30
-[atmosphere.temperature]
-profile = "isothermal"
-[opacity]
-grey_cross_section_m2 = 1e-31
-[spectrum]
-wavelength_min_um = 0.4
-wavelength_max_um = 3
-resolving_power = 150
-[[observations]]
-file = "obs.csv"
-[[parameters]]
-sets = "radius_rearth"
-prior = "uniform"
-low = 2
-high = 3
-[[parameters]]
-sets = "temperature_k"
-prior = "uniform"
-low = 300
-high = 1500
-[sampler]
-walkers = 8
-seed = 11
-steps = 150
-`
+// runsModel is greySubNeptune with 30 layers, a stronger grey absorber
+// and R = 150: a tiny retrieval that needs no opacity tables.
+func runsModel(t *testing.T) *testenv.TOML {
+	return greySubNeptune(t).Set("atmosphere.layers", "30").Set("opacity.grey_cross_section_m2", "1e-31").
+		Set("spectrum.resolving_power", "150")
+}
 
 func setupRuns(t *testing.T) (dir, cfg string) {
 	t.Helper()
 	dir = t.TempDir()
-	truth := filepath.Join(dir, "truth.toml")
-	os.WriteFile(truth, []byte(runsTruth), 0o644)
-	mc, err := retrieve.DecodeModelConfig(truth)
+	truth := runsModel(t).DeleteTable("parameters").DeleteTable("sampler").Set("spectrum.bin_resolving_power", "15").
+		Write(filepath.Join(dir, "truth.toml"))
+	mc, err := config.LoadModel(truth)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if err := retrieve.SimulateObservation(filepath.Join(dir, "obs.csv"), mc, "", nil, 40, true, 3); err != nil {
+	if err := simulate.ObserveModel(filepath.Join(dir, "obs.csv"), mc, "", nil, 40, true, 3); err != nil {
 		t.Fatal(err)
 	}
-	cfg = filepath.Join(dir, "fit.toml")
-	os.WriteFile(cfg, []byte(runsFit), 0o644)
+	cfg = runsModel(t).Delete("planet.radius_rearth").Delete("atmosphere.temperature.temperature_k").Delete("spectrum.bin_resolving_power").
+		Set("parameters[2].high", "1500").Set("sampler.seed", "11").Set("sampler.steps", "150").
+		Append("[[observations]]\nfile = \"obs.csv\"").Write(filepath.Join(dir, "fit.toml"))
 	return dir, cfg
 }
 

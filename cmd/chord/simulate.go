@@ -8,8 +8,11 @@ import (
 
 	"github.com/urfave/cli/v2"
 
-	"chord/forward/opacity"
-	"chord/retrieve"
+	"chord/campaign"
+	"chord/config"
+	"chord/internal/version"
+	"chord/obs"
+	"chord/simulate"
 )
 
 // observingFlags are the bin and noise options shared by simulate and plan.
@@ -21,8 +24,9 @@ var observingFlags = []cli.Flag{
 	&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 }
 
-func init() {
-	commands = append(commands, &cli.Command{
+// simulateCommand returns the simulate command.
+func simulateCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "simulate",
 		Usage:     "simulate an observation of a scenario's true spectrum",
 		ArgsUsage: " ",
@@ -48,12 +52,12 @@ func init() {
 			&cli.BoolFlag{Name: "force", Usage: "replace existing output files"},
 		}, observingFlags...),
 		Action: runSimulate,
-	})
+	}
 }
 
 // observingSpec reads the bin and noise flags.
-func observingSpec(c *cli.Context) (retrieve.ObservingSpec, error) {
-	spec := retrieve.ObservingSpec{
+func observingSpec(c *cli.Context) (simulate.ObservingSpec, error) {
+	spec := simulate.ObservingSpec{
 		BinsFile: c.String("bins"), NoiseFile: c.String("noise-file"),
 		ResolvingPower: c.Float64("resolving-power"),
 	}
@@ -92,14 +96,14 @@ func runSimulate(c *cli.Context) error {
 		return fmt.Errorf("simulate: %w", err)
 	}
 	spec.NoisePPM, spec.Transits = c.Float64("noise"), c.Int("transits")
-	var sc *retrieve.Scenario
+	var sc *simulate.Scenario
 	switch {
 	case c.Bool("demo") && c.IsSet("config"):
 		return errors.New("simulate: give -c SCENARIO or --demo, not both")
 	case c.Bool("demo"):
-		sc, err = retrieve.DemoScenario()
+		sc, err = campaign.DemoScenario()
 	case c.IsSet("config"):
-		sc, err = retrieve.LoadScenario(c.String("config"))
+		sc, err = simulate.LoadScenario(c.String("config"))
 	default:
 		return errors.New("simulate: give the scenario: -c SCENARIO or --demo")
 	}
@@ -110,17 +114,17 @@ func runSimulate(c *cli.Context) error {
 	if err != nil {
 		return fmt.Errorf("simulate: %w", err)
 	}
-	set, err := loadOpacity(c, &sc.Config.ModelConfig)
+	set, err := sc.Config.LoadOpacity(c.String("demo-cache"), c.App.ErrWriter)
 	if err != nil {
 		return err
 	}
-	obs, err := sc.Simulate(set, bins, retrieve.SimulateOptions{Noise: noise, Scatter: scatter, Seed: c.Uint64("seed")})
+	o, err := sc.Simulate(set, bins, simulate.Options{Noise: noise, Scatter: scatter, Seed: c.Uint64("seed")})
 	if err != nil {
 		return err
 	}
 	out := c.String("output")
-	if err := retrieve.WriteObservation(out, obs, c.Bool("force")); err != nil {
-		return fmt.Errorf("simulate: %w", err)
+	if err := obs.WriteObservation(out, o, c.Bool("force")); err != nil {
+		return fmt.Errorf("simulate: %w", forceAdvice(err))
 	}
 	fmt.Fprintf(c.App.ErrWriter, "chord simulate: %d bins, %s, written to %s\n", bins.Len(), noise, out)
 	if set.Demo {
@@ -131,26 +135,13 @@ func runSimulate(c *cli.Context) error {
 		if err != nil {
 			return fmt.Errorf("simulate: %w", err)
 		}
-		hdr := []string{fmt.Sprintf("Retrieval configuration written by chord %s simulate: scenario %s fitted to %s.", retrieve.Version, sc.Path, out)}
-		if err := retrieve.WriteConfig(p, fc, hdr, c.Bool("force")); err != nil {
-			return fmt.Errorf("simulate: %w", err)
+		hdr := []string{fmt.Sprintf("Retrieval configuration written by chord %s simulate: scenario %s fitted to %s.", version.Version, sc.Path, out)}
+		if err := config.Write(p, fc, hdr, c.Bool("force")); err != nil {
+			return fmt.Errorf("simulate: %w", forceAdvice(err))
 		}
 		fmt.Fprintf(c.App.ErrWriter, "chord simulate: fit it with: chord fit -c %s -o RUNDIR\n", p)
 	}
 	return nil
-}
-
-// loadOpacity loads the tables a model configuration asks for, with the
-// demo cache of --demo-cache or the user cache directory.
-func loadOpacity(c *cli.Context, mc *retrieve.ModelConfig) (*opacity.Set, error) {
-	cache := c.String("demo-cache")
-	if cache == "" && mc.Opacity.Demo {
-		var err error
-		if cache, err = retrieve.DemoCacheDir(); err != nil {
-			return nil, err
-		}
-	}
-	return mc.LoadOpacity(cache, c.App.ErrWriter)
 }
 
 // floatList parses "a,b,c".

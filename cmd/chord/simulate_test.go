@@ -6,6 +6,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"chord/internal/testenv"
 )
 
 func runCmd(t *testing.T, args ...string) (string, string, error) {
@@ -17,32 +19,17 @@ func runCmd(t *testing.T, args ...string) (string, string, error) {
 	return out.String(), errOut.String(), err
 }
 
-// planTestScenario: a clear H2/He atmosphere (grey and Rayleigh only, no
-// tables) with two free parameters and a short fixed chain.
-const planTestScenario = spectrumTestConfig + `bin_resolving_power = 15
-
-[[parameters]]
-sets = "radius_rearth"
-prior = "uniform"
-low = 2
-high = 3
-
-[[parameters]]
-sets = "temperature_k"
-prior = "uniform"
-low = 300
-high = 1200
-
-[sampler]
-walkers = 8
-seed = 5
-steps = 60
-`
+// planTestScenario is greySubNeptune binned at R = 15, with two free
+// parameters and a short fixed chain.
+func planTestScenario(t *testing.T) *testenv.TOML {
+	return greySubNeptune(t).Set("spectrum.bin_resolving_power", "15").
+		Set("parameters[2].high", "1200").Set("sampler.seed", "5").Set("sampler.steps", "60")
+}
 
 func TestSimulatePlanCompareCommands(t *testing.T) {
 	dir := t.TempDir()
 	sc := filepath.Join(dir, "s.toml")
-	if err := os.WriteFile(sc, []byte(planTestScenario), 0o644); err != nil {
+	if err := os.WriteFile(sc, []byte(planTestScenario(t).String()), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	obs, fit := filepath.Join(dir, "o.csv"), filepath.Join(dir, "fit.toml")
@@ -83,11 +70,11 @@ func TestSimulatePlanCompareCommands(t *testing.T) {
 func TestPlanningCommandErrors(t *testing.T) {
 	dir := t.TempDir()
 	sc := filepath.Join(dir, "s.toml")
-	if err := os.WriteFile(sc, []byte(planTestScenario), 0o644); err != nil {
+	if err := os.WriteFile(sc, []byte(planTestScenario(t).String()), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	bad := filepath.Join(dir, "bad.toml")
-	if err := os.WriteFile(bad, []byte(planTestScenario+"\n[planet.moon]\nmass = 1\n"), 0o644); err != nil {
+	if err := os.WriteFile(bad, []byte(planTestScenario(t).Set("planet.moon.mass", "1").String()), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	o := filepath.Join(dir, "o.csv")
@@ -101,7 +88,7 @@ func TestPlanningCommandErrors(t *testing.T) {
 		{[]string{"simulate", "-c", sc, "-o", o, "--noise", "-3", "--no-scatter"}, "must be positive"},
 		{[]string{"simulate", "-c", sc, "-o", o, "--no-scatter"}, "give the noise"},
 		{[]string{"simulate", "-c", sc, "-o", o, "--noise", "5", "--transits", "0", "--no-scatter"}, "--transits 0"},
-		{[]string{"simulate", "-c", bad, "-o", o, "--noise", "5", "--no-scatter"}, "unknown key planet.moon.mass"},
+		{[]string{"simulate", "-c", bad, "-o", o, "--noise", "5", "--no-scatter"}, "planet.moon: unknown key"},
 		{[]string{"simulate", "-c", sc, "-o", o, "--noise", "5", "--no-scatter", "--wavelength-range", "1"}, "--wavelength-range"},
 		{[]string{"simulate", "-c", sc, "-o", o, "--noise", "5", "--no-scatter", "--wavelength-range", "1,2"}, "needs a resolving power"},
 		{[]string{"simulate", "-o", o, "--noise", "5", "--no-scatter"}, "give the scenario"},
@@ -110,7 +97,7 @@ func TestPlanningCommandErrors(t *testing.T) {
 		{[]string{"plan", "-c", sc, "-o", filepath.Join(dir, "p3"), "--transits", "1,4"}, "single-transit noise"},
 		{[]string{"plan", "-c", sc, "-o", filepath.Join(dir, "p4"), "--transits", "1,4", "--noise", "30,60"}, "one single-transit level"},
 		{[]string{"plan", "-o", filepath.Join(dir, "p5"), "--noise", "30"}, "without -c"},
-		{[]string{"plan", "-c", bad, "-o", filepath.Join(dir, "p6"), "--noise", "30"}, "unknown key planet.moon.mass"},
+		{[]string{"plan", "-c", bad, "-o", filepath.Join(dir, "p6"), "--noise", "30"}, "planet.moon: unknown key"},
 		{[]string{"compare"}, "at least one run directory"},
 		{[]string{"compare", "--plot", "w.pdf", dir}, "PNG"},
 		{[]string{"compare", dir, "--json"}, "give the options first"},

@@ -1,25 +1,21 @@
 package main
 
 import (
-	"bufio"
+	"bytes"
 	"errors"
 	"fmt"
-	"math"
-	"os"
 	"path/filepath"
-	"strconv"
 
 	"github.com/urfave/cli/v2"
-	"gonum.org/v1/plot"
-	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/vg"
 
-	"chord/forward"
-	"chord/retrieve"
+	"chord/config"
+	"chord/internal/atomicfile"
+	"chord/report"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// spectrumCommand returns the spectrum command.
+func spectrumCommand() *cli.Command {
+	return &cli.Command{
 		Name:      "spectrum",
 		Usage:     "compute one transmission spectrum from a model configuration",
 		ArgsUsage: " ",
@@ -33,7 +29,7 @@ func init() {
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		},
 		Action: runSpectrum,
-	})
+	}
 }
 
 func runSpectrum(c *cli.Context) error {
@@ -41,17 +37,11 @@ func runSpectrum(c *cli.Context) error {
 		return fmt.Errorf("spectrum: unexpected argument %q", c.Args().First())
 	}
 	cfgPath := c.String("config")
-	cfg, err := retrieve.DecodeModelConfig(cfgPath)
+	cfg, err := config.LoadModel(cfgPath)
 	if err != nil {
 		return err
 	}
-	cache := c.String("demo-cache")
-	if cache == "" && cfg.Opacity.Demo {
-		if cache, err = retrieve.DemoCacheDir(); err != nil {
-			return err
-		}
-	}
-	set, err := cfg.LoadOpacity(cache, c.App.ErrWriter)
+	set, err := cfg.LoadOpacity(c.String("demo-cache"), c.App.ErrWriter)
 	if err != nil {
 		return fmt.Errorf("%s: %w", cfgPath, err)
 	}
@@ -84,89 +74,33 @@ func runSpectrum(c *cli.Context) error {
 	if title == "" {
 		title = "model spectrum"
 	}
-	if err := writeSpectrumCSV(c, c.String("output"), title, set.Demo, wl, depth, lo, hi); err != nil {
+	spec := &report.ModelSpectrum{Title: title, Demo: set.Demo, Wavelength: wl, Depth: depth, Lo: lo, Hi: hi}
+	if err := writeSpectrumCSV(c, c.String("output"), spec); err != nil {
 		return err
 	}
 	if p := c.String("plot"); p != "" {
-		if err := plotSpectrum(p, title, set.Demo, wl, depth, lo, hi); err != nil {
-			return err
+		if filepath.Ext(p) != ".png" {
+			return errors.New("spectrum: --plot needs a .png file name")
 		}
-	}
-	return nil
-}
-
-func writeSpectrumCSV(c *cli.Context, path, title string, demo bool, wl, depth, lo, hi []float64) (err error) {
-	out := c.App.Writer
-	var f *os.File
-	if path != "-" {
-		if f, err = os.Create(path); err != nil {
+		if err := spec.Plot(p); err != nil {
 			return fmt.Errorf("spectrum: %w", err)
 		}
-		defer func() {
-			if cerr := f.Close(); cerr != nil && err == nil {
-				err = fmt.Errorf("spectrum: %w", cerr)
-			}
-		}()
-		out = f
-	}
-	bw := bufio.NewWriter(out)
-	fmt.Fprintf(bw, "# chord %s spectrum: %s; depth is the transit depth (fraction of the stellar disc)\n", retrieve.Version, title)
-	if demo {
-		fmt.Fprintln(bw, "# demo opacity tables: not for science")
-	}
-	if lo != nil {
-		fmt.Fprintln(bw, "wavelength_um,depth,bin_lo_um,bin_hi_um")
-	} else {
-		fmt.Fprintln(bw, "wavelength_um,depth")
-	}
-	g := func(v float64) string { return strconv.FormatFloat(v, 'g', 10, 64) }
-	for i := range depth {
-		if lo != nil {
-			fmt.Fprintf(bw, "%s,%s,%s,%s\n", g(wl[i]/forward.Micron), g(depth[i]), g(lo[i]/forward.Micron), g(hi[i]/forward.Micron))
-		} else {
-			fmt.Fprintf(bw, "%s,%s\n", g(wl[i]/forward.Micron), g(depth[i]))
-		}
-	}
-	if err := bw.Flush(); err != nil {
-		return fmt.Errorf("spectrum: %s: %w", path, err)
 	}
 	return nil
 }
 
-func plotSpectrum(path, title string, demo bool, wl, depth, lo, hi []float64) error {
-	if filepath.Ext(path) != ".png" {
-		return errors.New("spectrum: --plot needs a .png file name")
+// writeSpectrumCSV writes the spectrum's CSV to path, or to standard
+// output for "-".
+func writeSpectrumCSV(c *cli.Context, path string, s *report.ModelSpectrum) error {
+	if path == "-" {
+		return s.WriteCSV(c.App.Writer)
 	}
-	p := plot.New()
-	p.Title.Text = title
-	if demo {
-		p.Title.Text += " (demo opacities: not for science)"
+	var b bytes.Buffer
+	if err := s.WriteCSV(&b); err != nil {
+		return err
 	}
-	p.X.Label.Text = "wavelength [um]"
-	p.Y.Label.Text = "transit depth [ppm]"
-	p.X.Scale = plot.LogScale{}
-	p.X.Tick.Marker = plot.LogTicks{Prec: -1}
-	pts := make(plotter.XYs, 0, 2*len(depth))
-	for i := range depth {
-		if lo != nil { // bins as steps
-			pts = append(pts, plotter.XY{X: lo[i] / forward.Micron, Y: depth[i] * 1e6}, plotter.XY{X: hi[i] / forward.Micron, Y: depth[i] * 1e6})
-			continue
-		}
-		pts = append(pts, plotter.XY{X: wl[i] / forward.Micron, Y: depth[i] * 1e6})
-	}
-	for _, q := range pts {
-		if math.IsNaN(q.Y) || math.IsInf(q.Y, 0) {
-			return errors.New("spectrum: plot: depth is not finite")
-		}
-	}
-	l, err := plotter.NewLine(pts)
-	if err != nil {
-		return fmt.Errorf("spectrum: plot: %w", err)
-	}
-	l.Width = vg.Points(1)
-	p.Add(l, plotter.NewGrid())
-	if err := p.Save(9*vg.Inch, 5*vg.Inch, path); err != nil {
-		return fmt.Errorf("spectrum: plot: %w", err)
+	if err := atomicfile.Write(path, b.Bytes(), true); err != nil {
+		return fmt.Errorf("spectrum: %w", err)
 	}
 	return nil
 }

@@ -8,6 +8,8 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+
+	"chord/internal/testenv"
 )
 
 func runSpectrumCmd(t *testing.T, args ...string) (string, string, error) {
@@ -19,26 +21,20 @@ func runSpectrumCmd(t *testing.T, args ...string) (string, string, error) {
 	return out.String(), errOut.String(), err
 }
 
-// spectrumTestConfig is an invented sub-Neptune with grey and Rayleigh
-// opacities only, so the command runs without tables.
-const spectrumTestConfig = `
-[star]
-radius_rsun = 0.5
-[planet]
-name = "Test world"
-radius_rearth = 2.5
-mass_mearth = 7
-[atmosphere]
-layers = 40
-[atmosphere.temperature]
-temperature_k = 700
-[opacity]
-grey_cross_section_m2 = 1e-32
-[spectrum]
-wavelength_min_um = 0.4
-wavelength_max_um = 3
-resolving_power = 200
-`
+// greySubNeptune is the sub-Neptune fixture with a grey absorber, 40
+// layers at 700 K, a heavier planet and a 0.4-3 um model grid at R = 200.
+func greySubNeptune(t *testing.T) *testenv.TOML {
+	return testenv.Fixture(t, "sub-neptune.toml").
+		Set("planet.mass_mearth", "7").Set("atmosphere.layers", "40").Set("atmosphere.temperature.temperature_k", "700").
+		Set("opacity.grey_cross_section_m2", "1e-32").Set("spectrum.wavelength_min_um", "0.4").Set("spectrum.wavelength_max_um", "3").
+		Set("spectrum.resolving_power", "200")
+}
+
+// spectrumModel is greySubNeptune as an unbinned model configuration (no
+// parameters, no sampler), which needs no tables.
+func spectrumModel(t *testing.T) *testenv.TOML {
+	return greySubNeptune(t).DeleteTable("parameters").DeleteTable("sampler").Delete("spectrum.bin_resolving_power")
+}
 
 func readCSV(t *testing.T, path string) [][]string {
 	t.Helper()
@@ -58,7 +54,7 @@ func readCSV(t *testing.T, path string) [][]string {
 func TestSpectrumCommand(t *testing.T) {
 	dir := t.TempDir()
 	cfg := filepath.Join(dir, "m.toml")
-	if err := os.WriteFile(cfg, []byte(spectrumTestConfig), 0o644); err != nil {
+	if err := os.WriteFile(cfg, []byte(spectrumModel(t).String()), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	out, png := filepath.Join(dir, "s.csv"), filepath.Join(dir, "s.png")
@@ -83,7 +79,7 @@ func TestSpectrumCommand(t *testing.T) {
 	}
 
 	// Binned: bin edges add two columns.
-	binned := spectrumTestConfig + "bin_edges_um = [0.5, 1, 2]\n"
+	binned := spectrumModel(t).Set("spectrum.bin_edges_um", "[0.5, 1, 2]").String()
 	if err := os.WriteFile(cfg, []byte(binned), 0o644); err != nil {
 		t.Fatal(err)
 	}
@@ -100,9 +96,9 @@ func TestSpectrumCommandErrors(t *testing.T) {
 	dir := t.TempDir()
 	cfg := filepath.Join(dir, "m.toml")
 	for _, c := range []struct{ text, want string }{
-		{spectrumTestConfig + "resolution = 3\n", "unknown key spectrum.resolution"},
-		{strings.Replace(spectrumTestConfig, "mass_mearth = 7", "", 1), "missing key: one of planet.mass_mjup"},
-		{strings.Replace(spectrumTestConfig, "mass_mearth = 7", "mass_mearth = 1e-6", 1), "unbound"},
+		{spectrumModel(t).Set("spectrum.resolution", "3").String(), "spectrum.resolution: unknown key"},
+		{spectrumModel(t).Delete("planet.mass_mearth").String(), "planet.mass_mjup: missing (one of planet.mass_mjup"},
+		{spectrumModel(t).Set("planet.mass_mearth", "1e-6").String(), "unbound"},
 	} {
 		if err := os.WriteFile(cfg, []byte(c.text), 0o644); err != nil {
 			t.Fatal(err)

@@ -3,18 +3,19 @@ package main
 import (
 	"fmt"
 
-	"github.com/urfave/cli/v2"
+	"chord/internal/version"
 
-	"chord/retrieve"
+	"github.com/urfave/cli/v2"
 )
 
-func init() {
-	commands = append(commands, &cli.Command{
+// versionCommand returns the version command.
+func versionCommand() *cli.Command {
+	return &cli.Command{
 		Name:  "version",
 		Usage: "print the program version",
 		Action: func(c *cli.Context) error {
-			fmt.Fprintln(c.App.Writer, "chord", retrieve.Version)
+			fmt.Fprintln(c.App.Writer, "chord", version.Version)
 			return nil
 		},
-	})
+	}
 }

@@ -2,6 +2,7 @@ package testenv
 
 import (
 	"errors"
+	"io"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -112,4 +113,33 @@ func ParquetFiles(t testing.TB, pattern string) (files []ParquetFile, cols []str
 		files = append(files, ParquetFile{name, pf})
 	}
 	return files, cols
+}
+
+// ParquetRows reads every row of the files matching pattern with
+// parquet-go's generic row reader into maps (a reader path that shares no
+// code with chord's) and returns the column names of the first file and
+// all rows.
+func ParquetRows(t testing.TB, pattern string) ([]string, []map[string]any) {
+	t.Helper()
+	files, cols := ParquetFiles(t, pattern)
+	var rows []map[string]any
+	for _, pf := range files {
+		r := parquet.NewGenericReader[map[string]any](pf.File, pf.Schema())
+		buf := make([]map[string]any, 100)
+		for {
+			for i := range buf {
+				buf[i] = map[string]any{}
+			}
+			n, err := r.Read(buf)
+			rows = append(rows, buf[:n]...)
+			if err == io.EOF {
+				break
+			}
+			if err != nil {
+				t.Fatalf("%s: %v", pf.Name, err)
+			}
+		}
+		r.Close()
+	}
+	return cols, rows
 }

@@ -14,6 +14,8 @@ import (
 	"path/filepath"
 	"strings"
 
+	"chord/config"
+	"chord/forward"
 	"chord/retrieve"
 )
 
@@ -56,7 +58,7 @@ func run() error {
 		optLo = append(optLo, 0.6+0.04*float64(i))
 		optHi = append(optHi, 0.64+0.04*float64(i))
 	}
-	ir, err := retrieve.ResolvingPowerBins(1.0e-6, 11e-6, 40)
+	ir, err := forward.ResolvingPowerBins(1.0e-6, 11e-6, 40)
 	if err != nil {
 		return err
 	}
@@ -96,15 +98,11 @@ func run() error {
 	if err := write(flat(len(optLo)), flat(len(irLo))); err != nil {
 		return err
 	}
-	r, err := retrieve.LoadConfig(filepath.Join(dir, "retrieval-example.toml"))
+	r, err := config.Load(filepath.Join(dir, "retrieval-example.toml"))
 	if err != nil {
 		return err
 	}
-	cache, err := retrieve.DemoCacheDir()
-	if err != nil {
-		return err
-	}
-	set, err := r.Config.LoadOpacity(cache, os.Stderr)
+	set, err := r.Config.LoadOpacity("", os.Stderr)
 	if err != nil {
 		return err
 	}
