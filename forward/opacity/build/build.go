@@ -25,8 +25,8 @@ import (
 	"chord/forward/opacity"
 	"chord/forward/opacity/exomol"
 	"chord/forward/opacity/hitran"
-	"chord/forward/opacity/internal/compressed"
 	"chord/forward/opacity/lbl"
+	"chord/internal/compressed"
 )
 
 // Source names the files of one gas's line list and what goes with them.

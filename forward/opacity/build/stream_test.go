@@ -16,8 +16,8 @@ import (
 	"chord/forward/opacity"
 	"chord/forward/opacity/build"
 	"chord/forward/opacity/exomol"
-	"chord/internal/synthlines"
 	"chord/forward/opacity/lbl"
+	"chord/internal/synthlines"
 )
 
 // anchored returns the bins exp(k/r) um inside [lo, hi] um.
