@@ -7,13 +7,11 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
-	"math"
 	"os"
 	"path/filepath"
 	"runtime"
 	"runtime/debug"
 	"strconv"
-	"sync/atomic"
 	"syscall"
 	"testing"
 	"time"
@@ -109,35 +107,6 @@ func synthList(b *testing.B, n int64, nuLo, nuHi, chunk float64) string {
 	return def
 }
 
-// anchoredBins returns the bins exp(k/r) um inside [lo, hi] um.
-func anchoredBins(lo, hi, r float64) (blo, bhi []float64) {
-	for k := int(math.Ceil(r * math.Log(lo))); float64(k+1) <= r*math.Log(hi); k++ {
-		blo = append(blo, math.Exp(float64(k)/r)*1e-6)
-		bhi = append(bhi, math.Exp(float64(k+1)/r)*1e-6)
-	}
-	return blo, bhi
-}
-
-// peakHeap samples the heap in use until stop is closed.
-func peakHeap(stop <-chan struct{}) *atomic.Uint64 {
-	var peak atomic.Uint64
-	go func() {
-		var ms runtime.MemStats
-		for {
-			runtime.ReadMemStats(&ms)
-			if ms.HeapInuse > peak.Load() {
-				peak.Store(ms.HeapInuse)
-			}
-			select {
-			case <-stop:
-				return
-			case <-time.After(20 * time.Millisecond):
-			}
-		}
-	}()
-	return &peak
-}
-
 var kSink *opacity.KTable
 
 func buildK(b *testing.B, def string, s lbl.KSettings, n int64) {
@@ -147,7 +116,7 @@ func buildK(b *testing.B, def string, s lbl.KSettings, n int64) {
 	}
 	runtime.GC()
 	stop := make(chan struct{})
-	peak := peakHeap(stop)
+	peak := testenv.PeakHeap(stop)
 	start := time.Now()
 	cpu0 := cpuSeconds()
 	for b.Loop() {
@@ -175,7 +144,7 @@ func buildK(b *testing.B, def string, s lbl.KSettings, n int64) {
 func BenchmarkStreamLines(b *testing.B) {
 	const n = 200_000
 	def := synthList(b, n, 2000, 2400, 100)
-	lo, hi := anchoredBins(1e4/2400, 1e4/2000, 100)
+	lo, hi := opacity.AnchoredBins(1e4/2400, 1e4/2000, 100)
 	for _, workers := range []int{1, 2} {
 		b.Run(fmt.Sprintf("workers=%d", workers), func(b *testing.B) {
 			s := lbl.KSettings{Log10P: []float64{0, 2, 4, 6}, T: []float64{500, 1500}, Lo: lo, Hi: hi, Workers: workers,
@@ -198,7 +167,7 @@ func BenchmarkKTableLines(b *testing.B) {
 		}
 	}
 	nuLo, nuHi := 1e4/5.5, 1e4/0.6
-	lo, hi := anchoredBins(0.6, 5.5, 100)
+	lo, hi := opacity.AnchoredBins(0.6, 5.5, 100)
 	logP := make([]float64, 20)
 	for i := range logP {
 		logP[i] = -2 + 9*float64(i)/19

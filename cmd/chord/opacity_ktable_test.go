@@ -11,8 +11,8 @@ import (
 	"testing"
 	"time"
 
-	"chord/internal/synthlines"
 	"chord/forward/opacity/tablefile"
+	"chord/internal/synthlines"
 	"chord/internal/testenv"
 )
 

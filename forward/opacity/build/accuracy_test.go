@@ -138,7 +138,7 @@ func TestWeakLinesAccuracy(t *testing.T) {
 			map[lbl.IsoKey]string{{Mol: 6, Iso: 1}: "q32_CH4_211_tips2021_hapi.txt"}, 2850, 3200},
 	} {
 		lines, iso := readHot(t, c.files, c.q, c.nuLo, c.nuHi)
-		lo, hi := anchored(1e4/c.nuHi, 1e4/c.nuLo, 100)
+		lo, hi := opacity.AnchoredBins(1e4/c.nuHi, 1e4/c.nuLo, 100)
 		s := lbl.KSettings{Gas: c.gas, Log10P: hotLog10P(), T: []float64{1000}, Lo: lo, Hi: hi,
 			Lines: lbl.LineSettings{Mixture: lbl.H2HeMixture(0.17)}}
 		all, err := lbl.BuildK(lines, iso, &s)

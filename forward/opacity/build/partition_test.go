@@ -6,6 +6,7 @@ import (
 	"strings"
 	"testing"
 
+	"chord/forward/opacity"
 	"chord/forward/opacity/build"
 	"chord/forward/opacity/lbl"
 	"chord/internal/testenv"
@@ -32,7 +33,7 @@ func TestNewestPartition(t *testing.T) {
 	if !strings.Contains(strings.Join(notes, "\n"), "keeping TIPS-2025 (q26_CO_26_tips2025_hapi.txt), not the older or equal TIPS-2021") {
 		t.Errorf("notes %q", notes)
 	}
-	lo, hi := anchored(1e4/2190, 1e4/2110, 100)
+	lo, hi := opacity.AnchoredBins(1e4/2190, 1e4/2110, 100)
 	k, err := l.KTable(context.Background(), lbl.KSettings{Log10P: []float64{3}, T: []float64{800, 1500}, Lo: lo, Hi: hi, Resolution: 1e5,
 		Observer: lbl.Observer{Warn: func(m string) { warns = append(warns, m) }}})
 	if err != nil {

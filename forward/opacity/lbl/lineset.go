@@ -304,8 +304,7 @@ type lineWork struct {
 	node   []float64
 	coarse []float64
 	q      []float64 // per isotopologue: Q(296)/Q(T)
-	s      []float64 // per line of the chunk: intensity at T
-	ref    []float64 // per line of the chunk: strongest intensity near it
+	lt     lineT     // the chunk's lines at T, when not given
 	dq     []int     // sliding-maximum deque
 	dep    []float64 // weak lines' intensities on the coarse nodes
 	kern   []float64 // pseudo-continuum profile on the coarse nodes
@@ -336,6 +335,44 @@ func (ls *LineSet) CrossSections(dst []float64, g opacity.LnGrid, k0 int, p, t f
 }
 
 func (ls *LineSet) crossSections(dst []float64, g opacity.LnGrid, k0 int, p, t float64, w *lineWork) {
+	ls.crossSectionsT(dst, g, k0, p, t, w, nil)
+}
+
+// lineT holds what each line needs at one temperature, for all pressures:
+// its intensity S, the strongest intensity near it (ref, with WeakCut),
+// its Doppler half-width aD, and its Lorentz half-width g1 and shift d1
+// at 1 atm (both are proportional to pressure). Entry j is line off+j.
+type lineT struct {
+	off                int
+	s, ref, aD, g1, d1 []float64
+}
+
+// fill computes the entries of lines lo..hi-1 at temperature t.
+func (lt *lineT) fill(ls *LineSet, lo, hi int, t float64, w *lineWork) {
+	n := hi - lo
+	lt.off = lo
+	lt.s, lt.aD, lt.g1, lt.d1 = grow(lt.s, n), grow(lt.aD, n), grow(lt.g1, n), grow(lt.d1, n)
+	w.q = grow(w.q, len(ls.isos))
+	for i, li := range ls.isos {
+		w.q[i] = li.q296 / li.q.Q(t)
+	}
+	lnT := math.Log(TRef / t)
+	for i := lo; i < hi; i++ {
+		l := &ls.lines[i]
+		lt.s[i-lo] = LineIntensity(l, t, w.q[ls.iso[i]], 1)
+		lt.aD[i-lo] = DopplerHWHM(l.Nu, t, ls.isos[ls.iso[i]].mass)
+		lt.g1[i-lo], lt.d1[i-lo] = ls.width.at(l, 1, lnT)
+	}
+	if ls.s.WeakCut > 0 {
+		lt.ref = grow(lt.ref, n)
+		ls.strongest(lo, hi, lt.s, lt.ref, w)
+	}
+}
+
+// crossSectionsT is crossSections with the lines' quantities at t taken
+// from lt when it is not nil (it must cover the lines that reach the
+// chunk).
+func (ls *LineSet) crossSectionsT(dst []float64, g opacity.LnGrid, k0 int, p, t float64, w *lineWork, lt *lineT) {
 	n := len(dst)
 	clear(dst)
 	if n == 0 {
@@ -344,60 +381,56 @@ func (ls *LineSet) crossSections(dst []float64, g opacity.LnGrid, k0 int, p, t f
 	nc := (n-1)/coarseStep + 4 // coarse nodes -1 .. (n-1)/step + 2, stored at +1
 	w.nus = grow(w.nus, n)
 	w.coarse = grow(w.coarse, nc)
-	w.q = grow(w.q, len(ls.isos))
 	nus, coarse := w.nus[:n], w.coarse[:nc]
 	clear(coarse)
 	for k := range nus {
 		nus[k] = g.Nu(k0 + k)
 	}
-	for i, li := range ls.isos {
-		w.q[i] = li.q296 / li.q.Q(t)
-	}
 	pAtm := p / StandardAtmosphere
-	lnT := math.Log(TRef / t)
 	// Lines whose window meets [nus[0], nus[n-1]].
 	lo := sort.Search(len(ls.lines), func(i int) bool { return ls.lines[i].Nu >= nus[0]-ls.cut })
 	hi := sort.Search(len(ls.lines), func(i int) bool { return ls.lines[i].Nu > nus[n-1]+ls.cut })
-	w.s = grow(w.s, hi-lo)
-	for i := lo; i < hi; i++ {
-		w.s[i-lo] = LineIntensity(&ls.lines[i], t, w.q[ls.iso[i]], 1)
+	if lt == nil {
+		lt = &w.lt
+		lt.fill(ls, lo, hi, t, w)
 	}
 	weak := ls.s.WeakCut > 0
 	if weak {
-		ls.strongest(lo, hi, w)
 		w.dep = grow(w.dep, 0)
 	}
 	var cont continuum
 	w.weak = w.weak[:0]
 	for i := lo; i < hi; i++ {
-		S := w.s[i-lo]
+		j := i - lt.off
+		S := lt.s[j]
 		if S == 0 || S < ls.s.MinIntensity {
 			continue
 		}
-		if weak && S < ls.s.WeakCut*w.ref[i-lo] {
+		if weak && S < ls.s.WeakCut*lt.ref[j] {
 			w.weak = append(w.weak, i)
 			continue
 		}
-		ls.profile(i, S, dst, coarse, nus, g, k0, pAtm, lnT, t, w)
+		ls.profile(i, S, lt.aD[j], lt.g1[j]*pAtm, lt.d1[j]*pAtm, dst, coarse, nus, g, k0, w)
 	}
 	// A line weak next to its neighbours goes into the pseudo-continuum
 	// only if its peak is also below WeakCut times the cross-section the
 	// profiled lines give at its centre (lines centred outside the chunk
-	// reach it with their wings alone and always go).
+	// reach it with their wings alone and always go). The Gaussian peak
+	// S sqrt(ln2/pi)/aD bounds the Voigt peak, so lines below the cut
+	// by it need no profile value.
 	for _, i := range w.weak {
-		l := &ls.lines[i]
-		S := w.s[i-lo]
-		gL, shift := ls.width.at(l, pAtm, lnT)
-		aD := DopplerHWHM(l.Nu, t, ls.isos[ls.iso[i]].mass)
-		nu0 := l.Nu + shift
+		j := i - lt.off
+		S, aD, gL := lt.s[j], lt.aD[j], lt.g1[j]*pAtm
+		nu0 := ls.lines[i].Nu + lt.d1[j]*pAtm
 		if kk := int(math.Round(g.Index(nu0))) - k0; kk >= 0 && kk < n {
 			c := kk / coarseStep
 			lw := &lagrangeW[kk-c*coarseStep]
-			local := lw[0]*coarse[c] + lw[1]*coarse[c+1] + lw[2]*coarse[c+2] + lw[3]*coarse[c+3] + dst[kk]
-			p := newVoigtLine(S, nu0, aD, gL)
-			if p.at(nu0) >= ls.s.WeakCut*local {
-				ls.profile(i, S, dst, coarse, nus, g, k0, pAtm, lnT, t, w)
-				continue
+			cut := ls.s.WeakCut * (lw[0]*coarse[c] + lw[1]*coarse[c+1] + lw[2]*coarse[c+2] + lw[3]*coarse[c+3] + dst[kk])
+			if S*sqrtLn2OverPi/aD >= cut {
+				if p := newVoigtLine(S, nu0, aD, gL); p.at(nu0) >= cut {
+					ls.profile(i, S, aD, gL, lt.d1[j]*pAtm, dst, coarse, nus, g, k0, w)
+					continue
+				}
 			}
 		}
 		cont.add(S, nu0, aD, gL, g, k0, w)
@@ -517,12 +550,11 @@ func (ls *LineSet) addLine(dst, coarse, nus []float64, g opacity.LnGrid, k0 int,
 	correct(nb-1, nb+2)
 }
 
-// profile adds line i (intensity S at t) to the chunk with its own Voigt
-// profile, cut at the wing cut-off (or the adaptive one).
-func (ls *LineSet) profile(i int, S float64, dst, coarse, nus []float64, g opacity.LnGrid, k0 int, pAtm, lnT, t float64, w *lineWork) {
+// profile adds line i (intensity S, Doppler and Lorentz half-widths aD
+// and gL, shift) to the chunk with its own Voigt profile, cut at the wing
+// cut-off (or the adaptive one).
+func (ls *LineSet) profile(i int, S, aD, gL, shift float64, dst, coarse, nus []float64, g opacity.LnGrid, k0 int, w *lineWork) {
 	l := &ls.lines[i]
-	gL, shift := ls.width.at(l, pAtm, lnT)
-	aD := DopplerHWHM(l.Nu, t, ls.isos[ls.iso[i]].mass)
 	w.profiled++
 	p := newVoigtLine(S, l.Nu+shift, aD, gL)
 	cut := ls.cut
@@ -539,19 +571,18 @@ func voigtHWHM(aD, gL float64) float64 {
 	return 0.5346*gL + math.Sqrt(0.2166*gL*gL+aD*aD)
 }
 
-// strongest sets w.ref[i-lo] to the largest intensity (w.s) among the
-// lines within ls.ref cm^-1 of line i, for lines lo..hi-1 (sorted by
+// strongest sets ref[i-lo] to the largest intensity (s[i-lo]) among the
+// lines lo..hi-1 within ls.ref cm^-1 of line i (lines sorted by
 // wavenumber): a sliding maximum over a window of wavenumbers, with a
 // deque of line indexes of decreasing intensity (each line enters and
 // leaves it once).
-func (ls *LineSet) strongest(lo, hi int, w *lineWork) {
-	w.ref = grow(w.ref, hi-lo)
+func (ls *LineSet) strongest(lo, hi int, s, ref []float64, w *lineWork) {
 	dq := w.dq[:0]
 	j := lo // next line to enter the window
 	for i := lo; i < hi; i++ {
 		nu := ls.lines[i].Nu
 		for j < hi && ls.lines[j].Nu <= nu+ls.ref {
-			for len(dq) > 0 && w.s[dq[len(dq)-1]-lo] <= w.s[j-lo] {
+			for len(dq) > 0 && s[dq[len(dq)-1]-lo] <= s[j-lo] {
 				dq = dq[:len(dq)-1]
 			}
 			dq = append(dq, j)
@@ -562,7 +593,7 @@ func (ls *LineSet) strongest(lo, hi int, w *lineWork) {
 			k++
 		}
 		dq = dq[k:]
-		w.ref[i-lo] = w.s[dq[0]-lo]
+		ref[i-lo] = s[dq[0]-lo]
 	}
 	w.dq = dq[:0]
 }
