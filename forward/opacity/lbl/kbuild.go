@@ -348,10 +348,6 @@ func (b *kBuild) span(g opacity.LnGrid, b0, b1 int) int {
 func (b *kBuild) meta() map[string]string {
 	s := b.s
 	c := b.core
-	var fallbacks map[string]int
-	if len(c.width.comps) > 0 {
-		fallbacks = b.fallbacks
-	}
 	bs := map[string]any{
 		"method":                    "k-distribution from line-by-line cross-sections",
 		"profile":                   "Voigt; Faddeeva function by Humlicek (1982, JQSRT 27, 437), w4; cores on the fine grid, wings on every 32nd point with cubic interpolation",
@@ -374,7 +370,7 @@ func (b *kBuild) meta() map[string]string {
 		"broadener":                 cmpOr(s.Lines.Broadening.Name, "air"),
 		"broadener_scale":           c.scale,
 		"broadening_mixture":        s.Lines.Mixture.String(),
-		"broadening_fallback_lines": fallbacks,
+		"broadening_fallback_lines": b.fallbacks,
 		"pressure_shift":            !s.Lines.NoPressureShift,
 	}
 	if s.Lines.Broadening.N > 0 {
