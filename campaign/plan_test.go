@@ -67,7 +67,12 @@ func TestPlanWidthsScaleWithNoise(t *testing.T) {
 	if n := rep.Comparison.Runs[1].NoisePPM; n != 40 {
 		t.Errorf("noise level of the second run %g, want 40", n)
 	}
-	for _, f := range []string{"comparison.txt", "comparison.json", "widths.png", PlanFile, "scenario.toml", "noise-0020ppm/observation.csv", "noise-0040ppm/run/summary.json"} {
+	// The scenario is the truth of each level's report (retrieve.ReadTruth).
+	truth, err := retrieve.ReadTruth(filepath.Join(plan, "noise-0040ppm", "run"))
+	if err != nil || len(truth) != 2 {
+		t.Errorf("truth of a level: %v %v, want the 2 free parameters' true values", truth, err)
+	}
+	for _, f := range []string{"comparison.txt", "comparison.json", "widths.png", PlanFile, "scenario.toml", "noise-0020ppm/observation.csv", "noise-0040ppm/run/summary.json", "noise-0040ppm/run/temperature.png"} {
 		if _, err := os.Stat(filepath.Join(plan, f)); err != nil {
 			t.Errorf("plan lacks %s: %v", f, err)
 		}
@@ -304,7 +309,7 @@ rayleigh = ["H2", "He"]
 wavelength_min_um = 1.0
 wavelength_max_um = 5.0
 resolving_power = 300
-bin_resolving_power = 30
+bin_resolving_power = 40
 [[parameters]]
 sets = "radius_rearth"
 prior = "uniform"
@@ -339,7 +344,9 @@ func TestPlanDetectionOnDemoOpacities(t *testing.T) {
 	if err := os.WriteFile(sc, []byte(detectionScenario), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	rep, err := RunPlan(context.Background(), PlanOptions{Dir: filepath.Join(dir, "plan"), ScenarioPath: sc, DemoCache: filepath.Join(dir, "cache"),
+	// The default demo cache (config.DemoCacheDir), shared with the other
+	// tests, so that the demo tables are built once per machine.
+	rep, err := RunPlan(context.Background(), PlanOptions{Dir: filepath.Join(dir, "plan"), ScenarioPath: sc,
 		Spec: PlanSpec{NoisePPM: []float64{30}}})
 	if err != nil {
 		t.Fatal(err)

@@ -6,12 +6,10 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"math/rand/v2"
 	"path/filepath"
 	"slices"
 	"sort"
 	"strings"
-	"text/tabwriter"
 
 	"gonum.org/v1/gonum/stat"
 
@@ -69,6 +67,12 @@ type SummaryOptions struct {
 	// BurnAuto records that Burn was chosen by AutoBurn.
 	BurnAuto bool
 	Gases    []GasParam
+	// Bounds are the prior boxes of the parameter columns for the
+	// prior-edge check (checks.go); columns without one are not checked.
+	Bounds []ParamBounds
+	// Atmosphere gives the context of the cautions on gases associated
+	// with life (Caution); nil means none (the full caution applies).
+	Atmosphere *Atmosphere
 }
 
 // Summary is the content of summary.json.
@@ -95,6 +99,16 @@ type Summary struct {
 	Parameters []ColumnSummary `json:"parameters"`
 	Derived    []ColumnSummary `json:"derived"`
 	Best       BestSample      `json:"best"`
+
+	// GoodnessOfFit is the goodness-of-fit check's numbers (nil without
+	// a model or degrees of freedom).
+	GoodnessOfFit *GoodnessOfFit `json:"goodness_of_fit,omitempty"`
+	// Checks are the findings of the checks that say when the fit is not
+	// to be trusted (checks.go), in plain words; empty when none fired.
+	Checks []Check `json:"checks"`
+	// Coverage is what the opacity tables cover of the data (nil when not
+	// known).
+	Coverage *Coverage `json:"coverage,omitempty"`
 
 	// InvalidStates counts rejected proposals by reason (from the run).
 	InvalidStates map[string]int64 `json:"invalid_states,omitempty"`
@@ -149,7 +163,10 @@ type GasVerdict struct {
 	LnB10Err        Float    `json:"ln_bayes_factor_error"`
 	Upper95         float64  `json:"upper_limit_95"`
 	EdgeMeansAbsent bool     `json:"edge_means_absent"`
-	Verdict         string   `json:"verdict"`
+	// Unreliable is set when the model does not fit the data (the
+	// goodness-of-fit check): the significance measures nothing then.
+	Unreliable bool   `json:"unreliable"`
+	Verdict    string `json:"verdict"`
 }
 
 // BestSample is the maximum-posterior sample after burn-in.
@@ -237,16 +254,20 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 	s := &Summary{
 		Program: "chord " + version.Version, Walkers: c.Walkers, Steps: c.TotalSteps,
 		Burn: opt.Burn, BurnAuto: opt.BurnAuto, Thin: thin,
-		Warnings: []string{}, Cautions: []string{},
+		Warnings: []string{}, Cautions: []string{}, Checks: []Check{},
 	}
 	best := s.setBest(c, lp)
 	s.Acceptance = acceptance(c)
-	if n := len(s.Acceptance.Stuck); n > 0 {
-		s.Warnings = append(s.Warnings, fmt.Sprintf("%d stuck walker(s) %v: acceptance far below the median %.2f (under half of it, and more than %d binomial standard deviations); they may sit in a separate mode or a bad region (check the initial ball, or extend the burn-in)", n, s.Acceptance.Stuck, s.Acceptance.Median, sampler.StuckSigma))
+	if msg := modesCheck(c, s.Acceptance); msg != "" {
+		s.addCheck(CheckModes, msg)
 	}
 	gases := make(map[string]GasParam, len(opt.Gases))
 	for _, g := range opt.Gases {
 		gases[g.Column] = g
+	}
+	bounds := make(map[string]ParamBounds, len(opt.Bounds))
+	for _, b := range opt.Bounds {
+		bounds[b.Column] = b
 	}
 	nKept := 0
 	for _, st := range c.Steps {
@@ -257,6 +278,7 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 	s.Samples = nKept * c.Walkers
 	allTau := true
 	var highRHat []string
+	var detected [][2]string // gas and column of each gas verdict
 	buf := make([]float64, 0, s.Samples)
 	for i, col := range c.Columns {
 		if col.Role != chains.RoleParameter && col.Role != chains.RoleDerived {
@@ -276,22 +298,51 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 		if tau := float64(cs.Tau); tau > float64(s.MaxTau) || math.IsNaN(tau) {
 			s.MaxTau = cs.Tau
 		}
+		if b, ok := bounds[col.Name]; ok {
+			if msg := edgeCheck(b, buf); msg != "" {
+				s.addCheck(CheckPriorEdge, msg)
+			}
+		}
 		if g, ok := gases[col.Name]; ok {
 			var err error
 			if cs.Gas, err = gasVerdict(g, buf, cs); err != nil {
 				return nil, fmt.Errorf("summary: parameter %s: %w", col.Name, err)
 			}
-			if NeedsLifeCaution(g.Gas, cs.Gas.Class) && !slices.Contains(s.Cautions, LifeCaution) {
-				s.Cautions = append(s.Cautions, LifeCaution)
-			}
+			detected = append(detected, [2]string{g.Gas, col.Name})
 		}
 		s.Parameters = append(s.Parameters, cs)
 	}
+	s.setCautions(detected, opt.Atmosphere)
 	if len(highRHat) > 0 {
 		s.Warnings = append(s.Warnings, fmt.Sprintf("split R-hat above %g: %s; the walkers disagree, the chain may need to be longer", RHatLimit, strings.Join(highRHat, ", ")))
 	}
 	s.setConvergence(c, allTau)
 	return s, nil
+}
+
+// setCautions adds the caution each gas verdict calls for (Caution), once
+// each; the limb temperature is the median of the atmosphere's temperature
+// column, or its fixed temperature.
+func (s *Summary) setCautions(gases [][2]string, a *Atmosphere) {
+	t := math.NaN()
+	if a != nil {
+		t = a.TemperatureK
+		for _, p := range s.Parameters {
+			if a.TemperatureColumn != "" && p.Name == a.TemperatureColumn {
+				t = p.Median
+			}
+		}
+	}
+	for _, g := range gases {
+		for _, p := range s.Parameters {
+			if p.Name != g[1] || p.Gas == nil {
+				continue
+			}
+			if c := Caution(g[0], p.Gas.Class, a, t); c != "" && !slices.Contains(s.Cautions, c) {
+				s.Cautions = append(s.Cautions, c)
+			}
+		}
+	}
 }
 
 // setBest records the maximum-posterior sample of lp (column
@@ -475,189 +526,6 @@ func (s *Summary) WriteJSON(w io.Writer) error {
 
 // DemoWarning is printed wherever results made with the demo opacities appear.
 const DemoWarning = "DEMO OPACITIES: these results were made with chord's invented demo opacity tables, not real line lists; they are for trying the program, NOT FOR SCIENCE."
-
-// WriteText writes summary.txt, the same content for people.
-func (s *Summary) WriteText(w io.Writer) error {
-	var b strings.Builder
-	fmt.Fprintf(&b, "%s", s.Program)
-	if s.RunID != "" {
-		fmt.Fprintf(&b, ", run %s", s.RunID)
-	}
-	b.WriteString("\n")
-	if s.DemoOpacities {
-		b.WriteString("\n" + DemoWarning + "\n")
-	}
-	burn := fmt.Sprint(s.Burn)
-	if s.BurnAuto {
-		burn += fmt.Sprintf(" (auto: %g tau)", AutoBurnTaus)
-	}
-	fmt.Fprintf(&b, "\nchain        %d walkers x %d steps; burn-in %s; thinning %d; %d samples\n", s.Walkers, s.Steps, burn, s.Thin, s.Samples)
-	if s.Stop != "" {
-		fmt.Fprintf(&b, "stopped      %s\n", s.Stop)
-	}
-	fmt.Fprintf(&b, "acceptance   mean %.3f (min %.3f, max %.3f)\n", s.Acceptance.Mean, s.Acceptance.Min, s.Acceptance.Max)
-	conv := "no"
-	if s.Converged {
-		conv = "yes"
-	}
-	fmt.Fprintf(&b, "autocorr.    largest tau %.1f steps; chain = %.1f tau; converged (>= %g tau): %s\n", s.MaxTau, s.ChainTaus, sampler.DefaultConvergedTaus, conv)
-	fmt.Fprintf(&b, "best sample  step %d walker %d: log posterior %.3f, log likelihood %.3f\n", s.Best.Step, s.Best.Walker, s.Best.LogPosterior, s.Best.LogLikelihood)
-	if s.Best.DataPoints > 0 {
-		fmt.Fprintf(&b, "             chi-square %.2f for %d data points and %d free parameters (reduced %.3f)\n", s.Best.ChiSquare, s.Best.DataPoints, s.Best.FreeParameters, s.Best.ReducedChiSquare)
-	}
-	if len(s.InvalidStates) > 0 {
-		keys := make([]string, 0, len(s.InvalidStates))
-		for k := range s.InvalidStates {
-			keys = append(keys, k)
-		}
-		sort.Strings(keys)
-		b.WriteString("rejected     ")
-		for i, k := range keys {
-			if i > 0 {
-				b.WriteString(", ")
-			}
-			fmt.Fprintf(&b, "%d %s", s.InvalidStates[k], k)
-		}
-		b.WriteString(" (invalid physical states)\n")
-	}
-	table := func(title string, cols []ColumnSummary) {
-		if len(cols) == 0 {
-			return
-		}
-		fmt.Fprintf(&b, "\n%s (median, 68%% and 95%% intervals)\n", title)
-		tw := tabwriter.NewWriter(&b, 0, 0, 2, ' ', 0)
-		fmt.Fprintln(tw, "name\tunit\tmedian\t-1sigma\t+1sigma\t2.5%\t97.5%\tmax-post\ttau\tESS\tR-hat\tverdict")
-		for _, c := range cols {
-			unit := c.Unit
-			if unit == "" {
-				unit = "-"
-			}
-			verdict := ""
-			if c.Gas != nil {
-				verdict = c.Gas.Verdict
-			}
-			tau := fmt.Sprintf("%.1f", c.Tau)
-			if !c.TauReliable {
-				tau = ">" + tau
-			}
-			fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%.0f\t%.3f\t%s\n", c.Name, unit, num(c.Median), num(c.P16-c.Median), "+"+num(c.P84-c.Median), num(c.P2_5), num(c.P97_5), num(c.MaxPost), tau, float64(c.ESS), float64(c.RHat), verdict)
-		}
-		tw.Flush()
-	}
-	table("parameters", s.Parameters)
-	table("derived quantities", s.Derived)
-	b.WriteString("\nUpper limits: a log10 mixing ratio whose posterior reaches its prior's lower edge (Savage-Dickey significance below 2 sigma) is reported as an upper limit, its 95th percentile, not as a measurement.\n")
-	if len(s.Warnings) > 0 {
-		b.WriteString("\nwarnings\n")
-		for _, m := range s.Warnings {
-			b.WriteString("  - " + m + "\n")
-		}
-	}
-	for _, c := range s.Cautions {
-		b.WriteString("\n" + c + "\n")
-	}
-	_, err := io.WriteString(w, b.String())
-	return err
-}
-
-// num formats a summary number with 4 significant digits.
-func num(x float64) string { return fmt.Sprintf("%.4g", x) }
-
-// Model evaluates the model of a run for reports.
-type Model interface {
-	// Data returns the observed bins: centres and half widths (um), transit
-	// depths and their errors (ppm), in the order ModelDepth fills.
-	Data() (wavelength, halfWidth, depth, sigma []float64)
-	// ModelDepth fills dst (ppm, one value per data bin, dataset offsets
-	// applied) with the model at the free-parameter vector x.
-	ModelDepth(dst, x []float64) error
-}
-
-// Options configures Write.
-type Options struct {
-	Burn     int  // steps dropped from the start
-	BurnAuto bool // choose Burn by AutoBurn instead
-	Thin     int  // 0 means 1
-	Gases    []GasParam
-	// Model, if set, gives the chi-square of the best sample and
-	// spectrum.png; nil skips both.
-	Model Model
-	// SpectrumSamples is the number of posterior samples drawn for the
-	// spectrum bands; 0 means 300.
-	SpectrumSamples int
-	Title           string
-	// Fill lets the caller complete the summary (run identity, demo flag,
-	// invalid-state counts, stopping reason) before it is written.
-	Fill func(*Summary)
-}
-
-// Write reads the committed parts of the run in dir, and writes
-// summary.json, summary.txt, corner.png and (with a model) spectrum.png.
-func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
-	chainsDir := filepath.Join(dir, chains.DirName)
-	burn := opt.Burn
-	if opt.BurnAuto {
-		all, err := chains.Read(chainsDir, parts, 0, 1)
-		if err != nil {
-			return nil, err
-		}
-		burn = AutoBurn(all)
-	}
-	c, err := chains.Read(chainsDir, parts, burn, 1)
-	if err != nil {
-		return nil, err
-	}
-	thin := max(opt.Thin, 1)
-	s, err := Summarize(c, SummaryOptions{Burn: burn, BurnAuto: opt.BurnAuto, Thin: thin, Gases: opt.Gases})
-	if err != nil {
-		return nil, err
-	}
-	if opt.Fill != nil {
-		opt.Fill(s)
-	}
-	var spec *SpectrumPlot
-	if opt.Model != nil {
-		wl, half, depth, sigma := opt.Model.Data()
-		model := make([]float64, len(depth))
-		x := c.Sample(nil, (s.Best.Step-c.Steps[0])*c.Walkers+s.Best.Walker)
-		if err := opt.Model.ModelDepth(model, x); err != nil {
-			return nil, fmt.Errorf("report: model of the best sample: %w", err)
-		}
-		chi2 := 0.0
-		for i := range depth {
-			r := (depth[i] - model[i]) / sigma[i]
-			chi2 += r * r
-		}
-		s.SetChiSquare(chi2, len(depth))
-		spec = &SpectrumPlot{Wavelength: wl, HalfWidth: half, Depth: depth, Error: sigma, Title: opt.Title, Demo: s.DemoOpacities}
-		n := opt.SpectrumSamples
-		if n == 0 {
-			n = 300
-		}
-		rng := rand.New(rand.NewPCG(1, 2)) // fixed: a report is reproducible
-		total := len(c.Steps) * c.Walkers
-		for range min(n, total) {
-			x = c.Sample(x, rng.IntN(total))
-			m := make([]float64, len(depth))
-			if err := opt.Model.ModelDepth(m, x); err != nil {
-				continue // an invalid state has no spectrum; it is not in the posterior either
-			}
-			spec.Models = append(spec.Models, m)
-		}
-	}
-	if err := writeSummaryFiles(dir, s); err != nil {
-		return nil, err
-	}
-	if err := PlotCorner(filepath.Join(dir, "corner.png"), c, nil, thin, s.DemoOpacities); err != nil {
-		return nil, err
-	}
-	if spec != nil {
-		if err := PlotSpectrum(filepath.Join(dir, "spectrum.png"), spec); err != nil {
-			return nil, err
-		}
-	}
-	return s, nil
-}
 
 func writeSummaryFiles(dir string, s *Summary) error {
 	var js, txt bytes.Buffer

@@ -14,6 +14,7 @@ import (
 	"chord/forward/opacity"
 	"chord/forward/opacity/lbl"
 	"chord/priors"
+	"chord/report"
 	"chord/sampler"
 )
 
@@ -63,9 +64,10 @@ type Problem struct {
 	clrN   int
 	clrGas []int
 
+	cover *report.Coverage // what the opacity tables cover
+
 	counts [numReasons]atomic.Int64
 	evals  atomic.Int64
-	clamp  atomic.Int64
 
 	initOnce sync.Once
 	initMu   sync.Mutex
@@ -146,12 +148,17 @@ func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
-	if fc.Wavelength != nil { // a model grid (point cross-sections): bins need points on it
-		for _, d := range r.Datasets {
-			if err := d.CheckCoverage(fc.Wavelength, fc.MinBinPoints); err != nil {
+	// The data sets checked against the model grid, which moves edges equal
+	// to the grid's ends up to rounding onto them; fc.Bins follows.
+	bins.Lo, bins.Hi = bins.Lo[:0], bins.Hi[:0]
+	for _, d := range r.Datasets {
+		if len(fc.Wavelength) > 0 {
+			if err := d.Cover(fc.Wavelength, fc.MinBinPoints); err != nil {
 				return nil, err
 			}
 		}
+		bins.Lo = append(bins.Lo, d.Lo...)
+		bins.Hi = append(bins.Hi, d.Hi...)
 	}
 	if err := checkOpacity(r, fc); err != nil {
 		return nil, err
@@ -165,7 +172,8 @@ func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
-	p := &Problem{model: m, res: r, base: base, gasIndex: map[string]int{}, nDS: len(r.Datasets), notes: notes}
+	p := &Problem{model: m, res: r, base: base, gasIndex: map[string]int{}, nDS: len(r.Datasets), notes: notes,
+		cover: tableCoverage(fc, r.Datasets, m.LevelPressures())}
 	for i, g := range m.Gases() {
 		p.gasIndex[g] = i
 	}
@@ -312,10 +320,8 @@ func (p *Problem) Rejections() []Rejection {
 	return out
 }
 
-// Evaluations returns the number of posterior evaluations so far, and
-// how many of them used opacity tables outside their (P, T) grid (edge
-// values used; see opacity.XSecTable).
-func (p *Problem) Evaluations() (total, clamped int64) { return p.evals.Load(), p.clamp.Load() }
+// Evaluations returns the number of posterior evaluations so far.
+func (p *Problem) Evaluations() int64 { return p.evals.Load() }
 
 // PosteriorEvaluator evaluates the posterior for one goroutine.
 type PosteriorEvaluator struct {
@@ -440,9 +446,6 @@ func (e *PosteriorEvaluator) LogProb(x, extra []float64) float64 {
 	if err != nil {
 		return e.reject(reasonOf(err), extra)
 	}
-	if e.count && e.ws.Clamped {
-		p.clamp.Add(1)
-	}
 	extra[0], extra[1], extra[2], extra[3] = ll, e.ws.MeanMolecularWeight, fill, chi2
 	return lp + ll
 }
@@ -450,6 +453,20 @@ func (e *PosteriorEvaluator) LogProb(x, extra []float64) float64 {
 // evaluate sets the state from x, runs the forward model and returns the
 // log-likelihood, chi-square and fill-gas mixing ratio.
 func (e *PosteriorEvaluator) evaluate(x []float64) (ll, chi2, fill float64, err error) {
+	e.setState(x)
+	fill = 1
+	for _, v := range e.state.VMR {
+		fill -= v
+	}
+	if err := e.p.model.Transit(e.spec, &e.state, e.ws); err != nil {
+		return 0, 0, 0, err
+	}
+	ll, chi2 = e.p.logLikelihood(e.spec, e.off, e.s2)
+	return ll, chi2, fill, nil
+}
+
+// setState sets the evaluator's state, offsets and inflations from x.
+func (e *PosteriorEvaluator) setState(x []float64) {
 	p := e.p
 	s := &e.state
 	s.CloudTop, s.CloudFraction, s.HazeFactor, s.HazeSlope = p.base.CloudTop, p.base.CloudFraction, p.base.HazeFactor, p.base.HazeSlope
@@ -473,15 +490,6 @@ func (e *PosteriorEvaluator) evaluate(x []float64) (ll, chi2, fill float64, err 
 			s.VMR[gi] = e.xvmr[j]
 		}
 	}
-	fill = 1
-	for _, v := range s.VMR {
-		fill -= v
-	}
-	if err := p.model.Transit(e.spec, s, e.ws); err != nil {
-		return 0, 0, 0, err
-	}
-	ll, chi2 = p.logLikelihood(e.spec, e.off, e.s2)
-	return ll, chi2, fill, nil
 }
 
 // logLikelihood returns the Gaussian log-likelihood of the model depths m
@@ -534,6 +542,35 @@ func (e *PosteriorEvaluator) Spectrum(dst, x []float64) error {
 	}
 	for i := range dst {
 		dst[i] = e.spec[i] + e.off[e.p.ds[i]]
+	}
+	return nil
+}
+
+// View fills what a report shows at x: depth (len Model().OutputLen())
+// with the model per bin without offsets, offset and inflation (len the
+// number of data sets) with the data sets' offsets and error inflations
+// (fractions of the stellar disc), and temp with the temperatures (K) at
+// the pressures p (Pa). It returns the forward model's error for a
+// rejected state. A gas named in without (an index in Model().Gases(), or
+// -1 for none) is removed.
+func (e *PosteriorEvaluator) View(depth, offset, inflation, temp, p []float64, x []float64, without int) error {
+	e.setState(x)
+	if without >= 0 {
+		e.state.VMR[without] = 0
+	}
+	if err := e.p.model.Transit(e.spec, &e.state, e.ws); err != nil {
+		return err
+	}
+	copy(depth, e.spec)
+	copy(offset, e.off)
+	for k := range inflation {
+		inflation[k] = math.Sqrt(e.s2[k])
+	}
+	if len(p) > 0 {
+		g := forward.Gravitation * e.state.Mass / (e.state.RefRadius * e.state.RefRadius)
+		if err := e.state.Profile.TemperatureTo(temp, p, g); err != nil {
+			return err
+		}
 	}
 	return nil
 }

@@ -23,9 +23,9 @@ import (
 
 	"chord/chains"
 	"chord/config"
-	"chord/forward"
 	"chord/forward/opacity"
 	"chord/internal/atomicfile"
+	"chord/internal/eta"
 	"chord/internal/logto"
 	"chord/internal/version"
 	"chord/obs"
@@ -288,12 +288,22 @@ func (r *runner) newHistories(st *sampler.State) error {
 			return err
 		}
 	}
-	if r.opt.Progress.Writer != nil {
+	// The progress display reads the convergence rule's history when there
+	// is one, so that its tau and time left are the rule's own.
+	if r.opt.Progress.Writer != nil && r.conv == nil {
 		if r.progHist, err = sampler.NewHistory(st.Walkers, st.Dim, 256); err != nil {
 			return err
 		}
 	}
 	return nil
+}
+
+// tauHistory is the history the progress display estimates tau from.
+func (r *runner) tauHistory() *sampler.History {
+	if r.conv != nil {
+		return r.conv
+	}
+	return r.progHist
 }
 
 // histories lists the histories to replay a stored chain into.
@@ -318,7 +328,9 @@ func (r *runner) Record(s *sampler.Step) error {
 		if err := r.progHist.Record(s); err != nil {
 			return err
 		}
-		r.prog.step(s, r.progHist)
+	}
+	if h := r.tauHistory(); h != nil && r.prog != nil {
+		r.prog.step(s, h)
 	}
 	return nil
 }
@@ -426,8 +438,8 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 	out.Step = st.Step
 	out.TotalElapsed = secs(r.last.Elapsed)
 	out.Evaluations = r.evals
-	if out.Tau == nil && r.progHist != nil {
-		if tau, ok := r.progHist.Tau(nil, sampler.DefaultSokalWindow); ok {
+	if h := r.tauHistory(); out.Tau == nil && h != nil {
+		if tau, ok := h.Tau(nil, sampler.DefaultSokalWindow); ok {
 			out.Tau = tau
 		}
 	}
@@ -491,6 +503,7 @@ type progress struct {
 	bestLL                  float64
 	tau                     float64
 	drawn                   bool
+	left                    eta.Smoother
 }
 
 func newProgress(opt Progress, stop config.StopRule, st *sampler.State, base time.Duration, ll int) *progress {
@@ -552,7 +565,9 @@ func (p *progress) print(final bool) {
 	if p.proposed > 0 {
 		fmt.Fprintf(&b, ", acceptance %.2f", float64(p.accepted)/float64(p.proposed))
 	}
-	if !math.IsNaN(p.tau) && p.tau > 0 {
+	if !final && !math.IsNaN(p.tau) && p.tau > 0 {
+		// The estimate while sampling; the final line leaves tau to the
+		// summary, which estimates it after the burn-in.
 		fmt.Fprintf(&b, ", tau %.1f", p.tau)
 	}
 	if !math.IsInf(p.bestLL, -1) {
@@ -571,10 +586,14 @@ func (p *progress) print(final bool) {
 			left = secs(p.stop.Budget) - p.base - el
 		default:
 			need := sampler.DefaultConvergedTaus*p.tau - float64(p.cur)
-			ok = !math.IsNaN(p.tau) && p.tau > 0
-			left = secs(math.Max(need, 0) / rate)
+			ok = !math.IsNaN(p.tau) && p.tau > 0 && need > 0
+			left = secs(need / rate)
+			if !math.IsNaN(p.tau) && p.tau > 0 && need <= 0 {
+				fmt.Fprintf(&b, ", past %g tau, waiting for tau to settle", sampler.DefaultConvergedTaus)
+			}
 		}
 		if ok {
+			left = p.left.Update(time.Now(), left)
 			fmt.Fprintf(&b, ", about %s left", left.Round(time.Second))
 			if p.stop.UntilConverged {
 				fmt.Fprintf(&b, " to %g tau", sampler.DefaultConvergedTaus)
@@ -694,11 +713,13 @@ func configDigest(r *config.Resolved, inputs []InputFile) (string, error) {
 
 // job is a resolved configuration made ready to run.
 type job struct {
+	html   bool // the report includes report.html
 	res    *config.Resolved
 	set    *opacity.Set
 	prob   *Problem
 	spec   *RunSpec
 	inputs []InputFile
+	log    io.Writer // the run's log (the start's searches); nil for none
 }
 
 // quantityUnit is the unit of each quantity in chains and reports.
@@ -759,17 +780,20 @@ func newJob(r *config.Resolved, set *opacity.Set, runID string) (*job, error) {
 	default:
 		move = sampler.Stretch{A: 2}
 	}
+	j := &job{}
 	spec := &RunSpec{
 		Target: prob, Layout: l, Move: move, Seed: r.Seed, RunID: runID, ConfigSHA256: digest,
 		Init: func(ctx context.Context, workers int) (*sampler.State, error) {
-			pos, err := sampler.StartBall(prob, prob.DrawPrior, priorWidths(prob.Priors()), r.Walkers, r.Seed)
+			pos, found, err := sampler.StartBall(ctx, prob, prob.DrawPrior, priorWidths(prob.Priors()), sampler.StartSettings{Walkers: r.Walkers, Seed: r.Seed, Workers: workers})
 			if err != nil {
 				return nil, err
 			}
+			fmt.Fprintln(logto.First(j.log), "chord: start:", found)
 			return sampler.InitPositions(ctx, prob, pos, sampler.InitSettings{Walkers: r.Walkers, Seed: r.Seed, Workers: workers})
 		},
 	}
-	return &job{res: r, set: set, prob: prob, spec: spec, inputs: inputs}, nil
+	j.res, j.set, j.prob, j.spec, j.inputs = r, set, prob, spec, inputs
+	return j, nil
 }
 
 // priorWidths returns the central 68% widths of the priors, the scales of
@@ -794,41 +818,8 @@ func (j *job) gases() []report.GasParam {
 	return g
 }
 
-// reportModel is the ReportModel of a job.
-type reportModel struct {
-	j    *job
-	eval *PosteriorEvaluator
-	buf  []float64
-}
-
-func (m *reportModel) Data() (wl, half, depth, sigma []float64) {
-	for _, d := range m.j.res.Datasets {
-		for i := range d.Lo {
-			wl = append(wl, 0.5*(d.Lo[i]+d.Hi[i])/forward.Micron)
-			half = append(half, 0.5*(d.Hi[i]-d.Lo[i])/forward.Micron)
-			depth = append(depth, d.Depth[i]*1e6)
-			sigma = append(sigma, d.Sigma[i]*1e6)
-		}
-	}
-	return
-}
-
-func (m *reportModel) ModelDepth(dst, x []float64) error {
-	if m.eval == nil {
-		m.eval = m.j.prob.NewPosteriorEvaluator()
-		m.buf = make([]float64, m.j.prob.Model().OutputLen())
-	}
-	if err := m.eval.Spectrum(m.buf, x); err != nil {
-		return err
-	}
-	for i := range dst {
-		dst[i] = m.buf[i] * 1e6
-	}
-	return nil
-}
-
 // report writes the report of the job's run in dir.
-func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome) (*report.Summary, string, error) {
+func (j *job) report(dir string, burn int, auto bool, thin int, html bool, out *RunOutcome) (*report.Summary, string, error) {
 	ck, err := ReadCheckpoint(filepath.Join(dir, CheckpointFile))
 	if err != nil {
 		return nil, "", err
@@ -837,8 +828,22 @@ func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome)
 		return nil, "", fmt.Errorf("%s: the chain has no steps yet", dir)
 	}
 	title := j.res.Config.Planet.Name
+	truth, err := ReadTruth(dir)
+	if err != nil {
+		return nil, "", err
+	}
+	var details *report.RunDetails
+	if html {
+		if details, err = j.runDetails(dir); err != nil {
+			return nil, "", err
+		}
+	}
 	s, err := report.Write(dir, ck.Parts, report.Options{
-		Burn: burn, BurnAuto: auto, Thin: thin, Gases: j.gases(), Model: &reportModel{j: j}, Title: title,
+		Burn: burn, BurnAuto: auto, Thin: thin, Gases: j.gases(), Model: newReportModel(j), Fitted: j.fitted(), Title: title,
+		Atmosphere: j.atmosphere(), Truth: truth, HTML: details,
+		Bounds:         paramBounds(j.res.Free, *j.res.Config.Atmosphere.BottomPressureBar),
+		ErrorsInflated: j.prob.inflate,
+		Coverage:       j.prob.Coverage(),
 		Fill: func(s *report.Summary) {
 			s.RunID = ck.RunID
 			s.DemoOpacities = j.set.Demo
@@ -853,9 +858,6 @@ func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome)
 					for _, r := range rej {
 						s.InvalidStates[r.Reason] = r.Count
 					}
-				}
-				if total, clamped := j.prob.Evaluations(); clamped > 0 {
-					s.Warnings = append(s.Warnings, fmt.Sprintf("%d of %d evaluations this session used opacity tables outside their pressure-temperature grid (edge values used); widen the tables or the temperature prior", clamped, total))
 				}
 			}
 			for _, n := range j.res.Notes {
@@ -889,6 +891,12 @@ type FitOptions struct {
 	// Opacity, when not nil, are the tables already loaded for this
 	// configuration (a plan's fits share one set); nil loads them.
 	Opacity *opacity.Set
+	// Truth, when not nil, is the true atmosphere of a simulated
+	// observation: its parameter values go to RunDir/truth.toml and the
+	// report marks them.
+	Truth *config.ModelConfig
+	// HTML also writes report.html.
+	HTML bool
 }
 
 // RunReport is what Fit, Resume and Demo return.
@@ -904,7 +912,7 @@ type RunReport struct {
 
 // runEntries are the names chord writes in a run directory (their
 // temporary files, atomicfile.TempPattern, too).
-var runEntries = []string{RunFile, chains.DirName, CheckpointFile, "summary.json", "summary.txt", "corner.png", "spectrum.png"}
+var runEntries = append([]string{RunFile, chains.DirName, CheckpointFile, TruthFile}, report.Files()...)
 
 // StoppedError is the error of a session that stopped on an error after a
 // checkpoint: the chain up to the checkpoint's step is intact, and the run
@@ -1033,6 +1041,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	if err != nil {
 		return nil, config.InFile(opt.ConfigPath, err)
 	}
+	j.log = log
 	cfgHash, err := fileSHA256(opt.ConfigPath)
 	if err != nil {
 		return nil, err
@@ -1056,6 +1065,12 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	if err := atomicfile.Write(filepath.Join(opt.RunDir, RunFile), buf.Bytes(), true); err != nil {
 		return nil, err
 	}
+	if opt.Truth != nil {
+		if err := writeTruth(opt.RunDir, r, opt.Truth); err != nil {
+			return nil, err
+		}
+	}
+	j.html = opt.HTML
 	fmt.Fprintf(log, "chord: run %s: %d free parameters, %d walkers, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.Walkers, r.Seed, describeStop(r.Stop))
 	out, err := StartRun(ctx, opt.RunDir, j.spec, RunOptions{Workers: r.Workers, Stop: r.Stop, Progress: opt.Progress, CheckpointSteps: opt.CheckpointSteps})
 	if err != nil {
@@ -1080,7 +1095,7 @@ func (j *job) finish(dir string, out *RunOutcome) (*RunReport, error) {
 	if out.Stop == sampler.StopCanceled {
 		return rep, nil
 	}
-	s, txt, err := j.report(dir, 0, true, 1, out)
+	s, txt, err := j.report(dir, 0, true, 1, j.html, out)
 	if err != nil {
 		return rep, fmt.Errorf("%s: report: %w", dir, err)
 	}
@@ -1144,6 +1159,7 @@ type ResumeOptions struct {
 	// Opacity, when not nil, are the run's tables already loaded (a plan's
 	// fits share one set); nil loads them.
 	Opacity *opacity.Set
+	HTML    bool // also write report.html
 }
 
 // Resume continues the run in dir from its checkpoint and reports it.
@@ -1153,6 +1169,7 @@ func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, err
 	if err != nil {
 		return nil, err
 	}
+	j.html = opt.HTML
 	if j.set.Demo {
 		fmt.Fprintln(log, "chord: "+report.DemoWarning)
 	}
@@ -1182,6 +1199,7 @@ type ReportRunOptions struct {
 	BurnAuto  bool
 	Thin      int
 	DemoCache string
+	HTML      bool // also write report.html
 }
 
 // Report recomputes the summaries and plots of the run in dir; it returns
@@ -1191,7 +1209,7 @@ func Report(dir string, opt ReportRunOptions) (*report.Summary, string, error) {
 	if err != nil {
 		return nil, "", err
 	}
-	return j.report(dir, opt.Burn, opt.BurnAuto, max(opt.Thin, 1), nil)
+	return j.report(dir, opt.Burn, opt.BurnAuto, max(opt.Thin, 1), opt.HTML, nil)
 }
 
 // RunNoisePPM is the noise level of a run directory's observations (all
@@ -1203,12 +1221,18 @@ func RunNoisePPM(dir string) (float64, error) {
 		return 0, err
 	}
 	var sigma []float64
-	for _, o := range rf.Config.Observations {
-		d, err := obs.ReadDataset(o.File)
+	for i, o := range rf.Config.Observations {
+		opt, err := o.ReadOptions(fmt.Sprintf("observations[%d]", i+1))
+		if err != nil {
+			return 0, config.InFile(path, err)
+		}
+		ds, err := obs.Read(o.File, opt)
 		if err != nil {
 			return 0, fmt.Errorf("%s: %w", path, err)
 		}
-		sigma = append(sigma, d.Sigma...)
+		for _, d := range ds {
+			sigma = append(sigma, d.Sigma...)
+		}
 	}
 	if len(sigma) == 0 {
 		return 0, fmt.Errorf("%s: no observations", path)

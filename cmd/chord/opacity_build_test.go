@@ -43,8 +43,8 @@ func TestOpacityBuildDemo(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !set.Demo || len(set.XSec) != 8 || len(set.CIA) != 2 {
-		t.Errorf("demo tables: Demo %v, %d gases, %d CIA pairs", set.Demo, len(set.XSec), len(set.CIA))
+	if !set.Demo || len(set.K) != 8 || len(set.CIA) != 2 {
+		t.Errorf("demo tables: Demo %v, %d gases, %d CIA pairs", set.Demo, len(set.K), len(set.CIA))
 	}
 	if strings.Count(stdout, ".parquet\n") != 10 || !strings.Contains(stderr, opacity.DemoNote) {
 		t.Errorf("stdout %q, stderr %q: want the 10 files and the demo note", stdout, stderr)
