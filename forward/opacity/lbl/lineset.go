@@ -340,18 +340,20 @@ func (ls *LineSet) crossSections(dst []float64, g opacity.LnGrid, k0 int, p, t f
 
 // lineT holds what each line needs at one temperature, for all pressures:
 // its intensity S, the strongest intensity near it (ref, with WeakCut),
-// its Doppler half-width aD, and its Lorentz half-width g1 and shift d1
-// at 1 atm (both are proportional to pressure). Entry j is line off+j.
+// its Doppler half-width aD, and the parts of its Lorentz half-width and
+// shift per atm (widthRule.parts: background g, self gs, shift d), from
+// which widthRule.combine makes them at any pressure exactly as
+// widthRule.at does. Entry j is line off+j.
 type lineT struct {
-	off                int
-	s, ref, aD, g1, d1 []float64
+	off                  int
+	s, ref, aD, g, gs, d []float64
 }
 
 // fill computes the entries of lines lo..hi-1 at temperature t.
 func (lt *lineT) fill(ls *LineSet, lo, hi int, t float64, w *lineWork) {
 	n := hi - lo
 	lt.off = lo
-	lt.s, lt.aD, lt.g1, lt.d1 = grow(lt.s, n), grow(lt.aD, n), grow(lt.g1, n), grow(lt.d1, n)
+	lt.s, lt.aD, lt.g, lt.gs, lt.d = grow(lt.s, n), grow(lt.aD, n), grow(lt.g, n), grow(lt.gs, n), grow(lt.d, n)
 	w.q = grow(w.q, len(ls.isos))
 	for i, li := range ls.isos {
 		w.q[i] = li.q296 / li.q.Q(t)
@@ -361,7 +363,7 @@ func (lt *lineT) fill(ls *LineSet, lo, hi int, t float64, w *lineWork) {
 		l := &ls.lines[i]
 		lt.s[i-lo] = LineIntensity(l, t, w.q[ls.iso[i]], 1)
 		lt.aD[i-lo] = DopplerHWHM(l.Nu, t, ls.isos[ls.iso[i]].mass)
-		lt.g1[i-lo], lt.d1[i-lo] = ls.width.at(l, 1, lnT)
+		lt.g[i-lo], lt.gs[i-lo], lt.d[i-lo] = ls.width.parts(l, lnT)
 	}
 	if ls.s.WeakCut > 0 {
 		lt.ref = grow(lt.ref, n)
@@ -410,7 +412,8 @@ func (ls *LineSet) crossSectionsT(dst []float64, g opacity.LnGrid, k0 int, p, t 
 			w.weak = append(w.weak, i)
 			continue
 		}
-		ls.profile(i, S, lt.aD[j], lt.g1[j]*pAtm, lt.d1[j]*pAtm, dst, coarse, nus, g, k0, w)
+		gL, shift := ls.width.combine(&ls.lines[i], lt.g[j], lt.gs[j], lt.d[j], pAtm)
+		ls.profile(i, S, lt.aD[j], gL, shift, dst, coarse, nus, g, k0, w)
 	}
 	// A line weak next to its neighbours goes into the pseudo-continuum
 	// only if its peak is also below WeakCut times the cross-section the
@@ -420,15 +423,16 @@ func (ls *LineSet) crossSectionsT(dst []float64, g opacity.LnGrid, k0 int, p, t 
 	// by it need no profile value.
 	for _, i := range w.weak {
 		j := i - lt.off
-		S, aD, gL := lt.s[j], lt.aD[j], lt.g1[j]*pAtm
-		nu0 := ls.lines[i].Nu + lt.d1[j]*pAtm
+		S, aD := lt.s[j], lt.aD[j]
+		gL, shift := ls.width.combine(&ls.lines[i], lt.g[j], lt.gs[j], lt.d[j], pAtm)
+		nu0 := ls.lines[i].Nu + shift
 		if kk := int(math.Round(g.Index(nu0))) - k0; kk >= 0 && kk < n {
 			c := kk / coarseStep
 			lw := &lagrangeW[kk-c*coarseStep]
 			cut := ls.s.WeakCut * (lw[0]*coarse[c] + lw[1]*coarse[c+1] + lw[2]*coarse[c+2] + lw[3]*coarse[c+3] + dst[kk])
 			if S*sqrtLn2OverPi/aD >= cut {
 				if p := newVoigtLine(S, nu0, aD, gL); p.at(nu0) >= cut {
-					ls.profile(i, S, aD, gL, lt.d1[j]*pAtm, dst, coarse, nus, g, k0, w)
+					ls.profile(i, S, aD, gL, shift, dst, coarse, nus, g, k0, w)
 					continue
 				}
 			}
