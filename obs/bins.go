@@ -29,6 +29,10 @@ func ReadBins(path string) (bins forward.Bins, errPPM []float64, err error) {
 }
 
 func parseBins(r io.Reader, path string) (forward.Bins, []float64, error) {
+	r, err := textReader(r, path)
+	if err != nil {
+		return forward.Bins{}, nil, err
+	}
 	sc := bufio.NewScanner(r)
 	var cols map[string]int
 	var csv bool
@@ -98,8 +102,8 @@ func parseBins(r io.Reader, path string) (forward.Bins, []float64, error) {
 			return forward.Bins{}, nil, fmt.Errorf("%s: bin %g-%g um overlaps or precedes the previous bin (%g-%g um): list bins in order of wavelength", where, a/forward.Micron, b/forward.Micron, lo[n-1]/forward.Micron, hi[n-1]/forward.Micron)
 		}
 		if _, ok := cols["error_ppm"]; ok {
-			if !(v["error_ppm"] > 0) {
-				return forward.Bins{}, nil, fmt.Errorf("%s: error_ppm %g: must be positive", where, v["error_ppm"])
+			if err := checkErrorPPM(v["error_ppm"]); err != nil {
+				return forward.Bins{}, nil, fmt.Errorf("%s: error_ppm %g: %w", where, v["error_ppm"], err)
 			}
 			errs = append(errs, v["error_ppm"])
 		}

@@ -105,6 +105,13 @@ func TestBadObservations(t *testing.T) {
 		{"obs-empty.csv", ": no header and no data"},
 		{"obs-header-only.csv", ": header but no data rows"},
 		{"obs-mixed-bins.csv", ":1: header: give bins either as wavelength and width or as edge_low and edge_high"},
+		// Error bars outside the physical range (issue 12: these blamed the
+		// priors).
+		{"obs-error-huge.csv", ":3: error 1e+300: a transit-depth error of 1e+300 ppm is outside the physical range 0.001 to 1e+06 ppm"},
+		{"obs-error-tiny.csv", ":2: error 1e-300: a transit-depth error of 1e-300 ppm is outside the physical range"},
+		// Text in another encoding is named as such.
+		{"obs-utf16.csv", ": the file is UTF-16 (little-endian) text (byte-order mark FF FE); save it as UTF-8 or ASCII text"},
+		{"obs-utf16be-nobom.csv", ": the file holds NUL bytes (the first is byte 1): it is UTF-16 (big-endian) without a byte-order mark"},
 	}
 	seen := map[string]bool{}
 	for _, c := range cases {
