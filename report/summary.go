@@ -593,6 +593,8 @@ type Options struct {
 
 // Write reads the committed parts of the run in dir, and writes
 // summary.json, summary.txt, corner.png and (with a model) spectrum.png.
+// When the summary files cannot be written it returns the summary with a
+// *WriteError.
 func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 	chainsDir := filepath.Join(dir, chains.DirName)
 	burn := opt.Burn
@@ -646,7 +648,7 @@ func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 		}
 	}
 	if err := writeSummaryFiles(dir, s); err != nil {
-		return nil, err
+		return s, &WriteError{Dir: dir, Err: err}
 	}
 	if err := PlotCorner(filepath.Join(dir, "corner.png"), c, nil, thin, s.DemoOpacities); err != nil {
 		return nil, err
@@ -658,6 +660,20 @@ func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 	}
 	return s, nil
 }
+
+// WriteError is the error of Write when the summary was computed but its
+// files could not be written (a read-only run directory, a full disk):
+// Write returns the summary with it, and nothing of the run's is changed.
+type WriteError struct {
+	Dir string
+	Err error
+}
+
+func (e *WriteError) Error() string {
+	return fmt.Sprintf("could not write the report files in %s: %v", e.Dir, e.Err)
+}
+
+func (e *WriteError) Unwrap() error { return e.Err }
 
 func writeSummaryFiles(dir string, s *Summary) error {
 	var js, txt bytes.Buffer

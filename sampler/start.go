@@ -1,6 +1,7 @@
 package sampler
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -41,8 +42,10 @@ const (
 // walker) of a chain with the given seed, found as described above. draw
 // fills dst with a prior draw at which the posterior is finite (as for
 // InitPrior); width[k] is the central 68% width of parameter k's prior
-// (a width that is not positive and finite counts as 1).
-func StartBall(t Target, draw func(dst []float64, rng *rand.Rand) error, width []float64, walkers int, seed uint64) ([]float64, error) {
+// (a width that is not positive and finite counts as 1). ctx is checked
+// before every evaluation of the posterior: once it is cancelled StartBall
+// returns its error within one evaluation (one draw, for draw).
+func StartBall(ctx context.Context, t Target, draw func(dst []float64, rng *rand.Rand) error, width []float64, walkers int, seed uint64) ([]float64, error) {
 	rng := rand.New(rand.NewPCG(seed, 0x9e3779b97f4a7c15))
 	dim := t.Dim()
 	eval := t.NewEvaluator()
@@ -50,8 +53,11 @@ func StartBall(t Target, draw func(dst []float64, rng *rand.Rand) error, width [
 	x := make([]float64, dim)
 	best, bestLP := make([]float64, dim), math.Inf(-1)
 	for range StartDraws * walkers {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
 		if err := draw(x, rng); err != nil {
-			return nil, fmt.Errorf("initial walkers: %w", err)
+			return nil, err
 		}
 		if lp := eval.LogProb(x, extra); lp > bestLP {
 			bestLP = lp
@@ -65,14 +71,22 @@ func StartBall(t Target, draw func(dst []float64, rng *rand.Rand) error, width [
 		}
 		scale[k] = StartScale * w
 	}
+	// Once ctx is cancelled the search sees +Inf everywhere, evaluates
+	// nothing more and ends (nelderMead stops at its next iteration).
 	negLP := func(x []float64) float64 {
+		if ctx.Err() != nil {
+			return math.Inf(1)
+		}
 		lp := eval.LogProb(x, extra)
 		if math.IsNaN(lp) || math.IsInf(lp, -1) {
 			return math.Inf(1)
 		}
 		return -lp
 	}
-	nelderMead(best, negLP, scale, StartEvaluations*dim)
+	nelderMead(ctx, best, negLP, scale, StartEvaluations*dim)
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
 	u := laplaceFactor(best, negLP, scale)
 	pos := make([]float64, walkers*dim)
 	z := make([]float64, dim)
@@ -80,6 +94,9 @@ func StartBall(t Target, draw func(dst []float64, rng *rand.Rand) error, width [
 		w := pos[k*dim : (k+1)*dim]
 		ok := false
 		for try := 0; try < 1000 && !ok; try++ {
+			if err := ctx.Err(); err != nil {
+				return nil, err
+			}
 			for i := range z {
 				z[i] = rng.NormFloat64()
 			}
@@ -101,7 +118,7 @@ func StartBall(t Target, draw func(dst []float64, rng *rand.Rand) error, width [
 			ok = !math.IsNaN(lp) && !math.IsInf(lp, 0)
 		}
 		if !ok {
-			return nil, fmt.Errorf("initial walkers: no valid point in 1000 draws around the best start %v", best)
+			return nil, fmt.Errorf("no valid point in 1000 draws around the best starting point %v", best)
 		}
 	}
 	return pos, nil
@@ -159,7 +176,7 @@ func laplaceFactor(x []float64, f func([]float64) float64, step []float64) *mat.
 // along each axis, for at most maxEval evaluations. A search that ends
 // early or fails keeps the best point it saw; x is only a start for the
 // walkers, so no convergence is needed.
-func nelderMead(x []float64, f func([]float64) float64, step []float64, maxEval int) {
+func nelderMead(ctx context.Context, x []float64, f func([]float64) float64, step []float64, maxEval int) {
 	n := len(x)
 	verts := make([][]float64, n+1)
 	vals := make([]float64, n+1)
@@ -174,6 +191,7 @@ func nelderMead(x []float64, f func([]float64) float64, step []float64, maxEval 
 	settings := &optimize.Settings{
 		FuncEvaluations: maxEval,
 		Converger:       &optimize.FunctionConverge{Absolute: 1e-6, Iterations: 20 * n},
+		Recorder:        ctxRecorder{ctx},
 	}
 	// The search is a heuristic start: an error (evaluation limit, a
 	// failed step) still leaves the best point seen in res.
@@ -189,4 +207,13 @@ func nelderMead(x []float64, f func([]float64) float64, step []float64, maxEval 
 		}
 	}
 	copy(x, verts[b])
+}
+
+// ctxRecorder ends an optimize.Minimize (its Record error stops it) once
+// ctx is cancelled.
+type ctxRecorder struct{ ctx context.Context }
+
+func (ctxRecorder) Init() error { return nil }
+func (r ctxRecorder) Record(*optimize.Location, optimize.Operation, *optimize.Stats) error {
+	return r.ctx.Err()
 }

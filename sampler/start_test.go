@@ -1,6 +1,7 @@
 package sampler
 
 import (
+	"context"
 	"math"
 	"testing"
 )
@@ -12,7 +13,7 @@ import (
 func TestNelderMead(t *testing.T) {
 	x := []float64{-1.2, 1}
 	f := func(v []float64) float64 { a, b := v[1]-v[0]*v[0], 1-v[0]; return 100*a*a + b*b }
-	nelderMead(x, f, []float64{0.05, 0.05}, 2000)
+	nelderMead(context.Background(), x, f, []float64{0.05, 0.05}, 2000)
 	if math.Abs(x[0]-1) > 1e-3 || math.Abs(x[1]-1) > 2e-3 {
 		t.Errorf("minimum at %v, want (1, 1)", x)
 	}

@@ -1,11 +1,13 @@
 package main
 
 import (
+	"errors"
 	"fmt"
 	"strconv"
 
 	"github.com/urfave/cli/v2"
 
+	"chord/report"
 	"chord/retrieve"
 )
 
@@ -44,7 +46,14 @@ func runReport(c *cli.Context) error {
 	if opt.Thin < 1 {
 		return fmt.Errorf("--thin %d: must be at least 1", opt.Thin)
 	}
-	_, text, err := retrieve.Report(c.Args().First(), opt)
+	s, text, err := retrieve.Report(c.Args().First(), opt)
+	var we *report.WriteError
+	if errors.As(err, &we) && s != nil {
+		// A run this user cannot write (read-only, someone else's): the
+		// summary still goes to standard output.
+		fmt.Fprint(c.App.Writer, text)
+		return fmt.Errorf("report: the summary above is not saved: %w", err)
+	}
 	if err != nil {
 		return err
 	}
