@@ -304,7 +304,7 @@ rayleigh = ["H2", "He"]
 wavelength_min_um = 1.0
 wavelength_max_um = 5.0
 resolving_power = 300
-bin_resolving_power = 30
+bin_resolving_power = 40
 [[parameters]]
 sets = "radius_rearth"
 prior = "uniform"
@@ -339,7 +339,9 @@ func TestPlanDetectionOnDemoOpacities(t *testing.T) {
 	if err := os.WriteFile(sc, []byte(detectionScenario), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	rep, err := RunPlan(context.Background(), PlanOptions{Dir: filepath.Join(dir, "plan"), ScenarioPath: sc, DemoCache: filepath.Join(dir, "cache"),
+	// The default demo cache (config.DemoCacheDir), shared with the other
+	// tests, so that the demo tables are built once per machine.
+	rep, err := RunPlan(context.Background(), PlanOptions{Dir: filepath.Join(dir, "plan"), ScenarioPath: sc,
 		Spec: PlanSpec{NoisePPM: []float64{30}}})
 	if err != nil {
 		t.Fatal(err)

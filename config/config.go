@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"crypto/rand"
 	"encoding/binary"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -57,10 +58,65 @@ type CompositionConfig struct {
 	MinVMR *float64 `toml:"min_vmr"` // clr: lowest mixing ratio of every gas; default 1e-12
 }
 
-// ObservationConfig is one [[observations]] table.
+// ObservationConfig is one [[observations]] table: a file and how to
+// read it (obs.ReadOptions; docs/observations.md).
 type ObservationConfig struct {
 	File string `toml:"file"`           // observation table, relative to the configuration file; required
 	Name string `toml:"name,omitempty"` // label; default the file's base name without extension
+	// Format is "table", "ipac" or "ecsv"; default recognised by content.
+	Format string `toml:"format,omitempty"`
+	// Columns maps quantities (wavelength, width, edge_low, edge_high,
+	// depth, error, error_plus, error_minus, instrument) to the file's
+	// columns: names (strings) or, for a file without a header, 1-based
+	// positions (integers).
+	Columns map[string]any `toml:"columns,omitempty"`
+	// WavelengthUnit (um, nm, angstrom) and DepthUnit (fraction, ppm,
+	// percent, rp_rs) are the units of the columns whose unit the file
+	// does not state.
+	WavelengthUnit string `toml:"wavelength_unit,omitempty"`
+	DepthUnit      string `toml:"depth_unit,omitempty"`
+	// Width is "full" (default) or "half": what the width column holds.
+	Width string `toml:"width,omitempty"`
+	// EdgeTolerance is the largest difference of neighbouring bins' shared
+	// edge, as a fraction of the narrower width, taken as rounding;
+	// default obs.DefaultEdgeTolerance.
+	EdgeTolerance *float64 `toml:"edge_tolerance,omitempty"`
+}
+
+// ReadOptions returns how to read the observation file; key is the
+// table's key ("observations[2]") for errors.
+func (o *ObservationConfig) ReadOptions(key string) (obs.ReadOptions, error) {
+	opt := obs.ReadOptions{Name: o.Name, Format: o.Format, WavelengthUnit: o.WavelengthUnit, DepthUnit: o.DepthUnit, Width: o.Width}
+	if o.EdgeTolerance != nil {
+		opt.EdgeTolerance = *o.EdgeTolerance
+		if opt.EdgeTolerance == 0 {
+			return opt, keyErr(key+".edge_tolerance", "0 would refuse every rounded edge; give a small fraction such as 1e-4 (the default is %g)", obs.DefaultEdgeTolerance)
+		}
+	}
+	if len(o.Columns) > 0 {
+		opt.Columns = map[string]obs.Column{}
+	}
+	for q, v := range o.Columns {
+		switch c := v.(type) {
+		case string:
+			opt.Columns[q] = obs.Column{Name: c}
+		case int64:
+			if c < 1 || c > 1000 {
+				return opt, keyErr(key+".columns."+q, "position %d: columns are counted from 1", c)
+			}
+			opt.Columns[q] = obs.Column{Position: int(c)}
+		default:
+			return opt, keyErr(key+".columns."+q, "%v: give the column's name (a string) or its position (an integer from 1)", v)
+		}
+	}
+	if err := opt.Check(); err != nil {
+		var oe *obs.OptionError
+		if errors.As(err, &oe) {
+			return opt, keyErr(key+"."+oe.Key, "%s", oe.Msg)
+		}
+		return opt, keyWrap(key, err)
+	}
+	return opt, nil
 }
 
 // ParameterConfig is one [[parameters]] table: a free (or fixed) parameter.
@@ -135,7 +191,7 @@ const (
 	QCLR Quantity = "clr"
 )
 
-// Quantities lists every quantity, in the order of the README.
+// Quantities lists every quantity, in the order of docs/configuration.md.
 var Quantities = []Quantity{QLog10VMR, QTemperature, QTIrr, QTInt, QLog10KappaIR, QLog10Gamma,
 	QRadiusRjup, QRadiusRearth, QMassMjup, QMassMearth, QLog10CloudTop, QCloudFraction,
 	QLog10HazeFactor, QHazeSlope, QOffsetPPM, QErrorInflationPM}
@@ -261,23 +317,36 @@ func (c *Config) Resolve() (*Resolved, error) {
 		if o.File == "" {
 			return nil, missingKey(key+".file", "")
 		}
-		d, err := obs.ReadDataset(c.Abs(o.File))
+		if o.Name != "" && !nameRE.MatchString(o.Name) {
+			return nil, keyErr(key+".name", "%q: use letters, digits and '_', starting with a letter", o.Name)
+		}
+		opt, err := o.ReadOptions(key)
+		if err != nil {
+			return nil, err
+		}
+		ds, err := obs.Read(c.Abs(o.File), opt)
 		if err != nil {
 			return nil, keyWrap(key+".file", err)
 		}
-		if o.Name != "" {
-			if !nameRE.MatchString(o.Name) {
-				return nil, keyErr(key+".name", "%q: use letters, digits and '_', starting with a letter", o.Name)
+		for _, d := range ds {
+			if j, dup := names[d.Name]; dup {
+				return nil, keyErr(key+".name", "data set name %q is also that of observations[%d]; give each a distinct name", d.Name, j+1)
 			}
-			d.Name = o.Name
+			names[d.Name] = i
+			r.Datasets = append(r.Datasets, d)
+			r.Notes = append(r.Notes, d.Notes...)
 		}
-		if j, dup := names[d.Name]; dup {
-			return nil, keyErr(key+".name", "data set name %q is also that of observations[%d]; give each a distinct name", d.Name, j+1)
+		fo := o
+		fo.File = c.Abs(o.File)
+		if fo.Name == "" {
+			fo.Name = obs.DefaultName(fo.File)
 		}
-		names[d.Name] = i
-		r.Datasets = append(r.Datasets, d)
-		r.Notes = append(r.Notes, d.Notes...)
-		full.Observations[i] = ObservationConfig{File: c.Abs(o.File), Name: d.Name}
+		tol := obs.DefaultEdgeTolerance
+		if o.EdgeTolerance != nil {
+			tol = *o.EdgeTolerance
+		}
+		fo.EdgeTolerance = &tol
+		full.Observations[i] = fo
 	}
 	for i := range r.Datasets {
 		for j := range i {

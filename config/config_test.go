@@ -51,7 +51,7 @@ func TestConfigResolve(t *testing.T) {
 // TestResolvedRoundTrip: the resolved configuration written as TOML decodes
 // to the same resolved configuration (what a run directory relies on).
 func TestResolvedRoundTrip(t *testing.T) {
-	for _, name := range []string{"good.toml", "two-datasets.toml", "clr.toml", "likelihood.toml"} {
+	for _, name := range []string{"good.toml", "two-datasets.toml", "clr.toml", "likelihood.toml", "formats.toml"} {
 		r := loadGood(t, name)
 		var buf bytes.Buffer
 		if err := r.WriteTOML(&buf); err != nil {

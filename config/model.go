@@ -7,6 +7,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strings"
 
@@ -110,6 +111,14 @@ type OpacityConfig struct {
 	// Rayleigh lists scattering gases; absent means every gas of the
 	// atmosphere with a Rayleigh formula.
 	Rayleigh *[]string `toml:"rayleigh"`
+	// TableKind chooses the kind of gas tables the model uses when a set
+	// holds both: "k" (k-distribution tables, per bin) or "xsec" (point
+	// cross-sections on a model grid, for line-by-line comparisons); ""
+	// (the default) means "k" when the set has k-tables, else "xsec".
+	TableKind string `toml:"table_kind"`
+	// Overlap is how the gases' k-distributions combine within a bin:
+	// "product" (default) or "resort-rebin" (k-tables only).
+	Overlap string `toml:"overlap"`
 	// Grey absorber on every molecule, sigma (P/P_ref)^n; 0 (default) none.
 	GreyCrossSectionM2       float64  `toml:"grey_cross_section_m2"`
 	GreyPressureExponent     float64  `toml:"grey_pressure_exponent"`      // n; default 0
@@ -441,6 +450,14 @@ func (c *ModelConfig) checkOpacity() error {
 	if o.Dir != "" && o.Demo {
 		return keyErr("opacity.dir", "and opacity.demo both given; use one source of tables")
 	}
+	switch o.TableKind {
+	case "", TableKindK, TableKindXSec:
+	default:
+		return keyErr("opacity.table_kind", "%q: want %q (k-distribution tables) or %q (point cross-sections)", o.TableKind, TableKindK, TableKindXSec)
+	}
+	if o.Overlap != "" && !slices.Contains(forward.Overlaps, forward.Overlap(o.Overlap)) {
+		return keyErr("opacity.overlap", "%q: want one of %v", o.Overlap, forward.Overlaps)
+	}
 	if !(o.GreyCrossSectionM2 >= 0) || math.IsInf(o.GreyCrossSectionM2, 0) {
 		return keyErr("opacity.grey_cross_section_m2", "must be finite and non-negative, got %g", o.GreyCrossSectionM2)
 	}
@@ -705,9 +722,32 @@ func (c *ModelConfig) LoadOpacity(demoCache string, progress io.Writer) (*opacit
 	return &opacity.Set{XSec: map[string]*opacity.XSecTable{}}, nil
 }
 
+// The values of opacity.table_kind.
+const (
+	TableKindK    = "k"
+	TableKindXSec = "xsec"
+)
+
+// TableKind returns the kind of gas tables a model of c uses with set:
+// opacity.table_kind, or "k" when set holds k-tables and "xsec" otherwise.
+func (c *ModelConfig) TableKind(set *opacity.Set) string {
+	if k := c.Opacity.TableKind; k != "" {
+		return k
+	}
+	if set != nil && len(set.K) > 0 {
+		return TableKindK
+	}
+	return TableKindXSec
+}
+
 // ForwardConfig returns the forward-model configuration for the tables of
 // set, with bins (nil for the [spectrum] bins, which may themselves be
 // absent). A retrieval passes its observations' bins. c must be valid.
+//
+// With k-tables (TableKind "k") the model works per bin: every trace gas
+// needs a k-table, the bins default to the first table's bins within the
+// [spectrum] range, and the model grid ([spectrum] resolving_power) is
+// not used.
 func (c *ModelConfig) ForwardConfig(set *opacity.Set, bins *forward.Bins) (forward.Config, error) {
 	if set == nil {
 		set = &opacity.Set{}
@@ -715,9 +755,13 @@ func (c *ModelConfig) ForwardConfig(set *opacity.Set, bins *forward.Bins) (forwa
 	d := c.withDefaults()
 	a := &d.Atmosphere
 	s := &d.Spectrum
-	wl, err := forward.WavelengthGrid(*s.WavelengthMinUm*forward.Micron, *s.WavelengthMaxUm*forward.Micron, *s.ResolvingPower)
-	if err != nil {
-		return forward.Config{}, keyWrap("spectrum", err)
+	kind := c.TableKind(set)
+	var wl []float64
+	if kind == TableKindXSec {
+		var err error
+		if wl, err = forward.WavelengthGrid(*s.WavelengthMinUm*forward.Micron, *s.WavelengthMaxUm*forward.Micron, *s.ResolvingPower); err != nil {
+			return forward.Config{}, keyWrap("spectrum", err)
+		}
 	}
 	cfg := forward.Config{
 		Wavelength:     wl,
@@ -736,9 +780,23 @@ func (c *ModelConfig) ForwardConfig(set *opacity.Set, bins *forward.Bins) (forwa
 		MinBinPoints:      *s.MinBinPoints,
 	}
 	species := append(c.gasNames(), c.fillSpecies()...)
-	for _, g := range species {
-		if t, ok := set.XSec[g]; ok {
-			cfg.XSec = append(cfg.XSec, t)
+	if kind == TableKindK {
+		cfg.Overlap = forward.Overlap(c.Opacity.Overlap)
+		for _, g := range species {
+			if t, ok := set.K[g]; ok {
+				cfg.KTables = append(cfg.KTables, t)
+			} else if c.inTrace(g) {
+				return forward.Config{}, keyErr("atmosphere.gases", "gas %q has no k-table among the loaded tables (%s)", g, kNames(set))
+			}
+		}
+		if len(cfg.KTables) == 0 {
+			return forward.Config{}, keyErr("opacity", "no k-tables for the gases of the atmosphere (tables loaded for: %s)", kNames(set))
+		}
+	} else {
+		for _, g := range species {
+			if t, ok := set.XSec[g]; ok {
+				cfg.XSec = append(cfg.XSec, t)
+			}
 		}
 	}
 	if c.Opacity.CIA == nil {
@@ -766,12 +824,52 @@ func (c *ModelConfig) ForwardConfig(set *opacity.Set, bins *forward.Bins) (forwa
 		cfg.Rayleigh = append(cfg.Rayleigh, *c.Opacity.Rayleigh...)
 	}
 	if bins == nil {
+		var err error
 		if bins, err = c.Bins(); err != nil {
 			return forward.Config{}, err
 		}
 	}
+	if bins == nil && kind == TableKindK {
+		bins = tableBins(cfg.KTables[0], *s.WavelengthMinUm*forward.Micron, *s.WavelengthMaxUm*forward.Micron)
+		if bins.Len() == 0 {
+			return forward.Config{}, keyErr("spectrum", "no bin of the %s k-table (%.4g-%.4g um) lies within %g-%g um",
+				cfg.KTables[0].Gas, cfg.KTables[0].Lo[0]/forward.Micron, cfg.KTables[0].Hi[cfg.KTables[0].Bins()-1]/forward.Micron,
+				*s.WavelengthMinUm, *s.WavelengthMaxUm)
+		}
+	}
 	cfg.Bins = bins
 	return cfg, nil
+}
+
+// tableBins returns the bins of t within [lo, hi] (m), to a relative 1e-9.
+func tableBins(t *opacity.KTable, lo, hi float64) *forward.Bins {
+	b := &forward.Bins{}
+	for i := range t.Lo {
+		if t.Lo[i] >= lo*(1-1e-9) && t.Hi[i] <= hi*(1+1e-9) {
+			b.Lo = append(b.Lo, t.Lo[i])
+			b.Hi = append(b.Hi, t.Hi[i])
+		}
+	}
+	return b
+}
+
+// inTrace reports whether g is a trace gas of the atmosphere (not the
+// fill).
+func (c *ModelConfig) inTrace(g string) bool {
+	_, ok := c.Atmosphere.Gases[g]
+	return ok
+}
+
+func kNames(set *opacity.Set) string {
+	if len(set.K) == 0 {
+		return "none"
+	}
+	n := make([]string, 0, len(set.K))
+	for g := range set.K {
+		n = append(n, g)
+	}
+	slices.Sort(n)
+	return strings.Join(n, ", ")
 }
 
 func findCIA(set *opacity.Set, pair string) *opacity.CIATable {

@@ -198,9 +198,11 @@ func TestModelConfigProfilesAndBins(t *testing.T) {
 	if _, ok := s.Profile.(*forward.TableProfile); !ok {
 		t.Errorf("table profile: %T", s.Profile)
 	}
-	// R = 20 bins over 0.5-5 um: ln(10)/ln(41/39) = 46.0 bins (retrieve.ResolvingPowerBins).
-	if m.OutputLen() != 46 {
-		t.Errorf("%d constant-R bins, want 46", m.OutputLen())
+	// R = 20 bins over 0.5-5 um with edges exp(k/20) um:
+	// k from ceil(20 ln 0.5) = -13 to floor(20 ln 5) = 32, 45 bins
+	// (forward.ResolvingPowerBins).
+	if m.OutputLen() != 45 {
+		t.Errorf("%d constant-R bins, want 45", m.OutputLen())
 	}
 }
 

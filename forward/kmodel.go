@@ -37,6 +37,15 @@ const (
 // Overlaps lists the overlap methods.
 var Overlaps = []Overlap{OverlapProduct, OverlapResortRebin}
 
+// DefaultBinTolerance is how far, as a fraction of a model bin's width, its
+// edges may lie from k-table bin edges and be taken as those edges: 1e-3,
+// enough for bin edges printed to 4 or 5 significant digits in published
+// files. Moving an edge by that fraction moves at most 1e-3 of the bin's
+// wavelengths into its neighbour, changing the depth by under 1e-3 of the
+// depth difference between neighbouring table bins (about 1 ppm for a
+// 1000 ppm band contrast).
+const DefaultBinTolerance = 1e-3
+
 // kSub is the number of points per bin at which grey quantities (Rayleigh
 // scattering, haze, collision-induced absorption) are averaged: the
 // midpoints of kSub equal parts of the bin in wavelength.
@@ -50,6 +59,7 @@ type kModel struct {
 	gases   []kGas
 	cia     []kCIA
 	overlap Overlap
+	merged  []string // gases whose tables were merged into the bins
 	// rayleigh (per species, nil when it does not scatter) and lnw are on
 	// the kSub sub-points of every bin (bin-major).
 	rayleigh [][]float64
@@ -116,7 +126,7 @@ func newKModel(m *Model, cfg Config) (*Model, error) {
 	}
 	tol := cfg.BinTolerance
 	if tol == 0 {
-		tol = 1e-6
+		tol = DefaultBinTolerance
 	}
 	if !(tol > 0 && tol < 0.5) {
 		return nil, fmt.Errorf("forward: bin tolerance %g, must be in (0, 0.5)", tol)
@@ -146,6 +156,9 @@ func newKModel(m *Model, cfg Config) (*Model, error) {
 		r, err := t.Rebin(b.Lo, b.Hi, tol)
 		if err != nil {
 			return nil, fmt.Errorf("forward: %w", err)
+		}
+		if r != t && r.Meta[opacity.MetaRebinned] != "" {
+			km.merged = append(km.merged, t.Gas)
 		}
 		kg := kGas{name: t.Gas, sp: sp, log10P: r.Log10P, t: r.T, nT: len(r.T), k: r.K}
 		ng := len(r.G)
@@ -238,4 +251,13 @@ func (m *Model) GPoints() int {
 		return 0
 	}
 	return m.k.ng
+}
+
+// MergedK returns the gases whose k-tables were merged from finer bins into
+// the model's bins (opacity.KTable.Rebin), in table order.
+func (m *Model) MergedK() []string {
+	if m.k == nil {
+		return nil
+	}
+	return slices.Clone(m.k.merged)
 }

@@ -49,7 +49,8 @@ type Config struct {
 	// bin (k-distribution mode only); "" means OverlapProduct.
 	Overlap Overlap
 	// BinTolerance is how far (a fraction of a bin's width) a model bin's
-	// edge may lie from a k-table bin edge; 0 means 1e-6.
+	// edge may lie from a k-table bin edge and be taken as that edge; 0
+	// means DefaultBinTolerance.
 	BinTolerance float64
 
 	// Bins, when not nil, are the wavelength bins Transit averages onto;
@@ -428,5 +429,6 @@ func (m *Model) RefPressure() float64 { return m.refP }
 // model points when unbinned.
 func (m *Model) OutputLen() int { return m.nOut }
 
-// Binned reports whether Transit averages onto bins.
-func (m *Model) Binned() bool { return m.bins != nil }
+// Binned reports whether Transit averages onto bins (always so in
+// k-distribution mode).
+func (m *Model) Binned() bool { return m.bins != nil || m.k != nil }

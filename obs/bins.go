@@ -2,6 +2,7 @@ package obs
 
 import (
 	"bufio"
+	"bytes"
 	"errors"
 	"fmt"
 	"io"
@@ -29,11 +30,14 @@ func ReadBins(path string) (bins forward.Bins, errPPM []float64, err error) {
 }
 
 func parseBins(r io.Reader, path string) (forward.Bins, []float64, error) {
-	r, err := textReader(r, path)
+	data, err := io.ReadAll(io.LimitReader(r, maxFileSize+1))
 	if err != nil {
-		return forward.Bins{}, nil, err
+		return forward.Bins{}, nil, fmt.Errorf("%s: %w", path, err)
 	}
-	sc := bufio.NewScanner(r)
+	if err := checkEncoding(data); err != nil {
+		return forward.Bins{}, nil, fmt.Errorf("%s: %w", path, err)
+	}
+	sc := bufio.NewScanner(bytes.NewReader(data))
 	var cols map[string]int
 	var csv bool
 	var lo, hi, errs []float64

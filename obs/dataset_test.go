@@ -82,14 +82,14 @@ func TestFractionEdges(t *testing.T) {
 // where a row is at fault, its line.
 func TestBadObservations(t *testing.T) {
 	cases := []struct{ file, want string }{
-		{"obs-nan.csv", ":2: column 3: NaN is not a finite number"},
-		{"obs-inf.csv", ":2: column 4: +Inf is not a finite number"},
-		{"obs-zero-error.csv", ":3: error 0 must be positive"},
-		{"obs-negative-error.csv", ":2: error_plus 20 and error_minus -5 must both be positive"},
-		{"obs-depth-one.csv", ":2: depth_percent 100 is a transit depth of 1, outside [0, 1)"},
-		{"obs-depth-negative.csv", ":2: depth_ppm -20 is a transit depth of -2e-05, outside [0, 1)"},
-		{"obs-rprs-big.csv", ":2: radius_ratio 1.2 is a transit depth of 1.44"},
-		{"obs-rprs-negative.csv", ":2: radius_ratio -0.1 must not be negative"},
+		{"obs-nan.csv", ":2: column 3 (depth): NaN is not a finite number; expected the depth"},
+		{"obs-inf.csv", ":2: column 4 (error): +Inf is not a finite number"},
+		{"obs-zero-error.csv", ":3: column 4 (error): error 0 must be positive"},
+		{"obs-negative-error.csv", ":2: column 4 (error_plus), column 5 (error_minus): error_plus 20 and error_minus -5 must both be positive"},
+		{"obs-depth-one.csv", ":2: column 3 (depth_percent) in percent: 100 is a transit depth of 1, outside [0, 1)"},
+		{"obs-depth-negative.csv", ":2: column 3 (depth_ppm) in ppm: -20 is a transit depth of -2e-05, outside [0, 1)"},
+		{"obs-rprs-big.csv", ":2: column 3 (radius_ratio) in rp_rs: 1.2 is a transit depth of 1.44"},
+		{"obs-rprs-negative.csv", ":2: column 3 (radius_ratio): radius_ratio -0.1 must not be negative"},
 		{"obs-overlap.csv", ":3: bin 1.05-1.2 um overlaps the bin 1-1.1 um on line 2"},
 		{"obs-duplicate.csv", ":4: duplicated bin 0.95-1.05 um (also on line 2)"},
 		{"obs-no-header.csv", ":1: the first line that is not a comment must be a header"},
@@ -99,19 +99,16 @@ func TestBadObservations(t *testing.T) {
 		{"obs-two-depths.csv", `:1: header: two depth columns, "depth" and "depth_ppm"`},
 		{"obs-no-error.csv", ":1: header: no error column"},
 		{"obs-short-row.csv", ":3: 3 fields, the header names 4"},
-		{"obs-not-number.csv", `:3: column 3: "abc" is not a number`},
-		{"obs-edges-reversed.csv", ":2: edge_high 1.1 must be above edge_low 1.2"},
-		{"obs-zero-width.csv", ":2: bin width 0 must be positive"},
+		{"obs-not-number.csv", `:3: column 3 (depth): "abc" is not a number; expected the depth`},
+		{"obs-edges-reversed.csv", ":2: column 2 (edge_high_um): edge_high 1.1 must be above edge_low 1.2"},
+		{"obs-zero-width.csv", ":2: column 2 (width_um): bin width 0 must be positive"},
 		{"obs-empty.csv", ": no header and no data"},
 		{"obs-header-only.csv", ": header but no data rows"},
 		{"obs-mixed-bins.csv", ":1: header: give bins either as wavelength and width or as edge_low and edge_high"},
 		// Error bars outside the physical range (issue 12: these blamed the
 		// priors).
-		{"obs-error-huge.csv", ":3: error 1e+300: a transit-depth error of 1e+300 ppm is outside the physical range 0.001 to 1e+06 ppm"},
-		{"obs-error-tiny.csv", ":2: error 1e-300: a transit-depth error of 1e-300 ppm is outside the physical range"},
-		// Text in another encoding is named as such.
-		{"obs-utf16.csv", ": the file is UTF-16 (little-endian) text (byte-order mark FF FE); save it as UTF-8 or ASCII text"},
-		{"obs-utf16be-nobom.csv", ": the file holds NUL bytes (the first is byte 1): it is UTF-16 (big-endian) without a byte-order mark"},
+		{"obs-error-huge.csv", ":3: column 4 (error_ppm): a transit-depth error of 1e+300 ppm is outside the physical range 0.001 to 1e+06 ppm"},
+		{"obs-error-tiny.csv", ":2: column 4 (error_ppm): a transit-depth error of 1e-300 ppm is outside the physical range"},
 	}
 	seen := map[string]bool{}
 	for _, c := range cases {
@@ -160,18 +157,18 @@ func TestCheckCoverage(t *testing.T) {
 	for i := range wl {
 		wl[i] = 1.05e-6 + float64(i)*0.01e-6
 	}
-	err = d.CheckCoverage(wl, 2)
-	if err == nil || !strings.Contains(err.Error(), "../testdata/obs/fraction.csv:2: bin 1-1.1 um lies outside the model wavelength range") {
+	err = d.Cover(wl, 2)
+	if err == nil || !strings.Contains(err.Error(), "../testdata/obs/fraction.csv:2: bin 1-1.1 um begins below the model wavelength range 1.05-2.05 um") {
 		t.Errorf("coverage error %v", err)
 	}
 	for i := range wl {
 		wl[i] = 0.9e-6 + float64(i)*0.07e-6 // 1.04 um alone lies in 1.0-1.1 um
 	}
-	err = d.CheckCoverage(wl, 2)
+	err = d.Cover(wl, 2)
 	if err == nil || !strings.Contains(err.Error(), "fraction.csv:2: bin 1-1.1 um holds 1 model points, need at least 2") {
 		t.Errorf("coverage error %v", err)
 	}
-	if err := d.CheckCoverage(wl, 1); err != nil {
+	if err := d.Cover(wl, 1); err != nil {
 		t.Error(err)
 	}
 }

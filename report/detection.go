@@ -78,7 +78,7 @@ import (
 // p = 2 (1 - Phi(sigma)), as tabulated by Trotta (2008, Contemp. Phys. 49, 71).
 // B10 <= 1 means no evidence for the gas: sigma is 0.
 
-// Thresholds of the detection rules (stated in the README).
+// Thresholds of the detection rules (stated in docs/methods.md).
 const (
 	// MinEffectiveSamples is the fewest effective samples of a gas's chain
 	// for any significance to be computed. With fewer, a posterior piled

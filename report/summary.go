@@ -40,7 +40,7 @@ import (
 // below the prior's, i.e. significance under UpperLimitSigma) is reported as
 // an upper limit, the one-sided 95% upper limit being its 95th percentile.
 
-// Rules of the summaries (stated in the README). Autocorrelation times use
+// Rules of the summaries (stated in docs/methods.md). Autocorrelation times use
 // the sampler's window (sampler.DefaultSokalWindow), and a chain counts as
 // converged when the whole chain (burn-in included, as in the sampler's
 // stopping rule, so that a run the sampler stopped as converged is
@@ -69,6 +69,9 @@ type SummaryOptions struct {
 	// BurnAuto records that Burn was chosen by AutoBurn.
 	BurnAuto bool
 	Gases    []GasParam
+	// Bounds are the prior boxes of the parameter columns for the
+	// prior-edge check (checks.go); columns without one are not checked.
+	Bounds []ParamBounds
 }
 
 // Summary is the content of summary.json.
@@ -95,6 +98,16 @@ type Summary struct {
 	Parameters []ColumnSummary `json:"parameters"`
 	Derived    []ColumnSummary `json:"derived"`
 	Best       BestSample      `json:"best"`
+
+	// GoodnessOfFit is the goodness-of-fit check's numbers (nil without
+	// a model or degrees of freedom).
+	GoodnessOfFit *GoodnessOfFit `json:"goodness_of_fit,omitempty"`
+	// Checks are the findings of the checks that say when the fit is not
+	// to be trusted (checks.go), in plain words; empty when none fired.
+	Checks []Check `json:"checks"`
+	// Coverage is what the opacity tables cover of the data (nil when not
+	// known).
+	Coverage *Coverage `json:"coverage,omitempty"`
 
 	// InvalidStates counts rejected proposals by reason (from the run).
 	InvalidStates map[string]int64 `json:"invalid_states,omitempty"`
@@ -149,7 +162,10 @@ type GasVerdict struct {
 	LnB10Err        Float    `json:"ln_bayes_factor_error"`
 	Upper95         float64  `json:"upper_limit_95"`
 	EdgeMeansAbsent bool     `json:"edge_means_absent"`
-	Verdict         string   `json:"verdict"`
+	// Unreliable is set when the model does not fit the data (the
+	// goodness-of-fit check): the significance measures nothing then.
+	Unreliable bool   `json:"unreliable"`
+	Verdict    string `json:"verdict"`
 }
 
 // BestSample is the maximum-posterior sample after burn-in.
@@ -237,16 +253,20 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 	s := &Summary{
 		Program: "chord " + version.Version, Walkers: c.Walkers, Steps: c.TotalSteps,
 		Burn: opt.Burn, BurnAuto: opt.BurnAuto, Thin: thin,
-		Warnings: []string{}, Cautions: []string{},
+		Warnings: []string{}, Cautions: []string{}, Checks: []Check{},
 	}
 	best := s.setBest(c, lp)
 	s.Acceptance = acceptance(c)
-	if n := len(s.Acceptance.Stuck); n > 0 {
-		s.Warnings = append(s.Warnings, fmt.Sprintf("%d stuck walker(s) %v: acceptance far below the median %.2f (under half of it, and more than %d binomial standard deviations); they may sit in a separate mode or a bad region (check the initial ball, or extend the burn-in)", n, s.Acceptance.Stuck, s.Acceptance.Median, sampler.StuckSigma))
+	if msg := modesCheck(c, s.Acceptance); msg != "" {
+		s.addCheck(CheckModes, msg)
 	}
 	gases := make(map[string]GasParam, len(opt.Gases))
 	for _, g := range opt.Gases {
 		gases[g.Column] = g
+	}
+	bounds := make(map[string]ParamBounds, len(opt.Bounds))
+	for _, b := range opt.Bounds {
+		bounds[b.Column] = b
 	}
 	nKept := 0
 	for _, st := range c.Steps {
@@ -275,6 +295,11 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 		}
 		if tau := float64(cs.Tau); tau > float64(s.MaxTau) || math.IsNaN(tau) {
 			s.MaxTau = cs.Tau
+		}
+		if b, ok := bounds[col.Name]; ok {
+			if msg := edgeCheck(b, buf); msg != "" {
+				s.addCheck(CheckPriorEdge, msg)
+			}
 		}
 		if g, ok := gases[col.Name]; ok {
 			var err error
@@ -547,6 +572,7 @@ func (s *Summary) WriteText(w io.Writer) error {
 	table("parameters", s.Parameters)
 	table("derived quantities", s.Derived)
 	b.WriteString("\nUpper limits: a log10 mixing ratio whose posterior reaches its prior's lower edge (Savage-Dickey significance below 2 sigma) is reported as an upper limit, its 95th percentile, not as a measurement.\n")
+	s.writeChecks(&b)
 	if len(s.Warnings) > 0 {
 		b.WriteString("\nwarnings\n")
 		for _, m := range s.Warnings {
@@ -579,9 +605,20 @@ type Options struct {
 	BurnAuto bool // choose Burn by AutoBurn instead
 	Thin     int  // 0 means 1
 	Gases    []GasParam
-	// Model, if set, gives the chi-square of the best sample and
-	// spectrum.png; nil skips both.
+	// Bounds are the prior boxes for the prior-edge check.
+	Bounds []ParamBounds
+	// Model, if set, gives the chi-square of the best sample, the
+	// goodness-of-fit check and spectrum.png; nil skips them. A
+	// TemperatureModel also gives the fit's temperatures for the
+	// table-coverage check.
 	Model Model
+	// ErrorsInflated says the fit has error-inflation parameters (the
+	// chain's chi2 column then uses the inflated errors).
+	ErrorsInflated bool
+	// Coverage, if set, is what the opacity tables cover (without the
+	// fit's temperatures, which Write adds); the table-coverage check
+	// runs on it.
+	Coverage *Coverage
 	// SpectrumSamples is the number of posterior samples drawn for the
 	// spectrum bands; 0 means 300.
 	SpectrumSamples int
@@ -610,7 +647,7 @@ func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 		return nil, err
 	}
 	thin := max(opt.Thin, 1)
-	s, err := Summarize(c, SummaryOptions{Burn: burn, BurnAuto: opt.BurnAuto, Thin: thin, Gases: opt.Gases})
+	s, err := Summarize(c, SummaryOptions{Burn: burn, BurnAuto: opt.BurnAuto, Thin: thin, Gases: opt.Gases, Bounds: opt.Bounds})
 	if err != nil {
 		return nil, err
 	}
@@ -631,6 +668,10 @@ func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 			chi2 += r * r
 		}
 		s.SetChiSquare(chi2, len(depth))
+		if fit := c.Column("chi2"); fit != nil {
+			chi2 = fit[(s.Best.Step-c.Steps[0])*c.Walkers+s.Best.Walker] // with the errors as fitted
+		}
+		s.setGoodness(chi2, len(depth), opt.ErrorsInflated)
 		spec = &SpectrumPlot{Wavelength: wl, HalfWidth: half, Depth: depth, Error: sigma, Title: opt.Title, Demo: s.DemoOpacities}
 		n := opt.SpectrumSamples
 		if n == 0 {
@@ -638,6 +679,8 @@ func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 		}
 		rng := rand.New(rand.NewPCG(1, 2)) // fixed: a report is reproducible
 		total := len(c.Steps) * c.Walkers
+		tm, _ := opt.Model.(TemperatureModel)
+		var tLo, tHi []float64
 		for range min(n, total) {
 			x = c.Sample(x, rng.IntN(total))
 			m := make([]float64, len(depth))
@@ -645,8 +688,20 @@ func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 				continue // an invalid state has no spectrum; it is not in the posterior either
 			}
 			spec.Models = append(spec.Models, m)
+			if tm != nil {
+				if lo, hi, err := tm.TemperatureRange(x); err == nil && finiteRange(lo, hi) {
+					tLo, tHi = append(tLo, lo), append(tHi, hi)
+				}
+			}
+		}
+		if opt.Coverage != nil {
+			opt.Coverage.setTemperatures(tLo, tHi)
 		}
 	}
+	if opt.Coverage != nil {
+		s.checkCoverage(opt.Coverage)
+	}
+	s.sortChecks()
 	if err := writeSummaryFiles(dir, s); err != nil {
 		return s, &WriteError{Dir: dir, Err: err}
 	}

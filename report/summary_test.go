@@ -135,8 +135,8 @@ func TestSummarize(t *testing.T) {
 	if len(s.Acceptance.Stuck) != 1 || s.Acceptance.Stuck[0] != 7 || s.Acceptance.Median != 1 || math.Abs(s.Acceptance.Min-9.0/499) > 1e-12 {
 		t.Errorf("acceptance %+v, want walker 7 stuck", s.Acceptance)
 	}
-	if !strings.Contains(strings.Join(s.Warnings, "\n"), "stuck walker") {
-		t.Errorf("no stuck-walker warning: %v", s.Warnings)
+	if len(s.Checks) == 0 || s.Checks[0].Kind != CheckModes || !strings.Contains(s.Checks[0].Message, "multimodal or not mixed: ") || !strings.Contains(s.Checks[0].Message, "1 stuck walker(s) [7]") {
+		t.Errorf("no stuck-walker check: %v", s.Checks)
 	}
 	if len(s.Cautions) != 0 {
 		t.Errorf("caution without a detected life-associated gas: %v", s.Cautions)

@@ -4,10 +4,3 @@
 // Report of one run: run.toml, the chain store, the checkpoint and the
 // report).
 package retrieve
-
-import "chord/internal/version"
-
-// Version is the program version (internal/version). It stays here for
-// cmd/chord/opacity_build.go, which another change is rewriting; use
-// chord/internal/version instead.
-const Version = version.Version

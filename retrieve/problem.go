@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"strings"
 	"sync"
 	"sync/atomic"
@@ -12,7 +13,9 @@ import (
 	"chord/config"
 	"chord/forward"
 	"chord/forward/opacity"
+	"chord/forward/opacity/lbl"
 	"chord/priors"
+	"chord/report"
 	"chord/sampler"
 )
 
@@ -38,6 +41,7 @@ import (
 // ratios over 1, cloud below the bottom, unusable temperatures) gives
 // -Inf, and the reason is counted (Rejections).
 type Problem struct {
+	notes    []string // what the summary says about the opacity tables (OpacityNotes)
 	model    *forward.Model
 	res      *config.Resolved
 	base     forward.State
@@ -61,9 +65,10 @@ type Problem struct {
 	clrN   int
 	clrGas []int
 
+	cover *report.Coverage // what the opacity tables cover
+
 	counts [numReasons]atomic.Int64
 	evals  atomic.Int64
-	clamp  atomic.Int64
 
 	initOnce sync.Once
 	initMu   sync.Mutex
@@ -99,6 +104,30 @@ var reasonNames = [numReasons]string{
 	"other invalid physical state",
 }
 
+// OpacityNotes returns what a run's summary should say about the opacity
+// tables of fc as model m uses them: k-tables merged from finer bins (a
+// few ppm of extra error, measured in docs/opacity-accuracy.md), k-tables
+// whose fine grid was coarser than the Doppler rule, and point
+// cross-section tables (sampled at the model grid: noisy against a
+// line-by-line spectrum unless the grid resolves the lines).
+func OpacityNotes(fc forward.Config, m *forward.Model) []string {
+	var out []string
+	if merged := m.MergedK(); len(merged) > 0 {
+		out = append(out, fmt.Sprintf("the k-tables of %s were merged from finer bins into the observation's bins (Leconte 2021): a few ppm of extra error, see docs/opacity-accuracy.md", strings.Join(merged, ", ")))
+	}
+	for _, t := range fc.KTables {
+		for _, w := range strings.Split(t.Meta[lbl.MetaWarnings], "\n") {
+			if strings.Contains(w, "coarser than a third of the Doppler") {
+				out = append(out, fmt.Sprintf("k-table %s: %s", t.Gas, w))
+			}
+		}
+	}
+	if len(fc.XSec) > 0 {
+		out = append(out, "point cross-section tables sample the lines at the model grid: unless the grid resolves the lines (resolving power of about 1e6), binned depths are noisy by tens to hundreds of ppm; use k-tables for fits")
+	}
+	return out
+}
+
 // Extra values stored with every sample, in this order.
 var extraNames = []string{"log_likelihood", "mean_molecular_weight", "fill_vmr", "chi2"}
 
@@ -120,10 +149,17 @@ func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
+	// The data sets checked against the model grid, which moves edges equal
+	// to the grid's ends up to rounding onto them; fc.Bins follows.
+	bins.Lo, bins.Hi = bins.Lo[:0], bins.Hi[:0]
 	for _, d := range r.Datasets {
-		if err := d.CheckCoverage(fc.Wavelength, fc.MinBinPoints); err != nil {
-			return nil, err
+		if len(fc.Wavelength) > 0 {
+			if err := d.Cover(fc.Wavelength, fc.MinBinPoints); err != nil {
+				return nil, err
+			}
 		}
+		bins.Lo = append(bins.Lo, d.Lo...)
+		bins.Hi = append(bins.Hi, d.Hi...)
 	}
 	if err := checkOpacity(r, fc); err != nil {
 		return nil, err
@@ -132,11 +168,13 @@ func NewProblem(r *config.Resolved, set *opacity.Set) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
+	notes := OpacityNotes(fc, m)
 	base, err := mc.State(m)
 	if err != nil {
 		return nil, err
 	}
-	p := &Problem{model: m, res: r, base: base, gasIndex: map[string]int{}, nDS: len(r.Datasets)}
+	p := &Problem{model: m, res: r, base: base, gasIndex: map[string]int{}, nDS: len(r.Datasets), notes: notes,
+		cover: tableCoverage(fc, r.Datasets, m.LevelPressures())}
 	for i, g := range m.Gases() {
 		p.gasIndex[g] = i
 	}
@@ -191,6 +229,9 @@ func checkOpacity(r *config.Resolved, fc forward.Config) error {
 		for _, t := range fc.XSec {
 			ok = ok || t.Gas == par.Gas
 		}
+		for _, t := range fc.KTables {
+			ok = ok || t.Gas == par.Gas
+		}
 		for _, t := range fc.CIA {
 			ok = ok || t.Pair[0] == par.Gas || t.Pair[1] == par.Gas
 		}
@@ -202,6 +243,9 @@ func checkOpacity(r *config.Resolved, fc forward.Config) error {
 			for _, t := range fc.XSec {
 				have = append(have, t.Gas)
 			}
+			for _, t := range fc.KTables {
+				have = append(have, t.Gas)
+			}
 			if len(have) == 0 {
 				have = append(have, "none")
 			}
@@ -211,6 +255,10 @@ func checkOpacity(r *config.Resolved, fc forward.Config) error {
 	}
 	return nil
 }
+
+// Notes returns what the run's summary should say about the opacity
+// tables (OpacityNotes).
+func (p *Problem) Notes() []string { return p.notes }
 
 // Dim returns the number of free parameters.
 func (p *Problem) Dim() int { return len(p.free) }
@@ -273,10 +321,8 @@ func (p *Problem) Rejections() []Rejection {
 	return out
 }
 
-// Evaluations returns the number of posterior evaluations so far, and
-// how many of them used opacity tables outside their (P, T) grid (edge
-// values used; see opacity.XSecTable).
-func (p *Problem) Evaluations() (total, clamped int64) { return p.evals.Load(), p.clamp.Load() }
+// Evaluations returns the number of posterior evaluations so far.
+func (p *Problem) Evaluations() int64 { return p.evals.Load() }
 
 // PosteriorEvaluator evaluates the posterior for one goroutine.
 type PosteriorEvaluator struct {
@@ -401,9 +447,6 @@ func (e *PosteriorEvaluator) LogProb(x, extra []float64) float64 {
 	if err != nil {
 		return e.reject(reasonOf(err), extra)
 	}
-	if e.count && e.ws.Clamped {
-		p.clamp.Add(1)
-	}
 	extra[0], extra[1], extra[2], extra[3] = ll, e.ws.MeanMolecularWeight, fill, chi2
 	return lp + ll
 }
@@ -411,6 +454,17 @@ func (e *PosteriorEvaluator) LogProb(x, extra []float64) float64 {
 // evaluate sets the state from x, runs the forward model and returns the
 // log-likelihood, chi-square and fill-gas mixing ratio.
 func (e *PosteriorEvaluator) evaluate(x []float64) (ll, chi2, fill float64, err error) {
+	fill = e.setState(x)
+	if err := e.p.model.Transit(e.spec, &e.state, e.ws); err != nil {
+		return 0, 0, 0, err
+	}
+	ll, chi2 = e.p.logLikelihood(e.spec, e.off, e.s2)
+	return ll, chi2, fill, nil
+}
+
+// setState sets the evaluator's state, offsets and inflation variances
+// from x and returns the fill gas's mixing ratio.
+func (e *PosteriorEvaluator) setState(x []float64) (fill float64) {
 	p := e.p
 	s := &e.state
 	s.CloudTop, s.CloudFraction, s.HazeFactor, s.HazeSlope = p.base.CloudTop, p.base.CloudFraction, p.base.HazeFactor, p.base.HazeSlope
@@ -438,11 +492,21 @@ func (e *PosteriorEvaluator) evaluate(x []float64) (ll, chi2, fill float64, err 
 	for _, v := range s.VMR {
 		fill -= v
 	}
-	if err := p.model.Transit(e.spec, s, e.ws); err != nil {
-		return 0, 0, 0, err
+	return fill
+}
+
+// TemperatureRange returns the coldest and hottest level temperature (K)
+// of the model atmosphere at x, without running the forward model.
+func (e *PosteriorEvaluator) TemperatureRange(x []float64) (lo, hi float64, err error) {
+	e.setState(x)
+	p := e.p.model.LevelPressures()
+	t := make([]float64, len(p))
+	s := &e.state
+	g := forward.Gravitation * s.Mass / (s.RefRadius * s.RefRadius)
+	if err := s.Profile.TemperatureTo(t, p, g); err != nil {
+		return 0, 0, err
 	}
-	ll, chi2 = p.logLikelihood(e.spec, e.off, e.s2)
-	return ll, chi2, fill, nil
+	return slices.Min(t), slices.Max(t), nil
 }
 
 // logLikelihood returns the Gaussian log-likelihood of the model depths m

@@ -56,7 +56,7 @@ func TestBadConfigsProblem(t *testing.T) {
 		t.Fatal(err)
 	}
 	_, err = NewProblem(r, &opacity.Set{})
-	if err == nil || !strings.Contains(err.Error(), "/testdata/obs/wide.csv:20: bin 4.4-4.6 um lies outside the model wavelength range") {
+	if err == nil || !strings.Contains(err.Error(), "/testdata/obs/wide.csv:20: bin 4.4-4.6 um ends above the model wavelength range 0.9-4.5 um") {
 		t.Errorf("bin outside the model grid: %v, want the observation file and line", err)
 	}
 }
@@ -226,7 +226,7 @@ func TestRejections(t *testing.T) {
 			t.Errorf("reason %q counted %d times, want 1 (all: %v)", c.reason, got[c.reason], p.Rejections())
 		}
 	}
-	if n, _ := p.Evaluations(); n != int64(len(cases)) {
+	if n := p.Evaluations(); n != int64(len(cases)) {
 		t.Errorf("%d evaluations counted, want %d", n, len(cases))
 	}
 }
@@ -279,7 +279,7 @@ func TestDrawPrior(t *testing.T) {
 			t.Errorf("draw %d has -Inf posterior", k)
 		}
 	}
-	if n, _ := p.Evaluations(); n != int64(len(a)) {
+	if n := p.Evaluations(); n != int64(len(a)) {
 		t.Errorf("initial draws were counted: %d evaluations", n)
 	}
 }

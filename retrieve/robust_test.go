@@ -111,7 +111,7 @@ func TestStartInterruptedAndFailed(t *testing.T) {
 	spec := gaussSpec(8, 42, 0)
 	noDraw := errors.New("no prior draw in 10000 tries gives a valid atmosphere")
 	spec.Init = func(ctx context.Context, workers int) (*sampler.State, error) {
-		_, err := sampler.StartBall(ctx, spec.Target, func([]float64, *rand.Rand) error { return noDraw }, []float64{1, 1, 1}, 8, 42)
+		_, _, err := sampler.StartBall(ctx, spec.Target, func([]float64, *rand.Rand) error { return noDraw }, []float64{1, 1, 1}, sampler.StartSettings{Walkers: 8, Seed: 42})
 		return nil, err
 	}
 	_, err = StartRun(context.Background(), t.TempDir(), spec, RunOptions{Stop: config.StopRule{Steps: 10}})

@@ -795,6 +795,7 @@ type job struct {
 	prob   *Problem
 	spec   *RunSpec
 	inputs []InputFile
+	log    io.Writer // the run's log (the start's searches); nil for none
 }
 
 // quantityUnit is the unit of each quantity in chains and reports.
@@ -855,17 +856,20 @@ func newJob(r *config.Resolved, set *opacity.Set, runID string) (*job, error) {
 	default:
 		move = sampler.Stretch{A: 2}
 	}
+	j := &job{}
 	spec := &RunSpec{
 		Target: prob, Layout: l, Move: move, Seed: r.Seed, RunID: runID, ConfigSHA256: digest,
 		Init: func(ctx context.Context, workers int) (*sampler.State, error) {
-			pos, err := sampler.StartBall(ctx, prob, prob.DrawPrior, priorWidths(prob.Priors()), r.Walkers, r.Seed)
+			pos, found, err := sampler.StartBall(ctx, prob, prob.DrawPrior, priorWidths(prob.Priors()), sampler.StartSettings{Walkers: r.Walkers, Seed: r.Seed, Workers: workers})
 			if err != nil {
 				return nil, err
 			}
+			fmt.Fprintln(logto.First(j.log), "chord: start:", found)
 			return sampler.InitPositions(ctx, prob, pos, sampler.InitSettings{Walkers: r.Walkers, Seed: r.Seed, Workers: workers})
 		},
 	}
-	return &job{res: r, set: set, prob: prob, spec: spec, inputs: inputs}, nil
+	j.res, j.set, j.prob, j.spec, j.inputs = r, set, prob, spec, inputs
+	return j, nil
 }
 
 // priorWidths returns the central 68% widths of the priors, the scales of
@@ -909,11 +913,15 @@ func (m *reportModel) Data() (wl, half, depth, sigma []float64) {
 	return
 }
 
-func (m *reportModel) ModelDepth(dst, x []float64) error {
+func (m *reportModel) init() {
 	if m.eval == nil {
 		m.eval = m.j.prob.NewPosteriorEvaluator()
 		m.buf = make([]float64, m.j.prob.Model().OutputLen())
 	}
+}
+
+func (m *reportModel) ModelDepth(dst, x []float64) error {
+	m.init()
 	if err := m.eval.Spectrum(m.buf, x); err != nil {
 		return err
 	}
@@ -935,6 +943,9 @@ func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome)
 	title := j.res.Config.Planet.Name
 	s, err := report.Write(dir, ck.Parts, report.Options{
 		Burn: burn, BurnAuto: auto, Thin: thin, Gases: j.gases(), Model: &reportModel{j: j}, Title: title,
+		Bounds:         paramBounds(j.res.Free, *j.res.Config.Atmosphere.BottomPressureBar),
+		ErrorsInflated: j.prob.inflate,
+		Coverage:       j.prob.Coverage(),
 		Fill: func(s *report.Summary) {
 			s.RunID = ck.RunID
 			s.DemoOpacities = j.set.Demo
@@ -950,13 +961,12 @@ func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome)
 						s.InvalidStates[r.Reason] = r.Count
 					}
 				}
-				if total, clamped := j.prob.Evaluations(); clamped > 0 {
-					s.Warnings = append(s.Warnings, fmt.Sprintf("%d of %d evaluations this session used opacity tables outside their pressure-temperature grid (edge values used); widen the tables or the temperature prior", clamped, total))
-				}
 			}
+			s.Warnings = append(s.Warnings, j.res.Warnings...)
 			for _, n := range j.res.Notes {
 				s.Warnings = append(s.Warnings, "note: "+n)
 			}
+			s.Warnings = append(s.Warnings, j.prob.Notes()...)
 		},
 	})
 	if s == nil {
@@ -1085,6 +1095,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	if err != nil {
 		return nil, config.InFile(opt.ConfigPath, err)
 	}
+	j.log = log
 	cfgHash, err := fileSHA256(opt.ConfigPath)
 	if err != nil {
 		return nil, err
@@ -1220,6 +1231,7 @@ func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, err
 	if err != nil {
 		return nil, err
 	}
+	j.log = log // a run restarted from its seed searches for its start again
 	if j.set.Demo {
 		fmt.Fprintln(log, "chord: "+report.DemoWarning)
 	}
@@ -1339,12 +1351,18 @@ func RunNoisePPM(dir string) (float64, error) {
 	rf.Config.BaseDir = dir
 	rf.relocate(dir)
 	var sigma []float64
-	for _, o := range rf.Config.Observations {
-		d, err := obs.ReadDataset(rf.Config.Abs(o.File))
+	for i, o := range rf.Config.Observations {
+		opt, err := o.ReadOptions(fmt.Sprintf("observations[%d]", i+1))
+		if err != nil {
+			return 0, config.InFile(path, err)
+		}
+		ds, err := obs.Read(rf.Config.Abs(o.File), opt)
 		if err != nil {
 			return 0, fmt.Errorf("%s: %w", path, err)
 		}
-		sigma = append(sigma, d.Sigma...)
+		for _, d := range ds {
+			sigma = append(sigma, d.Sigma...)
+		}
 	}
 	if len(sigma) == 0 {
 		return 0, fmt.Errorf("%s: no observations", path)

@@ -19,7 +19,7 @@ import (
 // are listed in newApp.
 var commands []*cli.Command
 
-// Exit codes (a stable interface; documented in the README).
+// Exit codes (a stable interface; documented in docs/cli.md).
 const (
 	exitOK          = 0
 	exitError       = 1 // bad input or a failed run

@@ -11,6 +11,7 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"chord/forward/opacity"
+	"chord/forward/opacity/lbl"
 	"chord/forward/opacity/tablefile"
 )
 
@@ -47,7 +48,7 @@ func runOpacityInfo(c *cli.Context) error {
 		return fmt.Errorf("opacity info: want one table file, got %d arguments", c.NArg())
 	}
 	path := c.Args().First()
-	x, cia, err := tablefile.Read(path)
+	tab, err := tablefile.Read(path)
 	if err != nil {
 		return err
 	}
@@ -56,17 +57,16 @@ func runOpacityInfo(c *cli.Context) error {
 		return err
 	}
 	w := c.App.Writer
-	var meta map[string]string
-	if x != nil {
-		meta = x.Meta
-	} else {
-		meta = cia.Meta
-	}
+	x, cia, meta := tab.XSec, tab.CIA, tab.Meta()
 	fmt.Fprintf(w, "file:         %s (%s)\n", path, infoBytes(st.Size()))
 	if opacity.IsDemo(meta) {
 		fmt.Fprintf(w, "DEMO TABLE:   %s\n", opacity.DemoNote)
 	}
-	if x != nil {
+	if tab.K != nil {
+		if err := infoK(w, tab.K); err != nil {
+			return fmt.Errorf("opacity info: %s: %w", path, err)
+		}
+	} else if x != nil {
 		fmt.Fprintf(w, "table:        cross-sections of %s (kind %s, schema %s)\n", x.Gas, meta[tablefile.MetaKind], meta[tablefile.MetaSchemaVersion])
 		fmt.Fprintf(w, "shape:        %d pressures x %d temperatures x %d wavenumbers = %d values (float32)\n",
 			len(x.Log10P), len(x.T), len(x.Wavenumber), len(x.Sigma))
@@ -98,15 +98,18 @@ func runOpacityInfo(c *cli.Context) error {
 		}
 		fmt.Fprintf(w, "%-13s %s  sha256 %s  (%s)\n", label, s.File, s.SHA256, infoBytes(s.Bytes))
 	}
-	fmt.Fprintf(w, "build:        %s\n", infoOrNone(meta[opacity.MetaBuildSettings]))
+	if tab.K == nil {
+		fmt.Fprintf(w, "build:        %s\n", infoOrNone(meta[opacity.MetaBuildSettings]))
+	}
 	fmt.Fprintf(w, "checksum:     content sha256 %s (verified)\n", meta[tablefile.MetaContentSHA256])
 	shown := map[string]bool{}
 	for _, k := range []string{tablefile.MetaFormat, tablefile.MetaSchemaVersion, tablefile.MetaKind, tablefile.MetaGas, tablefile.MetaPair,
 		tablefile.MetaShape, tablefile.MetaContentSHA256, opacity.MetaProgramVersion, opacity.MetaSources, opacity.MetaBuildSettings,
 		opacity.MetaDemo, opacity.MetaDemoNote, tablefile.MetaUnitsLog10P, tablefile.MetaUnitsTemperature, tablefile.MetaUnitsWavenumber,
-		tablefile.MetaUnitsSigma, tablefile.MetaUnitsK} {
+		tablefile.MetaUnitsSigma, tablefile.MetaUnitsK, tablefile.MetaUnitsWavelength, tablefile.MetaUnitsKCoeff} {
 		shown[k] = true
 	}
+	shown[lbl.MetaWarnings] = tab.K != nil // infoK prints them
 	var other []string
 	for k := range meta {
 		if !shown[k] {

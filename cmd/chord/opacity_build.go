@@ -1,6 +1,7 @@
 package main
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 	"io"
@@ -20,7 +21,7 @@ import (
 	"chord/forward/opacity/hitran"
 	"chord/forward/opacity/lbl"
 	"chord/forward/opacity/tablefile"
-	"chord/retrieve"
+	"chord/internal/version"
 )
 
 // opacityBuildCommand is the "build" subcommand of "chord opacity": line
@@ -30,15 +31,22 @@ var opacityBuildCommand = &cli.Command{
 	Name:      "build",
 	Usage:     "build opacity table files from line lists and CIA files (or the demo set)",
 	ArgsUsage: " ",
-	Description: "Builds one cross-section table file <gas>.parquet from the line lists given with --lines\n" +
-		"(HITRAN 160-character .par records or HITRAN's tab-separated download, or one ExoMol .def file\n" +
-		"whose .states and .trans files lie beside it, possibly .bz2), on the grid of --pressure,\n" +
-		"--temperature and --wavenumber or --wavelength, and one CIA table file <A>-<B>.parquet per pair\n" +
-		"from the HITRAN CIA files given with --cia, on the same wavenumber grid. HITRAN line lists need\n" +
-		"HITRAN's molparam table (--molparam) for masses, abundances and Q(296 K); partition sums come\n" +
-		"from --tips or --partition files, otherwise from a rigid-rotor approximation, with a warning.\n" +
-		"Existing files are not replaced unless --force is given. --demo writes the demo tables\n" +
-		"(synthetic bands; demo, not for science) instead. Progress goes to standard error.",
+	Description: "Builds the table of one gas from the line lists given with --lines (HITRAN 160-character\n" +
+		".par records, HITEMP's, with or without comma-separated broadener fields, CDSD-HITEMP's\n" +
+		"127-character records, HITRAN's tab- or comma-separated downloads, .bz2 or .gz or plain; or one\n" +
+		"ExoMol .def file whose .states and .trans chunk files lie beside it):\n" +
+		"  a k-table <gas>.k.parquet on the bins of --bins (resolving power on the grid exp(k/R) um) or\n" +
+		"  --bins-from (an observation file), at the pressures and temperatures of --pressure and\n" +
+		"  --temperature (defaults: 1e-7 to 100 bar at 6 per decade; 100 to 3000 K in 19 steps, clipped to\n" +
+		"  the partition sums' range), streamed from the files in bounded memory; a build stopped by\n" +
+		"  SIGINT (exit code 3) resumes where it stopped when the same command is run again;\n" +
+		"  or a table of point cross-sections <gas>.parquet on the grid of --wavenumber or --wavelength.\n" +
+		"One CIA table file <A>-<B>.parquet per pair comes from the HITRAN CIA files given with --cia.\n" +
+		"HITRAN line lists need HITRAN's molparam table (--molparam); partition sums come from --tips or\n" +
+		"--partition files (the newest edition per isotopologue), otherwise from a rigid-rotor\n" +
+		"approximation, with a warning. Existing files are not replaced unless --force is given. --demo\n" +
+		"writes the demo tables (synthetic bands; demo, not for science) instead. Progress goes to\n" +
+		"standard error.",
 	Flags: []cli.Flag{
 		&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "output `DIR` for the table files (created if missing)", Required: true},
 		&cli.BoolFlag{Name: "force", Usage: "replace existing table files"},
@@ -47,10 +55,22 @@ var opacityBuildCommand = &cli.Command{
 		&cli.StringFlag{Name: "gas", Usage: "gas `NAME` of the table (default: the HITRAN molecule of the lines, or the ExoMol formula)"},
 		&cli.StringFlag{Name: "molparam", Usage: "HITRAN molparam `FILE` (isotopologue masses, abundances, Q(296 K)); needed for HITRAN line lists"},
 		&cli.StringFlag{Name: "tips", Usage: "TIPS partition-sum table `FILE` (header Temp(K) NAME_code ...)"},
-		&cli.StringSliceFlag{Name: "partition", Usage: "two-column partition-sum file for one isotopologue, `MOL/ISO=FILE` (e.g. 1/1=q1.txt); repeatable"},
+		&cli.StringSliceFlag{Name: "partition", Usage: "two-column partition-sum file for one isotopologue, `[MOL/ISO=]FILE` (e.g. 1/1=q1.txt; without MOL/ISO= the file's header names it); repeatable, the newest edition per isotopologue is used"},
+		&cli.StringSliceFlag{Name: "fields", Usage: "names of the comma-separated fields after the records of a HITRAN file, `FILE=NAME,NAME,...` (e.g. f.txt=delta_H2,err,ref); repeatable"},
+		&cli.StringSliceFlag{Name: "broad", Usage: "ExoMol `FILE` <slug>__<H2|He|CO2|H2O>.broad of J-dependent widths; repeatable"},
+		&cli.StringFlag{Name: "mixture", Usage: "broadening gas mixture `GAS:FRACTION,...` of the background (air, H2, He, CO2, H2O), e.g. H2:0.85,He:0.15 (default air)"},
 		&cli.StringSliceFlag{Name: "cia", Usage: "HITRAN CIA `FILE`; repeat for several files and pairs (files of one pair are combined)"},
-		&cli.StringFlag{Name: "pressure", Value: "1e-7:100:13", Usage: "pressure grid `LO:HI:N` in bar, N points log-spaced"},
-		&cli.StringFlag{Name: "temperature", Value: "200,300,400,500,600,800,1000,1200,1400,1600,1800,2000", Usage: "temperature grid in K: `LIST` (T1,T2,...) or LO:HI:N evenly spaced"},
+		&cli.StringFlag{Name: "pressure", Usage: "pressure grid `LO:HI:N` in bar, N points log-spaced", DefaultText: "k-tables 1e-7:100:55, point tables 1e-7:100:13"},
+		&cli.StringFlag{Name: "temperature", Usage: "temperature grid in K: `LIST` (T1,T2,...) or LO:HI:N evenly spaced",
+			DefaultText: "k-tables 100,150,200,250,300,400,...,2600,3000 clipped to the partition sums; point tables 200,300,400,500,600,800,...,2000"},
+		&cli.StringFlag{Name: "bins", Usage: "k-table bins `LO:HI:R`: wavelengths LO-HI um at resolving power R, edges exp(k/R) um"},
+		&cli.StringFlag{Name: "bins-from", Usage: "k-table bins: the bin edges of an observation `FILE`"},
+		&cli.StringFlag{Name: "quadrature", Value: "12,4@0.95", Usage: "k-table g quadrature: Gauss-Legendre `N[,N2,...@SPLIT,...]`, e.g. 16 or 12,4@0.95"},
+		&cli.Float64Flag{Name: "wing-widths", Usage: "k-tables: cut each line at min(--cutoff, `N` Voigt half-widths) (0: --cutoff alone)"},
+		&cli.Float64Flag{Name: "weak-cut", Usage: "k-tables: lines weaker than `F` times the strongest line within --weak-ref go into a pseudo-continuum (0: none)"},
+		&cli.Float64Flag{Name: "weak-ref", Usage: "k-tables: half-width of the neighbourhood of --weak-cut in `CM-1` (0: 1)"},
+		&cli.Float64Flag{Name: "resolution", Usage: "k-tables: resolving power `R` of the fine grid (0: a third of the Doppler half-width at each temperature)"},
+		&cli.IntFlag{Name: "window-lines", Usage: "k-tables: at most about `N` lines held at once (0: 2000000)"},
 		&cli.StringFlag{Name: "wavenumber", Usage: "wavenumber grid `LO:HI:STEP` in cm^-1"},
 		&cli.StringFlag{Name: "wavelength", Usage: "wavelength grid `LO:HI:R` in um, log-spaced at resolving power R"},
 		&cli.Float64Flag{Name: "cutoff", Value: lbl.DefaultWingCutoff, Usage: "line-wing cut-off in `CM-1` from the line centre"},
@@ -60,9 +80,6 @@ var opacityBuildCommand = &cli.Command{
 		&cli.Float64Flag{Name: "broadener-scale", Usage: "background half-width = `SCALE` x air half-width (0: 1)"},
 		&cli.Float64Flag{Name: "broadener-n", Usage: "temperature `EXPONENT` of the background half-width (0: the lines' own)"},
 		&cli.BoolFlag{Name: "no-shift", Usage: "ignore the lines' pressure shifts"},
-		&cli.BoolFlag{Name: "cell-average", Usage: "store the mean cross-section over each grid cell instead of the value at the grid point " +
-			"(--cell-average=false for point values)",
-			DefaultText: "on when the grid spacing exceeds twice the median line half-width at the lowest pressure and temperature"},
 		&cli.Float64Flag{Name: "abundance", Usage: "ExoMol: weight intensities by this isotopologue `FRACTION` (0: 1)"},
 		&cli.Float64Flag{Name: "exomol-gamma", Usage: "ExoMol: Lorentz half-width in `CM-1/BAR` at 296 K instead of the .def default"},
 		&cli.Float64Flag{Name: "exomol-n", Usage: "ExoMol: temperature `EXPONENT` of --exomol-gamma"},
@@ -91,7 +108,7 @@ func runOpacityBuild(c *cli.Context) error {
 		progress = nil
 	}
 	if c.Bool("demo") {
-		if f, ok := firstSet(c, "lines", "cia", "molparam", "tips", "partition", "wavenumber", "wavelength", "gas", "cell-average"); ok {
+		if f, ok := firstSet(c, "lines", "cia", "molparam", "tips", "partition", "wavenumber", "wavelength", "gas", "bins", "bins-from"); ok {
 			return fmt.Errorf("opacity build: --demo builds the fixed demo set; --%s cannot be used with it", f)
 		}
 		files, err := demo.Write(out, force, progress)
@@ -113,14 +130,26 @@ func runOpacityBuild(c *cli.Context) error {
 	if len(lineFiles) == 0 && len(ciaFiles) == 0 {
 		return errors.New("opacity build: nothing to build: give line lists (--lines), CIA files (--cia) or --demo")
 	}
-	nu, err := buildWavenumbers(c.String("wavenumber"), c.String("wavelength"), len(lineFiles) > 0)
+	kBins := c.IsSet("bins") || c.IsSet("bins-from")
+	if kBins {
+		if f, ok := firstSet(c, "wavenumber", "wavelength"); ok {
+			return fmt.Errorf("opacity build: --%s makes a point cross-section table; k-table bins (--bins, --bins-from) are built without it", f)
+		}
+	} else if f, ok := firstSet(c, "quadrature", "wing-widths", "weak-cut", "weak-ref", "resolution", "window-lines"); ok {
+		return fmt.Errorf("opacity build: --%s applies to k-tables: give their bins with --bins or --bins-from", f)
+	}
+	nu, err := buildWavenumbers(c.String("wavenumber"), c.String("wavelength"), len(lineFiles) > 0 && !kBins)
 	if err != nil {
 		return err
 	}
 	if err := os.MkdirAll(out, 0o755); err != nil {
 		return fmt.Errorf("opacity build: %w", err)
 	}
-	if len(lineFiles) > 0 {
+	if len(lineFiles) > 0 && kBins {
+		if err := buildKTable(c, lineFiles, out, force, progress); err != nil {
+			return err
+		}
+	} else if len(lineFiles) > 0 {
 		if err := buildLineTable(c, lineFiles, nu, out, force, progress); err != nil {
 			return err
 		}
@@ -139,17 +168,13 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 	if err != nil {
 		return err
 	}
-	src := &build.Source{
-		Files: files, Gas: c.String("gas"),
-		MolParam: c.String("molparam"), TIPS: c.String("tips"),
-		Abundance: c.Float64("abundance"), Gamma: c.Float64("exomol-gamma"), N: c.Float64("exomol-n"),
+	src, err := lineSource(c, files)
+	if err != nil {
+		return err
 	}
-	for _, spec := range c.StringSlice("partition") {
-		key, path, err := parseQSpec(spec)
-		if err != nil {
-			return err
-		}
-		src.Partition = append(src.Partition, build.PartitionFile{Iso: key, Path: path})
+	mixture, err := buildMixture(c)
+	if err != nil {
+		return err
 	}
 	quiet := progress == nil
 	lines, err := build.ReadLines(src, nu, c.Float64("cutoff"), lbl.Observer{Note: noteWriter(c, quiet)})
@@ -170,23 +195,17 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 		WingCutoff:   c.Float64("cutoff"),
 		MinIntensity: c.Float64("min-intensity"),
 		SelfFraction: c.Float64("self-fraction"),
+		Mixture:      mixture,
 		Broadening: lbl.Broadening{
 			Name: c.String("broadener"), Scale: c.Float64("broadener-scale"), N: c.Float64("broadener-n"),
 		},
 		NoPressureShift: c.Bool("no-shift"),
 		Workers:         c.Int("workers"),
-		Observer:        tableObserver(c, lines.Gas, quiet),
-		Version:         retrieve.Version,
-	}
-	sampling := build.Auto
-	if c.IsSet("cell-average") {
-		sampling = build.PointValues
-		if c.Bool("cell-average") {
-			sampling = build.CellMeans
-		}
+		Observer:        tableObserver(c, "cross-sections", lines.Gas, quiet),
+		Version:         version.Version,
 	}
 	start := time.Now()
-	t, err := lines.Table(settings, sampling)
+	t, err := lines.Table(settings)
 	if err != nil {
 		return err
 	}
@@ -203,10 +222,10 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 // buildGrid parses the pressure and temperature grids of a line table
 // and refuses a table of more than maxBuildValues values on them and nu.
 func buildGrid(c *cli.Context, nu []float64) (logP, temps []float64, err error) {
-	if logP, err = buildPressures(c.String("pressure")); err != nil {
+	if logP, err = buildPressures(cmp.Or(c.String("pressure"), "1e-7:100:13")); err != nil {
 		return nil, nil, err
 	}
-	if temps, err = buildTemperatures(c.String("temperature")); err != nil {
+	if temps, err = buildTemperatures(cmp.Or(c.String("temperature"), "200,300,400,500,600,800,1000,1200,1400,1600,1800,2000")); err != nil {
 		return nil, nil, err
 	}
 	if n := len(logP) * len(temps) * len(nu); n > maxBuildValues {
@@ -219,7 +238,46 @@ func buildGrid(c *cli.Context, nu []float64) (logP, temps []float64, err error) 
 // sourceFlags are the flags that set the fields of build.Source.
 var sourceFlags = map[string]string{
 	"Files": "lines", "Gas": "gas", "MolParam": "molparam", "TIPS": "tips", "Partition": "partition",
-	"Abundance": "abundance", "Gamma": "exomol-gamma", "N": "exomol-n",
+	"Abundance": "abundance", "Gamma": "exomol-gamma", "N": "exomol-n", "Fields": "fields", "Broad": "broad",
+}
+
+// lineSource maps the flags of the line list to a build.Source.
+func lineSource(c *cli.Context, files []string) (*build.Source, error) {
+	src := &build.Source{
+		Files: files, Gas: c.String("gas"),
+		MolParam: c.String("molparam"), TIPS: c.String("tips"), Broad: c.StringSlice("broad"),
+		Abundance: c.Float64("abundance"), Gamma: c.Float64("exomol-gamma"), N: c.Float64("exomol-n"),
+	}
+	for _, spec := range c.StringSlice("partition") {
+		key, path, err := parseQSpec(spec)
+		if err != nil {
+			return nil, err
+		}
+		src.Partition = append(src.Partition, build.PartitionFile{Iso: key, Path: path})
+	}
+	for _, spec := range c.StringSlice("fields") {
+		file, names, ok := strings.Cut(spec, "=")
+		if !ok || file == "" || names == "" {
+			return nil, fmt.Errorf("opacity build: --fields %q: want FILE=NAME,NAME,... (e.g. h2shift.txt=delta_H2,err,ref)", spec)
+		}
+		if src.Fields == nil {
+			src.Fields = map[string][]string{}
+		}
+		src.Fields[file] = strings.Split(names, ",")
+	}
+	return src, nil
+}
+
+// buildMixture parses --mixture.
+func buildMixture(c *cli.Context) (lbl.Mixture, error) {
+	if !c.IsSet("mixture") {
+		return nil, nil
+	}
+	m, err := lbl.ParseMixture(c.String("mixture"))
+	if err != nil {
+		return nil, fmt.Errorf("opacity build: --mixture: %w", err)
+	}
+	return m, nil
 }
 
 // sourceError names the flag of a build.OptionError.
@@ -264,7 +322,7 @@ func buildCIATables(c *cli.Context, files []string, nu []float64, out string, fo
 		if err != nil {
 			return err
 		}
-		t.Meta[opacity.MetaProgramVersion] = retrieve.Version
+		t.Meta[opacity.MetaProgramVersion] = version.Version
 		if err := tablefile.WriteCIA(path, t, force); err != nil {
 			return err
 		}
@@ -284,8 +342,12 @@ func checkTableName(gas string) error {
 	return nil
 }
 
-// parseQSpec reads "MOL/ISO=FILE".
+// parseQSpec reads "MOL/ISO=FILE", or "FILE" (the zero key: the file's
+// header names the isotopologue).
 func parseQSpec(spec string) (lbl.IsoKey, string, error) {
+	if !strings.Contains(spec, "=") {
+		return lbl.IsoKey{}, spec, nil
+	}
 	k, path, ok := strings.Cut(spec, "=")
 	ms, is, ok2 := strings.Cut(k, "/")
 	mol, err1 := strconv.Atoi(ms)

@@ -43,8 +43,8 @@ func TestOpacityBuildDemo(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !set.Demo || len(set.XSec) != 8 || len(set.CIA) != 2 {
-		t.Errorf("demo tables: Demo %v, %d gases, %d CIA pairs", set.Demo, len(set.XSec), len(set.CIA))
+	if !set.Demo || len(set.K) != 8 || len(set.CIA) != 2 {
+		t.Errorf("demo tables: Demo %v, %d gases, %d CIA pairs", set.Demo, len(set.K), len(set.CIA))
 	}
 	if strings.Count(stdout, ".parquet\n") != 10 || !strings.Contains(stderr, opacity.DemoNote) {
 		t.Errorf("stdout %q, stderr %q: want the 10 files and the demo note", stdout, stderr)
@@ -99,9 +99,7 @@ func TestOpacityBuildHITRAN(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// 0.05 cm^-1 is 20 Doppler half-widths at 1e-3 bar: the command
-	// defaults to cell means there.
-	want, err := lbl.BuildXSec(l, iso, &lbl.XSecSettings{Gas: "CO", Log10P: got.Log10P, T: got.T, Wavenumber: got.Wavenumber, CellAverage: true})
+	want, err := lbl.BuildXSec(l, iso, &lbl.XSecSettings{Gas: "CO", Log10P: got.Log10P, T: got.T, Wavenumber: got.Wavenumber})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -32,20 +32,47 @@ func noteWriter(c *cli.Context, quiet bool) func(msg string) {
 	return func(msg string) { fmt.Fprintln(c.App.ErrWriter, msg) }
 }
 
-// tableObserver returns the observer of the cross-section build of gas:
-// warnings go to standard error as "warning: GAS: ...", and, unless quiet,
-// notes go there too, as does a progress bar when it is a terminal and
-// the build is predicted to take longer than barMinDuration.
-func tableObserver(c *cli.Context, gas string, quiet bool) lbl.Observer {
+// tableObserver returns the observer of the build of a table (what, e.g.
+// "k-table") of gas: warnings go to standard error as "warning: GAS:
+// ...", and, unless quiet, notes go there too, as does the progress: a
+// bar with the time left when standard error is a terminal and the build
+// is predicted to take longer than barMinDuration, otherwise a line at
+// every tenth of the work with the time left.
+func tableObserver(c *cli.Context, what, gas string, quiet bool) lbl.Observer {
 	o := lbl.Observer{
 		Warn: func(msg string) { fmt.Fprintf(c.App.ErrWriter, "warning: %s: %s\n", gas, msg) },
 		Note: noteWriter(c, quiet),
 	}
-	if !quiet && stderrTerminal(c) {
-		b := &buildBar{w: os.Stderr, desc: "cross-sections " + gas, start: time.Now()}
+	switch {
+	case quiet:
+	case stderrTerminal(c):
+		b := &buildBar{w: os.Stderr, desc: what + " " + gas, start: time.Now()}
 		o.Progress = b.progress
+	default:
+		p := &progressLines{w: c.App.ErrWriter, desc: what + " " + gas, start: time.Now()}
+		o.Progress = p.progress
 	}
 	return o
+}
+
+// progressLines writes a line at every tenth of the work with the time
+// left, extrapolated from the time so far.
+type progressLines struct {
+	w     io.Writer
+	desc  string
+	start time.Time
+	tenth int
+}
+
+func (p *progressLines) progress(done, total int) {
+	t := done * 10 / max(total, 1)
+	if t <= p.tenth || done >= total {
+		return
+	}
+	p.tenth = t
+	el := time.Since(p.start)
+	left := time.Duration(float64(el) * float64(total-done) / float64(done))
+	fmt.Fprintf(p.w, "%s: %d %% (%s elapsed, about %s left)\n", p.desc, 100*done/total, el.Round(time.Second), left.Round(time.Second))
 }
 
 // buildBar draws a progress bar on w once the work it

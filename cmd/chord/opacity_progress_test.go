@@ -36,12 +36,21 @@ func TestBuildBar(t *testing.T) {
 
 	var e bytes.Buffer
 	c := cli.NewContext(&cli.App{ErrWriter: &e}, nil, nil)
-	o := tableObserver(c, "CO", false)
-	if o.Progress != nil {
-		t.Error("a bar is set up for a standard error that is not a terminal")
-	}
+	o := tableObserver(c, "k-table", "CO", false)
 	o.Warn("grid is coarse")
 	if e.String() != "warning: CO: grid is coarse\n" {
 		t.Errorf("warning printed as %q", e.String())
+	}
+	// A standard error that is not a terminal gets a line at every tenth
+	// of the work with the time left, not a bar.
+	e.Reset()
+	for i := 1; i <= 20; i++ {
+		o.Progress(i, 20)
+	}
+	if n := strings.Count(e.String(), "left)\n"); n != 9 || !strings.HasPrefix(e.String(), "k-table CO: 10 % (") {
+		t.Errorf("progress lines %q, want 9 (10 %% to 90 %%)", e.String())
+	}
+	if q := tableObserver(c, "k-table", "CO", true); q.Progress != nil || q.Note != nil {
+		t.Error("quiet observer reports progress or notes")
 	}
 }

@@ -117,14 +117,15 @@ func TestSpectrumCommandErrors(t *testing.T) {
 }
 
 // TestSpectrumExample runs the example configuration of testdata with the
-// demo tables, built into a temporary cache (a few seconds).
+// demo tables from the default cache (built once per machine, shared with
+// the other tests).
 func TestSpectrumExample(t *testing.T) {
 	if testing.Short() {
 		t.Skip("builds the demo opacity tables")
 	}
 	dir := t.TempDir()
 	out := filepath.Join(dir, "example.csv")
-	_, stderr, err := runSpectrumCmd(t, "-c", filepath.Join("..", "..", "testdata", "spectrum-example.toml"), "-o", out, "--demo-cache", filepath.Join(dir, "cache"))
+	_, stderr, err := runSpectrumCmd(t, "-c", filepath.Join("..", "..", "testdata", "spectrum-example.toml"), "-o", out)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -306,12 +306,23 @@ func (t *KTable) Rebin(lo, hi []float64, tol float64) (*KTable, error) {
 			}
 		}
 	}
-	if out.Meta == nil {
-		out.Meta = map[string]string{}
+	merged := 0
+	for b := range nb {
+		if last[b] > first[b] {
+			merged++
+		}
 	}
-	out.Meta["rebinned"] = fmt.Sprintf("merged from %d table bins into %d bins (Leconte 2021, A&A 645, A20)", t.Bins(), nb)
+	if merged > 0 {
+		if out.Meta == nil {
+			out.Meta = map[string]string{}
+		}
+		out.Meta[MetaRebinned] = fmt.Sprintf("%d of %d bins merged from finer table bins (Leconte 2021, A&A 645, A20)", merged, nb)
+	}
 	return out, nil
 }
+
+// MetaRebinned is the Meta key Rebin sets when it merged table bins.
+const MetaRebinned = "rebinned"
 
 // nearestEdge returns the index of the value of the ascending edges nearest
 // x, and its distance from x.

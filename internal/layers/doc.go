@@ -1,3 +1,3 @@
 // Package layers holds the test that keeps chord's import arrows as the
-// README's design section draws them.
+// design notes (docs/design.md) draw them.
 package layers

@@ -12,7 +12,7 @@ import (
 )
 
 // allowed lists, for every package of chord, the packages of chord it may
-// import (its non-test files): the arrows of the README's design section,
+// import (its non-test files): the arrows of docs/design.md,
 //
 //	cmd -> campaign -> {retrieve, simulate} -> report -> {config, chains} -> obs
 //	    -> {forward, priors, sampler},  forward -> forward/opacity,

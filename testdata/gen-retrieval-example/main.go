@@ -51,12 +51,18 @@ func main() {
 
 func run() error {
 	dir := "testdata"
-	// Bins: 10 optical bins of 0.04 um from 0.6 um; infrared bins of
-	// constant resolving power 40 from 1.0 to 11 um.
+	// Bins: 10 optical bins of resolving power 20 from 0.6 um; infrared
+	// bins of constant resolving power 40 from 1.0 to 11 um (both with
+	// edges on the grid exp(k/R) um, so that they are unions of the demo
+	// k-tables' R = 200 bins).
+	ob, err := forward.ResolvingPowerBins(0.6e-6, 1.0e-6, 20)
+	if err != nil {
+		return err
+	}
 	var optLo, optHi []float64
-	for i := range 10 {
-		optLo = append(optLo, 0.6+0.04*float64(i))
-		optHi = append(optHi, 0.64+0.04*float64(i))
+	for i := range ob.Lo {
+		optLo = append(optLo, ob.Lo[i]*1e6)
+		optHi = append(optHi, ob.Hi[i]*1e6)
 	}
 	ir, err := forward.ResolvingPowerBins(1.0e-6, 11e-6, 40)
 	if err != nil {
@@ -74,7 +80,7 @@ func run() error {
 		b.WriteString("wavelength_um, width_um, radius_ratio, error\n")
 		for i := range optLo {
 			k := math.Sqrt(opt[i])
-			fmt.Fprintf(&b, "%.3f, %.3f, %.6f, %.6f\n", (optLo[i]+optHi[i])/2, optHi[i]-optLo[i], k, opticalPPM*1e-6/(2*k))
+			fmt.Fprintf(&b, "%.9f, %.9f, %.6f, %.6f\n", (optLo[i]+optHi[i])/2, optHi[i]-optLo[i], k, opticalPPM*1e-6/(2*k))
 		}
 		if err := os.WriteFile(filepath.Join(dir, "retrieval-example-optical.csv"), []byte(b.String()), 0o644); err != nil {
 			return err

@@ -86,7 +86,8 @@ func TestReadLinesErrors(t *testing.T) {
 		{build.Source{Files: []string{def, co}}, "Files", "not both"},
 		{build.Source{Files: []string{def, def}}, "Files", "not both or several"},
 		{build.Source{Files: []string{def}, MolParam: mp}, "MolParam", "ExoMol lists bring their own states"},
-		{build.Source{Files: []string{def}, Partition: []build.PartitionFile{{Iso: lbl.IsoKey{Mol: 5, Iso: 1}, Path: "q.txt"}}}, "Partition", "applies to HITRAN"},
+		{build.Source{Files: []string{def}, Partition: []build.PartitionFile{{Path: "a.pf"}, {Path: "b.pf"}}}, "Partition", "at most one partition file"},
+		{build.Source{Files: []string{co}, MolParam: mp, Broad: []string{"x__H2.broad"}}, "Broad", "ExoMol line lists only"},
 		{build.Source{Files: []string{co}}, "MolParam", "molparam table"},
 		{build.Source{Files: []string{co}, MolParam: mp, Gamma: 0.05}, "Gamma", "ExoMol line lists only"},
 		{build.Source{Files: []string{co}, MolParam: mp, Partition: []build.PartitionFile{{Iso: lbl.IsoKey{Mol: 5, Iso: 99}, Path: "q.txt"}}}, "Partition", "not in the molparam table"},
@@ -112,13 +113,9 @@ func TestReadLinesErrors(t *testing.T) {
 	}
 }
 
-// TestTableSampling: Auto stores cell means on a grid far coarser than the
-// line (2 cm^-1 against a Voigt half-width of 0.00236 cm^-1, ratio 847,
-// hand-worked in lbl's TestGridCoarseness) and point values on one that
-// resolves it (0.0005 cm^-1, ratio 0.21); either way the table is the one
-// lbl.BuildXSec makes with that choice, bit for bit, with the files
-// recorded and the choice noted.
-func TestTableSampling(t *testing.T) {
+// TestTable: the point-value table of a list is the one lbl.BuildXSec
+// makes, bit for bit, with the files recorded and the build noted.
+func TestTable(t *testing.T) {
 	src := filepath.Join(t.TempDir(), "line.par")
 	if err := os.WriteFile(src, []byte("one line\n"), 0o644); err != nil {
 		t.Fatal(err)
@@ -129,42 +126,27 @@ func TestTableSampling(t *testing.T) {
 		Iso:   lbl.IsoData{{Mol: 5, Iso: 1}: {Name: "CO_26", Q296: 107.42, Mass: 27.994915, Q: &lbl.RigidRotor{Q296: 107.42, Exponent: 1}}},
 		Files: []string{src},
 	}
-	for _, c := range []struct {
-		step     float64
-		sampling build.Sampling
-		cells    bool
-	}{
-		{2, build.Auto, true}, {0.0005, build.Auto, false}, {2, build.PointValues, false}, {0.0005, build.CellMeans, true},
-	} {
-		var notes []string
-		s := lbl.XSecSettings{Log10P: []float64{math.Log10(1e-3 * lbl.StandardAtmosphere)}, T: []float64{lbl.TRef, 500},
-			Wavenumber: grid(1999, 2001, c.step), Observer: lbl.Observer{Note: func(m string) { notes = append(notes, m) }}}
-		got, err := l.Table(s, c.sampling)
-		if err != nil {
-			t.Fatal(err)
-		}
-		s.Gas, s.CellAverage, s.Observer = "CO", c.cells, lbl.Observer{}
-		want, err := lbl.BuildXSec(l.Lines, l.Iso, &s)
-		if err != nil {
-			t.Fatal(err)
-		}
-		for k := range want.Sigma {
-			if math.Float32bits(got.Sigma[k]) != math.Float32bits(want.Sigma[k]) {
-				t.Fatalf("step %g, sampling %d: value %d is %g, BuildXSec with CellAverage %v gives %g", c.step, c.sampling, k, got.Sigma[k], c.cells, want.Sigma[k])
-			}
-		}
-		values := "point values"
-		if c.cells {
-			values = "cell means"
-		}
-		if last := notes[len(notes)-1]; !strings.HasSuffix(last, values) || (c.sampling == build.Auto && c.cells) != (len(notes) == 2) {
-			t.Errorf("step %g, sampling %d: notes %q", c.step, c.sampling, notes)
-		}
-		if srcs, err := opacity.ParseSources(got.Meta[opacity.MetaSources]); err != nil || len(srcs) != 1 || srcs[0].File != "line.par" {
-			t.Errorf("sources %v (%v)", srcs, err)
+	var notes []string
+	s := lbl.XSecSettings{Log10P: []float64{math.Log10(1e-3 * lbl.StandardAtmosphere)}, T: []float64{lbl.TRef, 500},
+		Wavenumber: grid(1999, 2001, 0.0005), Observer: lbl.Observer{Note: func(m string) { notes = append(notes, m) }}}
+	got, err := l.Table(s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s.Gas, s.Observer = "CO", lbl.Observer{}
+	want, err := lbl.BuildXSec(l.Lines, l.Iso, &s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k := range want.Sigma {
+		if math.Float32bits(got.Sigma[k]) != math.Float32bits(want.Sigma[k]) {
+			t.Fatalf("value %d is %g, BuildXSec gives %g", k, got.Sigma[k], want.Sigma[k])
 		}
 	}
-	if _, err := l.Table(lbl.XSecSettings{}, build.Sampling(7)); err == nil {
-		t.Error("unknown sampling accepted")
+	if len(notes) != 1 || !strings.HasSuffix(notes[0], "point values") {
+		t.Errorf("notes %q", notes)
+	}
+	if srcs, err := opacity.ParseSources(got.Meta[opacity.MetaSources]); err != nil || len(srcs) != 1 || srcs[0].File != "line.par" {
+		t.Errorf("sources %v (%v)", srcs, err)
 	}
 }

@@ -27,30 +27,48 @@ import (
 // Version identifies the demo generator: its line lists, grid, build
 // settings and CIA shapes. Change it whenever any of them changes, so
 // cached demo tables are rebuilt. Callers put it in the cache directory
-// name. Version 2: cell means (CellAverage) instead of point values.
-const Version = "2"
+// name. Version 3: k-tables (correlated-k) instead of cross-sections.
+const Version = "3"
 
 // MetaVersion is the metadata key that carries Version in every
 // demo table.
 const MetaVersion = "demo_version"
 
-// The demo grid: 13 pressures log-spaced from 1e-7 to 100 bar (1e-2 to 1e7
-// Pa), 12 temperatures from 200 to 2000 K, and wavenumbers from 500 to
-// 20000 cm^-1 (20 to 0.5 um) log-spaced at resolving power
-// nu/dnu = ResolvingPower. At this resolution the eight gases build in
-// a few seconds on two cores (see the README part "demo-opacity").
+// The demo grid: k-tables on bins of resolving power ResolvingPower with
+// edges exp(k/R) um from 0.5 to 20 um (so the bins of any R that divides
+// it are unions of table bins), 19 pressures log-spaced from 1e-7 to 100
+// bar (1e-2 to 1e7 Pa, 2 per decade), 9 temperatures from 200 to 2000 K,
+// and the default g quadrature. The fine grid the k-distributions are
+// sorted from has resolving power FineResolvingPower: coarser than the
+// Doppler rule of real tables (a few 1e6), so the demo lines are sampled,
+// not resolved, which is fine for invented lines and lets the eight gases
+// build in about a minute on two cores (docs/opacity-build.md, "demo").
 const (
-	ResolvingPower  = 2000
-	demoNuMinCm     = 500.0   // cm^-1 (20 um)
-	demoNuMaxCm     = 20000.0 // cm^-1 (0.5 um)
-	demoCIAResPower = 500     // CIA bands are smooth: a coarser grid suffices
+	ResolvingPower     = 200
+	FineResolvingPower = 1e5
+	demoLambdaMin      = 0.5e-6  // m
+	demoLambdaMax      = 20e-6   // m
+	demoNuMinCm        = 500.0   // cm^-1 (20 um), CIA grid
+	demoNuMaxCm        = 20000.0 // cm^-1 (0.5 um)
+	demoCIAResPower    = 500     // CIA bands are smooth: a coarser grid suffices
 )
 
 var (
-	demoLog10P = demoLinspace(-2, 7, 13) // log10(P / Pa)
-	demoT      = []float64{200, 300, 400, 500, 600, 800, 1000, 1200, 1400, 1600, 1800, 2000}
+	demoLog10P = demoLinspace(-2, 7, 19) // log10(P / Pa)
+	demoT      = []float64{200, 300, 400, 500, 700, 1000, 1300, 1600, 2000}
 	demoCIAT   = []float64{200, 300, 400, 600, 800, 1000, 1500, 2000, 2500, 3000}
 )
+
+// demoBins returns the bins of the demo k-tables.
+func demoBins() (lo, hi []float64) {
+	k0 := int(math.Ceil(ResolvingPower * math.Log(demoLambdaMin*1e6)))
+	k1 := int(math.Floor(ResolvingPower * math.Log(demoLambdaMax*1e6)))
+	for k := k0; k < k1; k++ {
+		lo = append(lo, math.Exp(float64(k)/ResolvingPower)*1e-6)
+		hi = append(hi, math.Exp(float64(k+1)/ResolvingPower)*1e-6)
+	}
+	return lo, hi
+}
 
 // Gases returns the names of the demo gases.
 func Gases() []string {
@@ -103,25 +121,22 @@ func demoMeta() map[string]string {
 	}
 }
 
-// Build builds the demo tables in memory: one cross-section table per
-// demo gas from its synthetic line list through lbl.BuildXSec (cell means
-// on the demo grid, CellAverage, so that lines far narrower than the grid
-// spacing at low pressure keep their intensity; 25 cm^-1 wing cut-off, air
-// broadening), and the demo CIA tables of H2-H2 and H2-He. Progress
-// lines go to progress (nil: none). Every table's Meta says "demo, not for
-// science".
+// Build builds the demo tables in memory: one k-table per demo gas from
+// its synthetic line list through lbl.BuildK (the demo grid above, 25
+// cm^-1 wing cut-off, air broadening), and the demo CIA tables of H2-H2
+// and H2-He. Progress lines go to progress (nil: none). Every table's Meta
+// says "demo, not for science".
 func Build(progress io.Writer) (*opacity.Set, error) {
-	nu := demoWavenumbers(ResolvingPower)
-	set := &opacity.Set{XSec: map[string]*opacity.XSecTable{}, Demo: true}
+	lo, hi := demoBins()
+	set := &opacity.Set{K: map[string]*opacity.KTable{}, Demo: true}
 	for _, gas := range Gases() {
 		start := time.Now()
 		lines, iso, err := Lines(gas)
 		if err != nil {
 			return nil, err
 		}
-		// Each gas takes about a second: a line per gas is progress enough.
-		t, err := lbl.BuildXSec(lines, iso, &lbl.XSecSettings{
-			Gas: gas, Log10P: demoLog10P, T: demoT, Wavenumber: nu, CellAverage: true,
+		t, err := lbl.BuildK(lines, iso, &lbl.KSettings{
+			Gas: gas, Log10P: demoLog10P, T: demoT, Lo: lo, Hi: hi, Resolution: FineResolvingPower,
 		})
 		if err != nil {
 			return nil, fmt.Errorf("opacity: demo %s: %w", gas, err)
@@ -129,7 +144,7 @@ func Build(progress io.Writer) (*opacity.Set, error) {
 		for k, v := range demoMeta() {
 			t.Meta[k] = v
 		}
-		set.XSec[gas] = t
+		set.K[gas] = t
 		if progress != nil {
 			fmt.Fprintf(progress, "demo opacity %-4s %5d lines, %s\n", gas, len(lines), time.Since(start).Round(time.Millisecond))
 		}
@@ -254,8 +269,8 @@ func checkReplaceable(dir string) error {
 // writeSet writes the tables of s as table files <gas>.parquet and
 // <A>-<B>.parquet in dir.
 func writeSet(dir string, s *opacity.Set, overwrite bool) error {
-	for _, gas := range slices.Sorted(maps.Keys(s.XSec)) {
-		if err := tablefile.WriteXSec(filepath.Join(dir, gas+".parquet"), s.XSec[gas], overwrite); err != nil {
+	for _, gas := range slices.Sorted(maps.Keys(s.K)) {
+		if err := tablefile.WriteK(filepath.Join(dir, gas+".parquet"), s.K[gas], overwrite); err != nil {
 			return err
 		}
 	}
@@ -315,7 +330,7 @@ func loadDemoCache(dir string) (*opacity.Set, error) {
 		return nil, err
 	}
 	for _, g := range demoGases {
-		t := s.XSec[g.Name]
+		t := s.K[g.Name]
 		if t == nil {
 			return nil, fmt.Errorf("opacity: demo cache %s: no table for %s", dir, g.Name)
 		}
@@ -323,9 +338,9 @@ func loadDemoCache(dir string) (*opacity.Set, error) {
 			return nil, fmt.Errorf("opacity: demo cache %s: %s table is from demo generator %q, want %q", dir, g.Name, v, Version)
 		}
 	}
-	if len(s.XSec) != len(demoGases) || len(s.CIA) != len(demoCIA) {
-		return nil, fmt.Errorf("opacity: demo cache %s: %d gases and %d CIA pairs, want %d and %d",
-			dir, len(s.XSec), len(s.CIA), len(demoGases), len(demoCIA))
+	if len(s.K) != len(demoGases) || len(s.XSec) != 0 || len(s.CIA) != len(demoCIA) {
+		return nil, fmt.Errorf("opacity: demo cache %s: %d gases (k-tables) and %d CIA pairs, want %d and %d",
+			dir, len(s.K), len(s.CIA), len(demoGases), len(demoCIA))
 	}
 	for _, c := range s.CIA {
 		if c.Meta[MetaVersion] != Version || !opacity.IsDemo(c.Meta) {

@@ -21,7 +21,6 @@ package exomol
 
 import (
 	"bufio"
-	"compress/bzip2"
 	"errors"
 	"fmt"
 	"io"
@@ -32,6 +31,7 @@ import (
 	"strconv"
 	"strings"
 
+	"chord/forward/opacity/internal/compressed"
 	"chord/forward/opacity/lbl"
 )
 
@@ -214,11 +214,11 @@ type States struct {
 // ReadStates reads an ExoMol .states file, bzip2-compressed when the
 // name ends in .bz2.
 func ReadStates(path string) (*States, error) {
-	r, closeFn, err := exomolOpen(path)
+	r, err := compressed.Open(path, 1)
 	if err != nil {
-		return nil, err
+		return nil, fmt.Errorf("exomol: %w", err)
 	}
-	defer closeFn()
+	defer r.Close()
 	return ParseStates(r, path)
 }
 
@@ -336,6 +336,9 @@ type Options struct {
 	SMin float64
 	// NuMin and NuMax keep only lines in [NuMin, NuMax] cm^-1 (0 = no bound).
 	NuMin, NuMax float64
+	// Broad are the .broad files whose J-dependent widths the lines carry
+	// as their own broadening by each file's broadener.
+	Broad []*Broad
 }
 
 // Converter turns transitions into Lines at the reference temperature
@@ -398,12 +401,16 @@ func (c *Converter) Line(up, lo int, a, nu float64) lbl.Line {
 	el := st.E[lo]
 	s := c.abund * gu * a / (8 * math.Pi * (100 * lbl.SpeedOfLight) * nu * nu) *
 		math.Exp(-lbl.C2*el/lbl.TRef) * -math.Expm1(-lbl.C2*nu/lbl.TRef) / c.Q296
-	return lbl.Line{
+	l := lbl.Line{
 		Mol: c.opt.Mol, Iso: c.opt.Iso,
 		Nu: nu, S: s, A: a,
 		GammaAir: c.gamma, GammaSelf: c.gamma, NAir: c.n,
 		Elower: el, GUpper: gu, GLower: st.G[lo],
 	}
+	for _, b := range c.opt.Broad {
+		b.set(&l, st.J[lo], st.J[up])
+	}
+	return l
 }
 
 // ScanTrans streams the transitions of one .trans file from r and
@@ -508,7 +515,7 @@ func Read(defPath string, opt Options) (*List, error) {
 		return nil, err
 	}
 	base := strings.TrimSuffix(defPath, ".def")
-	statesPath, err := exomolFindOne(base+".states", base+".states.bz2")
+	statesPath, err := exomolFindOne(base+".states", base+".states.bz2", base+".states.gz")
 	if err != nil {
 		return nil, fmt.Errorf("exomol: %s: states file: %w", defPath, err)
 	}
@@ -520,7 +527,7 @@ func Read(defPath string, opt Options) (*List, error) {
 	if def.NumStates > 0 && int64(len(states.ID)) != def.NumStates {
 		return nil, fmt.Errorf("exomol: %s has %d states, %s says %d", statesPath, len(states.ID), defPath, def.NumStates)
 	}
-	transPaths, err := exomolTransFiles(base)
+	transPaths, err := TransFiles(defPath)
 	if err != nil {
 		return nil, fmt.Errorf("exomol: %s: %w", defPath, err)
 	}
@@ -530,15 +537,15 @@ func Read(defPath string, opt Options) (*List, error) {
 	}
 	list := &List{Def: def, States: states, Q296: conv.Q296, Files: []string{defPath, statesPath}, abundance: conv.abund}
 	for _, p := range transPaths {
-		r, closeFn, err := exomolOpen(p)
+		r, err := compressed.Open(p, 1)
 		if err != nil {
-			return nil, err
+			return nil, fmt.Errorf("exomol: %w", err)
 		}
 		err = conv.ScanTrans(r, p, func(l lbl.Line) error {
 			list.Lines = append(list.Lines, l)
 			return nil
 		})
-		closeFn()
+		r.Close()
 		if err != nil {
 			return nil, err
 		}
@@ -561,13 +568,17 @@ func (l *List) Isotopologue() *lbl.Isotopologue {
 	}
 }
 
-// exomolTransFiles finds the transition files of an ExoMol base path.
-func exomolTransFiles(base string) ([]string, error) {
-	if p, err := exomolFindOne(base+".trans", base+".trans.bz2"); err == nil {
+// TransFiles finds the transition files of an ExoMol list given its
+// .def file: <base>.trans, or the chunks <base>__*.trans, each plain or
+// compressed (.bz2, .gz), in name order (ExoMol names chunks by their
+// wavenumber range, so name order is wavenumber order).
+func TransFiles(def string) ([]string, error) {
+	base := strings.TrimSuffix(def, ".def")
+	if p, err := exomolFindOne(base+".trans", base+".trans.bz2", base+".trans.gz"); err == nil {
 		return []string{p}, nil
 	}
 	var out []string
-	for _, pat := range []string{base + "__*.trans", base + "__*.trans.bz2"} {
+	for _, pat := range []string{base + "__*.trans", base + "__*.trans.bz2", base + "__*.trans.gz"} {
 		m, err := filepath.Glob(pat)
 		if err != nil {
 			return nil, err
@@ -575,7 +586,7 @@ func exomolTransFiles(base string) ([]string, error) {
 		out = append(out, m...)
 	}
 	if len(out) == 0 {
-		return nil, fmt.Errorf("no transitions file %s.trans[.bz2] or %s__*.trans[.bz2]", base, base)
+		return nil, fmt.Errorf("no transitions file %s.trans[.bz2|.gz] or %s__*.trans[.bz2|.gz]", base, base)
 	}
 	sort.Strings(out)
 	return out, nil
@@ -589,19 +600,6 @@ func exomolFindOne(paths ...string) (string, error) {
 		}
 	}
 	return "", fmt.Errorf("none of %s found", strings.Join(paths, ", "))
-}
-
-// exomolOpen opens path, decompressing bzip2 when the name ends in .bz2.
-func exomolOpen(path string) (io.Reader, func(), error) {
-	f, err := os.Open(path)
-	if err != nil {
-		return nil, nil, fmt.Errorf("exomol: %w", err)
-	}
-	var r io.Reader = f
-	if strings.HasSuffix(path, ".bz2") {
-		r = bzip2.NewReader(bufio.NewReaderSize(f, 256*1024))
-	}
-	return r, func() { f.Close() }, nil
 }
 
 // exomolFields appends the whitespace-separated fields of s to dst; the

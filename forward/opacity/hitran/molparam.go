@@ -6,6 +6,8 @@ import (
 	"fmt"
 	"math"
 	"os"
+	"path/filepath"
+	"regexp"
 	"strconv"
 	"strings"
 
@@ -135,6 +137,7 @@ func ReadTIPSTable(path string, d lbl.IsoData) (int, error) {
 			return 0, fmt.Errorf("opacity: %s: column %s: %w", path, name, err)
 		}
 		iso.Q = q
+		iso.QSource = lbl.EditionTIPS2011 + " (" + filepath.Base(path) + ")"
 		n++
 	}
 	return n, nil
@@ -152,6 +155,35 @@ func allZero(x []float64) bool {
 // ReadQFile reads a two-column partition-sum file "T Q" (HITRAN's qN.txt
 // files of TIPS-2017 and later, Gamache et al. 2017, JQSRT 203, 70).
 func ReadQFile(path string) (*lbl.QTable, error) {
+	p, err := ReadPartition(path)
+	if err != nil {
+		return nil, err
+	}
+	return p.Q, nil
+}
+
+// Partition is a partition-sum table read from a two-column file, with
+// its edition and, when the file states it, its isotopologue.
+type Partition struct {
+	Q *lbl.QTable
+	// Source is the edition and file name, as lbl.Isotopologue.QSource
+	// takes it: "TIPS-2021 (q26_CO_26_tips2021_hapi.txt)".
+	Source string
+	// Iso is the HITRAN isotopologue the header names ("HITRAN M=5 I=1"),
+	// or the zero key.
+	Iso lbl.IsoKey
+}
+
+var headerIso = regexp.MustCompile(`M=(\d+)\s+I=(\d+)`)
+
+// ReadPartition reads a two-column partition-sum file "T Q" and tells its
+// edition: a "#" header line naming TIPS-2025, TIPS-2021, TIPS-2017 or
+// TIPS-2011 gives it (as the TIPS tables of Gamache et al. 2021, JQSRT
+// 271, 107713 and 2025, JQSRT 345, 109568, written out in shared data, do,
+// with "HITRAN M=5 I=1" naming the isotopologue); a name ending in .pf is
+// an ExoMol partition file (Tennyson et al. 2016); a bare two-column file
+// is taken as HITRAN's qN.txt (TIPS-2017 or later).
+func ReadPartition(path string) (*Partition, error) {
 	fh, err := os.Open(path)
 	if err != nil {
 		return nil, fmt.Errorf("opacity: %w", err)
@@ -160,10 +192,25 @@ func ReadQFile(path string) (*lbl.QTable, error) {
 	sc := bufio.NewScanner(fh)
 	var t, q []float64
 	lineNo := 0
+	edition := ""
+	out := &Partition{}
 	for sc.Scan() {
 		lineNo++
 		f := strings.Fields(string(sc.Bytes()))
-		if len(f) == 0 || strings.HasPrefix(f[0], "#") {
+		if len(f) == 0 {
+			continue
+		}
+		if strings.HasPrefix(f[0], "#") {
+			h := sc.Text()
+			for _, e := range []string{lbl.EditionTIPS2025, lbl.EditionTIPS2021, lbl.EditionTIPS2017, lbl.EditionTIPS2011} {
+				if edition == "" && strings.Contains(h, e) {
+					edition = e
+				}
+			}
+			if m := headerIso.FindStringSubmatch(h); m != nil && out.Iso == (lbl.IsoKey{}) {
+				out.Iso.Mol, _ = strconv.Atoi(m[1])
+				out.Iso.Iso, _ = strconv.Atoi(m[2])
+			}
 			continue
 		}
 		if len(f) != 2 {
@@ -183,5 +230,13 @@ func ReadQFile(path string) (*lbl.QTable, error) {
 	if err != nil {
 		return nil, fmt.Errorf("opacity: %s: %w", path, err)
 	}
-	return tab, nil
+	switch {
+	case edition != "":
+	case strings.HasSuffix(path, ".pf"):
+		edition = lbl.EditionExoMolPF
+	default:
+		edition = lbl.EditionTIPS2017 + " or later, HITRAN qN.txt"
+	}
+	out.Q, out.Source = tab, edition+" ("+filepath.Base(path)+")"
+	return out, nil
 }

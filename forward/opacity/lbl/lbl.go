@@ -92,7 +92,10 @@ type XSecSettings struct {
 	// SelfFraction is the volume mixing ratio of the absorber itself used
 	// for self-broadening, in [0, 1]; 0 (the default) is the dilute limit.
 	SelfFraction float64
-	Broadening   Broadening
+	// Mixture and Broadening give the background's Lorentz widths and
+	// shifts as for LineSettings.
+	Mixture    Mixture
+	Broadening Broadening
 	// NoPressureShift turns the air pressure shift delta_air p off (by
 	// default line centres are shifted).
 	NoPressureShift bool
@@ -180,6 +183,7 @@ type lineBuild struct {
 	invW    []float64   // CellAverage: 1/widths
 	cut     float64
 	bgScale float64
+	width   widthRule
 	qRatio  [][]float64
 	isos    []*isoState
 	table   *opacity.XSecTable
@@ -189,6 +193,8 @@ type lineBuild struct {
 
 type isoState struct {
 	key  IsoKey
+	name string
+	src  string // partition-sum source
 	mass float64
 	q    PartitionFunc
 	idx  int
@@ -205,12 +211,24 @@ func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
 	if b.bgScale == 0 {
 		b.bgScale = 1
 	}
+	var err error
+	if b.width, err = newWidthRule(s.Mixture, s.Broadening, s.SelfFraction, s.NoPressureShift); err != nil {
+		return nil, fmt.Errorf("opacity: BuildXSec %s: %w", s.Gas, err)
+	}
 	warnings, err := b.setLines(lines, iso)
 	if err != nil {
 		return nil, err
 	}
 	if err := b.setPartitionRatios(); err != nil {
 		return nil, err
+	}
+	for _, st := range b.isos {
+		if w := partitionWarning(st.name, st.key, st.src, s.T[len(s.T)-1]); w != "" {
+			warnings = append(warnings, w)
+		}
+	}
+	if w := fallbackNote(b.width.fallbacks(b.lines), len(b.lines)); w != "" {
+		warnings = append(warnings, w)
 	}
 	b.setGrid()
 	if !s.CellAverage {
@@ -333,7 +351,7 @@ func (b *lineBuild) newIsoState(k IsoKey, d *Isotopologue) (st *isoState, warnin
 	if !(d.Mass > 0) {
 		return nil, "", fmt.Errorf("opacity: BuildXSec %s: %v has mass %g, must be positive", s.Gas, k, d.Mass)
 	}
-	st = &isoState{key: k, mass: d.Mass, q: d.Q, idx: len(b.isos)}
+	st = &isoState{key: k, name: d.Name, mass: d.Mass, q: d.Q, idx: len(b.isos)}
 	if st.q == nil {
 		if !(d.Q296 > 0) {
 			return nil, "", fmt.Errorf("opacity: BuildXSec %s: %v has neither a partition table nor Q(296 K)", s.Gas, k)
@@ -342,6 +360,7 @@ func (b *lineBuild) newIsoState(k IsoKey, d *Isotopologue) (st *isoState, warnin
 		warning = fmt.Sprintf("no partition-function table for %s (%v): rigid-rotor approximation Q = Q(296 K) (T/296)^%g used, intensities away from 296 K are approximate",
 			d.Name, k, RotorExponent(k.Mol))
 	}
+	st.src = PartitionSource(d, st.q)
 	lo, hi := st.q.Range()
 	if s.T[0] < lo || s.T[len(s.T)-1] > hi || TRef < lo || TRef > hi {
 		return nil, "", fmt.Errorf("opacity: BuildXSec %s: partition function of %v covers %g-%g K, grid needs %g-%g K and 296 K",
@@ -492,6 +511,8 @@ type buildSettings struct {
 	BroadenerN      string            `json:"broadener_temperature_exponent"`
 	PressureShift   bool              `json:"pressure_shift"`
 	PartitionSource map[string]string `json:"partition_functions"`
+	Mixture         string            `json:"broadening_mixture"`
+	Fallback        map[string]int    `json:"broadening_fallback_lines,omitempty"`
 }
 
 // The build_settings "sampling" values.
@@ -519,6 +540,8 @@ func (b *lineBuild) meta(warnings []string) map[string]string {
 		BroadenerN:      "line n_air",
 		PressureShift:   !s.NoPressureShift,
 		PartitionSource: map[string]string{},
+		Mixture:         s.Mixture.String(),
+		Fallback:        b.width.fallbacks(b.lines),
 	}
 	if s.CellAverage {
 		bs.Sampling = samplingCell
@@ -527,11 +550,7 @@ func (b *lineBuild) meta(warnings []string) map[string]string {
 		bs.BroadenerN = strconv.FormatFloat(s.Broadening.N, 'g', -1, 64)
 	}
 	for _, st := range b.isos {
-		kind := "table"
-		if _, ok := st.q.(*RigidRotor); ok {
-			kind = "rigid rotor (approximate)"
-		}
-		bs.PartitionSource[fmt.Sprintf("%d/%d", st.key.Mol, st.key.Iso)] = kind
+		bs.PartitionSource[fmt.Sprintf("%d/%d", st.key.Mol, st.key.Iso)] = st.src
 	}
 	js, err := json.Marshal(bs)
 	if err != nil {
@@ -599,21 +618,14 @@ type lineState struct {
 
 // ptState holds what every line needs at one (P, T) grid point.
 type ptState struct {
-	it                       int
-	T, pAtm, pSelf, pBg, lnT float64
-	shiftOn                  float64
+	it           int
+	T, pAtm, lnT float64
 }
 
 func (b *lineBuild) pt(t task) ptState {
 	s := b.s
 	T := s.T[t.it]
-	pAtm := math.Pow(10, s.Log10P[t.ip]) / StandardAtmosphere
-	pSelf := s.SelfFraction * pAtm
-	ps := ptState{it: t.it, T: T, pAtm: pAtm, pSelf: pSelf, pBg: pAtm - pSelf, lnT: math.Log(TRef / T), shiftOn: 1}
-	if s.NoPressureShift {
-		ps.shiftOn = 0
-	}
-	return ps
+	return ptState{it: t.it, T: T, pAtm: math.Pow(10, s.Log10P[t.ip]) / StandardAtmosphere, lnT: math.Log(TRef / T)}
 }
 
 // line returns line i's intensity, widths and centre at ps; ok is false
@@ -626,16 +638,11 @@ func (b *lineBuild) line(i int, ps *ptState) (ls lineState, ok bool) {
 	if S < s.MinIntensity || S == 0 {
 		return ls, false
 	}
-	n := l.NAir
-	if s.Broadening.N > 0 {
-		n = s.Broadening.N
-	}
-	gammaBg := b.bgScale * l.GammaAir * math.Exp(n*ps.lnT)
-	gammaSelf := l.GammaSelf * math.Exp(l.NAir*ps.lnT)
+	gammaL, shift := b.width.at(l, ps.pAtm, ps.lnT)
 	return lineState{
 		S:      S,
-		gammaL: gammaBg*ps.pBg + gammaSelf*ps.pSelf,
-		nu0:    l.Nu + ps.shiftOn*l.DeltaAir*ps.pAtm,
+		gammaL: gammaL,
+		nu0:    l.Nu + shift,
 		alphaD: DopplerHWHM(l.Nu, ps.T, st.mass),
 	}, true
 }

@@ -2,6 +2,7 @@ package lbl
 
 import (
 	"fmt"
+	"math"
 	"slices"
 )
 
@@ -23,6 +24,9 @@ type Line struct {
 	DeltaAir  float64 // air pressure shift at 296 K, cm^-1/atm
 	GUpper    float64 // upper-state statistical weight (0 when unknown)
 	GLower    float64 // lower-state statistical weight (0 when unknown)
+	// Broad holds the line's own broadening by H2, He, CO2 and H2O where
+	// the list gives it (HITRAN planetary broadeners, ExoMol .broad).
+	Broad [NumBroadeners]BroadParams
 }
 
 // Validate rejects physically impossible values: a line list with them is
@@ -39,6 +43,12 @@ func (l *Line) Validate() error {
 		return fmt.Errorf("half-widths (%g, %g) must not be negative", l.GammaAir, l.GammaSelf)
 	case l.GUpper < 0 || l.GLower < 0:
 		return fmt.Errorf("statistical weights (%g, %g) must not be negative", l.GUpper, l.GLower)
+	}
+	for b, p := range l.Broad {
+		if p.Has&HasGamma != 0 && !(p.Gamma >= 0) || math.IsInf(float64(p.Gamma), 0) || math.IsNaN(float64(p.N)) || math.IsInf(float64(p.N), 0) ||
+			math.IsNaN(float64(p.Delta)) || math.IsInf(float64(p.Delta), 0) {
+			return fmt.Errorf("%s broadening (gamma %g, n %g, delta %g) must be finite, gamma not negative", Broadener(b), p.Gamma, p.N, p.Delta)
+		}
 	}
 	return nil
 }
@@ -68,7 +78,10 @@ func MoleculeID(name string) int {
 // MergeLines merges line lists (for example from overlapping download
 // windows) into one list sorted by wavenumber, keeping one copy of lines
 // that appear in more than one list (same molecule, isotopologue,
-// wavenumber, intensity and lower-state energy).
+// wavenumber, intensity and lower-state energy). The copy kept carries
+// the broadening parameters of all copies (a list of the lines with their
+// H2 shifts merged with one of the same lines with their widths gives
+// both); where two copies give the same parameter, the first list's wins.
 func MergeLines(lists ...[]Line) []Line {
 	var n int
 	for _, l := range lists {
@@ -79,7 +92,32 @@ func MergeLines(lists ...[]Line) []Line {
 		out = append(out, l...)
 	}
 	slices.SortStableFunc(out, compareLines)
-	return slices.CompactFunc(out, func(a, b Line) bool { return compareLines(a, b) == 0 })
+	k := 0
+	for i := range out {
+		if k > 0 && compareLines(out[k-1], out[i]) == 0 {
+			mergeBroad(&out[k-1], &out[i])
+			continue
+		}
+		out[k] = out[i]
+		k++
+	}
+	return out[:k]
+}
+
+// mergeBroad adds to dst the broadening parameters of src that dst lacks.
+func mergeBroad(dst, src *Line) {
+	for b := range dst.Broad {
+		d, s := &dst.Broad[b], &src.Broad[b]
+		if s.Has&HasGamma != 0 && d.Has&HasGamma == 0 {
+			d.Gamma, d.Has = s.Gamma, d.Has|HasGamma
+		}
+		if s.Has&HasN != 0 && d.Has&HasN == 0 {
+			d.N, d.Has = s.N, d.Has|HasN
+		}
+		if s.Has&HasDelta != 0 && d.Has&HasDelta == 0 {
+			d.Delta, d.Has = s.Delta, d.Has|HasDelta
+		}
+	}
 }
 
 func compareLines(a, b Line) int {

@@ -28,14 +28,42 @@ type LineSettings struct {
 	// beyond which it contributes nothing; 0 means DefaultWingCutoff. The
 	// profile is cut, not renormalised.
 	WingCutoff float64
+	// WingWidths, when positive, makes the cut-off adapt to each line's
+	// width: a line is cut at min(WingCutoff, WingWidths x its Voigt
+	// half-width) from its centre (the half-width by Olivero & Longbothum
+	// 1977, JQSRT 17, 233). A Lorentz line loses the fraction
+	// 2/(pi WingWidths) of its intensity beyond the cut (0.13 % at 500);
+	// at low pressure, where lines are a few Doppler widths wide, it spares
+	// evaluating wings that hold nothing. 0 keeps the fixed cut-off.
+	WingWidths float64
 	// MinIntensity skips lines whose intensity at the temperature of the
 	// calculation is below it, cm^-1/(molecule cm^-2); 0 keeps every line.
 	MinIntensity float64
+	// WeakCut, when positive, moves weak lines into a pseudo-continuum
+	// instead of computing their profiles ("super-lines", Rey et al. 2016,
+	// A&A 594, A56; Yurchenko et al. 2017, A&A 605, A95): a line whose
+	// intensity at the temperature of the calculation is below WeakCut
+	// times that of the strongest line within WeakRef of it is weak. The
+	// weak lines' intensities are summed on the coarse grid of the
+	// two-level evaluation (every 32nd fine point, linear shares to the
+	// two nearest nodes, so the sum of intensities is kept exactly) and
+	// spread by one Voigt profile with their intensity-weighted mean
+	// Doppler and Lorentz widths; the result joins the wings, interpolated
+	// to the fine grid. 0 computes every line's profile.
+	WeakCut float64
+	// WeakRef is the half-width (cm^-1) of the neighbourhood whose
+	// strongest line sets a line's WeakCut; 0 means 1 cm^-1.
+	WeakRef float64
 	// SelfFraction is the absorber's own volume mixing ratio used for
 	// self-broadening, in [0, 1]; 0 is the dilute limit.
 	SelfFraction float64
-	Broadening   Broadening
-	// NoPressureShift turns the air pressure shift off.
+	// Mixture is the background gas by broadener (Mixture describes the
+	// Lorentz width and shift it gives); empty means air.
+	Mixture Mixture
+	// Broadening scales the air values, which serve the "air" component
+	// and the lines that lack a component's own parameters.
+	Broadening Broadening
+	// NoPressureShift turns the pressure shifts off.
 	NoPressureShift bool
 }
 
@@ -46,10 +74,24 @@ type LineSet struct {
 	Gas   string
 	lines []Line
 	iso   []int // per line: index into isos
-	isos  []lineIso
+	*lineCore
+	// Fallbacks counts, per broadener of the mixture, the lines that lack
+	// its parameters and use the air values in their place.
+	Fallbacks map[string]int
+}
+
+// lineCore is what the line sets of one list share: settings,
+// isotopologues, width rule, warnings, scratch memory.
+type lineCore struct {
+	gas   string
 	s     LineSettings
 	cut   float64
+	ref   float64 // WeakRef
 	scale float64 // background broadening scale
+	width widthRule
+	data  IsoData
+	isos  []lineIso
+	byKey map[IsoKey]int
 	// Warnings says what was approximated (partition functions).
 	Warnings []string
 	pool     sync.Pool // of *lineWork
@@ -57,6 +99,7 @@ type LineSet struct {
 
 type lineIso struct {
 	key  IsoKey
+	src  string // partition-sum source
 	name string
 	mass float64
 	q    PartitionFunc
@@ -67,71 +110,120 @@ type lineIso struct {
 // an isotopologue without a partition table get a rigid-rotor partition
 // function from Q(296 K) and a warning.
 func NewLineSet(gas string, lines []Line, iso IsoData, s LineSettings) (*LineSet, error) {
-	fail := func(format string, a ...any) (*LineSet, error) {
+	c, err := newLineCore(gas, iso, s)
+	if err != nil {
+		return nil, err
+	}
+	if len(lines) == 0 {
+		return nil, fmt.Errorf("opacity: lines of %s: no lines", gas)
+	}
+	sorted := slices.Clone(lines)
+	slices.SortStableFunc(sorted, func(a, c Line) int { return cmpFloat(a.Nu, c.Nu) })
+	ls, err := c.set(sorted)
+	if err != nil {
+		return nil, err
+	}
+	ls.Fallbacks = c.width.fallbacks(ls.lines)
+	return ls, nil
+}
+
+func newLineCore(gas string, iso IsoData, s LineSettings) (*lineCore, error) {
+	fail := func(format string, a ...any) (*lineCore, error) {
 		return nil, fmt.Errorf("opacity: lines of %s: %s", gas, fmt.Sprintf(format, a...))
 	}
+	bad := func(x float64) bool { return x < 0 || math.IsNaN(x) || math.IsInf(x, 0) }
 	switch {
 	case gas == "":
 		return nil, fmt.Errorf("opacity: line set without a gas name")
-	case len(lines) == 0:
-		return fail("no lines")
-	case s.WingCutoff < 0 || math.IsNaN(s.WingCutoff) || math.IsInf(s.WingCutoff, 0):
+	case bad(s.WingCutoff):
 		return fail("wing cut-off %g cm^-1 must be positive (0 for the default %g)", s.WingCutoff, DefaultWingCutoff)
+	case bad(s.WingWidths):
+		return fail("adaptive wing cut-off of %g half-widths must not be negative", s.WingWidths)
 	case s.MinIntensity < 0 || math.IsNaN(s.MinIntensity):
 		return fail("minimum intensity %g must not be negative", s.MinIntensity)
+	case bad(s.WeakCut) || s.WeakCut >= 1:
+		return fail("weak-line cut %g must be in [0, 1)", s.WeakCut)
+	case bad(s.WeakRef):
+		return fail("weak-line neighbourhood %g cm^-1 must not be negative", s.WeakRef)
 	case !(s.SelfFraction >= 0 && s.SelfFraction <= 1):
 		return fail("self-broadening fraction %g must be in [0, 1]", s.SelfFraction)
-	case s.Broadening.Scale < 0 || math.IsNaN(s.Broadening.Scale) || math.IsInf(s.Broadening.Scale, 0):
+	case bad(s.Broadening.Scale):
 		return fail("broadening scale %g must be positive (0 for 1)", s.Broadening.Scale)
-	case s.Broadening.N < 0 || math.IsNaN(s.Broadening.N) || math.IsInf(s.Broadening.N, 0):
+	case bad(s.Broadening.N):
 		return fail("broadening temperature exponent %g must not be negative", s.Broadening.N)
 	}
-	ls := &LineSet{Gas: gas, s: s, cut: s.WingCutoff, scale: s.Broadening.Scale}
-	if ls.cut == 0 {
-		ls.cut = DefaultWingCutoff
+	c := &lineCore{gas: gas, s: s, cut: s.WingCutoff, ref: s.WeakRef, scale: s.Broadening.Scale, data: iso, byKey: map[IsoKey]int{}}
+	var err error
+	if c.width, err = newWidthRule(s.Mixture, s.Broadening, s.SelfFraction, s.NoPressureShift); err != nil {
+		return fail("%v", err)
 	}
-	if ls.scale == 0 {
-		ls.scale = 1
+	if c.cut == 0 {
+		c.cut = DefaultWingCutoff
 	}
-	ls.lines = slices.Clone(lines)
-	slices.SortStableFunc(ls.lines, func(a, c Line) int { return cmpFloat(a.Nu, c.Nu) })
-	ls.iso = make([]int, len(ls.lines))
-	byKey := map[IsoKey]int{}
-	for i := range ls.lines {
-		l := &ls.lines[i]
+	if c.ref == 0 {
+		c.ref = 1
+	}
+	if c.scale == 0 {
+		c.scale = 1
+	}
+	return c, nil
+}
+
+// set makes a line set of lines (sorted by wavenumber, not copied) on the
+// core, adding the isotopologues it meets.
+func (c *lineCore) set(lines []Line) (*LineSet, error) {
+	fail := func(format string, a ...any) (*LineSet, error) {
+		return nil, fmt.Errorf("opacity: lines of %s: %s", c.gas, fmt.Sprintf(format, a...))
+	}
+	ls := &LineSet{Gas: c.gas, lines: lines, iso: make([]int, len(lines)), lineCore: c}
+	for i := range lines {
+		l := &lines[i]
 		if err := l.Validate(); err != nil {
 			return fail("line of %v at %g cm^-1: %v", IsoKey{l.Mol, l.Iso}, l.Nu, err)
 		}
 		k := IsoKey{l.Mol, l.Iso}
-		idx, ok := byKey[k]
+		idx, ok := c.byKey[k]
 		if !ok {
-			d := iso[k]
-			if d == nil {
-				return fail("no isotopologue data (mass, partition function) for %v", k)
+			var err error
+			if idx, err = c.addIso(k); err != nil {
+				return nil, err
 			}
-			if !(d.Mass > 0) {
-				return fail("%v has mass %g, must be positive", k, d.Mass)
-			}
-			li := lineIso{key: k, name: d.Name, mass: d.Mass, q: d.Q}
-			if li.q == nil {
-				if !(d.Q296 > 0) {
-					return fail("%v has neither a partition table nor Q(296 K)", k)
-				}
-				li.q = &RigidRotor{Q296: d.Q296, Exponent: RotorExponent(k.Mol)}
-				ls.Warnings = append(ls.Warnings, fmt.Sprintf("no partition-function table for %s (%v): rigid-rotor approximation Q = Q(296 K) (T/296)^%g used, intensities away from 296 K are approximate",
-					d.Name, k, RotorExponent(k.Mol)))
-			}
-			if lo, hi := li.q.Range(); TRef < lo || TRef > hi {
-				return fail("partition function of %v covers %g-%g K, not 296 K", k, lo, hi)
-			}
-			li.q296 = li.q.Q(TRef)
-			idx = len(ls.isos)
-			byKey[k] = idx
-			ls.isos = append(ls.isos, li)
 		}
 		ls.iso[i] = idx
 	}
 	return ls, nil
+}
+
+// addIso prepares isotopologue k.
+func (c *lineCore) addIso(k IsoKey) (int, error) {
+	fail := func(format string, a ...any) (int, error) {
+		return 0, fmt.Errorf("opacity: lines of %s: %s", c.gas, fmt.Sprintf(format, a...))
+	}
+	d := c.data[k]
+	if d == nil {
+		return fail("no isotopologue data (mass, partition function) for %v", k)
+	}
+	if !(d.Mass > 0) {
+		return fail("%v has mass %g, must be positive", k, d.Mass)
+	}
+	li := lineIso{key: k, name: d.Name, mass: d.Mass, q: d.Q}
+	if li.q == nil {
+		if !(d.Q296 > 0) {
+			return fail("%v has neither a partition table nor Q(296 K)", k)
+		}
+		li.q = &RigidRotor{Q296: d.Q296, Exponent: RotorExponent(k.Mol)}
+		c.Warnings = append(c.Warnings, fmt.Sprintf("no partition-function table for %s (%v): rigid-rotor approximation Q = Q(296 K) (T/296)^%g used, intensities away from 296 K are approximate",
+			d.Name, k, RotorExponent(k.Mol)))
+	}
+	li.src = PartitionSource(d, li.q)
+	if lo, hi := li.q.Range(); TRef < lo || TRef > hi {
+		return fail("partition function of %v covers %g-%g K, not 296 K", k, lo, hi)
+	}
+	li.q296 = li.q.Q(TRef)
+	idx := len(c.isos)
+	c.byKey[k] = idx
+	c.isos = append(c.isos, li)
+	return idx, nil
 }
 
 // Lines returns the number of lines.
@@ -151,10 +243,12 @@ func (ls *LineSet) MaxMass() float64 {
 
 // CheckTemperature reports whether every isotopologue's partition function
 // covers temperature t.
-func (ls *LineSet) CheckTemperature(t float64) error {
-	for _, li := range ls.isos {
+func (ls *LineSet) CheckTemperature(t float64) error { return ls.lineCore.checkTemperature(t) }
+
+func (c *lineCore) checkTemperature(t float64) error {
+	for _, li := range c.isos {
 		if lo, hi := li.q.Range(); t < lo || t > hi {
-			return fmt.Errorf("opacity: lines of %s: partition function of %v covers %g-%g K, not %g K", ls.Gas, li.key, lo, hi, t)
+			return fmt.Errorf("opacity: lines of %s: partition function of %v covers %g-%g K, not %g K", c.gas, li.key, lo, hi, t)
 		}
 	}
 	return nil
@@ -194,6 +288,14 @@ type lineWork struct {
 	node   []float64
 	coarse []float64
 	q      []float64 // per isotopologue: Q(296)/Q(T)
+	s      []float64 // per line of the chunk: intensity at T
+	ref    []float64 // per line of the chunk: strongest intensity near it
+	dq     []int     // sliding-maximum deque
+	dep    []float64 // weak lines' intensities on the coarse nodes
+	kern   []float64 // pseudo-continuum profile on the coarse nodes
+	// profiled and binned count the lines whose profiles were computed
+	// and those moved into the pseudo-continuum.
+	profiled, binned int64
 }
 
 // CrossSections fills dst with the cross-sections (m^2 per molecule) at
@@ -234,29 +336,43 @@ func (ls *LineSet) crossSections(dst []float64, g opacity.LnGrid, k0 int, p, t f
 		w.q[i] = li.q296 / li.q.Q(t)
 	}
 	pAtm := p / StandardAtmosphere
-	pSelf := ls.s.SelfFraction * pAtm
-	pBg := pAtm - pSelf
 	lnT := math.Log(TRef / t)
-	shift := 1.0
-	if ls.s.NoPressureShift {
-		shift = 0
-	}
 	// Lines whose window meets [nus[0], nus[n-1]].
 	lo := sort.Search(len(ls.lines), func(i int) bool { return ls.lines[i].Nu >= nus[0]-ls.cut })
 	hi := sort.Search(len(ls.lines), func(i int) bool { return ls.lines[i].Nu > nus[n-1]+ls.cut })
+	w.s = grow(w.s, hi-lo)
+	for i := lo; i < hi; i++ {
+		w.s[i-lo] = LineIntensity(&ls.lines[i], t, w.q[ls.iso[i]], 1)
+	}
+	weak := ls.s.WeakCut > 0
+	if weak {
+		ls.strongest(lo, hi, w)
+		w.dep = grow(w.dep, 0)
+	}
+	var cont continuum
 	for i := lo; i < hi; i++ {
 		l := &ls.lines[i]
-		S := LineIntensity(l, t, w.q[ls.iso[i]], 1)
+		S := w.s[i-lo]
 		if S == 0 || S < ls.s.MinIntensity {
 			continue
 		}
-		nexp := l.NAir
-		if ls.s.Broadening.N > 0 {
-			nexp = ls.s.Broadening.N
+		gL, shift := ls.width.at(l, pAtm, lnT)
+		aD := DopplerHWHM(l.Nu, t, ls.isos[ls.iso[i]].mass)
+		if weak && S < ls.s.WeakCut*w.ref[i-lo] {
+			cont.add(S, l.Nu+shift, aD, gL, g, k0, w)
+			w.binned++
+			continue
 		}
-		gL := ls.scale*l.GammaAir*math.Exp(nexp*lnT)*pBg + l.GammaSelf*math.Exp(l.NAir*lnT)*pSelf
-		p := newVoigtLine(S, l.Nu+shift*l.DeltaAir*pAtm, DopplerHWHM(l.Nu, t, ls.isos[ls.iso[i]].mass), gL)
-		ls.addLine(dst, coarse, nus, g, k0, l.Nu-ls.cut, l.Nu+ls.cut, &p, w)
+		w.profiled++
+		p := newVoigtLine(S, l.Nu+shift, aD, gL)
+		cut := ls.cut
+		if ls.s.WingWidths > 0 {
+			cut = min(cut, ls.s.WingWidths*voigtHWHM(aD, gL))
+		}
+		ls.addLine(dst, coarse, nus, g, k0, l.Nu-cut, l.Nu+cut, &p, w)
+	}
+	if cont.sum > 0 {
+		cont.spread(coarse, g, k0, n, ls.cut, w)
 	}
 	for k := range dst {
 		c := k / coarseStep
@@ -356,4 +472,110 @@ func (ls *LineSet) addLine(dst, coarse, nus []float64, g opacity.LnGrid, k0 int,
 	correct(na-2, na+1)
 	correct(cLo-1, cHi+1)
 	correct(nb-1, nb+2)
+}
+
+// voigtHWHM is the half-width at half maximum of a Voigt profile of
+// Doppler and Lorentz half-widths aD and gL, by the approximation of
+// Olivero & Longbothum (1977, JQSRT 17, 233), good to 0.02 %.
+func voigtHWHM(aD, gL float64) float64 {
+	return 0.5346*gL + math.Sqrt(0.2166*gL*gL+aD*aD)
+}
+
+// strongest sets w.ref[i-lo] to the largest intensity (w.s) among the
+// lines within ls.ref cm^-1 of line i, for lines lo..hi-1 (sorted by
+// wavenumber): a sliding maximum over a window of wavenumbers, with a
+// deque of line indexes of decreasing intensity (each line enters and
+// leaves it once).
+func (ls *LineSet) strongest(lo, hi int, w *lineWork) {
+	w.ref = grow(w.ref, hi-lo)
+	dq := w.dq[:0]
+	j := lo // next line to enter the window
+	for i := lo; i < hi; i++ {
+		nu := ls.lines[i].Nu
+		for j < hi && ls.lines[j].Nu <= nu+ls.ref {
+			for len(dq) > 0 && w.s[dq[len(dq)-1]-lo] <= w.s[j-lo] {
+				dq = dq[:len(dq)-1]
+			}
+			dq = append(dq, j)
+			j++
+		}
+		k := 0
+		for k < len(dq) && ls.lines[dq[k]].Nu < nu-ls.ref {
+			k++
+		}
+		dq = dq[k:]
+		w.ref[i-lo] = w.s[dq[0]-lo]
+	}
+	w.dq = dq[:0]
+}
+
+// continuum gathers the weak lines of a chunk: their intensities on the
+// coarse nodes and the sums for their mean widths.
+type continuum struct {
+	sum, sumD, sumL float64 // sum of S, of S alpha_D, of S gamma_L
+	c0              int     // coarse node of w.dep[0]
+}
+
+// add puts a weak line of intensity S at nu0 (cm^-1) with half-widths aD
+// and gL on the two coarse nodes around it, in shares that keep its
+// intensity and its mean position.
+func (c *continuum) add(S, nu0, aD, gL float64, g opacity.LnGrid, k0 int, w *lineWork) {
+	x := (g.Index(nu0) - float64(k0)) / coarseStep
+	j := int(math.Floor(x))
+	f := x - float64(j)
+	if len(w.dep) == 0 {
+		c.c0 = j
+	}
+	if j < c.c0 { // lines come in ascending order, up to their shifts
+		pad := c.c0 - j
+		w.dep = append(w.dep, make([]float64, pad)...)
+		copy(w.dep[pad:], w.dep[:len(w.dep)-pad])
+		clear(w.dep[:pad])
+		c.c0 = j
+	}
+	for len(w.dep) < j-c.c0+2 {
+		w.dep = append(w.dep, 0)
+	}
+	w.dep[j-c.c0] += S * (1 - f)
+	w.dep[j-c.c0+1] += S * f
+	c.sum += S
+	c.sumD += S * aD
+	c.sumL += S * gL
+}
+
+// spread adds the pseudo-continuum to the coarse nodes (coarse[c+1] for
+// node c, as addLine keeps them) of a chunk of n fine points: the node
+// intensities convolved with the Voigt profile of the mean widths,
+// sampled at the node spacing and normalised so that it keeps the total
+// intensity. The profile reaches min(cut, 50 Voigt half-widths, at least
+// three node steps) either side.
+func (c *continuum) spread(coarse []float64, g opacity.LnGrid, k0, n int, cut float64, w *lineWork) {
+	aD, gL := c.sumD/c.sum, c.sumL/c.sum
+	// Node spacing (cm^-1) at the middle of the chunk.
+	mid := g.Nu(k0 + n/2)
+	h := mid * (math.Exp(coarseStep/g.R) - 1)
+	reach := max(min(cut, 50*voigtHWHM(aD, gL)), 3*h)
+	m := int(math.Ceil(reach / h))
+	w.kern = grow(w.kern, 2*m+1)
+	p := newVoigtLine(1, 0, aD, gL)
+	tot := 0.0
+	for i := -m; i <= m; i++ {
+		v := p.at(float64(i) * h)
+		w.kern[i+m] = v
+		tot += v
+	}
+	for i := range w.kern {
+		w.kern[i] /= tot * h // sum of kernel x h = 1
+	}
+	cLast := (n-1)/coarseStep + 2
+	for j, d := range w.dep {
+		if d == 0 {
+			continue
+		}
+		node := c.c0 + j
+		a, b := max(node-m, -1), min(node+m, cLast)
+		for cn := a; cn <= b; cn++ {
+			coarse[cn+1] += d * w.kern[cn-node+m]
+		}
+	}
 }

@@ -7,8 +7,18 @@
 // or one CIA table (one pair) in long form, one row per grid point, with the
 // rows ordered as the in-memory layout (wavenumber fastest):
 //
-//	kind xsec: log10_pressure_pa DOUBLE, temperature_k DOUBLE, wavenumber_per_m DOUBLE, sigma_m2 FLOAT
-//	kind cia:  temperature_k DOUBLE, wavenumber_per_m DOUBLE, k_m5 DOUBLE
+//	kind xsec:   log10_pressure_pa DOUBLE, temperature_k DOUBLE, wavenumber_per_m DOUBLE, sigma_m2 FLOAT
+//	kind cia:    temperature_k DOUBLE, wavenumber_per_m DOUBLE, k_m5 DOUBLE
+//	kind ktable: log10_pressure_pa DOUBLE, temperature_k DOUBLE, wavelength_lo_m DOUBLE,
+//	             wavelength_hi_m DOUBLE, g DOUBLE, g_weight DOUBLE, k_m2 FLOAT
+//
+// A k-table (opacity.KTable, correlated-k) has four axes, pressure,
+// temperature, spectral bin and quadrature node (g fastest); a bin is
+// given by its two edges in wavelength (wavelength_lo_m, wavelength_hi_m,
+// both repeating with the bin) and a node by its g and its quadrature
+// weight (g, g_weight, both repeating with the node). The build settings
+// (quadrature, fine grid, broadening mixture, partition-sum sources,
+// cuts, lines kept and binned) are JSON in opacity.MetaBuildSettings.
 //
 // The axis columns are dictionary encoded (so they cost almost nothing), the
 // data column is plain; all columns are zstd compressed and required. Any
@@ -64,6 +74,8 @@ const (
 	MetaUnitsWavenumber  = "units.wavenumber"
 	MetaUnitsSigma       = "units.sigma"
 	MetaUnitsK           = "units.k"
+	MetaUnitsWavelength  = "units.wavelength"
+	MetaUnitsKCoeff      = "units.k_coefficient"
 )
 
 // Values of the structural metadata keys.
@@ -71,6 +83,7 @@ const (
 	Format   = "chord opacity table"
 	KindXSec = "xsec"
 	KindCIA  = "cia"
+	KindK    = "ktable"
 )
 
 // Column names and units of schema version 1.
@@ -80,12 +93,19 @@ const (
 	colNu     = "wavenumber_per_m"
 	colSigma  = "sigma_m2"
 	colK      = "k_m5"
+	colLo     = "wavelength_lo_m"
+	colHi     = "wavelength_hi_m"
+	colG      = "g"
+	colW      = "g_weight"
+	colKCoeff = "k_m2"
 
 	unitLog10P = "log10(Pa)"
 	unitT      = "K"
 	unitNu     = "m^-1"
 	unitSigma  = "m^2 molecule^-1"
 	unitK      = "m^5 molecule^-2"
+	unitWl     = "m"
+	unitKCoeff = "m^2 molecule^-1"
 )
 
 // maxTableValues bounds the number of grid points a table file may declare
@@ -102,6 +122,16 @@ type xsecRow struct {
 	Sigma  float32 `parquet:"sigma_m2,zstd"`
 }
 
+type kRow struct {
+	Log10P float64 `parquet:"log10_pressure_pa,dict,zstd"`
+	T      float64 `parquet:"temperature_k,dict,zstd"`
+	Lo     float64 `parquet:"wavelength_lo_m,dict,zstd"`
+	Hi     float64 `parquet:"wavelength_hi_m,dict,zstd"`
+	G      float64 `parquet:"g,dict,zstd"`
+	W      float64 `parquet:"g_weight,dict,zstd"`
+	K      float32 `parquet:"k_m2,zstd"`
+}
+
 type ciaRow struct {
 	T  float64 `parquet:"temperature_k,dict,zstd"`
 	Nu float64 `parquet:"wavenumber_per_m,dict,zstd"`
@@ -110,9 +140,17 @@ type ciaRow struct {
 
 // layout describes the columns of one kind of table file.
 type layout struct {
-	axes  []string // axis column names, slowest first
-	data  string   // data column name
+	axes []string // axis column names, slowest first
+	// extra are further columns that repeat with an axis (a bin's upper
+	// edge, a node's weight): name and axis index.
+	extra []extraCol
+	data  string // data column name
 	units map[string]string
+}
+
+type extraCol struct {
+	name string
+	axis int
 }
 
 var layouts = map[string]layout{
@@ -122,6 +160,15 @@ var layouts = map[string]layout{
 		units: map[string]string{
 			MetaUnitsLog10P: unitLog10P, MetaUnitsTemperature: unitT,
 			MetaUnitsWavenumber: unitNu, MetaUnitsSigma: unitSigma,
+		},
+	},
+	KindK: {
+		axes:  []string{colLog10P, colT, colLo, colG},
+		extra: []extraCol{{colHi, 2}, {colW, 3}},
+		data:  colKCoeff,
+		units: map[string]string{
+			MetaUnitsLog10P: unitLog10P, MetaUnitsTemperature: unitT,
+			MetaUnitsWavelength: unitWl, MetaUnitsKCoeff: unitKCoeff,
 		},
 	},
 	KindCIA: {
@@ -156,6 +203,29 @@ func WriteXSec(path string, t *opacity.XSecTable, overwrite bool) error {
 		}
 	}
 	return writeFile(path, overwrite, meta, len(t.Sigma), fill)
+}
+
+// WriteK writes the k-table t to a table file at path, as WriteXSec does.
+// Its axes in the checksum are, in order, log10 P, T, bin lower edges,
+// nodes, bin upper edges, weights.
+func WriteK(path string, t *opacity.KTable, overwrite bool) error {
+	if err := t.Validate(); err != nil {
+		return fmt.Errorf("opacity: write %s: %w", path, err)
+	}
+	axes := [][]float64{t.Log10P, t.T, t.Lo, t.G, t.Hi, t.W}
+	meta, err := fileMeta(KindK, MetaGas, t.Gas, t.Meta, axes, t.K)
+	if err != nil {
+		return fmt.Errorf("opacity: write %s (gas %s): %w", path, t.Gas, err)
+	}
+	nT, nB, nG := len(t.T), t.Bins(), len(t.G)
+	fill := func(dst []kRow, start int) {
+		for i := range dst {
+			r := start + i
+			ig, b, it, ip := r%nG, (r/nG)%nB, (r/(nG*nB))%nT, r/(nG*nB*nT)
+			dst[i] = kRow{Log10P: t.Log10P[ip], T: t.T[it], Lo: t.Lo[b], Hi: t.Hi[b], G: t.G[ig], W: t.W[ig], K: t.K[r]}
+		}
+	}
+	return writeFile(path, overwrite, meta, len(t.K), fill)
 }
 
 // WriteCIA writes t to a table file at path, as WriteXSec does.
@@ -207,9 +277,9 @@ func fileMeta[E float32 | float64](kind, nameKey, name string, tm map[string]str
 	meta[MetaSchemaVersion] = strconv.Itoa(SchemaVersion)
 	meta[MetaKind] = kind
 	meta[nameKey] = name
-	shape := make([]int, len(axes))
-	for i, a := range axes {
-		shape[i] = len(a)
+	shape := make([]int, len(layouts[kind].axes))
+	for i := range shape {
+		shape[i] = len(axes[i])
 	}
 	meta[MetaShape] = formatShape(shape)
 	for k, v := range layouts[kind].units {
@@ -379,25 +449,75 @@ func ReadCIA(path string) (*opacity.CIATable, error) {
 	return c, err
 }
 
-// Read reads a table file of either kind; exactly one of the
-// returned tables is non-nil when err is nil.
-func Read(path string) (*opacity.XSecTable, *opacity.CIATable, error) {
-	return readTableFile(path, "")
+// ReadK reads a k-table file written by WriteK, checked as ReadXSec
+// checks cross-section files.
+func ReadK(path string) (*opacity.KTable, error) {
+	t, err := readAny(path, KindK)
+	return t.K, err
 }
 
-func readTableFile(path, want string) (x *opacity.XSecTable, c *opacity.CIATable, err error) {
+// Table is a table of any kind: one field is set.
+type Table struct {
+	XSec *opacity.XSecTable
+	CIA  *opacity.CIATable
+	K    *opacity.KTable
+}
+
+// Meta returns the table's metadata.
+func (t Table) Meta() map[string]string {
+	switch {
+	case t.XSec != nil:
+		return t.XSec.Meta
+	case t.CIA != nil:
+		return t.CIA.Meta
+	case t.K != nil:
+		return t.K.Meta
+	}
+	return nil
+}
+
+// Read reads a table file of any kind.
+func Read(path string) (Table, error) {
+	return readAny(path, "")
+}
+
+func readAny(path, want string) (t Table, err error) {
 	// The Parquet decoder is not ours; a damaged file must give an error
 	// here, never a panic.
 	defer func() {
 		if r := recover(); r != nil {
-			x, c, err = nil, nil, fmt.Errorf("opacity: table file %s: unreadable (corrupted?): %v", path, r)
+			t, err = Table{}, fmt.Errorf("opacity: table file %s: unreadable (corrupted?): %v", path, r)
 		}
 	}()
 	o, err := openTable(path, want)
 	if err != nil {
-		return nil, nil, err
+		return Table{}, err
 	}
 	defer o.f.Close()
+	if o.kind != KindK {
+		t.XSec, t.CIA, err = o.readXSecOrCIA()
+		return t, err
+	}
+	data, err := readData[float32](o)
+	if err != nil {
+		return Table{}, err
+	}
+	a := o.axes
+	k := &opacity.KTable{Gas: o.meta[MetaGas], Log10P: a[0], T: a[1], Lo: a[2], G: a[3], Hi: a[4], W: a[5], K: data, Meta: o.meta}
+	if err := k.Validate(); err != nil {
+		return Table{}, fmt.Errorf("opacity: table file %s: %w", path, err)
+	}
+	t.K = k
+	return t, nil
+}
+
+func readTableFile(path, want string) (*opacity.XSecTable, *opacity.CIATable, error) {
+	t, err := readAny(path, want)
+	return t.XSec, t.CIA, err
+}
+
+func (o *openedTable) readXSecOrCIA() (*opacity.XSecTable, *opacity.CIATable, error) {
+	path := o.path
 	meta, axes := o.meta, o.axes
 	switch o.kind {
 	case KindXSec:
@@ -483,7 +603,7 @@ func openTable(path, want string) (o *openedTable, err error) {
 	kind := meta[MetaKind]
 	lay, ok := layouts[kind]
 	if !ok {
-		return nil, fail("metadata key %q is %q, want %q or %q", MetaKind, kind, KindXSec, KindCIA)
+		return nil, fail("metadata key %q is %q, want %q, %q or %q", MetaKind, kind, KindXSec, KindCIA, KindK)
 	}
 	if want != "" && kind != want {
 		return nil, fail("holds a %s table, not a %s table", kind, want)
@@ -515,6 +635,17 @@ func openTable(path, want string) (o *openedTable, err error) {
 		if err := readAxisColumn(pf, name, axes[j], stride); err != nil {
 			return nil, fail("column %s: %v", name, err)
 		}
+	}
+	for _, e := range lay.extra {
+		x := make([]float64, shape[e.axis])
+		stride := 1
+		for _, n := range shape[e.axis+1:] {
+			stride *= n
+		}
+		if err := readAxisColumn(pf, e.name, x, stride); err != nil {
+			return nil, fail("column %s: %v", e.name, err)
+		}
+		axes = append(axes, x)
 	}
 	o.pf, o.kind, o.lay, o.meta, o.axes = pf, kind, lay, meta, axes
 	return o, nil
@@ -759,35 +890,45 @@ func readDataColumn[E float32 | float64](pf *parquet.File, name string, dst []E)
 }
 
 // LoadDir reads every *.parquet table file in dir into an opacity.Set:
-// cross-section tables by gas, CIA tables in file-name order. Two tables of
-// the same gas, or of the same pair (in either order), are an error naming
-// both files. Set.Files lists the files read; Set.Demo is true if any table
+// cross-section tables and k-tables by gas, CIA tables in file-name
+// order. Two tables of the same kind and gas, or of the same pair (in
+// either order), are an error naming both files. Set.Files lists the files read; Set.Demo is true if any table
 // is a demo table.
 func LoadDir(dir string) (*opacity.Set, error) {
 	entries, err := os.ReadDir(dir)
 	if err != nil {
 		return nil, fmt.Errorf("opacity: table directory: %w", err)
 	}
-	s := &opacity.Set{XSec: map[string]*opacity.XSecTable{}}
+	s := &opacity.Set{XSec: map[string]*opacity.XSecTable{}, K: map[string]*opacity.KTable{}}
 	gasFile := map[string]string{}
+	kFile := map[string]string{}
 	pairFile := map[[2]string]string{}
 	for _, e := range entries {
 		if !strings.HasSuffix(e.Name(), ".parquet") {
 			continue
 		}
 		path := filepath.Join(dir, e.Name())
-		x, c, err := Read(path)
+		t, err := Read(path)
 		if err != nil {
 			return nil, err
 		}
-		if x != nil {
+		x, c := t.XSec, t.CIA
+		switch {
+		case t.K != nil:
+			if prev, dup := kFile[t.K.Gas]; dup {
+				return nil, fmt.Errorf("opacity: table directory %s: k-tables of gas %s are in both %s and %s", dir, t.K.Gas, prev, path)
+			}
+			kFile[t.K.Gas] = path
+			s.K[t.K.Gas] = t.K
+			s.Demo = s.Demo || opacity.IsDemo(t.K.Meta)
+		case x != nil:
 			if prev, dup := gasFile[x.Gas]; dup {
 				return nil, fmt.Errorf("opacity: table directory %s: gas %s is in both %s and %s", dir, x.Gas, prev, path)
 			}
 			gasFile[x.Gas] = path
 			s.XSec[x.Gas] = x
 			s.Demo = s.Demo || opacity.IsDemo(x.Meta)
-		} else {
+		default:
 			key := c.Pair
 			if key[1] < key[0] {
 				key[0], key[1] = key[1], key[0]

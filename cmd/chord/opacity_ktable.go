@@ -1,0 +1,245 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/urfave/cli/v2"
+
+	"chord/forward/opacity"
+	"chord/forward/opacity/build"
+	"chord/forward/opacity/lbl"
+	"chord/forward/opacity/tablefile"
+	"chord/internal/version"
+	"chord/obs"
+)
+
+// buildKTable builds and writes the k-table of the line lists, resuming a
+// stopped build of the same settings and files from its checkpoint
+// <out>/.<gas>.k.checkpoint.
+func buildKTable(c *cli.Context, files []string, out string, force bool, progress io.Writer) error {
+	src, err := lineSource(c, files)
+	if err != nil {
+		return err
+	}
+	mixture, err := buildMixture(c)
+	if err != nil {
+		return err
+	}
+	lo, hi, err := kBins(c)
+	if err != nil {
+		return err
+	}
+	q, err := parseQuadrature(c.String("quadrature"))
+	if err != nil {
+		return err
+	}
+	quiet := progress == nil
+	list, err := build.Open(src, lbl.Observer{Note: noteWriter(c, quiet)})
+	if err != nil {
+		return sourceError(err)
+	}
+	if err := checkTableName(list.Gas); err != nil {
+		return err
+	}
+	path := filepath.Join(out, list.Gas+".k.parquet")
+	if !force {
+		if _, err := os.Lstat(path); err == nil {
+			return fmt.Errorf("opacity build: %s exists; refusing to overwrite it (use --force)", path)
+		}
+	}
+	logP := opacity.DefaultKLog10P()
+	if c.IsSet("pressure") {
+		if logP, err = buildPressures(c.String("pressure")); err != nil {
+			return err
+		}
+	}
+	temps, err := kTemperatures(c, list)
+	if err != nil {
+		return err
+	}
+	if n := len(logP) * len(temps) * len(lo) * len(q.G); n > maxBuildValues {
+		return fmt.Errorf("opacity build: k-table of %d x %d x %d x %d = %d values (%.1f GB) is too large; at most %d",
+			len(logP), len(temps), len(lo), len(q.G), n, float64(n)*4/1e9, maxBuildValues)
+	}
+	ctx, cancel, _ := session(c)
+	defer cancel()
+	s := lbl.KSettings{
+		Log10P: logP, T: temps, Lo: lo, Hi: hi, Quadrature: q,
+		Resolution: c.Float64("resolution"),
+		Lines: lbl.LineSettings{
+			WingCutoff: c.Float64("cutoff"), WingWidths: c.Float64("wing-widths"),
+			MinIntensity: c.Float64("min-intensity"),
+			WeakCut:      c.Float64("weak-cut"), WeakRef: c.Float64("weak-ref"),
+			SelfFraction: c.Float64("self-fraction"),
+			Mixture:      mixture,
+			Broadening: lbl.Broadening{
+				Name: c.String("broadener"), Scale: c.Float64("broadener-scale"), N: c.Float64("broadener-n"),
+			},
+			NoPressureShift: c.Bool("no-shift"),
+		},
+		Workers:     c.Int("workers"),
+		WindowLines: c.Int("window-lines"),
+		Observer:    tableObserver(c, "k-table", list.Gas, quiet),
+		Version:     version.Version,
+	}
+	// The fingerprint needs the sources as the build records them.
+	srcMeta, err := opacity.SourcesMeta(list.Files...)
+	if err != nil {
+		return err
+	}
+	fp := s
+	fp.Gas, fp.Sources = list.Gas, srcMeta
+	cpPath := filepath.Join(out, "."+list.Gas+".k.checkpoint")
+	cp, err := build.OpenCheckpoint(cpPath, build.Fingerprint(&fp))
+	if err != nil {
+		return err
+	}
+	defer cp.Close()
+	if cp.Resumed > 0 && !quiet {
+		fmt.Fprintf(progress, "resuming: %d spectral windows done in %s\n", cp.Resumed, cpPath)
+	}
+	s.Checkpoint = cp
+	start := time.Now()
+	t, err := list.KTable(ctx, s)
+	if errors.Is(err, lbl.ErrStopped) {
+		fmt.Fprintf(c.App.ErrWriter, "chord: interrupted; finished spectral windows are kept in %s.\n", cpPath)
+		fmt.Fprintln(c.App.ErrWriter, "chord: run the same command again to resume the build.")
+		return errInterrupted
+	}
+	if err != nil {
+		return err
+	}
+	if err := tablefile.WriteK(path, t, force); err != nil {
+		return err
+	}
+	if err := cp.Remove(); err != nil {
+		return fmt.Errorf("opacity build: %s written, but its checkpoint could not be removed: %w", path, err)
+	}
+	if !quiet {
+		fmt.Fprintf(progress, "wrote %s (%s)\n", path, time.Since(start).Round(time.Millisecond))
+	}
+	fmt.Fprintln(c.App.Writer, path)
+	return nil
+}
+
+// kBins returns the k-table bins (m) of --bins LO:HI:R, the anchored grid
+// lambda_k = exp(k/R) um with every edge inside [LO, HI] um (so that the
+// bins of R and of 10 R nest, and R = 100 bins are unions of R = 1000
+// table bins), or of the observation file of --bins-from.
+func kBins(c *cli.Context) (lo, hi []float64, err error) {
+	if c.IsSet("bins") && c.IsSet("bins-from") {
+		return nil, nil, errors.New("opacity build: give --bins or --bins-from, not both")
+	}
+	if c.IsSet("bins-from") {
+		d, err := obs.ReadDataset(c.String("bins-from"))
+		if err != nil {
+			return nil, nil, fmt.Errorf("opacity build: --bins-from: %w", err)
+		}
+		idx := make([]int, d.Len())
+		for i := range idx {
+			idx[i] = i
+		}
+		slices.SortFunc(idx, func(a, b int) int { return cmpF(d.Lo[a], d.Lo[b]) })
+		for n, i := range idx {
+			if n > 0 && d.Lo[i] < hi[n-1] {
+				return nil, nil, fmt.Errorf("opacity build: --bins-from %s: bins at %s and %s overlap; a k-table's bins must not (build on the anchored grid with --bins and let the fit merge them)",
+					d.Path, d.Where(idx[n-1]), d.Where(i))
+			}
+			lo, hi = append(lo, d.Lo[i]), append(hi, d.Hi[i])
+		}
+		return lo, hi, nil
+	}
+	a, b, r, err := parseRange("bins", c.String("bins"))
+	if err != nil {
+		return nil, nil, err
+	}
+	if !(a > 0) || !(b > a) || !(r > 0) || r > 1e6 {
+		return nil, nil, fmt.Errorf("opacity build: --bins %q: want 0 < LO < HI (um) and 0 < R <= 1e6", c.String("bins"))
+	}
+	k0, k1 := int(math.Ceil(r*math.Log(a)-1e-9)), int(math.Floor(r*math.Log(b)+1e-9))
+	if k1-k0 < 1 {
+		return nil, nil, fmt.Errorf("opacity build: --bins %q: no bin of the grid exp(k/%g) um lies inside %g-%g um", c.String("bins"), r, a, b)
+	}
+	if k1-k0 > maxBuildValues/16 {
+		return nil, nil, fmt.Errorf("opacity build: --bins %q: %d bins is too many", c.String("bins"), k1-k0)
+	}
+	for k := k0; k < k1; k++ {
+		lo = append(lo, math.Exp(float64(k)/r)*1e-6)
+		hi = append(hi, math.Exp(float64(k+1)/r)*1e-6)
+	}
+	return lo, hi, nil
+}
+
+func cmpF(a, b float64) int {
+	switch {
+	case a < b:
+		return -1
+	case a > b:
+		return 1
+	}
+	return 0
+}
+
+// kTemperatures returns --temperature, or DefaultKT clipped to the range
+// every isotopologue of the gas's molecule with a partition table covers.
+func kTemperatures(c *cli.Context, l *build.List) ([]float64, error) {
+	if c.IsSet("temperature") {
+		return buildTemperatures(c.String("temperature"))
+	}
+	lo, hi := 0.0, math.Inf(1)
+	mol := lbl.MoleculeID(l.Gas)
+	for k, d := range l.Iso {
+		if d.Q != nil && (k.Mol == mol || len(l.Iso) == 1) {
+			a, b := d.Q.Range()
+			lo, hi = max(lo, a), min(hi, b)
+		}
+	}
+	var out []float64
+	for _, t := range opacity.DefaultKT() {
+		if t >= lo && t <= hi {
+			out = append(out, t)
+		}
+	}
+	if len(out) < 2 {
+		return nil, fmt.Errorf("opacity build: the partition sums of %s cover %g-%g K, too little of the default temperatures; give --temperature", l.Gas, lo, hi)
+	}
+	return out, nil
+}
+
+// parseQuadrature reads "N" or "N1,N2,...@S1,..." (Gauss-Legendre parts
+// with split points in g).
+func parseQuadrature(spec string) (opacity.Quadrature, error) {
+	ns, splits, _ := strings.Cut(spec, "@")
+	var n []int
+	for _, f := range strings.Split(ns, ",") {
+		v, err := strconv.Atoi(strings.TrimSpace(f))
+		if err != nil || v < 1 || v > 1000 {
+			return opacity.Quadrature{}, fmt.Errorf("opacity build: --quadrature %q: %q is not a number of nodes (1-1000)", spec, f)
+		}
+		n = append(n, v)
+	}
+	var sp []float64
+	if splits != "" {
+		for _, f := range strings.Split(splits, ",") {
+			v, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+			if err != nil {
+				return opacity.Quadrature{}, fmt.Errorf("opacity build: --quadrature %q: split %q is not a number", spec, f)
+			}
+			sp = append(sp, v)
+		}
+	}
+	q, err := opacity.GaussLegendre(n, sp...)
+	if err != nil {
+		return opacity.Quadrature{}, fmt.Errorf("opacity build: --quadrature %q: %w", spec, err)
+	}
+	return q, nil
+}
