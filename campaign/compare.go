@@ -35,3 +35,22 @@ func CompareDirs(dirs []string) (*report.Comparison, error) {
 	}
 	return report.Compare(runs)
 }
+
+// PlotMarginalsDirs overlays the marginal posteriors of the parameters of
+// cmp (those every run shares) of the run directories, to base.png and
+// base.svg.
+func PlotMarginalsDirs(base string, dirs []string, cmp *report.Comparison) error {
+	runs := make([]report.MarginalRun, len(dirs))
+	for i, d := range dirs {
+		c, err := retrieve.ReadPosterior(d)
+		if err != nil {
+			return fmt.Errorf("run %s: %w", d, err)
+		}
+		runs[i] = report.MarginalRun{Label: filepath.Clean(d), Chain: c}
+	}
+	names := make([]string, len(cmp.Parameters))
+	for i, p := range cmp.Parameters {
+		names[i] = p.Name
+	}
+	return report.PlotMarginals(base, runs, names)
+}

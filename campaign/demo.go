@@ -54,6 +54,7 @@ type DemoOptions struct {
 	DemoCache string
 	Progress  retrieve.Progress
 	Log       io.Writer
+	HTML      bool // also write report.html
 }
 
 // DemoTruth returns the truth configuration of the demo scenario.
@@ -113,7 +114,7 @@ func Demo(ctx context.Context, opt DemoOptions) (*retrieve.RunReport, error) {
 	if err := atomicfile.Write(cfgPath, text, true); err != nil {
 		return nil, err
 	}
-	rep, err := retrieve.Fit(ctx, retrieve.FitOptions{ConfigPath: cfgPath, RunDir: runDir, Force: opt.Force, Workers: opt.Workers, DemoCache: opt.DemoCache, Progress: opt.Progress, Log: log})
+	rep, err := retrieve.Fit(ctx, retrieve.FitOptions{ConfigPath: cfgPath, RunDir: runDir, Force: opt.Force, Workers: opt.Workers, DemoCache: opt.DemoCache, Progress: opt.Progress, Log: log, Truth: truth, HTML: opt.HTML})
 	if rep != nil {
 		rep.ConfigFile, rep.ObservationFile = cfgPath, obsPath
 	}

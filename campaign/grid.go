@@ -1082,7 +1082,18 @@ func (g *Grid) RunPoint(ctx context.Context, i int, opt PointOptions) (*retrieve
 	if err := os.Remove(ef); err != nil && !errors.Is(err, os.ErrNotExist) {
 		return nil, err
 	}
-	r, err := fitOrResume(ctx, "chord grid", filepath.Join(g.PointDir(i), "fit.toml"), g.RunDir(i), opt.Opacity, config.StopRule{}, opt.Workers, opt.DemoCache, opt.Progress, log)
+	fit := filepath.Join(g.PointDir(i), "fit.toml")
+	var truth *config.ModelConfig
+	if g.rec.Kind == "scenario" {
+		// The point observed its scenario, whose model sections the fit
+		// configuration keeps: they are the truth of its report.
+		var c config.Config
+		if _, err := config.DecodeStrict(fit, &c); err != nil {
+			return nil, err
+		}
+		truth = &c.ModelConfig
+	}
+	r, err := fitOrResume(ctx, "chord grid", fit, g.RunDir(i), opt.Opacity, config.StopRule{}, opt.Workers, opt.DemoCache, opt.Progress, log, truth)
 	if err != nil && !interrupted(ctx, err) {
 		// Kept for chord grid status; the next attempt removes it.
 		atomicfile.Write(ef, []byte(strings.ReplaceAll(err.Error(), "\n", " ")+"\n"), true)
@@ -1097,10 +1108,11 @@ func interrupted(ctx context.Context, err error) bool {
 }
 
 // fitOrResume starts, resumes or keeps the fit of cfg in run (who names
-// the command in log lines): a run with
+// the command in log lines; truth, when known, is the simulated truth): a
+// run with
 // a summary is kept, one with a checkpoint resumed, any other started
 // afresh (replacing what a run killed before its first checkpoint left).
-func fitOrResume(ctx context.Context, who, cfg, run string, set *opacity.Set, stop config.StopRule, workers *int, cache string, prog retrieve.Progress, log io.Writer) (*retrieve.RunReport, error) {
+func fitOrResume(ctx context.Context, who, cfg, run string, set *opacity.Set, stop config.StopRule, workers *int, cache string, prog retrieve.Progress, log io.Writer, truth *config.ModelConfig) (*retrieve.RunReport, error) {
 	if _, err := os.Stat(filepath.Join(run, "summary.json")); err == nil {
 		s, err := report.ReadSummary(run)
 		if err != nil {
@@ -1114,7 +1126,7 @@ func fitOrResume(ctx context.Context, who, cfg, run string, set *opacity.Set, st
 		return retrieve.Resume(ctx, run, retrieve.ResumeOptions{Stop: stop, Workers: workers, Opacity: set, DemoCache: cache, Progress: prog, Log: log})
 	}
 	fmt.Fprintf(log, "%s: fitting %s\n", who, run)
-	return retrieve.Fit(ctx, retrieve.FitOptions{ConfigPath: cfg, RunDir: run, Force: true, Workers: workers, Stop: stop, Opacity: set, DemoCache: cache, Progress: prog, Log: log})
+	return retrieve.Fit(ctx, retrieve.FitOptions{ConfigPath: cfg, RunDir: run, Force: true, Workers: workers, Stop: stop, Opacity: set, DemoCache: cache, Progress: prog, Log: log, Truth: truth})
 }
 
 // LocalOptions configures RunLocal.
@@ -1128,6 +1140,11 @@ type LocalOptions struct {
 	Log       io.Writer // one line per point started and finished; nil discards
 	// Points to run; nil means every point not done.
 	Points []int
+	// OnPoint, when set, is told after each point that ends (done,
+	// stopped or failed) how many of the grid's points are done and how
+	// many it has; it is called once before the first point, and from one
+	// goroutine at a time.
+	OnPoint func(done, total int)
 }
 
 // LocalReport is what RunLocal returns.
@@ -1181,6 +1198,25 @@ func (g *Grid) RunLocal(ctx context.Context, opt LocalOptions) (*LocalReport, er
 		pset[i] = sets[k]
 	}
 	rep := &LocalReport{}
+	doneBefore := len(g.Points) - len(pts)
+	if opt.Points != nil {
+		st, err := g.Status()
+		if err != nil {
+			return nil, err
+		}
+		doneBefore = 0
+		for _, s := range st {
+			if s.State == PointDone {
+				doneBefore++
+			}
+		}
+	}
+	progress := func() {
+		if opt.OnPoint != nil {
+			opt.OnPoint(doneBefore+len(rep.Done), len(g.Points))
+		}
+	}
+	progress()
 	var mu sync.Mutex
 	sem := make(chan struct{}, jobs)
 	var wg sync.WaitGroup
@@ -1229,6 +1265,7 @@ start:
 				rep.Done = append(rep.Done, i)
 				fmt.Fprintf(log, "chord grid: point %d: done\n", i)
 			}
+			progress()
 		}()
 	}
 	wg.Wait()

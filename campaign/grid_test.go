@@ -3,6 +3,7 @@ package campaign
 import (
 	"bytes"
 	"context"
+	"fmt"
 	"io/fs"
 	"os"
 	"path/filepath"
@@ -244,9 +245,16 @@ func TestGridStoppedAndResumedEqualsUninterrupted(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	rep, err := g.RunLocal(context.Background(), LocalOptions{Jobs: 2})
+	var calls []string
+	rep, err := g.RunLocal(context.Background(), LocalOptions{Jobs: 2, OnPoint: func(done, total int) { calls = append(calls, fmt.Sprintf("%d/%d", done, total)) }})
 	if err != nil || len(rep.Done) != 2 {
 		t.Fatalf("local run: %+v %v", rep, err)
+	}
+	if got := strings.Join(calls, " "); got != "0/2 1/2 2/2" {
+		t.Errorf("points progress %q, want 0/2 1/2 2/2", got)
+	}
+	if truth, err := retrieve.ReadTruth(g.RunDir(1)); err != nil || len(truth) == 0 {
+		t.Errorf("a scenario point's truth: %v %v", truth, err)
 	}
 	want, err := g.CollectGrid()
 	if err != nil {

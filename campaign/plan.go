@@ -105,6 +105,10 @@ type PlanOptions struct {
 	DemoCache    string
 	Progress     retrieve.Progress
 	Log          io.Writer // nil means Progress.Writer
+	// OnLevel, when set, is told after each level's fit ends how many of
+	// the plan's levels are done and how many it has (once before the
+	// first, too).
+	OnLevel func(done, total int)
 }
 
 // PlanLevel is one level of a plan and its fit.
@@ -237,9 +241,15 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 		}
 	}
 	rep := &PlanReport{Dir: opt.Dir}
+	onLevel := func(done int) {
+		if opt.OnLevel != nil {
+			opt.OnLevel(done, len(lv))
+		}
+	}
+	onLevel(0)
 	for i := range lv {
 		l := &lv[i]
-		r, err := fitOrResume(ctx, "chord plan", l.cfg, l.run, set, spec.stop(), opt.Workers, opt.DemoCache, opt.Progress, log)
+		r, err := fitOrResume(ctx, "chord plan", l.cfg, l.run, set, spec.stop(), opt.Workers, opt.DemoCache, opt.Progress, log, &sc.Config.ModelConfig)
 		if err != nil && interrupted(ctx, err) {
 			rep.Interrupted = true
 			return rep, nil
@@ -256,6 +266,7 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 			rep.Interrupted = true
 			return rep, nil
 		}
+		onLevel(i + 1)
 	}
 	if err := rep.compare(log); err != nil {
 		return nil, err

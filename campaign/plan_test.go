@@ -67,7 +67,12 @@ func TestPlanWidthsScaleWithNoise(t *testing.T) {
 	if n := rep.Comparison.Runs[1].NoisePPM; n != 40 {
 		t.Errorf("noise level of the second run %g, want 40", n)
 	}
-	for _, f := range []string{"comparison.txt", "comparison.json", "widths.png", PlanFile, "scenario.toml", "noise-0020ppm/observation.csv", "noise-0040ppm/run/summary.json"} {
+	// The scenario is the truth of each level's report (retrieve.ReadTruth).
+	truth, err := retrieve.ReadTruth(filepath.Join(plan, "noise-0040ppm", "run"))
+	if err != nil || len(truth) != 2 {
+		t.Errorf("truth of a level: %v %v, want the 2 free parameters' true values", truth, err)
+	}
+	for _, f := range []string{"comparison.txt", "comparison.json", "widths.png", PlanFile, "scenario.toml", "noise-0020ppm/observation.csv", "noise-0040ppm/run/summary.json", "noise-0040ppm/run/temperature.png"} {
 		if _, err := os.Stat(filepath.Join(plan, f)); err != nil {
 			t.Errorf("plan lacks %s: %v", f, err)
 		}

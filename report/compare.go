@@ -9,7 +9,6 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
-	"strconv"
 	"strings"
 	"text/tabwriter"
 
@@ -17,7 +16,6 @@ import (
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
-	"gonum.org/v1/plot/vg/vgimg"
 )
 
 // Comparison of posterior widths between runs (chord compare, chord plan).
@@ -138,9 +136,6 @@ func Compare(runs []CompareRun) (*Comparison, error) {
 			w := RunWidth{Median: p.Median, Width68: p.P84 - p.P16, Width95: p.P97_5 - p.P2_5}
 			if p.Gas != nil {
 				w.Gas, w.Class = p.Gas.Verdict, p.Gas.Class
-				if NeedsLifeCaution(p.Gas.Gas, p.Gas.Class) && !slices.Contains(c.Cautions, LifeCaution) {
-					c.Cautions = append(c.Cautions, LifeCaution)
-				}
 			}
 			pw.Width = append(pw.Width, w)
 		}
@@ -155,6 +150,15 @@ func Compare(runs []CompareRun) (*Comparison, error) {
 	}
 	for i := range c.Parameters {
 		c.byName[c.Parameters[i].Name] = &c.Parameters[i]
+	}
+	// Each run's summary holds the cautions its detections call for, with
+	// the context of its atmosphere (Caution).
+	for _, r := range runs {
+		for _, m := range r.Summary.Cautions {
+			if !slices.Contains(c.Cautions, m) {
+				c.Cautions = append(c.Cautions, m)
+			}
+		}
 	}
 	for _, d := range c.Dropped {
 		c.Notes = append(c.Notes, fmt.Sprintf("parameter %s dropped: not in run(s) %s", d.Name, strings.Join(d.MissingIn, ", ")))
@@ -217,7 +221,8 @@ func (c *Comparison) WriteTable(w io.Writer) error {
 
 // WritePlot draws the 68% width against the noise level, one panel per
 // parameter on log-log axes, with the line width proportional to noise
-// through the first run for reference, and writes it as PNG to path.
+// through the first run for reference, and writes it as PNG and SVG (path
+// with its extension replaced by .png and .svg).
 // Upper limits are drawn as open triangles (their width is not a
 // measurement). It needs at least two runs with different noise levels.
 func (c *Comparison) WritePlot(path string) error {
@@ -243,18 +248,19 @@ func (c *Comparison) WritePlot(path string) error {
 		plots[k/cols][k%cols] = pl
 	}
 	const tile = 3 * vg.Inch
-	img := vgimg.New(vg.Length(cols)*tile, vg.Length(rows)*tile)
-	dc := draw.New(img)
-	t := draw.Tiles{Rows: rows, Cols: cols, PadTop: 4, PadBottom: 4, PadLeft: 4, PadRight: 8, PadX: 12, PadY: 12}
-	canvases := plot.Align(plots, t, dc)
-	for i := range plots {
-		for j, pl := range plots[i] {
-			if pl != nil {
-				pl.Draw(canvases[i][j])
+	fig := figure{w: vg.Length(cols) * tile, h: vg.Length(rows) * tile, draw: func(dc draw.Canvas) error {
+		t := draw.Tiles{Rows: rows, Cols: cols, PadTop: 4, PadBottom: 4, PadLeft: 4, PadRight: 8, PadX: 12, PadY: 12}
+		canvases := plot.Align(plots, t, dc)
+		for i := range plots {
+			for j, pl := range plots[i] {
+				if pl != nil {
+					pl.Draw(canvases[i][j])
+				}
 			}
 		}
-	}
-	if err := writePNG(path, vgimg.PngCanvas{Canvas: img}); err != nil {
+		return nil
+	}}
+	if err := fig.save(pathBase(path)); err != nil {
 		return fmt.Errorf("compare: plot %s: %w", path, err)
 	}
 	return nil
@@ -323,33 +329,6 @@ func widthPanel(p ParameterWidths, runs []ComparedRun, lo, hi float64) (*plot.Pl
 		pl.Y.Min, pl.Y.Max = ylo/1.6, yhi*1.6
 	}
 	return pl, nil
-}
-
-// logTicks labels log axes at 1, 2 and 5 times powers of ten, with minor
-// ticks at the other integers, so that ranges narrower than a decade (the
-// usual case for widths) still carry numbers.
-type logTicks struct{}
-
-func (logTicks) Ticks(min, max float64) []plot.Tick {
-	if !(min > 0) || !(max > min) {
-		return nil
-	}
-	var ticks []plot.Tick
-	for e := math.Floor(math.Log10(min)); e <= math.Ceil(math.Log10(max)); e++ {
-		p := math.Pow(10, e)
-		for m := 1.0; m < 10; m++ {
-			v := m * p
-			if v < min || v > max {
-				continue
-			}
-			t := plot.Tick{Value: v}
-			if m == 1 || m == 2 || m == 5 {
-				t.Label = strconv.FormatFloat(v, 'g', 3, 64)
-			}
-			ticks = append(ticks, t)
-		}
-	}
-	return ticks
 }
 
 // ReadSummary reads a run directory's summary.json.

@@ -31,6 +31,10 @@ func TestCompareWidthsAndDropped(t *testing.T) {
 		{Label: "b", NoisePPM: 60, Summary: summaryWith(col("T", 500, 20, 41), ch4b)},
 	}
 	runs[1].Summary.Converged = false
+	// Each summary holds the cautions its detections call for (Summarize);
+	// the comparison carries them, once.
+	runs[0].Summary.Cautions = []string{LifeCaution}
+	runs[1].Summary.Cautions = []string{LifeCaution}
 	c, err := Compare(runs)
 	if err != nil {
 		t.Fatal(err)

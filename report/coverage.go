@@ -26,7 +26,7 @@ type Coverage struct {
 	// TMin and TMax are the central 95% of the posterior's layer
 	// temperatures (K): the 2.5th percentile of the samples' coldest
 	// layer and the 97.5th of their hottest; filled by Write from the
-	// model (TemperatureModel), 0 when unknown.
+	// model's temperatures (SampleView.Temperature), 0 when unknown.
 	TMin float64 `json:"t_min_k,omitempty"`
 	TMax float64 `json:"t_max_k,omitempty"`
 }
@@ -50,15 +50,6 @@ type TableCoverage struct {
 	TMax float64 `json:"t_max_k"`
 	PMin float64 `json:"p_min_pa,omitempty"`
 	PMax float64 `json:"p_max_pa,omitempty"`
-}
-
-// TemperatureModel is a Model that can also give the temperatures of its
-// layers at a parameter vector, for the table-coverage check.
-type TemperatureModel interface {
-	Model
-	// TemperatureRange returns the coldest and hottest layer temperature
-	// (K) of the model atmosphere at x.
-	TemperatureRange(x []float64) (lo, hi float64, err error)
 }
 
 // setTemperatures records the central 95% of the samples' temperature

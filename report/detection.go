@@ -435,23 +435,37 @@ func ClassifyGas(samples []float64, low, high, ess float64) (GasDetection, error
 // "upper limit, log10 < -5.32 (95%)". Whenever the significance is not a
 // plain estimate the note says why.
 func (d GasDetection) Describe() string {
-	var s string
+	s := verdictHead(d.Class, d.Sigma, d.SigmaIsBound, d.Upper95)
 	switch {
-	case d.Class == Undetermined:
-		s = "undetermined"
 	case d.Class == UpperLimit:
-		s = fmt.Sprintf("upper limit, log10 < %.2f (95%%)", d.Upper95)
-	case d.SigmaIsBound && d.Sigma == 0:
-		s = fmt.Sprintf("%s, significance not measurable", d.Class)
-	case d.SigmaIsBound:
-		s = fmt.Sprintf("%s, > %.1f sigma (lower bound)", d.Class, d.Sigma)
-	default:
-		s = fmt.Sprintf("%s, %.1f sigma (ln B = %.1f +- %.1f)", d.Class, d.Sigma, d.LnB10, d.LnB10Err)
+		s += " (95%)"
+	case d.SigmaIsBound && d.Sigma > 0:
+		s += " (lower bound)"
+	case !d.SigmaIsBound && d.Class != Undetermined:
+		s += fmt.Sprintf(" (ln B = %.1f +- %.1f)", d.LnB10, d.LnB10Err)
 	}
 	if d.Note != "" {
 		s += "; " + d.Note
 	}
 	return s
+}
+
+// verdictHead is the short verdict: the class and the significance (a
+// lower bound rounded down, floorTenth), or the upper limit:
+// "detected, 4.1 sigma", "detected, > 3.8 sigma", "upper limit, log10 <
+// -5.32", "undetermined".
+func verdictHead(class GasClass, sigma float64, bound bool, upper95 float64) string {
+	switch {
+	case class == Undetermined:
+		return "undetermined"
+	case class == UpperLimit:
+		return fmt.Sprintf("upper limit, log10 < %.2f", upper95)
+	case bound && sigma == 0:
+		return fmt.Sprintf("%s, significance not measurable", class)
+	case bound:
+		return fmt.Sprintf("%s, > %s sigma", class, floorTenth(sigma))
+	}
+	return fmt.Sprintf("%s, %.1f sigma", class, sigma)
 }
 
 // LifeCautionGases are the gases whose detection, on Earth, is associated
@@ -468,7 +482,50 @@ const LifeCaution = "Caution: a detected gas is not by itself evidence of life. 
 
 // NeedsLifeCaution reports whether a verdict on gas calls for LifeCaution:
 // the gas (a chemical formula as in the configuration, e.g. "CH4") is one
-// of LifeCautionGases and is reported detected.
+// of LifeCautionGases and is reported detected. Caution chooses between
+// LifeCaution and MethaneChemistryNote with the atmosphere's context.
 func NeedsLifeCaution(gas string, class GasClass) bool {
 	return class == Detected && slices.Contains(LifeCautionGases, gas)
+}
+
+// CoolMethaneK is the limb temperature below which methane is expected in
+// a hydrogen-rich atmosphere: in gas of solar composition near 1 bar,
+// methane replaces carbon monoxide as the main carrier of carbon below
+// roughly 1000-1100 K (Lodders & Fegley 2002, Icarus 155, 393).
+const CoolMethaneK = 1000.0
+
+// MethaneChemistryNote replaces LifeCaution for methane detected in a cool,
+// hydrogen-rich atmosphere, where chemistry predicts it.
+const MethaneChemistryNote = "Note on methane: in a hydrogen-rich atmosphere at about 1000 K or cooler, equilibrium chemistry " +
+	"makes methane the main carrier of carbon (Lodders & Fegley 2002, Icarus 155, 393), so its detection here is " +
+	"expected chemistry, not a sign of life. The significance still rests on the model's assumptions " +
+	"(composition, temperature profile, clouds, the opacities used, the star)."
+
+// Atmosphere is what the cautions need to know of a fitted atmosphere.
+type Atmosphere struct {
+	// HydrogenRich is set when the fill gas is H2+He (a giant or
+	// sub-Neptune envelope), unset for a rocky planet's N2, CO2, ... fill.
+	HydrogenRich bool `json:"hydrogen_rich"`
+	// TemperatureColumn names the free parameter giving the limb
+	// temperature (its median is used); empty when the temperature is fixed.
+	TemperatureColumn string `json:"temperature_column,omitempty"`
+	// TemperatureK is the fixed limb temperature (K) when no column gives
+	// it; NaN or 0 when unknown.
+	TemperatureK float64 `json:"temperature_k,omitempty"`
+}
+
+// Caution returns the caution printed for a detection of gas with the
+// atmosphere's context (limb temperature t, K; NaN when unknown): "" when
+// none applies, MethaneChemistryNote for methane in a cool hydrogen-rich
+// atmosphere, else LifeCaution for LifeCautionGases. Oxygen and ozone, and
+// any of the three in an atmosphere that is not hydrogen-rich (a rocky
+// planet's), keep the full caution.
+func Caution(gas string, class GasClass, a *Atmosphere, t float64) string {
+	if !NeedsLifeCaution(gas, class) {
+		return ""
+	}
+	if gas == "CH4" && a != nil && a.HydrogenRich && t > 0 && t <= CoolMethaneK {
+		return MethaneChemistryNote
+	}
+	return LifeCaution
 }

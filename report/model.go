@@ -2,15 +2,9 @@ package report
 
 import (
 	"bufio"
-	"errors"
 	"fmt"
 	"io"
-	"math"
 	"strconv"
-
-	"gonum.org/v1/plot"
-	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/vg"
 
 	"chord/forward"
 	"chord/internal/version"
@@ -51,33 +45,56 @@ func (s *ModelSpectrum) WriteCSV(w io.Writer) error {
 	return bw.Flush()
 }
 
-// Plot draws the spectrum to path as PNG on a logarithmic wavelength axis,
-// bins as steps.
+// Plot draws the spectrum to base.png and base.svg (a .png or .svg
+// extension of path is dropped), bins as steps.
 func (s *ModelSpectrum) Plot(path string) error {
-	p := spectrumPlot(s.Title, s.Demo)
-	p.X.Scale = plot.LogScale{}
-	p.X.Tick.Marker = plot.LogTicks{Prec: -1}
-	pts := make(plotter.XYs, 0, 2*len(s.Depth))
-	for i := range s.Depth {
-		if s.Lo != nil { // bins as steps
-			pts = append(pts, plotter.XY{X: s.Lo[i] / forward.Micron, Y: s.Depth[i] * 1e6}, plotter.XY{X: s.Hi[i] / forward.Micron, Y: s.Depth[i] * 1e6})
-			continue
+	return PlotGases(path, &GasesPlot{Title: s.Title, Demo: s.Demo, Wavelength: um(s.Wavelength), Lo: um(s.Lo), Hi: um(s.Hi), Full: ppm(s.Depth)})
+}
+
+// WithoutEachGas computes the spectrum of state s of model m with each
+// trace gas of the model removed in turn (its mixing ratio set to 0, the
+// fill gas taking its place), in ppm: what chord spectrum --by-gas draws.
+func WithoutEachGas(m *forward.Model, s forward.State) ([]GasCurve, error) {
+	w := m.NewWorkspace()
+	var out []GasCurve
+	vmr := append([]float64(nil), s.VMR...)
+	defer func() { copy(s.VMR, vmr) }()
+	for i, g := range m.Gases() {
+		copy(s.VMR, vmr)
+		s.VMR[i] = 0
+		d := make([]float64, m.OutputLen())
+		if err := m.Transit(d, &s, w); err != nil {
+			return nil, fmt.Errorf("spectrum without %s: %w", g, err)
 		}
-		pts = append(pts, plotter.XY{X: s.Wavelength[i] / forward.Micron, Y: s.Depth[i] * 1e6})
+		out = append(out, GasCurve{Gas: g, Depth: ppm(d)})
 	}
-	for _, q := range pts {
-		if math.IsNaN(q.Y) || math.IsInf(q.Y, 0) {
-			return errors.New("spectrum plot: depth is not finite")
-		}
+	return out, nil
+}
+
+// PlotByGas draws the spectrum and the spectrum with each gas removed
+// (WithoutEachGas) to base.png and base.svg.
+func (s *ModelSpectrum) PlotByGas(path string, without []GasCurve) error {
+	return PlotGases(path, &GasesPlot{Title: s.Title + ": each gas removed", Demo: s.Demo, Wavelength: um(s.Wavelength), Lo: um(s.Lo), Hi: um(s.Hi),
+		Full: ppm(s.Depth), FullLabel: "all gases", Without: without})
+}
+
+// um converts metres to micrometres (nil stays nil).
+func um(m []float64) []float64 {
+	if m == nil {
+		return nil
 	}
-	l, err := plotter.NewLine(pts)
-	if err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
+	out := make([]float64, len(m))
+	for i, v := range m {
+		out[i] = v / forward.Micron
 	}
-	l.Width = vg.Points(1)
-	p.Add(l)
-	if err := saveSpectrum(p, path); err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
+	return out
+}
+
+// ppm converts fractions to parts per million.
+func ppm(f []float64) []float64 {
+	out := make([]float64, len(f))
+	for i, v := range f {
+		out[i] = v * 1e6
 	}
-	return nil
+	return out
 }

@@ -1,24 +1,20 @@
 package report
 
 import (
-	"bytes"
 	"fmt"
 	"image/color"
-	"io"
 	"math"
 	"slices"
 	"sort"
 	"strconv"
 
 	"chord/chains"
-	"chord/internal/atomicfile"
 
 	"gonum.org/v1/gonum/stat"
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
-	"gonum.org/v1/plot/vg/vgimg"
 )
 
 // Plots of a run: corner.png and spectrum.png, drawn with gonum.org/v1/plot.
@@ -31,13 +27,6 @@ var (
 	mass2Sigma2D = 1 - math.Exp(-2)
 )
 
-// Band quantiles of the spectrum plot: the central 68.27% and 95.45% of the
-// model depths in each bin (1 and 2 sigma of a normal distribution).
-const (
-	band1Lo, band1Hi = 0.158655, 0.841345
-	band2Lo, band2Hi = 0.02275, 0.97725
-)
-
 const (
 	cornerBins   = 30     // histogram bins per axis
 	cornerPanel  = 2.2    // panel size, inches
@@ -45,18 +34,127 @@ const (
 )
 
 var (
-	colorBlue  = color.RGBA{R: 31, G: 90, B: 160, A: 255}
-	colorBand1 = color.NRGBA{R: 31, G: 90, B: 160, A: 110}
-	colorBand2 = color.NRGBA{R: 31, G: 90, B: 160, A: 50}
-	colorGrey  = color.Gray{Y: 150}
+	colorBlue = color.RGBA{R: 31, G: 90, B: 160, A: 255}
+	colorGrey = color.Gray{Y: 150}
 )
 
-// PlotCorner draws the corner plot of the named columns of c (every column
-// of role parameter when names is nil) to path: 1-D marginal histograms
-// with the 16th, 50th and 84th percentiles marked, and 2-D histograms with
-// the contours enclosing 39.3% and 86.5% of the samples (1 and 2 sigma in
-// two dimensions). thin keeps every thin-th step.
-func PlotCorner(path string, c *chains.Chain, names []string, thin int, demo bool) error {
+// CornerOptions configures PlotCorner.
+type CornerOptions struct {
+	// Names are the columns drawn; nil means every column of role
+	// parameter.
+	Names []string
+	Thin  int // keep every Thin-th step; 0 means 1
+	Demo  bool
+	// Truth gives true values by column name (demo, simulations); a column
+	// without one has no truth line.
+	Truth map[string]float64
+}
+
+// PlotCorner draws the corner plot of the columns of c to base.png and
+// base.svg: 1-D marginal histograms with the median and the 68% interval
+// marked and written above each, and 2-D histograms with the contours
+// enclosing 39.3% and 86.5% of the samples (1 and 2 sigma in two
+// dimensions), with the true values when known. A parameter has the same
+// axis range in every panel where it appears.
+func PlotCorner(base string, c *chains.Chain, opt CornerOptions) error {
+	plots, labels, err := cornerPlots(c, opt)
+	if err != nil {
+		return err
+	}
+	n := len(plots)
+	w := vg.Length(n)*cornerPanel*vg.Inch + cornerLeft + cornerRight
+	h := vg.Length(n)*cornerPanel*vg.Inch + cornerBottom + cornerTop
+	return figure{w: w, h: h, draw: func(dc draw.Canvas) error {
+		if opt.Demo {
+			// The demo label at the top right, where the corner leaves room.
+			st := draw.TextStyle{Color: colorTruth, Font: plot.DefaultFont, Handler: plot.DefaultTextHandler, XAlign: draw.XRight, YAlign: draw.YTop}
+			st.Font.Size = vg.Points(14)
+			dc.FillText(st, vg.Point{X: dc.Max.X - vg.Points(10), Y: dc.Max.Y - vg.Points(10)}, "demo opacities: not for science")
+		}
+		canvases := cornerCanvases(plots, dc)
+		for row := range n {
+			for col := 0; col <= row; col++ {
+				plots[row][col].Draw(canvases[row][col])
+			}
+		}
+		// The axis labels in the margins: below the bottom row, and turned
+		// up beside the first column.
+		style := draw.TextStyle{Color: color.Black, Font: plot.DefaultFont, Handler: plot.DefaultTextHandler, XAlign: draw.XCenter}
+		style.Font.Size = vg.Points(11)
+		for col := range n {
+			da := plots[n-1][col].DataCanvas(canvases[n-1][col])
+			st := style
+			st.YAlign = draw.YTop
+			dc.FillText(st, vg.Point{X: (da.Min.X + da.Max.X) / 2, Y: da.Min.Y - vg.Points(24)}, labels[col])
+		}
+		for row := 1; row < n; row++ {
+			da := plots[row][0].DataCanvas(canvases[row][0])
+			st := style
+			st.Rotation = math.Pi / 2
+			st.YAlign = draw.YTop
+			dc.FillText(st, vg.Point{X: dc.Min.X + vg.Points(6), Y: (da.Min.Y + da.Max.Y) / 2}, labels[row])
+		}
+		return nil
+	}}.save(pathBase(base))
+}
+
+// Margins of the corner plot: room for the tick labels and axis labels at
+// the left and bottom, the diagonal panels' two-line titles above each row.
+const (
+	cornerLeft   = 0.85 * vg.Inch
+	cornerBottom = 0.7 * vg.Inch
+	cornerTop    = 0.6 * vg.Inch
+	cornerRight  = 0.15 * vg.Inch
+	cornerGapX   = 0.22 * vg.Inch
+	cornerGapY   = 0.42 * vg.Inch
+)
+
+// cornerCanvases lays the corner plot's panels out on dc so that every
+// panel's data area is one cell of a regular grid: a parameter then sits
+// at one place across a row and down a column. (plot.Align aligns only
+// approximately: gonum/plot pads each panel by what its glyphs and labels
+// need, so panels whose samples crowd an edge, such as a cloud top piled
+// at its prior edge, came out shifted against their row, the bug of
+// issue 15.)
+func cornerCanvases(plots [][]*plot.Plot, dc draw.Canvas) [][]draw.Canvas {
+	n := len(plots)
+	w := (dc.Max.X - dc.Min.X - cornerLeft - cornerRight - vg.Length(n-1)*cornerGapX) / vg.Length(n)
+	h := (dc.Max.Y - dc.Min.Y - cornerBottom - cornerTop - vg.Length(n-1)*cornerGapY) / vg.Length(n)
+	out := make([][]draw.Canvas, n)
+	for row := range n {
+		out[row] = make([]draw.Canvas, n)
+		for col := 0; col <= row; col++ {
+			x0 := dc.Min.X + cornerLeft + vg.Length(col)*(w+cornerGapX)
+			y0 := dc.Min.Y + cornerBottom + vg.Length(n-1-row)*(h+cornerGapY)
+			target := vg.Rectangle{Min: vg.Point{X: x0, Y: y0}, Max: vg.Point{X: x0 + w, Y: y0 + h}}
+			out[row][col] = fitDataArea(plots[row][col], target, dc)
+		}
+	}
+	return out
+}
+
+// fitDataArea returns the canvas on which p draws its data area at target:
+// the padding of the tick marks and labels is found by trying (it depends
+// on the canvas only through the labels' normalised positions, so a round
+// or two settle it). The panels carry no axis labels, which gonum/plot
+// would pad for as well: PlotCorner writes them in the margins.
+func fitDataArea(p *plot.Plot, target vg.Rectangle, dc draw.Canvas) draw.Canvas {
+	c := dc
+	c.Rectangle = target
+	for range 6 {
+		d := p.DataCanvas(c)
+		c.Min.X += target.Min.X - d.Min.X
+		c.Min.Y += target.Min.Y - d.Min.Y
+		c.Max.X += target.Max.X - d.Max.X
+		c.Max.Y += target.Max.Y - d.Max.Y
+	}
+	return c
+}
+
+// cornerPlots builds the panels of the corner plot, row by row (panels
+// above the diagonal are nil), and the parameters' labels.
+func cornerPlots(c *chains.Chain, opt CornerOptions) ([][]*plot.Plot, []string, error) {
+	names := opt.Names
 	if names == nil {
 		for _, col := range c.Columns {
 			if col.Role == chains.RoleParameter {
@@ -65,33 +163,40 @@ func PlotCorner(path string, c *chains.Chain, names []string, thin int, demo boo
 		}
 	}
 	if len(names) == 0 {
-		return fmt.Errorf("corner plot: no parameters")
+		return nil, nil, fmt.Errorf("corner plot: no parameters")
 	}
-	if thin < 1 {
-		thin = 1
-	}
+	thin := max(opt.Thin, 1)
 	n := len(names)
 	data := make([][]float64, n)
 	labels := make([]string, n)
+	truth := make([]float64, n)
 	for i, name := range names {
 		v := c.Column(name)
 		if v == nil {
-			return fmt.Errorf("corner plot: no column %q in the chains", name)
+			return nil, nil, fmt.Errorf("corner plot: no column %q in the chains", name)
 		}
-		labels[i] = name
 		for _, col := range c.Columns {
-			if col.Name == name && col.Unit != "" {
-				labels[i] += " [" + col.Unit + "]"
+			if col.Name == name {
+				labels[i] = paramLabel(col)
 			}
 		}
 		data[i] = thinSamples(c, v, thin)
+		truth[i] = math.NaN()
+		if t, ok := opt.Truth[name]; ok {
+			truth[i] = t
+		}
 	}
 	lo, hi := make([]float64, n), make([]float64, n)
+	med, q16, q84 := make([]float64, n), make([]float64, n), make([]float64, n)
 	for i, x := range data {
 		s := slices.Clone(x)
 		slices.Sort(s)
-		lo[i] = stat.Quantile(0.002, stat.Empirical, s, nil)
-		hi[i] = stat.Quantile(0.998, stat.Empirical, s, nil)
+		q := func(p float64) float64 { return stat.Quantile(p, stat.Empirical, s, nil) }
+		med[i], q16[i], q84[i] = q(0.5), q(0.16), q(0.84)
+		lo[i], hi[i] = q(0.002), q(0.998)
+		if !math.IsNaN(truth[i]) {
+			lo[i], hi[i] = math.Min(lo[i], truth[i]), math.Max(hi[i], truth[i])
+		}
 		if !(hi[i] > lo[i]) {
 			lo[i], hi[i] = lo[i]-0.5-math.Abs(lo[i])*1e-3, hi[i]+0.5+math.Abs(hi[i])*1e-3
 		}
@@ -106,77 +211,35 @@ func PlotCorner(path string, c *chains.Chain, names []string, thin int, demo boo
 			p := plot.New()
 			var err error
 			if row == col {
-				err = marginalPanel(p, data[col], lo[col], hi[col])
+				err = marginalPanel(p, data[col], lo[col], hi[col], [3]float64{q16[col], med[col], q84[col]}, truth[col])
+				p.Title.Text = labels[col] + "\n" + intervalText(med[col], q16[col], q84[col])
+				p.Title.TextStyle.Font.Size = vg.Points(9)
 			} else {
-				err = jointPanel(p, data[col], data[row], lo[col], hi[col], lo[row], hi[row])
+				err = jointPanel(p, data[col], data[row], lo[col], hi[col], lo[row], hi[row], truth[col], truth[row])
 			}
 			if err != nil {
-				return fmt.Errorf("corner plot %s/%s: %w", names[col], names[row], err)
+				return nil, nil, fmt.Errorf("corner plot %s/%s: %w", names[col], names[row], err)
 			}
+			// The same range for a parameter in every panel, set after the
+			// plotters (which widen the axes to their data) were added.
 			p.X.Min, p.X.Max = lo[col], hi[col]
-			p.X.Tick.Marker, p.Y.Tick.Marker = exactTicks{}, exactTicks{}
-			if row == n-1 {
-				p.X.Label.Text = labels[col]
-			} else {
-				p.X.Tick.Label.Color = color.Transparent
+			if row != col {
+				p.Y.Min, p.Y.Max = lo[row], hi[row]
 			}
-			if col == 0 && row > 0 {
-				p.Y.Label.Text = labels[row]
-			} else {
-				p.Y.Tick.Label.Color = color.Transparent
+			p.X.Tick.Marker, p.Y.Tick.Marker = innerTicks{}, innerTicks{}
+			if row != n-1 {
+				p.X.Tick.Marker = unlabelled{p.X.Tick.Marker}
 			}
-			if row == 0 && col == 0 && demo {
-				p.Title.Text = "demo opacities: not for science"
+			if col != 0 || row == 0 {
+				p.Y.Tick.Marker = unlabelled{p.Y.Tick.Marker}
 			}
+			// No background: each panel's canvas reaches under its
+			// neighbours' tick labels, which a white fill would cover.
+			p.BackgroundColor = nil
 			plots[row][col] = p
 		}
 	}
-	size := vg.Length(n) * cornerPanel * vg.Inch
-	img := vgimg.New(size+0.6*vg.Inch, size+0.6*vg.Inch)
-	dc := draw.New(img)
-	tiles := draw.Tiles{Rows: n, Cols: n, PadX: vg.Millimeter, PadY: vg.Millimeter, PadTop: 2 * vg.Millimeter, PadRight: 4 * vg.Millimeter, PadLeft: 2 * vg.Millimeter, PadBottom: 2 * vg.Millimeter}
-	canvases := plot.Align(plots, tiles, dc)
-	for row := range n {
-		for col := 0; col <= row; col++ {
-			plots[row][col].Draw(canvases[row][col])
-		}
-	}
-	if err := writePNG(path, vgimg.PngCanvas{Canvas: img}); err != nil {
-		return fmt.Errorf("corner plot: %w", err)
-	}
-	return nil
-}
-
-// writePNG renders img into path atomically (atomicfile).
-func writePNG(path string, img io.WriterTo) error {
-	var buf bytes.Buffer
-	if _, err := img.WriteTo(&buf); err != nil {
-		return err
-	}
-	return atomicfile.Write(path, buf.Bytes(), true)
-}
-
-// spectrumPlot is the frame of a spectrum plot: the title (marked when the
-// opacities are the demo's), wavelength in um and transit depth in ppm.
-func spectrumPlot(title string, demo bool) *plot.Plot {
-	p := plot.New()
-	p.Title.Text = title
-	if demo {
-		p.Title.Text += " (demo opacities: not for science)"
-	}
-	p.X.Label.Text = "wavelength [um]"
-	p.Y.Label.Text = "transit depth [ppm]"
-	return p
-}
-
-// saveSpectrum writes a spectrum plot as a 9 x 5 inch PNG to path.
-func saveSpectrum(p *plot.Plot, path string) error {
-	p.Add(plotter.NewGrid())
-	wt, err := p.WriterTo(9*vg.Inch, 5*vg.Inch, "png")
-	if err != nil {
-		return err
-	}
-	return writePNG(path, wt)
+	return plots, labels, nil
 }
 
 // thinSamples keeps every thin-th step of v and thins further, evenly, to
@@ -199,7 +262,9 @@ func thinSamples(c *chains.Chain, v []float64, thin int) []float64 {
 	return out
 }
 
-func marginalPanel(p *plot.Plot, x []float64, lo, hi float64) error {
+// histogramSteps is the normalised cornerBins-bin histogram of x over
+// [lo, hi] as a step line, and its highest density.
+func histogramSteps(x []float64, lo, hi float64) (plotter.XYs, float64) {
 	counts := make([]float64, cornerBins)
 	w := (hi - lo) / cornerBins
 	for _, v := range x {
@@ -214,29 +279,47 @@ func marginalPanel(p *plot.Plot, x []float64, lo, hi float64) error {
 		top = math.Max(top, d)
 		steps = append(steps, plotter.XY{X: lo + float64(b)*w, Y: d}, plotter.XY{X: lo + float64(b+1)*w, Y: d})
 	}
+	return steps, top
+}
+
+func marginalPanel(p *plot.Plot, x []float64, lo, hi float64, q [3]float64, truth float64) error {
+	steps, top := histogramSteps(x, lo, hi)
 	l, err := plotter.NewLine(steps)
 	if err != nil {
 		return err
 	}
 	l.Color = colorBlue
 	p.Add(l)
-	s := slices.Clone(x)
-	slices.Sort(s)
-	for _, q := range []float64{0.16, 0.5, 0.84} {
-		v := stat.Quantile(q, stat.Empirical, s, nil)
+	for k, v := range q {
 		ql, err := plotter.NewLine(plotter.XYs{{X: v, Y: 0}, {X: v, Y: 1.05 * top}})
 		if err != nil {
 			return err
 		}
 		ql.Color = color.Black
-		if q != 0.5 {
+		if k != 1 {
 			ql.Dashes = []vg.Length{vg.Points(3), vg.Points(2)}
 		}
 		p.Add(ql)
 	}
+	if !math.IsNaN(truth) {
+		tl, err := plotter.NewLine(plotter.XYs{{X: truth, Y: 0}, {X: truth, Y: 1.05 * top}})
+		if err != nil {
+			return err
+		}
+		tl.Color, tl.Width = colorTruth, vg.Points(1.2)
+		p.Add(tl)
+	}
 	p.Y.Min, p.Y.Max = 0, 1.1*top
 	return nil
 }
+
+// noGlyphBoxes hides a plotter's glyph boxes. gonum/plot shrinks a
+// panel's data area so that the glyphs near its edges fit inside, by as
+// much as the glyphs near the edge need: panels of one row of a corner plot
+// whose samples crowd an edge differently (a cloud top piled at its prior
+// edge) then drew the same parameter over different heights, the bug of
+// issue 15. Glyphs at the edge are clipped by half their size instead.
+type noGlyphBoxes struct{ plot.Plotter }
 
 // density2D is a smoothed 2-D histogram, a plotter.GridXYZ.
 type density2D struct {
@@ -268,7 +351,7 @@ func (g *density2D) massLevel(m float64) float64 {
 	return s[len(s)-1]
 }
 
-func jointPanel(p *plot.Plot, x, y []float64, xlo, xhi, ylo, yhi float64) error {
+func jointPanel(p *plot.Plot, x, y []float64, xlo, xhi, ylo, yhi, tx, ty float64) error {
 	n := cornerBins
 	g := &density2D{n: n, x0: xlo, dx: (xhi - xlo) / float64(n), y0: ylo, dy: (yhi - ylo) / float64(n)}
 	raw := make([]float64, n*n)
@@ -308,7 +391,7 @@ func jointPanel(p *plot.Plot, x, y []float64, xlo, xhi, ylo, yhi float64) error 
 	}
 	sc.GlyphStyle.Radius = vg.Points(0.6)
 	sc.GlyphStyle.Color = colorGrey
-	p.Add(sc)
+	p.Add(noGlyphBoxes{sc})
 	l1, l2 := g.massLevel(mass1Sigma2D), g.massLevel(mass2Sigma2D)
 	if l1 > l2 && l2 > 0 {
 		ct := plotter.NewContour(g, []float64{l2, l1}, nil)
@@ -318,112 +401,51 @@ func jointPanel(p *plot.Plot, x, y []float64, xlo, xhi, ylo, yhi float64) error 
 		}
 		p.Add(ct)
 	}
-	p.Y.Min, p.Y.Max = ylo, yhi
-	return nil
-}
-
-// SpectrumPlot is the content of spectrum.png.
-type SpectrumPlot struct {
-	Wavelength []float64   // bin centres, um
-	HalfWidth  []float64   // bin half widths, um
-	Depth      []float64   // observed transit depth, ppm
-	Error      []float64   // its 1-sigma error, ppm
-	Models     [][]float64 // model depths at the bins, ppm, one per posterior sample
-	Title      string
-	Demo       bool
-}
-
-// PlotSpectrum draws the data with error bars, the median model and the 1
-// and 2 sigma bands of the posterior models to path.
-func PlotSpectrum(path string, s *SpectrumPlot) error {
-	nb := len(s.Wavelength)
-	if nb == 0 || len(s.Depth) != nb || len(s.Error) != nb || len(s.HalfWidth) != nb {
-		return fmt.Errorf("spectrum plot: %d wavelengths, %d half widths, %d depths, %d errors", nb, len(s.HalfWidth), len(s.Depth), len(s.Error))
-	}
-	order := make([]int, nb)
-	for i := range order {
-		order[i] = i
-	}
-	sort.SliceStable(order, func(a, b int) bool { return s.Wavelength[order[a]] < s.Wavelength[order[b]] })
-
-	p := spectrumPlot(s.Title, s.Demo)
-	if len(s.Models) > 0 {
-		q := func(lo, hi float64) (plotter.XYs, plotter.XYs) {
-			a, b := make(plotter.XYs, nb), make(plotter.XYs, nb)
-			col := make([]float64, len(s.Models))
-			for i, j := range order {
-				for m, mod := range s.Models {
-					col[m] = mod[j]
-				}
-				slices.Sort(col)
-				a[i] = plotter.XY{X: s.Wavelength[j], Y: stat.Quantile(lo, stat.Empirical, col, nil)}
-				b[i] = plotter.XY{X: s.Wavelength[j], Y: stat.Quantile(hi, stat.Empirical, col, nil)}
-			}
-			return a, b
-		}
-		for _, band := range []struct {
-			lo, hi float64
-			c      color.Color
-		}{{band2Lo, band2Hi, colorBand2}, {band1Lo, band1Hi, colorBand1}} {
-			a, b := q(band.lo, band.hi)
-			slices.Reverse(b)
-			poly, err := plotter.NewPolygon(append(a, b...))
-			if err != nil {
-				return fmt.Errorf("spectrum plot: %w", err)
-			}
-			poly.Color = band.c
-			poly.LineStyle.Width = 0
-			p.Add(poly)
-		}
-		med, _ := q(0.5, 0.5)
-		l, err := plotter.NewLine(med)
+	if !math.IsNaN(tx) && !math.IsNaN(ty) {
+		tp, err := plotter.NewScatter(plotter.XYs{{X: tx, Y: ty}})
 		if err != nil {
-			return fmt.Errorf("spectrum plot: %w", err)
+			return err
 		}
-		l.Color = colorBlue
-		l.Width = vg.Points(1.3)
-		p.Add(l)
-		p.Legend.Add("median model", l)
-	}
-	pts := make(errPoints, nb)
-	for i, j := range order {
-		pts[i] = errPoint{X: s.Wavelength[j], Y: s.Depth[j], XErr: s.HalfWidth[j], YErr: s.Error[j]}
-	}
-	yb, err := plotter.NewYErrorBars(pts)
-	if err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
-	}
-	xb, err := plotter.NewXErrorBars(pts)
-	if err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
-	}
-	sc, err := plotter.NewScatter(pts)
-	if err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
-	}
-	sc.GlyphStyle.Radius = vg.Points(1.5)
-	p.Add(yb, xb, sc)
-	p.Legend.Add("data", sc)
-	p.Legend.Top = true
-	p.Legend.Left = true
-	if err := saveSpectrum(p, path); err != nil {
-		return fmt.Errorf("spectrum plot: %w", err)
+		tp.GlyphStyle = draw.GlyphStyle{Color: colorTruth, Radius: vg.Points(5), Shape: draw.CrossGlyph{}}
+		p.Add(noGlyphBoxes{tp})
 	}
 	return nil
 }
 
-// errPoint is a data point with x and y errors.
-type errPoint struct{ X, Y, XErr, YErr float64 }
+// unlabelled keeps a ticker's ticks and drops their labels (a colour of
+// alpha 0 hides them in PNG but not in every SVG viewer).
+type unlabelled struct{ plot.Ticker }
 
-type errPoints []errPoint
-
-func (e errPoints) Len() int                    { return len(e) }
-func (e errPoints) XY(i int) (float64, float64) { return e[i].X, e[i].Y }
-func (e errPoints) XError(i int) (float64, float64) {
-	return e[i].XErr, e[i].XErr
+func (u unlabelled) Ticks(min, max float64) []plot.Tick {
+	t := u.Ticker.Ticks(min, max)
+	for i := range t {
+		t[i].Label = ""
+	}
+	return t
 }
-func (e errPoints) YError(i int) (float64, float64) {
-	return e[i].YErr, e[i].YErr
+
+// innerTicks are exactTicks without labels in the outer 8% at either end
+// of the axis (3% where that would leave fewer than two), where a corner
+// plot's label would run into the next panel.
+type innerTicks struct{}
+
+func (innerTicks) Ticks(min, max float64) []plot.Tick {
+	for _, frac := range []float64{0.08, 0.03} {
+		ticks := exactTicks{}.Ticks(min, max)
+		edge, n := frac*(max-min), 0
+		for i := range ticks {
+			if v := ticks[i].Value; v < min+edge || v > max-edge {
+				ticks[i].Label = ""
+			}
+			if ticks[i].Label != "" {
+				n++
+			}
+		}
+		if n >= 2 {
+			return ticks
+		}
+	}
+	return exactTicks{}.Ticks(min, max)
 }
 
 // exactTicks are gonum/plot's default ticks with labels given as many

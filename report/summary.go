@@ -6,12 +6,10 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"math/rand/v2"
 	"path/filepath"
 	"slices"
 	"sort"
 	"strings"
-	"text/tabwriter"
 
 	"gonum.org/v1/gonum/stat"
 
@@ -72,6 +70,9 @@ type SummaryOptions struct {
 	// Bounds are the prior boxes of the parameter columns for the
 	// prior-edge check (checks.go); columns without one are not checked.
 	Bounds []ParamBounds
+	// Atmosphere gives the context of the cautions on gases associated
+	// with life (Caution); nil means none (the full caution applies).
+	Atmosphere *Atmosphere
 }
 
 // Summary is the content of summary.json.
@@ -277,6 +278,7 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 	s.Samples = nKept * c.Walkers
 	allTau := true
 	var highRHat []string
+	var detected [][2]string // gas and column of each gas verdict
 	buf := make([]float64, 0, s.Samples)
 	for i, col := range c.Columns {
 		if col.Role != chains.RoleParameter && col.Role != chains.RoleDerived {
@@ -306,17 +308,41 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 			if cs.Gas, err = gasVerdict(g, buf, cs); err != nil {
 				return nil, fmt.Errorf("summary: parameter %s: %w", col.Name, err)
 			}
-			if NeedsLifeCaution(g.Gas, cs.Gas.Class) && !slices.Contains(s.Cautions, LifeCaution) {
-				s.Cautions = append(s.Cautions, LifeCaution)
-			}
+			detected = append(detected, [2]string{g.Gas, col.Name})
 		}
 		s.Parameters = append(s.Parameters, cs)
 	}
+	s.setCautions(detected, opt.Atmosphere)
 	if len(highRHat) > 0 {
 		s.Warnings = append(s.Warnings, fmt.Sprintf("split R-hat above %g: %s; the walkers disagree, the chain may need to be longer", RHatLimit, strings.Join(highRHat, ", ")))
 	}
 	s.setConvergence(c, allTau)
 	return s, nil
+}
+
+// setCautions adds the caution each gas verdict calls for (Caution), once
+// each; the limb temperature is the median of the atmosphere's temperature
+// column, or its fixed temperature.
+func (s *Summary) setCautions(gases [][2]string, a *Atmosphere) {
+	t := math.NaN()
+	if a != nil {
+		t = a.TemperatureK
+		for _, p := range s.Parameters {
+			if a.TemperatureColumn != "" && p.Name == a.TemperatureColumn {
+				t = p.Median
+			}
+		}
+	}
+	for _, g := range gases {
+		for _, p := range s.Parameters {
+			if p.Name != g[1] || p.Gas == nil {
+				continue
+			}
+			if c := Caution(g[0], p.Gas.Class, a, t); c != "" && !slices.Contains(s.Cautions, c) {
+				s.Cautions = append(s.Cautions, c)
+			}
+		}
+	}
 }
 
 // setBest records the maximum-posterior sample of lp (column
@@ -500,235 +526,6 @@ func (s *Summary) WriteJSON(w io.Writer) error {
 
 // DemoWarning is printed wherever results made with the demo opacities appear.
 const DemoWarning = "DEMO OPACITIES: these results were made with chord's invented demo opacity tables, not real line lists; they are for trying the program, NOT FOR SCIENCE."
-
-// WriteText writes summary.txt, the same content for people.
-func (s *Summary) WriteText(w io.Writer) error {
-	var b strings.Builder
-	fmt.Fprintf(&b, "%s", s.Program)
-	if s.RunID != "" {
-		fmt.Fprintf(&b, ", run %s", s.RunID)
-	}
-	b.WriteString("\n")
-	if s.DemoOpacities {
-		b.WriteString("\n" + DemoWarning + "\n")
-	}
-	burn := fmt.Sprint(s.Burn)
-	if s.BurnAuto {
-		burn += fmt.Sprintf(" (auto: %g tau)", AutoBurnTaus)
-	}
-	fmt.Fprintf(&b, "\nchain        %d walkers x %d steps; burn-in %s; thinning %d; %d samples\n", s.Walkers, s.Steps, burn, s.Thin, s.Samples)
-	if s.Stop != "" {
-		fmt.Fprintf(&b, "stopped      %s\n", s.Stop)
-	}
-	fmt.Fprintf(&b, "acceptance   mean %.3f (min %.3f, max %.3f)\n", s.Acceptance.Mean, s.Acceptance.Min, s.Acceptance.Max)
-	conv := "no"
-	if s.Converged {
-		conv = "yes"
-	}
-	fmt.Fprintf(&b, "autocorr.    largest tau %.1f steps; chain = %.1f tau; converged (>= %g tau): %s\n", s.MaxTau, s.ChainTaus, sampler.DefaultConvergedTaus, conv)
-	fmt.Fprintf(&b, "best sample  step %d walker %d: log posterior %.3f, log likelihood %.3f\n", s.Best.Step, s.Best.Walker, s.Best.LogPosterior, s.Best.LogLikelihood)
-	if s.Best.DataPoints > 0 {
-		fmt.Fprintf(&b, "             chi-square %.2f for %d data points and %d free parameters (reduced %.3f)\n", s.Best.ChiSquare, s.Best.DataPoints, s.Best.FreeParameters, s.Best.ReducedChiSquare)
-	}
-	if len(s.InvalidStates) > 0 {
-		keys := make([]string, 0, len(s.InvalidStates))
-		for k := range s.InvalidStates {
-			keys = append(keys, k)
-		}
-		sort.Strings(keys)
-		b.WriteString("rejected     ")
-		for i, k := range keys {
-			if i > 0 {
-				b.WriteString(", ")
-			}
-			fmt.Fprintf(&b, "%d %s", s.InvalidStates[k], k)
-		}
-		b.WriteString(" (invalid physical states)\n")
-	}
-	table := func(title string, cols []ColumnSummary) {
-		if len(cols) == 0 {
-			return
-		}
-		fmt.Fprintf(&b, "\n%s (median, 68%% and 95%% intervals)\n", title)
-		tw := tabwriter.NewWriter(&b, 0, 0, 2, ' ', 0)
-		fmt.Fprintln(tw, "name\tunit\tmedian\t-1sigma\t+1sigma\t2.5%\t97.5%\tmax-post\ttau\tESS\tR-hat\tverdict")
-		for _, c := range cols {
-			unit := c.Unit
-			if unit == "" {
-				unit = "-"
-			}
-			verdict := ""
-			if c.Gas != nil {
-				verdict = c.Gas.Verdict
-			}
-			tau := fmt.Sprintf("%.1f", c.Tau)
-			if !c.TauReliable {
-				tau = ">" + tau
-			}
-			fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%.0f\t%.3f\t%s\n", c.Name, unit, num(c.Median), num(c.P16-c.Median), "+"+num(c.P84-c.Median), num(c.P2_5), num(c.P97_5), num(c.MaxPost), tau, float64(c.ESS), float64(c.RHat), verdict)
-		}
-		tw.Flush()
-	}
-	table("parameters", s.Parameters)
-	table("derived quantities", s.Derived)
-	b.WriteString("\nUpper limits: a log10 mixing ratio whose posterior reaches its prior's lower edge (Savage-Dickey significance below 2 sigma) is reported as an upper limit, its 95th percentile, not as a measurement.\n")
-	s.writeChecks(&b)
-	if len(s.Warnings) > 0 {
-		b.WriteString("\nwarnings\n")
-		for _, m := range s.Warnings {
-			b.WriteString("  - " + m + "\n")
-		}
-	}
-	for _, c := range s.Cautions {
-		b.WriteString("\n" + c + "\n")
-	}
-	_, err := io.WriteString(w, b.String())
-	return err
-}
-
-// num formats a summary number with 4 significant digits.
-func num(x float64) string { return fmt.Sprintf("%.4g", x) }
-
-// Model evaluates the model of a run for reports.
-type Model interface {
-	// Data returns the observed bins: centres and half widths (um), transit
-	// depths and their errors (ppm), in the order ModelDepth fills.
-	Data() (wavelength, halfWidth, depth, sigma []float64)
-	// ModelDepth fills dst (ppm, one value per data bin, dataset offsets
-	// applied) with the model at the free-parameter vector x.
-	ModelDepth(dst, x []float64) error
-}
-
-// Options configures Write.
-type Options struct {
-	Burn     int  // steps dropped from the start
-	BurnAuto bool // choose Burn by AutoBurn instead
-	Thin     int  // 0 means 1
-	Gases    []GasParam
-	// Bounds are the prior boxes for the prior-edge check.
-	Bounds []ParamBounds
-	// Model, if set, gives the chi-square of the best sample, the
-	// goodness-of-fit check and spectrum.png; nil skips them. A
-	// TemperatureModel also gives the fit's temperatures for the
-	// table-coverage check.
-	Model Model
-	// ErrorsInflated says the fit has error-inflation parameters (the
-	// chain's chi2 column then uses the inflated errors).
-	ErrorsInflated bool
-	// Coverage, if set, is what the opacity tables cover (without the
-	// fit's temperatures, which Write adds); the table-coverage check
-	// runs on it.
-	Coverage *Coverage
-	// SpectrumSamples is the number of posterior samples drawn for the
-	// spectrum bands; 0 means 300.
-	SpectrumSamples int
-	Title           string
-	// Fill lets the caller complete the summary (run identity, demo flag,
-	// invalid-state counts, stopping reason) before it is written.
-	Fill func(*Summary)
-}
-
-// Write reads the committed parts of the run in dir, and writes
-// summary.json, summary.txt, corner.png and (with a model) spectrum.png.
-// When the summary files cannot be written it returns the summary with a
-// *WriteError.
-func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
-	chainsDir := filepath.Join(dir, chains.DirName)
-	burn := opt.Burn
-	if opt.BurnAuto {
-		all, err := chains.Read(chainsDir, parts, 0, 1)
-		if err != nil {
-			return nil, err
-		}
-		burn = AutoBurn(all)
-	}
-	c, err := chains.Read(chainsDir, parts, burn, 1)
-	if err != nil {
-		return nil, err
-	}
-	thin := max(opt.Thin, 1)
-	s, err := Summarize(c, SummaryOptions{Burn: burn, BurnAuto: opt.BurnAuto, Thin: thin, Gases: opt.Gases, Bounds: opt.Bounds})
-	if err != nil {
-		return nil, err
-	}
-	if opt.Fill != nil {
-		opt.Fill(s)
-	}
-	var spec *SpectrumPlot
-	if opt.Model != nil {
-		wl, half, depth, sigma := opt.Model.Data()
-		model := make([]float64, len(depth))
-		x := c.Sample(nil, (s.Best.Step-c.Steps[0])*c.Walkers+s.Best.Walker)
-		if err := opt.Model.ModelDepth(model, x); err != nil {
-			return nil, fmt.Errorf("report: model of the best sample: %w", err)
-		}
-		chi2 := 0.0
-		for i := range depth {
-			r := (depth[i] - model[i]) / sigma[i]
-			chi2 += r * r
-		}
-		s.SetChiSquare(chi2, len(depth))
-		if fit := c.Column("chi2"); fit != nil {
-			chi2 = fit[(s.Best.Step-c.Steps[0])*c.Walkers+s.Best.Walker] // with the errors as fitted
-		}
-		s.setGoodness(chi2, len(depth), opt.ErrorsInflated)
-		spec = &SpectrumPlot{Wavelength: wl, HalfWidth: half, Depth: depth, Error: sigma, Title: opt.Title, Demo: s.DemoOpacities}
-		n := opt.SpectrumSamples
-		if n == 0 {
-			n = 300
-		}
-		rng := rand.New(rand.NewPCG(1, 2)) // fixed: a report is reproducible
-		total := len(c.Steps) * c.Walkers
-		tm, _ := opt.Model.(TemperatureModel)
-		var tLo, tHi []float64
-		for range min(n, total) {
-			x = c.Sample(x, rng.IntN(total))
-			m := make([]float64, len(depth))
-			if err := opt.Model.ModelDepth(m, x); err != nil {
-				continue // an invalid state has no spectrum; it is not in the posterior either
-			}
-			spec.Models = append(spec.Models, m)
-			if tm != nil {
-				if lo, hi, err := tm.TemperatureRange(x); err == nil && finiteRange(lo, hi) {
-					tLo, tHi = append(tLo, lo), append(tHi, hi)
-				}
-			}
-		}
-		if opt.Coverage != nil {
-			opt.Coverage.setTemperatures(tLo, tHi)
-		}
-	}
-	if opt.Coverage != nil {
-		s.checkCoverage(opt.Coverage)
-	}
-	s.sortChecks()
-	if err := writeSummaryFiles(dir, s); err != nil {
-		return s, &WriteError{Dir: dir, Err: err}
-	}
-	if err := PlotCorner(filepath.Join(dir, "corner.png"), c, nil, thin, s.DemoOpacities); err != nil {
-		return nil, err
-	}
-	if spec != nil {
-		if err := PlotSpectrum(filepath.Join(dir, "spectrum.png"), spec); err != nil {
-			return nil, err
-		}
-	}
-	return s, nil
-}
-
-// WriteError is the error of Write when the summary was computed but its
-// files could not be written (a read-only run directory, a full disk):
-// Write returns the summary with it, and nothing of the run's is changed.
-type WriteError struct {
-	Dir string
-	Err error
-}
-
-func (e *WriteError) Error() string {
-	return fmt.Sprintf("could not write the report files in %s: %v", e.Dir, e.Err)
-}
-
-func (e *WriteError) Unwrap() error { return e.Err }
 
 func writeSummaryFiles(dir string, s *Summary) error {
 	var js, txt bytes.Buffer

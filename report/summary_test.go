@@ -151,7 +151,7 @@ func TestSummarize(t *testing.T) {
 	if err := s.WriteText(&txt); err != nil {
 		t.Fatal(err)
 	}
-	for _, want := range []string{"NOT FOR SCIENCE", "upper limit, log10 < -9.0", "log_h2o", "32 walkers x 500 steps", "reduced 1.562"} {
+	for _, want := range []string{"NOT FOR SCIENCE", "upper limit, log10 < -9.0", "log_h2o", "32 walkers x 500 steps", "reduced 1.562", UpperLimitNote} {
 		if !strings.Contains(txt.String(), want) {
 			t.Errorf("summary.txt lacks %q:\n%s", want, txt.String())
 		}
@@ -185,5 +185,107 @@ func TestSummarizeShortChain(t *testing.T) {
 	c.Steps = c.Steps[:1]
 	if _, err := Summarize(c, SummaryOptions{}); err == nil {
 		t.Error("one step: no error")
+	}
+}
+
+// summary.txt's layout: columns aligned, one interval convention stated,
+// the prior beside each parameter, short verdicts with numbered notes, the
+// upper-limit note only when an upper limit exists, lower bounds rounded
+// down, the demo banner once.
+func TestSummaryTextLayout(t *testing.T) {
+	gas := func(class GasClass, sigma float64, bound bool, verdict string) *GasVerdict {
+		return &GasVerdict{Gas: "H2O", Class: class, Sigma: Float(sigma), SigmaIsBound: bound, LnB10: 6, Upper95: -5.321, Verdict: verdict}
+	}
+	s := &Summary{
+		Program: "chord test", DemoOpacities: true, Walkers: 32, Steps: 1000, Thin: 1, Samples: 32000, MaxTau: 10, ChainTaus: 100, Converged: true,
+		Warnings: []string{DemoWarning, "a warning from the fit"},
+		Parameters: []ColumnSummary{
+			{Name: "log10_vmr_H2O", Prior: "uniform(-10, -1)", Median: -3.4312, P16: -3.9712, P84: -2.9201, P2_5: -4.51, P97_5: -2.41,
+				Gas: gas(Detected, 3.8656, true, "detected, > 3.8 sigma (lower bound); too few samples near the prior edge")},
+			{Name: "temperature_k", Unit: "K", Prior: "uniform(300, 2000)", Median: 978.7, P16: 916.8, P84: 1038.9, P2_5: 862.3, P97_5: 1099},
+			{Name: "radius_rjup", Unit: "R_jup", Prior: "uniform(0.8, 1.3)", Median: 1.04951, P16: 1.04343, P84: 1.05503, P2_5: 1.038, P97_5: 1.059},
+		},
+	}
+	var b bytes.Buffer
+	if err := s.WriteText(&b); err != nil {
+		t.Fatal(err)
+	}
+	txt := b.String()
+	if n := strings.Count(txt, DemoWarning); n != 1 {
+		t.Errorf("demo banner %d times, want once:\n%s", n, txt)
+	}
+	// 3.8656 is a lower bound: printed rounded down, never up to 3.9.
+	if !strings.Contains(txt, "detected, > 3.8 sigma [1]") || strings.Contains(txt, "3.9") {
+		t.Errorf("lower bound not rounded down:\n%s", txt)
+	}
+	for _, want := range []string{IntervalConvention, "uniform(300, 2000)", "[1] too few samples near the prior edge", "a warning from the fit",
+		// two significant digits of the narrower half-interval: 0.51 -> 2 decimals, 61.9 -> 0, 0.0058 -> 4
+		"-3.43", "979", "-62", "+60", "1.0495", "-0.0061", "+0.0055"} {
+		if !strings.Contains(txt, want) {
+			t.Errorf("summary.txt lacks %q:\n%s", want, txt)
+		}
+	}
+	if strings.Contains(txt, UpperLimitNote) {
+		t.Errorf("upper-limit note without an upper limit:\n%s", txt)
+	}
+	// Aligned: the right edges of the median column and the left edges of
+	// the prior column coincide on every row of the parameter table.
+	lines := strings.Split(txt, "\n")
+	var table []string
+	for i, l := range lines {
+		if strings.HasPrefix(l, "name ") && strings.Contains(l, "prior") {
+			table = lines[i : i+4]
+		}
+	}
+	if table == nil {
+		t.Fatalf("no parameter table:\n%s", txt)
+	}
+	med := strings.Index(table[0], "median") + len("median")
+	prior := strings.Index(table[0], "prior")
+	for _, l := range table[1:] {
+		r := []rune(l)
+		if r[med-1] == ' ' || r[med] != ' ' {
+			t.Errorf("median column not right-aligned at %d: %q", med, l)
+		}
+		if !strings.HasPrefix(string(r[prior:]), "uniform(") {
+			t.Errorf("prior column not at %d: %q", prior, l)
+		}
+	}
+	// An upper limit brings its note.
+	s.Parameters[0].Gas = gas(UpperLimit, 1, false, "upper limit, log10 < -5.32 (95%)")
+	b.Reset()
+	s.WriteText(&b)
+	if !strings.Contains(b.String(), UpperLimitNote) || !strings.Contains(b.String(), "upper limit, log10 < -5.32 [1]") {
+		t.Errorf("upper limit without its note:\n%s", b.String())
+	}
+}
+
+// The caution on gases associated with life, with its context: methane
+// expected from chemistry in a cool hydrogen-rich atmosphere (Lodders &
+// Fegley 2002) gets the chemistry note; oxygen, ozone and methane on a
+// rocky planet, and methane in a hot hydrogen atmosphere, the full caution.
+func TestCautionContext(t *testing.T) {
+	h2 := &Atmosphere{HydrogenRich: true}
+	rocky := &Atmosphere{HydrogenRich: false}
+	for i, c := range []struct {
+		gas   string
+		class GasClass
+		a     *Atmosphere
+		t     float64
+		want  string
+	}{
+		{"CH4", Detected, h2, 520, MethaneChemistryNote},
+		{"CH4", Detected, h2, 1500, LifeCaution},
+		{"CH4", Detected, h2, math.NaN(), LifeCaution},
+		{"CH4", Detected, rocky, 250, LifeCaution},
+		{"O3", Detected, rocky, 250, LifeCaution},
+		{"O2", Detected, h2, 520, LifeCaution},
+		{"CH4", UpperLimit, rocky, 250, ""},
+		{"H2O", Detected, rocky, 250, ""},
+		{"CH4", Detected, nil, 250, LifeCaution},
+	} {
+		if got := Caution(c.gas, c.class, c.a, c.t); got != c.want {
+			t.Errorf("case %d (%s in %+v at %g K): got %.40q, want %.40q", i, c.gas, c.a, c.t, got, c.want)
+		}
 	}
 }

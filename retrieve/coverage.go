@@ -152,14 +152,6 @@ func paramBounds(free []config.Param, bottomBar float64) []report.ParamBounds {
 	return out
 }
 
-// TemperatureRange implements report.TemperatureModel.
-func (m *reportModel) TemperatureRange(x []float64) (lo, hi float64, err error) {
-	m.init()
-	return m.eval.TemperatureRange(x)
-}
-
-var _ report.TemperatureModel = (*reportModel)(nil)
-
 // Coverage returns what the opacity tables cover of the data and the
 // model atmosphere (a copy; report.Write adds the fit's temperatures).
 func (p *Problem) Coverage() *report.Coverage {

@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
-	"slices"
 	"strings"
 	"sync"
 	"sync/atomic"
@@ -454,7 +453,11 @@ func (e *PosteriorEvaluator) LogProb(x, extra []float64) float64 {
 // evaluate sets the state from x, runs the forward model and returns the
 // log-likelihood, chi-square and fill-gas mixing ratio.
 func (e *PosteriorEvaluator) evaluate(x []float64) (ll, chi2, fill float64, err error) {
-	fill = e.setState(x)
+	e.setState(x)
+	fill = 1
+	for _, v := range e.state.VMR {
+		fill -= v
+	}
 	if err := e.p.model.Transit(e.spec, &e.state, e.ws); err != nil {
 		return 0, 0, 0, err
 	}
@@ -462,9 +465,8 @@ func (e *PosteriorEvaluator) evaluate(x []float64) (ll, chi2, fill float64, err 
 	return ll, chi2, fill, nil
 }
 
-// setState sets the evaluator's state, offsets and inflation variances
-// from x and returns the fill gas's mixing ratio.
-func (e *PosteriorEvaluator) setState(x []float64) (fill float64) {
+// setState sets the evaluator's state, offsets and inflations from x.
+func (e *PosteriorEvaluator) setState(x []float64) {
 	p := e.p
 	s := &e.state
 	s.CloudTop, s.CloudFraction, s.HazeFactor, s.HazeSlope = p.base.CloudTop, p.base.CloudFraction, p.base.HazeFactor, p.base.HazeSlope
@@ -488,25 +490,6 @@ func (e *PosteriorEvaluator) setState(x []float64) (fill float64) {
 			s.VMR[gi] = e.xvmr[j]
 		}
 	}
-	fill = 1
-	for _, v := range s.VMR {
-		fill -= v
-	}
-	return fill
-}
-
-// TemperatureRange returns the coldest and hottest level temperature (K)
-// of the model atmosphere at x, without running the forward model.
-func (e *PosteriorEvaluator) TemperatureRange(x []float64) (lo, hi float64, err error) {
-	e.setState(x)
-	p := e.p.model.LevelPressures()
-	t := make([]float64, len(p))
-	s := &e.state
-	g := forward.Gravitation * s.Mass / (s.RefRadius * s.RefRadius)
-	if err := s.Profile.TemperatureTo(t, p, g); err != nil {
-		return 0, 0, err
-	}
-	return slices.Min(t), slices.Max(t), nil
 }
 
 // logLikelihood returns the Gaussian log-likelihood of the model depths m
@@ -559,6 +542,35 @@ func (e *PosteriorEvaluator) Spectrum(dst, x []float64) error {
 	}
 	for i := range dst {
 		dst[i] = e.spec[i] + e.off[e.p.ds[i]]
+	}
+	return nil
+}
+
+// View fills what a report shows at x: depth (len Model().OutputLen())
+// with the model per bin without offsets, offset and inflation (len the
+// number of data sets) with the data sets' offsets and error inflations
+// (fractions of the stellar disc), and temp with the temperatures (K) at
+// the pressures p (Pa). It returns the forward model's error for a
+// rejected state. A gas named in without (an index in Model().Gases(), or
+// -1 for none) is removed.
+func (e *PosteriorEvaluator) View(depth, offset, inflation, temp, p []float64, x []float64, without int) error {
+	e.setState(x)
+	if without >= 0 {
+		e.state.VMR[without] = 0
+	}
+	if err := e.p.model.Transit(e.spec, &e.state, e.ws); err != nil {
+		return err
+	}
+	copy(depth, e.spec)
+	copy(offset, e.off)
+	for k := range inflation {
+		inflation[k] = math.Sqrt(e.s2[k])
+	}
+	if len(p) > 0 {
+		g := forward.Gravitation * e.state.Mass / (e.state.RefRadius * e.state.RefRadius)
+		if err := e.state.Profile.TemperatureTo(temp, p, g); err != nil {
+			return err
+		}
 	}
 	return nil
 }

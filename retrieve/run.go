@@ -23,9 +23,9 @@ import (
 
 	"chord/chains"
 	"chord/config"
-	"chord/forward"
 	"chord/forward/opacity"
 	"chord/internal/atomicfile"
+	"chord/internal/eta"
 	"chord/internal/logto"
 	"chord/internal/runlock"
 	"chord/internal/version"
@@ -369,12 +369,22 @@ func (r *runner) newHistories(st *sampler.State) error {
 			return err
 		}
 	}
-	if r.opt.Progress.Writer != nil {
+	// The progress display reads the convergence rule's history when there
+	// is one, so that its tau and time left are the rule's own.
+	if r.opt.Progress.Writer != nil && r.conv == nil {
 		if r.progHist, err = sampler.NewHistory(st.Walkers, st.Dim, 256); err != nil {
 			return err
 		}
 	}
 	return nil
+}
+
+// tauHistory is the history the progress display estimates tau from.
+func (r *runner) tauHistory() *sampler.History {
+	if r.conv != nil {
+		return r.conv
+	}
+	return r.progHist
 }
 
 // histories lists the histories to replay a stored chain into.
@@ -399,7 +409,9 @@ func (r *runner) Record(s *sampler.Step) error {
 		if err := r.progHist.Record(s); err != nil {
 			return err
 		}
-		r.prog.step(s, r.progHist)
+	}
+	if h := r.tauHistory(); h != nil && r.prog != nil {
+		r.prog.step(s, h)
 	}
 	return nil
 }
@@ -509,8 +521,8 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 	out.Step = st.Step
 	out.TotalElapsed = secs(r.last.Elapsed)
 	out.Evaluations = r.evals
-	if out.Tau == nil && r.progHist != nil {
-		if tau, ok := r.progHist.Tau(nil, sampler.DefaultSokalWindow); ok {
+	if h := r.tauHistory(); out.Tau == nil && h != nil {
+		if tau, ok := h.Tau(nil, sampler.DefaultSokalWindow); ok {
 			out.Tau = tau
 		}
 	}
@@ -578,6 +590,7 @@ type progress struct {
 	bestLL                  float64
 	tau                     float64
 	drawn                   bool
+	left                    eta.Smoother
 }
 
 func newProgress(opt Progress, stop config.StopRule, st *sampler.State, base time.Duration, ll int) *progress {
@@ -639,7 +652,9 @@ func (p *progress) print(final bool) {
 	if p.proposed > 0 {
 		fmt.Fprintf(&b, ", acceptance %.2f", float64(p.accepted)/float64(p.proposed))
 	}
-	if !math.IsNaN(p.tau) && p.tau > 0 {
+	if !final && !math.IsNaN(p.tau) && p.tau > 0 {
+		// The estimate while sampling; the final line leaves tau to the
+		// summary, which estimates it after the burn-in.
 		fmt.Fprintf(&b, ", tau %.1f", p.tau)
 	}
 	if !math.IsInf(p.bestLL, -1) {
@@ -658,10 +673,14 @@ func (p *progress) print(final bool) {
 			left = secs(p.stop.Budget) - p.base - el
 		default:
 			need := sampler.DefaultConvergedTaus*p.tau - float64(p.cur)
-			ok = !math.IsNaN(p.tau) && p.tau > 0
-			left = secs(math.Max(need, 0) / rate)
+			ok = !math.IsNaN(p.tau) && p.tau > 0 && need > 0
+			left = secs(need / rate)
+			if !math.IsNaN(p.tau) && p.tau > 0 && need <= 0 {
+				fmt.Fprintf(&b, ", past %g tau, waiting for tau to settle", sampler.DefaultConvergedTaus)
+			}
 		}
 		if ok {
+			left = p.left.Update(time.Now(), left)
 			fmt.Fprintf(&b, ", about %s left", left.Round(time.Second))
 			if p.stop.UntilConverged {
 				fmt.Fprintf(&b, " to %g tau", sampler.DefaultConvergedTaus)
@@ -790,6 +809,7 @@ func configDigest(r *config.Resolved, inputs []InputFile) (string, error) {
 
 // job is a resolved configuration made ready to run.
 type job struct {
+	html   bool // the report includes report.html
 	res    *config.Resolved
 	set    *opacity.Set
 	prob   *Problem
@@ -894,45 +914,8 @@ func (j *job) gases() []report.GasParam {
 	return g
 }
 
-// reportModel is the ReportModel of a job.
-type reportModel struct {
-	j    *job
-	eval *PosteriorEvaluator
-	buf  []float64
-}
-
-func (m *reportModel) Data() (wl, half, depth, sigma []float64) {
-	for _, d := range m.j.res.Datasets {
-		for i := range d.Lo {
-			wl = append(wl, 0.5*(d.Lo[i]+d.Hi[i])/forward.Micron)
-			half = append(half, 0.5*(d.Hi[i]-d.Lo[i])/forward.Micron)
-			depth = append(depth, d.Depth[i]*1e6)
-			sigma = append(sigma, d.Sigma[i]*1e6)
-		}
-	}
-	return
-}
-
-func (m *reportModel) init() {
-	if m.eval == nil {
-		m.eval = m.j.prob.NewPosteriorEvaluator()
-		m.buf = make([]float64, m.j.prob.Model().OutputLen())
-	}
-}
-
-func (m *reportModel) ModelDepth(dst, x []float64) error {
-	m.init()
-	if err := m.eval.Spectrum(m.buf, x); err != nil {
-		return err
-	}
-	for i := range dst {
-		dst[i] = m.buf[i] * 1e6
-	}
-	return nil
-}
-
 // report writes the report of the job's run in dir.
-func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome) (*report.Summary, string, error) {
+func (j *job) report(dir string, burn int, auto bool, thin int, html bool, out *RunOutcome) (*report.Summary, string, error) {
 	ck, err := ReadCheckpoint(filepath.Join(dir, CheckpointFile))
 	if err != nil {
 		return nil, "", err
@@ -941,8 +924,19 @@ func (j *job) report(dir string, burn int, auto bool, thin int, out *RunOutcome)
 		return nil, "", fmt.Errorf("%s: the chain has no steps yet", dir)
 	}
 	title := j.res.Config.Planet.Name
+	truth, err := ReadTruth(dir)
+	if err != nil {
+		return nil, "", err
+	}
+	var details *report.RunDetails
+	if html {
+		if details, err = j.runDetails(dir); err != nil {
+			return nil, "", err
+		}
+	}
 	s, err := report.Write(dir, ck.Parts, report.Options{
-		Burn: burn, BurnAuto: auto, Thin: thin, Gases: j.gases(), Model: &reportModel{j: j}, Title: title,
+		Burn: burn, BurnAuto: auto, Thin: thin, Gases: j.gases(), Model: newReportModel(j), Fitted: j.fitted(), Title: title,
+		Atmosphere: j.atmosphere(), Truth: truth, HTML: details,
 		Bounds:         paramBounds(j.res.Free, *j.res.Config.Atmosphere.BottomPressureBar),
 		ErrorsInflated: j.prob.inflate,
 		Coverage:       j.prob.Coverage(),
@@ -994,6 +988,12 @@ type FitOptions struct {
 	// Opacity, when not nil, are the tables already loaded for this
 	// configuration (a plan's fits share one set); nil loads them.
 	Opacity *opacity.Set
+	// Truth, when not nil, is the true atmosphere of a simulated
+	// observation: its parameter values go to RunDir/truth.toml and the
+	// report marks them.
+	Truth *config.ModelConfig
+	// HTML also writes report.html.
+	HTML bool
 }
 
 // RunReport is what Fit, Resume and Demo return.
@@ -1123,6 +1123,12 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	if err := atomicfile.Write(filepath.Join(opt.RunDir, RunFile), buf.Bytes(), true); err != nil {
 		return nil, err
 	}
+	if opt.Truth != nil {
+		if err := writeTruth(opt.RunDir, r, opt.Truth); err != nil {
+			return nil, err
+		}
+	}
+	j.html = opt.HTML
 	fmt.Fprintf(log, "chord: run %s: %d free parameters, %d walkers, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.Walkers, r.Seed, describeStop(r.Stop))
 	out, err := StartRun(ctx, opt.RunDir, j.spec, RunOptions{Workers: r.Workers, Stop: r.Stop, Progress: opt.Progress, CheckpointSteps: opt.CheckpointSteps})
 	if err != nil {
@@ -1147,7 +1153,7 @@ func (j *job) finish(dir string, out *RunOutcome) (*RunReport, error) {
 	if out.Stop == sampler.StopCanceled {
 		return rep, nil
 	}
-	s, txt, err := j.report(dir, 0, true, 1, out)
+	s, txt, err := j.report(dir, 0, true, 1, j.html, out)
 	if err != nil {
 		return rep, fmt.Errorf("%s: report: %w", dir, err)
 	}
@@ -1210,6 +1216,7 @@ type ResumeOptions struct {
 	// Opacity, when not nil, are the run's tables already loaded (a plan's
 	// fits share one set); nil loads them.
 	Opacity *opacity.Set
+	HTML    bool // also write report.html
 }
 
 // Resume continues the run in dir from its checkpoint and reports it,
@@ -1232,6 +1239,7 @@ func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, err
 		return nil, err
 	}
 	j.log = log // a run restarted from its seed searches for its start again
+	j.html = opt.HTML
 	if j.set.Demo {
 		fmt.Fprintln(log, "chord: "+report.DemoWarning)
 	}
@@ -1300,6 +1308,7 @@ type ReportRunOptions struct {
 	BurnAuto  bool
 	Thin      int
 	DemoCache string
+	HTML      bool // also write report.html
 }
 
 // Report recomputes the summaries and plots of the run in dir; it returns
@@ -1337,7 +1346,7 @@ func Report(dir string, opt ReportRunOptions) (*report.Summary, string, error) {
 		}
 		return nil, "", fmt.Errorf("%s: %w; the run is not reported: %s", dir, err, advice)
 	}
-	return j.report(dir, opt.Burn, opt.BurnAuto, max(opt.Thin, 1), nil)
+	return j.report(dir, opt.Burn, opt.BurnAuto, max(opt.Thin, 1), opt.HTML, nil)
 }
 
 // RunNoisePPM is the noise level of a run directory's observations (all

@@ -383,22 +383,44 @@ func TestKillChild(t *testing.T) {
 	}
 }
 
-// lineModel is a ReportModel: depth = 1000 + 10 a + b lambda at 20 bins.
+// lineModel is a report.Model: depth = 1000 + 10 a + b lambda at 20 bins
+// in two data sets, the second with a fixed offset of 5 ppm, a temperature
+// 500 + 10 a, and a gas "X" whose removal takes 3 ppm off.
 type lineModel struct{}
 
-func (lineModel) Data() (wl, half, depth, sigma []float64) {
+func (lineModel) Datasets() []report.Dataset {
+	var d [2]report.Dataset
+	d[0].Name, d[1].Name = "blue", "red"
 	for i := 0; i < 20; i++ {
-		wl = append(wl, 1+0.1*float64(i))
-		half = append(half, 0.05)
-		depth = append(depth, 1000+0.3*wl[i])
-		sigma = append(sigma, 2)
+		k := i / 10
+		wl := 1 + 0.1*float64(i)
+		d[k].Wavelength = append(d[k].Wavelength, wl)
+		d[k].HalfWidth = append(d[k].HalfWidth, 0.05)
+		d[k].Depth = append(d[k].Depth, 1000+0.3*wl+5*float64(k))
+		d[k].Sigma = append(d[k].Sigma, 2)
 	}
-	return
+	return d[:]
 }
 
-func (lineModel) ModelDepth(dst, x []float64) error {
+func (lineModel) Pressures() []float64 { return []float64{1e-4, 1e-2, 1} }
+func (lineModel) Gases() []string      { return []string{"X"} }
+
+func (lineModel) Evaluate(v *report.SampleView, x []float64) error {
+	for i := range v.Depth {
+		v.Depth[i] = 1000 + 10*x[0] + x[1]*(1+0.1*float64(i))
+	}
+	v.Offset[0], v.Offset[1] = 0, 5
+	for j := range v.Temperature {
+		v.Temperature[j] = 500 + 10*x[0]
+	}
+	return nil
+}
+
+func (m lineModel) Without(dst, x []float64, gas string) error {
+	v := &report.SampleView{Depth: dst, Offset: make([]float64, 2), Inflation: make([]float64, 2), Temperature: make([]float64, 3)}
+	m.Evaluate(v, x)
 	for i := range dst {
-		dst[i] = 1000 + 10*x[0] + x[1]*(1+0.1*float64(i))
+		dst[i] -= 3
 	}
 	return nil
 }
@@ -422,15 +444,19 @@ func TestWriteReport(t *testing.T) {
 	// chi-square of the best sample, recomputed here from its max-posterior values.
 	a, b := s.Parameters[0].MaxPost, s.Parameters[1].MaxPost
 	want := 0.0
-	wl, _, d, sig := lineModel{}.Data()
-	for i := range d {
-		r := (d[i] - (1000 + 10*a + b*wl[i])) / sig[i]
-		want += r * r
+	for k, d := range (lineModel{}).Datasets() {
+		for i := range d.Depth {
+			r := (d.Depth[i] - (1000 + 10*a + b*d.Wavelength[i]) - 5*float64(k)) / d.Sigma[i]
+			want += r * r
+		}
 	}
 	if math.Abs(s.Best.ChiSquare-want) > 1e-9*want || s.Best.DataPoints != 20 || s.Best.FreeParameters != 3 {
 		t.Errorf("chi-square %v (%d points, %d parameters), want %v", s.Best.ChiSquare, s.Best.DataPoints, s.Best.FreeParameters, want)
 	}
-	for _, f := range []string{"summary.json", "summary.txt", "corner.png", "spectrum.png"} {
+	for _, f := range report.Files() {
+		if f == report.HTMLFile {
+			continue // not asked for
+		}
 		if st, err := os.Stat(filepath.Join(dir, f)); err != nil || st.Size() == 0 {
 			t.Errorf("%s: %v", f, err)
 		}

@@ -12,6 +12,7 @@ import (
 	"chord/chains"
 	"chord/internal/atomicfile"
 	"chord/internal/runlock"
+	"chord/report"
 )
 
 // Run directories: who may write them, what --force may remove, and how
@@ -33,7 +34,7 @@ import (
 
 // runEntries are the names chord writes in a run directory (their
 // temporary files, atomicfile.TempPattern, too).
-var runEntries = []string{RunFile, chains.DirName, CheckpointFile, "summary.json", "summary.txt", "corner.png", "spectrum.png"}
+var runEntries = append([]string{RunFile, chains.DirName, CheckpointFile, TruthFile}, report.Files()...)
 
 // NotEmptyError refuses a new run in a directory that holds something
 // (FitOptions.Force replaces the run in it). It is an fs.ErrExist.

@@ -25,7 +25,8 @@ func compareCommand() *cli.Command {
 			"runs are dropped and named. Reads each run's summary.json (chord report makes it).",
 		Flags: []cli.Flag{
 			&cli.BoolFlag{Name: "json", Usage: "write the comparison as JSON instead of a table"},
-			&cli.StringFlag{Name: "plot", Usage: "draw the 68% width against noise (log-log, with the width-proportional-to-noise line) to `FILE`.png"},
+			&cli.StringFlag{Name: "plot", Usage: "draw the 68% width against noise (log-log, with the width-proportional-to-noise line) to `FILE`.png (and FILE.svg)"},
+			&cli.StringFlag{Name: "marginals", Usage: "overlay the runs' marginal posteriors, one panel per shared parameter, in `FILE`.png (and FILE.svg)"},
 		},
 		Action: runCompare,
 	}
@@ -40,8 +41,10 @@ func runCompare(c *cli.Context) error {
 			return fmt.Errorf("compare: %q after the run directories: give the options first (chord compare --plot w.png RUNDIR...)", a)
 		}
 	}
-	if p := c.String("plot"); p != "" && filepath.Ext(p) != ".png" {
-		return fmt.Errorf("compare: --plot %s: the plot is a PNG file; name it FILE.png", p)
+	for _, flag := range []string{"plot", "marginals"} {
+		if p := c.String(flag); p != "" && filepath.Ext(p) != ".png" {
+			return fmt.Errorf("compare: --%s %s: the plot is a PNG file (with an SVG beside it); name it FILE.png", flag, p)
+		}
 	}
 	cmp, err := campaign.CompareDirs(c.Args().Slice())
 	if errors.Is(err, fs.ErrNotExist) {
@@ -63,6 +66,12 @@ func runCompare(c *cli.Context) error {
 			return err
 		}
 		fmt.Fprintf(c.App.ErrWriter, "chord compare: plot written to %s\n", p)
+	}
+	if p := c.String("marginals"); p != "" {
+		if err := campaign.PlotMarginalsDirs(p, c.Args().Slice(), cmp); err != nil {
+			return err
+		}
+		fmt.Fprintf(c.App.ErrWriter, "chord compare: marginal posteriors drawn to %s\n", p)
 	}
 	return nil
 }

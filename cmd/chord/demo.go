@@ -2,6 +2,7 @@ package main
 
 import (
 	"fmt"
+	"path/filepath"
 
 	"chord/campaign"
 	"chord/report"
@@ -25,6 +26,7 @@ func demoCommand() *cli.Command {
 			&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior (default: one per core)"},
 			&cli.BoolFlag{Name: "force", Usage: "replace an earlier demo in DIR"},
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+			&cli.BoolFlag{Name: "no-html", Usage: "do not write report.html"},
 		},
 		Action: runDemo,
 	}
@@ -38,11 +40,14 @@ func runDemo(c *cli.Context) error {
 	defer cancel()
 	w := c.App.ErrWriter
 	fmt.Fprintln(w, "chord demo: "+report.DemoWarning)
-	opt := campaign.DemoOptions{Dir: c.String("output"), Force: c.Bool("force"), DemoCache: c.String("demo-cache"), Progress: prog, Log: w}
+	opt := campaign.DemoOptions{Dir: c.String("output"), Force: c.Bool("force"), DemoCache: c.String("demo-cache"), Progress: prog, Log: w, HTML: !c.Bool("no-html")}
 	opt.Workers = flagIfSet(c, "workers", c.Int)
 	rep, err := campaign.Demo(ctx, opt)
 	if err := finishRun(c, rep, err); err != nil {
 		return err
+	}
+	if opt.HTML {
+		fmt.Fprintf(w, "chord demo: the report is %s\n", filepath.Join(rep.Dir, report.HTMLFile))
 	}
 	fmt.Fprintf(w, "chord demo: the configuration %s and observation %s are in %s; try  chord fit -c %s -o another-run\n",
 		rep.ConfigFile, rep.ObservationFile, opt.Dir, rep.ConfigFile)

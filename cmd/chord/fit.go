@@ -16,6 +16,7 @@ import (
 	"chord/config"
 	"chord/retrieve"
 	"chord/sampler"
+	"chord/simulate"
 )
 
 // stopFlags are the stopping-rule options shared by fit and resume.
@@ -25,6 +26,7 @@ var stopFlags = []cli.Flag{
 	&cli.BoolFlag{Name: "until-converged", Usage: fmt.Sprintf("stop when the chain is longer than %g autocorrelation times, tau stable to %g%%", sampler.DefaultConvergedTaus, 100*sampler.DefaultTauRelChange)},
 	&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior (default: the configuration's, else one per core)"},
 	&cli.IntFlag{Name: "checkpoint-every", Usage: "write a checkpoint every `N` steps (default: about one a minute)"},
+	&cli.BoolFlag{Name: "html", Usage: "also write report.html, the whole report on one self-contained page"},
 }
 
 // fitCommand returns the fit command.
@@ -34,8 +36,10 @@ func fitCommand() *cli.Command {
 		Usage:     "sample the posterior of a retrieval configuration into a run directory",
 		ArgsUsage: " ",
 		Description: "Validates the configuration, observations, opacities, priors and initial walkers,\n" +
-			"then samples, writing chains, checkpoints and, at the end, summary.json, summary.txt,\n" +
-			"corner.png and spectrum.png to the run directory. Progress goes to stderr.\n" +
+			"then samples, writing chains, checkpoints and, at the end, summary.json, summary.txt\n" +
+			"and the plots (spectrum, temperature, gases, traces, corner; PNG and SVG) to the run\n" +
+			"directory. --truth names the scenario an observation was simulated from, so that the\n" +
+			"plots mark the true values. Progress goes to stderr.\n" +
 			"SIGINT or SIGTERM finishes the current step, writes a checkpoint and exits with\n" +
 			"code 3; continue with `chord resume RUNDIR`.",
 		Flags: append([]cli.Flag{
@@ -44,6 +48,7 @@ func fitCommand() *cli.Command {
 			&cli.Uint64Flag{Name: "seed", Usage: "random seed `N` (default: the configuration's, else a fresh one, recorded)"},
 			&cli.BoolFlag{Name: "force", Usage: "replace the run in a non-empty run directory"},
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+			&cli.StringFlag{Name: "truth", Usage: "scenario or model configuration `FILE` the observation was simulated from (its values are marked in the plots)"},
 		}, stopFlags...),
 		Action: runFit,
 	}
@@ -125,8 +130,16 @@ func runFit(c *cli.Context) error {
 	opt := retrieve.FitOptions{
 		ConfigPath: c.String("config"), RunDir: c.String("output"), Force: c.Bool("force"),
 		Stop: stop, DemoCache: c.String("demo-cache"), Progress: prog, CheckpointSteps: c.Int("checkpoint-every"),
+		HTML: c.Bool("html"),
 	}
 	opt.Seed, opt.Workers = flagIfSet(c, "seed", c.Uint64), flagIfSet(c, "workers", c.Int)
+	if path := c.String("truth"); path != "" {
+		sc, err := simulate.LoadScenario(path)
+		if err != nil {
+			return fmt.Errorf("--truth: %w", err)
+		}
+		opt.Truth = &sc.Config.ModelConfig
+	}
 	rep, err := retrieve.Fit(ctx, opt)
 	return finishRun(c, rep, err)
 }
@@ -171,9 +184,19 @@ func finishRun(c *cli.Context, rep *retrieve.RunReport, err error) error {
 		fmt.Fprintf(w, "chord: continue it with:  chord resume %s\n", rep.Dir)
 		return errInterrupted
 	}
-	if rep.Summary != nil {
+	if s := rep.Summary; s != nil {
+		// tau as the summary states it (estimated after the burn-in), so
+		// that the last line and summary.txt agree.
+		fmt.Fprintf(w, "chord: largest autocorrelation time %.1f steps; the chain is %.1f of them long; converged: %v (summary.txt)\n", float64(s.MaxTau), float64(s.ChainTaus), yesNo(s.Converged))
 		fmt.Fprintf(c.App.Writer, "%s\n", rep.SummaryText)
-		fmt.Fprintf(w, "chord: summary.json, summary.txt, corner.png and spectrum.png written to %s\n", rep.Dir)
+		fmt.Fprintf(w, "chord: the summary (summary.txt, summary.json) and plots are in %s\n", rep.Dir)
 	}
 	return nil
+}
+
+func yesNo(b bool) string {
+	if b {
+		return "yes"
+	}
+	return "no"
 }

@@ -117,6 +117,7 @@ func runGrid(c *cli.Context) error {
 			return fmt.Errorf("grid: --jobs %d: must be at least 1", c.Int("jobs"))
 		}
 		opt := campaign.LocalOptions{Jobs: c.Int("jobs"), DemoCache: c.String("demo-cache"), Log: c.App.ErrWriter}
+		opt.OnPoint = newPointsProgress(c.App.ErrWriter, "chord grid", "points").update
 		if c.IsSet("workers") {
 			w := c.Int("workers")
 			if w < 1 {

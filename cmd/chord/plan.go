@@ -103,6 +103,7 @@ func runPlan(c *cli.Context) error {
 	ctx, cancel, prog := session(c)
 	defer cancel()
 	opt.Progress = prog
+	opt.OnLevel = newPointsProgress(c.App.ErrWriter, "chord plan", "levels").update
 	rep, err := campaign.RunPlan(ctx, opt)
 	if errors.Is(err, campaign.ErrOtherPlan) {
 		return fmt.Errorf("%w; resume it with chord plan -o %s alone, or choose another directory", err, opt.Dir)

@@ -17,13 +17,15 @@ func reportCommand() *cli.Command {
 		Name:      "report",
 		Usage:     "recompute a run's summaries and plots from its chains",
 		ArgsUsage: "RUNDIR",
-		Description: "Reads the checkpointed chain of RUNDIR and writes summary.json, summary.txt,\n" +
-			"corner.png and spectrum.png. --burn auto drops 3 autocorrelation times (at most half\n" +
-			"the chain).",
+		Description: "Reads the checkpointed chain of RUNDIR and writes summary.json, summary.txt and the\n" +
+			"plots (spectrum, temperature, gases, traces, corner; each PNG and SVG); with --html also\n" +
+			"report.html, one self-contained page with all of it. --burn auto drops 3\n" +
+			"autocorrelation times (at most half the chain).",
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "burn", Value: "auto", Usage: "burn-in: `N` steps, or auto"},
 			&cli.IntFlag{Name: "thin", Value: 1, Usage: "keep every `N`-th step for the intervals and plots"},
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+			&cli.BoolFlag{Name: "html", Usage: "also write report.html, the whole report on one self-contained page"},
 		},
 		Action: interspersed(runReport),
 	}
@@ -33,7 +35,7 @@ func runReport(c *cli.Context) error {
 	if c.NArg() != 1 {
 		return fmt.Errorf("report: give one run directory (got %d arguments)", c.NArg())
 	}
-	opt := retrieve.ReportRunOptions{Thin: c.Int("thin"), DemoCache: c.String("demo-cache")}
+	opt := retrieve.ReportRunOptions{Thin: c.Int("thin"), DemoCache: c.String("demo-cache"), HTML: c.Bool("html")}
 	if b := c.String("burn"); b == "auto" {
 		opt.BurnAuto = true
 	} else {

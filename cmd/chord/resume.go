@@ -35,7 +35,7 @@ func runResume(c *cli.Context) error {
 	}
 	ctx, cancel, prog := session(c)
 	defer cancel()
-	opt := retrieve.ResumeOptions{Stop: stop, DemoCache: c.String("demo-cache"), Progress: prog, CheckpointSteps: c.Int("checkpoint-every")}
+	opt := retrieve.ResumeOptions{Stop: stop, DemoCache: c.String("demo-cache"), Progress: prog, CheckpointSteps: c.Int("checkpoint-every"), HTML: c.Bool("html")}
 	opt.Workers = flagIfSet(c, "workers", c.Int)
 	rep, err := retrieve.Resume(ctx, c.Args().First(), opt)
 	return finishRun(c, rep, err)
