@@ -40,13 +40,15 @@ func fitCommand() *cli.Command {
 			"and the plots (spectrum, temperature, gases, traces, corner; PNG and SVG) to the run\n" +
 			"directory. --truth names the scenario an observation was simulated from, so that the\n" +
 			"plots mark the true values. Progress goes to stderr.\n" +
-			"SIGINT or SIGTERM finishes the current step, writes a checkpoint and exits with\n" +
-			"code 3; continue with `chord resume RUNDIR`.",
+			"SIGINT or SIGTERM stops at the next safe point (during sampling: the current step is\n" +
+			"finished and a checkpoint written) and exits with code 3; continue with\n" +
+			"`chord resume RUNDIR`. A second signal stops at once. The run directory is locked\n" +
+			"while the fit runs (docs/runs.md).",
 		Flags: append([]cli.Flag{
 			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "retrieval configuration `FILE` (TOML)", Required: true},
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "run `DIR` to create (must be empty or absent)", Required: true},
 			&cli.Uint64Flag{Name: "seed", Usage: "random seed `N` (default: the configuration's, else a fresh one, recorded)"},
-			&cli.BoolFlag{Name: "force", Usage: "replace the run in a non-empty run directory"},
+			&cli.BoolFlag{Name: "force", Usage: "replace the chord run in DIR (only a directory with a run.toml; only chord's files are removed)"},
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 			&cli.StringFlag{Name: "truth", Usage: "scenario or model configuration `FILE` the observation was simulated from (its values are marked in the plots)"},
 		}, stopFlags...),

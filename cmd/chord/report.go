@@ -20,7 +20,9 @@ func reportCommand() *cli.Command {
 		Description: "Reads the checkpointed chain of RUNDIR and writes summary.json, summary.txt and the\n" +
 			"plots (spectrum, temperature, gases, traces, corner; each PNG and SVG); with --html also\n" +
 			"report.html, one self-contained page with all of it. --burn auto drops 3\n" +
-			"autocorrelation times (at most half the chain).",
+			"autocorrelation times (at most half the chain). The run is verified first, as resume\n" +
+			"does (checkpoint and every chain part are this run's); in a directory it cannot write,\n" +
+			"the summary goes to standard output and the command fails saying so.",
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "burn", Value: "auto", Usage: "burn-in: `N` steps, or auto"},
 			&cli.IntFlag{Name: "thin", Value: 1, Usage: "keep every `N`-th step for the intervals and plots"},
