@@ -180,3 +180,61 @@ func TestTransitW2Allocs(t *testing.T) {
 }
 
 func newW2Rand() *rand.Rand { return rand.New(rand.NewPCG(3, 4)) }
+
+// TestTransitKHistory checks that a k-distribution spectrum does not
+// depend on what the workspace computed before (a sampler's chain must not
+// depend on which worker, with which history, evaluates a state; fact of
+// the trade: a forward model is a function of its state): a cloudy state,
+// computed in a fresh workspace and after a hot clear one, must give the
+// same depths bit for bit. The two synthetic gases' order of strength flips
+// with temperature (k scaled by (T/1000 K)^4 and its inverse), so their
+// order of work differs between the two states.
+func TestTransitKHistory(t *testing.T) {
+	bins := w2Bins(t, 100)
+	q := opacity.DefaultQuadrature()
+	cfg := forward.Config{
+		TopPressure: forward.DefaultTopPressure, BottomPressure: forward.DefaultBottomPressure, Layers: 60,
+		Fill: forward.FillH2He, Gases: []string{w2Gases[0].name, w2Gases[1].name}, Bins: &bins,
+	}
+	for i, p := range []float64{4, -4} {
+		kt := w2KTable(w2Gases[i], bins, q)
+		for ip := range kt.Log10P {
+			for it, T := range kt.T {
+				row := kt.Row(ip, it)
+				for k := range row {
+					row[k] *= float32(math.Pow(T/1000, p))
+				}
+			}
+		}
+		cfg.KTables = append(cfg.KTables, kt)
+	}
+	m, err := forward.NewModel(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cloudy := m.DefaultState()
+	cloudy.VMR[0], cloudy.VMR[1] = 1e-2, 3e-3
+	cloudy.Profile = &forward.Isothermal{T: 1000}
+	cloudy.RefRadius, cloudy.Mass, cloudy.StarRadius = forward.JupiterRadius, forward.JupiterMass, forward.SolarRadius
+	cloudy.CloudTop = 1 * forward.Bar
+	cloudy.HazeFactor = 10
+	hot := cloudy
+	hot.Profile = &forward.Isothermal{T: 2000}
+	hot.CloudTop = 0
+	fresh, after := make([]float64, m.OutputLen()), make([]float64, m.OutputLen())
+	if err := m.Transit(fresh, &cloudy, m.NewWorkspace()); err != nil {
+		t.Fatal(err)
+	}
+	w := m.NewWorkspace()
+	if err := m.Transit(after, &hot, w); err != nil {
+		t.Fatal(err)
+	}
+	if err := m.Transit(after, &cloudy, w); err != nil {
+		t.Fatal(err)
+	}
+	for b := range fresh {
+		if fresh[b] != after[b] {
+			t.Fatalf("bin %d: depth %.17g in a fresh workspace, %.17g after another state", b, fresh[b], after[b])
+		}
+	}
+}

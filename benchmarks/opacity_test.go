@@ -65,12 +65,7 @@ var xsecSink *opacity.XSecTable
 // (each line is evaluated only on the grid points within its cut-off
 // window, about 50 cm^-1 / step of them), which is what the cost follows.
 // The pt=12 cases (4 pressures x 3 temperatures) show the speed-up with
-// workers. The sampling=cell cases build cell means (CellAverage) instead
-// of point values: every cell of a line's window is then a closed-form
-// cell integral (an atan, or its series in the far wing) rather than one
-// Humlicek value, except cells under a quarter of the line's half-width,
-// which none of these grids has. The 1 cm^-1 grid is coarse against the
-// lines, like the demo grid.
+// workers. The 1 cm^-1 grid is coarse against the lines.
 func BenchmarkCrossSectionBuild(b *testing.B) {
 	iso := lbl.IsoData{{Mol: 5, Iso: 1}: {Name: "CO_26", Q296: 107.42, Mass: 27.994915,
 		Q: &lbl.RigidRotor{Q296: 107.42, Exponent: 1}}}
@@ -79,11 +74,9 @@ func BenchmarkCrossSectionBuild(b *testing.B) {
 		step    float64
 		pt      int
 		workers int
-		cell    bool
 	}{
-		{1000, 0.04, 1, 1, false}, {4000, 0.04, 1, 1, false}, {1000, 0.01, 1, 1, false}, {4000, 0.01, 1, 1, false},
-		{1000, 0.04, 12, 1, false}, {1000, 0.04, 12, 2, false},
-		{1000, 0.04, 1, 1, true}, {1000, 1, 12, 1, false}, {1000, 1, 12, 1, true},
+		{1000, 0.04, 1, 1}, {4000, 0.04, 1, 1}, {1000, 0.01, 1, 1}, {4000, 0.01, 1, 1},
+		{1000, 0.04, 12, 1}, {1000, 0.04, 12, 2}, {1000, 1, 12, 1},
 	} {
 		lines := benchLines(c.lines)
 		npt := int(400/c.step) + 1
@@ -91,15 +84,11 @@ func BenchmarkCrossSectionBuild(b *testing.B) {
 		for k := range grid {
 			grid[k] = (2000 + float64(k)*c.step) * 100
 		}
-		s := &lbl.XSecSettings{Gas: "CO", Log10P: []float64{5}, T: []float64{800}, Wavenumber: grid, Workers: c.workers, CellAverage: c.cell}
+		s := &lbl.XSecSettings{Gas: "CO", Log10P: []float64{5}, T: []float64{800}, Wavenumber: grid, Workers: c.workers}
 		if c.pt == 12 {
 			s.Log10P, s.T = []float64{2, 3, 4, 5}, []float64{300, 800, 1500}
 		}
-		sampling := "point"
-		if c.cell {
-			sampling = "cell"
-		}
-		b.Run(fmt.Sprintf("lines=%d/points=%d/pt=%d/workers=%d/sampling=%s", c.lines, npt, c.pt, c.workers, sampling), func(b *testing.B) {
+		b.Run(fmt.Sprintf("lines=%d/points=%d/pt=%d/workers=%d", c.lines, npt, c.pt, c.workers), func(b *testing.B) {
 			b.ReportAllocs()
 			for b.Loop() {
 				t, err := lbl.BuildXSec(lines, iso, s)

@@ -80,6 +80,9 @@ type kGas struct {
 	nT        int
 	k         []float32 // rows (iP*nT+iT) of nb*ng values
 	mean      []float64 // rows of nb values: sum_g W_g k
+	top       []float64 // rows of nb values: k at the last node, its largest
+	topMax    []float64 // per bin: the largest of top over the rows
+	meanMax   []float64 // per bin: the largest of mean over the rows
 }
 
 // kCIA is one collision-induced-absorption table averaged over the model's
@@ -163,10 +166,18 @@ func newKModel(m *Model, cfg Config) (*Model, error) {
 		kg := kGas{name: t.Gas, sp: sp, log10P: r.Log10P, t: r.T, nT: len(r.T), k: r.K}
 		ng := len(r.G)
 		kg.mean = make([]float64, len(r.K)/ng)
+		kg.top = make([]float64, len(r.K)/ng)
 		for i := range kg.mean {
 			for q, v := range r.K[i*ng : (i+1)*ng] {
 				kg.mean[i] += r.W[q] * float64(v)
 			}
+			kg.top[i] = float64(r.K[(i+1)*ng-1])
+		}
+		kg.topMax, kg.meanMax = make([]float64, km.nb), make([]float64, km.nb)
+		for i, v := range kg.top {
+			b := i % km.nb
+			kg.topMax[b] = max(kg.topMax[b], v)
+			kg.meanMax[b] = max(kg.meanMax[b], kg.mean[i])
 		}
 		km.gases = append(km.gases, kg)
 	}

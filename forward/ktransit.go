@@ -5,6 +5,7 @@ import (
 	"math"
 	"slices"
 
+	"gonum.org/v1/gonum/blas/gonum"
 	"gonum.org/v1/gonum/floats"
 
 	"chord/forward/opacity"
@@ -12,7 +13,8 @@ import (
 
 // kWork is the k-distribution part of a Workspace.
 type kWork struct {
-	bpb    int           // bins per block
+	bpb    int           // bins per block of the resort-rebin overlap
+	pbb    int           // bins per block of the product overlap
 	corner [][][4]corner // per gas, per layer: table rows (slot = row) and weights
 	ciaW   [][]corner    // per CIA table, per layer: row it (slot) and weight of it+1 (w)
 	scat   []float64     // per bin: Rayleigh and haze cross-section per molecule
@@ -29,32 +31,54 @@ type kWork struct {
 	mix    []float64   // resort-rebin: ng
 
 	// The product overlap works on all bins at once.
-	agAll    []float64 // n x nb: grey absorption coefficients
-	agg      []float64 // n x nb: gases taken as grey
-	transAll []float64 // n x nb: transmission of each ray and bin
-	tauAll   []float64 // nb
-	live     []int     // per bin: lowest ray that transmits
-	column   []float64 // per ray: molecules per unit area along it
-	kmax     []float64 // nb
-	full     []bool    // per bin: the current gas needs its k-distribution
-	order    []int     // gases, strongest first
-	strength []float64 // per gas
-	bins     []int     // a gas's bins that need it
-	accAll   []float64 // nb
-	lowAll   []float64
-	tkcAll   []float64
+	agAll       []float64 // n x nb: grey absorption coefficients
+	agg         []float64 // n x nb: gases taken as grey
+	transAll    []float64 // n x nb: transmission of each ray and bin
+	tauAll      []float64 // nb
+	live        []int     // per bin: lowest ray that transmits
+	column      []float64 // per ray: molecules per unit area along it
+	kmax        []float64 // per bin: largest top-node k of the rows a ray crosses
+	kbar        []float64 // per bin: largest mean k of the rows a ray crosses
+	rg          []int     // per bin: lowest ray from which the current gas is grey
+	state       []int8    // per bin: rayDark, rayGrey or rayFull for the current gas
+	candRuns    []binRun  // runs of bins that may need the current gas's k-distribution
+	greyBinRuns []binRun  // runs of bins that take the current gas as grey
+	rows        []int     // the current gas's table rows that the layers touch
+	rowOf       []int     // table row -> index in rows, -1 when untouched
+	pos         [][4]int  // per layer: index in rows of each corner
+	nRows       []int     // per ray: rows [0, nRows[i]) are those it crosses
+	rowPath     []float64 // n x 4n: per ray, the weight of each row
+	rowAcc      []float64 // 4n
+	tau32       []float32 // pbb*ng
+	tm          []float64 // pbb
+	fullRuns    []binRun  // along one ray: runs of a block's bins that need the k-distribution
+	greyRuns    []binRun  // along one ray: runs of a block's bins that take the gas as grey
+	order       []int     // gases, strongest first
+	strength    []float64 // per gas
+	bins        []int     // the current gas's bins that need its k-distribution along some ray
+	accAll      []float64 // nb
+	lowAll      []float64
+	tkcAll      []float64
 }
 
 type mergeAtom struct{ v, w float64 }
 
 func (m *Model) newKWork(n int) *kWork {
 	km := m.k
-	bpb := blockLen
+	// The product overlap's blocks are wider: every ray reads the block's
+	// part of the table rows it crosses (a few hundred KB, in L2) and the
+	// longer runs of bins cut the calls per row.
+	bpb, pbb := blockLen, blockLen
 	if km.ng > 0 {
-		bpb = max(1, blockLen/km.ng)
+		bpb, pbb = max(1, blockLen/km.ng), max(1, 4*blockLen/km.ng)
+	}
+	maxRows := 0
+	for _, kg := range km.gases {
+		maxRows = max(maxRows, len(kg.mean)/km.nb)
 	}
 	kw := &kWork{
 		bpb:    bpb,
+		pbb:    pbb,
 		corner: make([][][4]corner, len(km.gases)),
 		ciaW:   make([][]corner, len(km.cia)),
 		scat:   make([]float64, km.nb),
@@ -70,23 +94,40 @@ func (m *Model) newKWork(n int) *kWork {
 		merge:  make([]mergeAtom, km.ng*km.ng),
 		mix:    make([]float64, km.ng),
 
-		agAll:    make([]float64, n*km.nb),
-		agg:      make([]float64, n*km.nb),
-		transAll: make([]float64, n*km.nb),
-		tauAll:   make([]float64, km.nb),
-		live:     make([]int, km.nb),
-		column:   make([]float64, n),
-		kmax:     make([]float64, km.nb),
-		full:     make([]bool, km.nb),
-		order:    make([]int, 0, len(km.gases)),
-		strength: make([]float64, len(km.gases)),
-		bins:     make([]int, 0, km.nb),
-		accAll:   make([]float64, km.nb),
-		lowAll:   make([]float64, km.nb),
-		tkcAll:   make([]float64, km.nb),
+		agAll:       make([]float64, n*km.nb),
+		agg:         make([]float64, n*km.nb),
+		transAll:    make([]float64, n*km.nb),
+		tauAll:      make([]float64, km.nb),
+		live:        make([]int, km.nb),
+		column:      make([]float64, n),
+		kmax:        make([]float64, km.nb),
+		kbar:        make([]float64, km.nb),
+		rg:          make([]int, km.nb),
+		state:       make([]int8, km.nb),
+		candRuns:    make([]binRun, 0, km.nb),
+		greyBinRuns: make([]binRun, 0, km.nb),
+		rows:        make([]int, 0, 4*n),
+		rowOf:       make([]int, maxRows),
+		pos:         make([][4]int, n),
+		nRows:       make([]int, n),
+		rowPath:     make([]float64, n*4*n),
+		rowAcc:      make([]float64, 4*n),
+		tau32:       make([]float32, pbb*km.ng),
+		tm:          make([]float64, pbb),
+		fullRuns:    make([]binRun, 0, pbb),
+		greyRuns:    make([]binRun, 0, pbb),
+		order:       make([]int, 0, len(km.gases)),
+		strength:    make([]float64, len(km.gases)),
+		bins:        make([]int, 0, km.nb),
+		accAll:      make([]float64, km.nb),
+		lowAll:      make([]float64, km.nb),
+		tkcAll:      make([]float64, km.nb),
 	}
 	for i := range kw.corner {
 		kw.corner[i] = make([][4]corner, n)
+	}
+	for i := range kw.rowOf {
+		kw.rowOf[i] = -1
 	}
 	for i := range kw.ciaW {
 		kw.ciaW[i] = make([]corner, n)
@@ -116,18 +157,32 @@ func (m *Model) transitK(dst []float64, s *State, w *Workspace) error {
 	return nil
 }
 
-// greyTau is the largest optical depth at a gas's strongest g-node, along
-// any ray that still transmits, below which the gas is taken as grey in a
-// bin (its mean k instead of its k-distribution). Replacing
-// sum_g W_g exp(-tau_g) by exp(-sum_g W_g tau_g) errs by at most about
-// max(tau)^2 / 8 of the transmission (the variance of tau over g, which is
-// below max(tau)^2 / 4, halved; Jensen's inequality), 5e-5 at 0.02: far
-// below a ppm of depth.
-const greyTau = 0.02
+// greyErr is the largest error in a ray's transmission that taking a gas
+// as grey (its mean k instead of its k-distribution) may cause. Replacing
+// sum_g W_g exp(-tau_g) by exp(-tbar), tbar = sum_g W_g tau_g, errs by at
+// most half the variance of tau over g (Jensen's inequality, with the
+// second derivative of exp(-t) at most 1 for t >= 0), and the variance is
+// at most (max(tau) - tbar) tbar (the Bhatia-Davis inequality: R. Bhatia &
+// C. Davis 2000, Amer. Math. Monthly 107, 353; from memory), never more
+// than max(tau)^2 / 4. 5e-5 is that bound for max(tau) = 0.02: far below a
+// ppm of depth, since only the few rays near the limit come close to it.
+const greyErr = 5e-5
+
+// greyEnough reports whether a gas whose optical depth along a ray is at
+// most mx at its strongest node and at most mean on average over g may be
+// taken as grey there: half the largest variance those bounds allow is
+// below greyErr.
+func greyEnough(mx, mean float64) bool {
+	v := mx * mx / 4
+	if mean < mx/2 {
+		v = mean * (mx - mean)
+	}
+	return v < 2*greyErr
+}
 
 // transitProduct computes the depths with the product overlap: the grey
-// absorbers of all bins first, then each gas over the bins where it is not
-// negligible.
+// absorbers of all bins first, then each gas, with its k-distribution
+// along the rays where it is not negligible and as grey elsewhere.
 func (m *Model) transitProduct(dst []float64, w *Workspace, g geometry) {
 	km, kw := m.k, w.k
 	n, nb := g.n, km.nb
@@ -138,31 +193,26 @@ func (m *Model) transitProduct(dst []float64, w *Workspace, g geometry) {
 	m.addOpticalDepth(w, g.jlo, kw.agAll)
 	m.transFromTau(w, g.jlo)
 	m.columns(w, g.jlo)
-	// The gases, strongest first, each over the bins where it is not
-	// negligible against what the rays still transmit; where it is, its
-	// mean joins kw.agg, whose transmission multiplies in at the end.
+	// The gases, strongest first, each along the rays that still transmit:
+	// in bins where it is grey along all of them its mean joins kw.agg,
+	// whose transmission multiplies in at the end; in the others gasBlock
+	// takes it with its k-distribution below kw.rg[b], as grey above.
 	clear(kw.agg[g.jlo*nb : n*nb])
 	anyGrey := false
-	for _, gi := range m.gasOrder(w) {
+	for _, gi := range m.gasOrder(w, g.jlo) {
 		m.liveRays(w, g.jlo)
-		anyGrey = m.classifyGas(w, gi, g.jlo) || anyGrey
-		bins := kw.bins[:0]
-		for b := range nb {
-			if kw.full[b] {
-				bins = append(bins, b)
-			}
+		jlo := n
+		for _, l := range kw.live {
+			jlo = min(jlo, l)
 		}
-		for c0 := 0; c0 < len(bins); c0 += kw.bpb {
-			blk := bins[c0:min(c0+kw.bpb, len(bins))]
-			jlo := n
-			for _, b := range blk {
-				jlo = min(jlo, kw.live[b])
-			}
-			if jlo == n {
-				continue
-			}
-			m.gasAlphaBins(w, gi, jlo, blk)
-			m.multiplyTransmissionBins(w, jlo, blk)
+		if jlo == n {
+			break
+		}
+		m.gasRows(w, gi, jlo)
+		anyGrey = m.classifyGas(w, gi, jlo) || anyGrey
+		bins := kw.bins
+		for c0 := 0; c0 < len(bins); c0 += kw.pbb {
+			m.gasBlock(w, gi, bins[c0:min(c0+kw.pbb, len(bins))])
 		}
 	}
 	if anyGrey {
@@ -286,11 +336,12 @@ func (m *Model) columns(w *Workspace, jlo int) {
 }
 
 // gasOrder returns the gases with a mixing ratio above 0, strongest first:
-// by x times the largest top-node k of any bin at the reference layer, a
-// rough measure that only orders the work (every gas is still computed).
-func (m *Model) gasOrder(w *Workspace) []int {
+// by x times the largest top-node k of any bin at layer jlo, the deepest
+// whose interpolation corners this call has set, a rough measure that only
+// orders the work.
+func (m *Model) gasOrder(w *Workspace, jlo int) []int {
 	km, kw := m.k, w.k
-	nb, ng := km.nb, km.ng
+	nb := km.nb
 	ord := kw.order[:0]
 	for gi := range km.gases {
 		if !kw.active[gi] {
@@ -298,13 +349,12 @@ func (m *Model) gasOrder(w *Workspace) []int {
 		}
 		kg := &km.gases[gi]
 		s := 0.0
-		for _, c := range kw.corner[gi][m.refLay] {
+		for _, c := range kw.corner[gi][jlo] {
 			if c.slot < 0 {
 				continue
 			}
-			row := kg.k[c.slot*nb*ng : (c.slot+1)*nb*ng]
-			for b := range nb {
-				s = math.Max(s, float64(row[b*ng+ng-1]))
+			for _, v := range kg.top[c.slot*nb : (c.slot+1)*nb] {
+				s = max(s, v)
 			}
 		}
 		kw.strength[gi] = s * w.x[kg.sp]
@@ -315,46 +365,141 @@ func (m *Model) gasOrder(w *Workspace) []int {
 	return ord
 }
 
-// classifyGas decides, per bin, whether gas gi needs its k-distribution
-// there (kw.full): not when x * column(live ray) * max_j k_j(top node) is
-// below greyTau, an upper bound on its optical depth at its strongest node
-// along every ray that still transmits. Where it does not, x n_j kmean_j
-// is added to kw.agg; it reports whether any bin was.
-func (m *Model) classifyGas(w *Workspace, gi, jlo int) bool {
+// gasRows lists the table rows of gas gi that layers jlo.. touch, in the
+// order the layers meet them from the top down, so that ray i, which
+// crosses layers i.., needs rows [0, kw.nRows[i]) (the later, the deeper);
+// and fills kw.rowPath: in row i, the weight of each of those rows in ray
+// i's optical depth, M_ip = sum_{j>=i} x n_j ds_ij w_jp with w_jp layer j's
+// interpolation weight of row p. Interpolation is linear, so ray i's
+// optical depth at every node and bin is sum_p M_ip k_p, read straight from
+// the table: no per-layer interpolation, and about as many rows as layers.
+func (m *Model) gasRows(w *Workspace, gi, jlo int) {
 	km, kw := m.k, w.k
-	n, nb, ng := len(m.pLayer), km.nb, km.ng
-	full := kw.full[:nb]
-	clear(full)
-	kg := &km.gases[gi]
-	x := w.x[kg.sp]
-	rowLen := nb * ng
-	// kmax[b]: the largest top-node k of the corners of layers >= live[b],
-	// accumulated from the top down (the corners bound the interpolant).
-	kmax := kw.kmax
-	clear(kmax)
+	n := len(m.pLayer)
+	for _, r := range kw.rows {
+		kw.rowOf[r] = -1
+	}
+	rows := kw.rows[:0]
 	for j := n - 1; j >= jlo; j-- {
-		for _, c := range kw.corner[gi][j] {
+		for q, c := range kw.corner[gi][j] {
 			if c.slot < 0 {
 				continue
 			}
-			row := kg.k[c.slot*rowLen : (c.slot+1)*rowLen]
-			for b := range nb {
-				if v := float64(row[b*ng+ng-1]); v > kmax[b] {
-					kmax[b] = v
+			p := kw.rowOf[c.slot]
+			if p < 0 {
+				p = len(rows)
+				rows = append(rows, c.slot)
+				kw.rowOf[c.slot] = p
+			}
+			kw.pos[j][q] = p
+		}
+		kw.nRows[j] = len(rows)
+	}
+	kw.rows = rows
+	x := w.x[km.gases[gi].sp]
+	stride := 4 * n
+	for i := jlo; i < n; i++ {
+		acc := kw.rowAcc[:kw.nRows[i]]
+		clear(acc)
+		ds := w.path[i*n : (i+1)*n]
+		for j := i; j < n; j++ {
+			f := x * w.nd[j] * ds[j]
+			for q, c := range kw.corner[gi][j] {
+				if c.slot >= 0 {
+					acc[kw.pos[j][q]] += f * c.w
 				}
 			}
 		}
-		for b := range nb {
-			if kw.live[b] == j {
-				full[b] = x*kw.column[j]*kmax[b] >= greyTau
+		copy(kw.rowPath[i*stride:], acc)
+	}
+}
+
+// classifyGas decides, per bin, how gas gi enters the rays that still
+// transmit. Where greyEnough holds, along every live ray, for the bounds
+// x N_i kmax and x N_i kbar of the gas's optical depth along ray i at its
+// strongest node and on average over g (N_i the ray's column, kmax and
+// kbar the largest top-node and mean k of the table rows it crosses, which
+// bound the interpolants), the bin is in kw.greyBinRuns and the gas's
+// mean, x n_j kmean_j, is added to its kw.agg. The others are listed in
+// kw.bins, with kw.rg[b] the lowest ray from which up the test holds:
+// rays from there take the gas as grey. It reports whether any bin was
+// grey.
+func (m *Model) classifyGas(w *Workspace, gi, jlo int) bool {
+	km, kw := m.k, w.k
+	n, nb := len(m.pLayer), km.nb
+	kg := &km.gases[gi]
+	x := w.x[kg.sp]
+	// Bins that pass at every live ray even with the table's largest k
+	// and the largest column are grey without a closer look.
+	nmax := 0.0
+	for _, c := range kw.column[jlo:n] {
+		nmax = max(nmax, c)
+	}
+	st := kw.state
+	for b, l := range kw.live {
+		switch {
+		case l == n:
+			st[b] = rayDark
+		case greyEnough(x*nmax*kg.topMax[b], x*nmax*kg.meanMax[b]):
+			st[b] = rayGrey
+		default:
+			st[b] = rayFull // a candidate
+		}
+	}
+	cand := stateRuns(kw.candRuns[:0], st, rayFull)
+	kw.candRuns = cand
+	// kmax[b], kbar[b]: the largest top-node and mean k of the rows ray i
+	// crosses, accumulated from the top down.
+	kmax, kbar, rg := kw.kmax, kw.kbar, kw.rg
+	for _, c := range cand {
+		clear(kmax[c.lo:c.hi])
+		clear(kbar[c.lo:c.hi])
+		for b := c.lo; b < c.hi; b++ {
+			rg[b] = n
+		}
+	}
+	p := 0
+	for i := n - 1; i >= jlo; i-- {
+		for ; p < kw.nRows[i]; p++ {
+			r := kw.rows[p]
+			for _, c := range cand {
+				top, mean := kg.top[r*nb+c.lo:r*nb+c.hi], kg.mean[r*nb+c.lo:r*nb+c.hi]
+				kx, kb := kmax[c.lo:c.hi], kbar[c.lo:c.hi]
+				kx, kb = kx[:len(top)], kb[:len(top)]
+				mean = mean[:len(top)]
+				for k, v := range top {
+					if v > kx[k] {
+						kx[k] = v
+					}
+					if mean[k] > kb[k] {
+						kb[k] = mean[k]
+					}
+				}
+			}
+		}
+		xn := x * kw.column[i]
+		for _, c := range cand {
+			for b := c.lo; b < c.hi; b++ {
+				if rg[b] == i+1 && greyEnough(xn*kmax[b], xn*kbar[b]) {
+					rg[b] = i
+				}
 			}
 		}
 	}
-	anyGrey := false
-	for b := range nb {
-		anyGrey = anyGrey || (!full[b] && kw.live[b] < n)
+	full := kw.bins[:0]
+	for _, c := range cand {
+		for b := c.lo; b < c.hi; b++ {
+			if rg[b] > kw.live[b] {
+				full = append(full, b)
+			} else {
+				st[b] = rayGrey
+			}
+		}
 	}
-	if !anyGrey {
+	kw.bins = full
+	grey := stateRuns(kw.greyBinRuns[:0], st, rayGrey)
+	kw.greyBinRuns = grey
+	if len(grey) == 0 {
 		return false
 	}
 	for j := jlo; j < n; j++ {
@@ -366,9 +511,11 @@ func (m *Model) classifyGas(w *Workspace, gi, jlo int) bool {
 			}
 			mean := kg.mean[c.slot*nb : (c.slot+1)*nb]
 			cw := f * c.w
-			for b := range nb {
-				if !full[b] && kw.live[b] < n {
-					row[b] += cw * mean[b]
+			for _, r := range grey {
+				a, mn := row[r.lo:r.hi], mean[r.lo:r.hi]
+				mn = mn[:len(a)]
+				for k := range a {
+					a[k] += cw * mn[k]
 				}
 			}
 		}
@@ -376,86 +523,191 @@ func (m *Model) classifyGas(w *Workspace, gi, jlo int) bool {
 	return true
 }
 
-// gasAlphaBins fills kw.alpha with gas gi's absorption coefficients of
-// layers jlo.. for the bins blk, interpolated bilinearly in (log10 P, T) at
-// fixed g.
-func (m *Model) gasAlphaBins(w *Workspace, gi, jlo int, blk []int) {
+// States of a bin along a ray, or along all of them, for one gas.
+const (
+	rayDark int8 = iota // transmits nothing
+	rayFull             // needs the gas's k-distribution
+	rayGrey             // takes the gas as grey
+)
+
+// gasBlock multiplies the transmissions of the bins blk (ascending) by that
+// of gas gi, ray by ray: where the ray needs it (below kw.rg[b]), from the
+// gas's optical depth at every node, sum_g W_g exp(-tau_g); above, from the
+// optical depth of its mean. Each ray works on runs of bins in the same
+// state that are consecutive in the table, whose rows hold them
+// contiguously.
+//
+// The optical depths at the nodes are summed in float32, like the tables:
+// its relative rounding (6e-8 a term) moves exp(-tau) by at most 6e-8 tau
+// exp(-tau) a term, below 1e-6 of a ray's transmission over a hundred rows.
+func (m *Model) gasBlock(w *Workspace, gi int, blk []int) {
 	km, kw := m.k, w.k
+	n, nb, ng := len(m.pLayer), km.nb, km.ng
 	kg := &km.gases[gi]
-	ng := km.ng
-	stride := kw.bpb * ng
-	rowLen := km.nb * ng
-	x := w.x[kg.sp]
-	for j := jlo; j < len(m.pLayer); j++ {
-		a := kw.alpha[j*stride : j*stride+len(blk)*ng]
-		clear(a)
-		f := x * w.nd[j]
-		for _, c := range kw.corner[gi][j] {
-			if c.slot < 0 {
-				continue
+	rowLen := nb * ng
+	stride := 4 * n
+	jlo := n
+	for _, b := range blk {
+		jlo = min(jlo, kw.live[b])
+	}
+	tau, tm := kw.tau32[:len(blk)*ng], kw.tm[:len(blk)]
+	var impl gonum.Implementation
+	for i := jlo; i < n; i++ {
+		tr := kw.transAll[i*nb : (i+1)*nb]
+		full, grey := kw.runs(blk, tr, i)
+		if len(full)+len(grey) == 0 {
+			continue
+		}
+		nr := kw.nRows[i]
+		mp := kw.rowPath[i*stride : i*stride+nr]
+		if len(full) > 0 {
+			for _, r := range full {
+				clear(tau[r.lo*ng : r.hi*ng])
 			}
-			row := kg.k[c.slot*rowLen : (c.slot+1)*rowLen]
-			cw := f * c.w
-			for bb, b := range blk {
-				dst := a[bb*ng : (bb+1)*ng]
-				for q, v := range row[b*ng : (b+1)*ng] {
-					dst[q] += cw * float64(v)
+			// From the deepest row up; the partial sums are lower bounds,
+			// checked at doubling intervals for saturation of every
+			// column, as in TransitFine.
+			check, saturated := 1, false
+			for p := nr - 1; p >= 0; p-- {
+				row := kg.k[kw.rows[p]*rowLen : (kw.rows[p]+1)*rowLen]
+				// The weights are far below float32's largest value (3e38)
+				// in any atmosphere; the min only keeps them finite.
+				c := float32(min(mp[p], math.MaxFloat32))
+				for _, r := range full {
+					impl.Saxpy((r.hi-r.lo)*ng, c, row[blk[r.lo]*ng:], 1, tau[r.lo*ng:], 1)
+				}
+				if nr-p == check {
+					if saturated32(full, tau, ng) {
+						saturated = true
+						break
+					}
+					check *= 2
+				}
+			}
+			for _, r := range full {
+				for bb := r.lo; bb < r.hi; bb++ {
+					if saturated {
+						tr[blk[bb]] = 0
+						continue
+					}
+					tr[blk[bb]] *= transmission(km.w, tau[bb*ng:(bb+1)*ng])
+				}
+			}
+		}
+		if len(grey) > 0 {
+			for _, r := range grey {
+				t := tm[r.lo:r.hi]
+				clear(t)
+				for p, c := range mp {
+					row := kw.rows[p]*nb + blk[r.lo]
+					mean := kg.mean[row : row+len(t)]
+					for bb, v := range mean {
+						t[bb] += c * v
+					}
+				}
+				for bb, v := range t {
+					tr[blk[r.lo+bb]] *= expNeg(v)
 				}
 			}
 		}
 	}
 }
 
-// multiplyTransmissionBins multiplies the transmissions of the bins blk by
-// that of the gas in kw.alpha: along each ray, the optical depth at every
-// node, then sum_g W_g exp(-tau_g).
-func (m *Model) multiplyTransmissionBins(w *Workspace, jlo int, blk []int) {
-	km, kw := m.k, w.k
-	n, nb, ng := len(m.pLayer), km.nb, km.ng
-	stride := kw.bpb * ng
-	cols := len(blk) * ng
-	tau := kw.tau[:cols]
-	for i := jlo; i < n; i++ {
-		tr := kw.transAll[i*nb : (i+1)*nb]
-		alive := false
-		for _, b := range blk {
-			alive = alive || tr[b] != 0
-		}
-		if !alive {
+// binRun is a run [lo, hi) of bins, or of positions in a block.
+type binRun struct{ lo, hi int }
+
+// stateRuns appends to dst the runs of bins b with st[b] == want.
+func stateRuns(dst []binRun, st []int8, want int8) []binRun {
+	for b, v := range st {
+		if v != want {
 			continue
 		}
-		ds := w.path[i*n : (i+1)*n]
-		floats.ScaleTo(tau, ds[i], kw.alpha[i*stride:i*stride+cols])
-		check := i + 1
-		saturated := false
-		for j := i + 1; j < n; j++ {
-			floats.AddScaled(tau, ds[j], kw.alpha[j*stride:j*stride+cols])
-			if j == check {
-				if allSaturated(tau) {
-					saturated = true
-					break
-				}
-				check += check - i
-			}
-		}
-		for bb, b := range blk {
-			if tr[b] == 0 {
-				continue
-			}
-			if saturated {
-				tr[b] = 0
-				continue
-			}
-			t := 0.0
-			for q, v := range tau[bb*ng : (bb+1)*ng] {
-				if v >= satTau { // tau rises with g: the rest is 0 too
-					break
-				}
-				t += km.w[q] * expNeg(v)
-			}
-			tr[b] *= t
+		if len(dst) > 0 && dst[len(dst)-1].hi == b {
+			dst[len(dst)-1].hi = b + 1
+		} else {
+			dst = append(dst, binRun{b, b + 1})
 		}
 	}
+	return dst
+}
+
+// runs splits the bins blk along ray i into runs of bins in the same state
+// (rayFull or rayGrey) and consecutive in the table.
+func (kw *kWork) runs(blk []int, tr []float64, i int) (full, grey []binRun) {
+	full, grey = kw.fullRuns[:0], kw.greyRuns[:0]
+	prev, prevB := rayDark, -2
+	for bb, b := range blk {
+		st := rayDark
+		switch {
+		case tr[b] == 0:
+		case i < kw.rg[b]:
+			st = rayFull
+		default:
+			st = rayGrey
+		}
+		if st == prev && b == prevB+1 {
+			if st == rayFull {
+				full[len(full)-1].hi = bb + 1
+			} else if st == rayGrey {
+				grey[len(grey)-1].hi = bb + 1
+			}
+		} else if st == rayFull {
+			full = append(full, binRun{bb, bb + 1})
+		} else if st == rayGrey {
+			grey = append(grey, binRun{bb, bb + 1})
+		}
+		prev, prevB = st, b
+	}
+	kw.fullRuns, kw.greyRuns = full, grey
+	return full, grey
+}
+
+// saturated32 reports whether every node of the runs (ng nodes a bin) has
+// reached satTau.
+func saturated32(runs []binRun, tau []float32, ng int) bool {
+	for _, r := range runs {
+		for _, t := range tau[r.lo*ng : r.hi*ng] {
+			if !(t >= satTau) {
+				return false
+			}
+		}
+	}
+	return true
+}
+
+// transmission returns sum_q w_q exp(-tau_q) for optical depths tau
+// non-decreasing in q: 0 when the first reaches satTau, else with
+// exp(-min(tau, satTau)) at every node (a node from satTau on adds
+// w_q exp(-38), below 4e-17) and no branch on the values; the arithmetic
+// of expNeg written out, two nodes at a time.
+func transmission(w []float64, tau []float32) float64 {
+	if len(tau) == 0 || tau[0] >= satTau {
+		return 0
+	}
+	w = w[:len(tau)]
+	var s0, s1 float64
+	for len(tau) >= 2 && len(w) >= 2 {
+		t0, t1 := float64(tau[0]), float64(tau[1])
+		if t0 > satTau {
+			t0 = satTau
+		}
+		if t1 > satTau {
+			t1 = satTau
+		}
+		k0 := (t0*expInv256 + expRounds) - expRounds
+		k1 := (t1*expInv256 + expRounds) - expRounds
+		r0, r1 := t0-k0*expLn2256, t1-k1*expLn2256
+		i0, i1 := int(k0), int(k1)
+		p0 := (1 - r0) + r0*r0*(0.5-r0*(1.0/6))
+		p1 := (1 - r1) + r1*r1*(0.5-r1*(1.0/6))
+		s0 += w[0] * p0 * math.Float64frombits(uint64(1023-(i0>>8))<<52) * transmittedTable[i0&255]
+		s1 += w[1] * p1 * math.Float64frombits(uint64(1023-(i1>>8))<<52) * transmittedTable[i1&255]
+		tau, w = tau[2:], w[2:]
+	}
+	if len(tau) > 0 && len(w) > 0 {
+		s0 += w[0] * expNeg(float64(tau[0]))
+	}
+	return s0 + s1
 }
 
 // transitResortRebin computes the depths with the resort-rebin overlap, a
@@ -696,13 +948,4 @@ func allZero(x []float64) bool {
 		}
 	}
 	return true
-}
-
-// expNeg returns exp(-t) for t >= 0, 0 from satTau on, with the table and
-// polynomial of oneMinusExpNeg (absolute error a few 1e-16).
-func expNeg(t float64) float64 {
-	if t >= satTau {
-		return 0
-	}
-	return 1 - oneMinusExpNeg(t)
 }

@@ -3,6 +3,8 @@ package forward
 import (
 	"fmt"
 	"math"
+
+	"chord/forward/opacity"
 )
 
 // ResolvingPowerBins returns adjacent bins of resolving power R covering
@@ -20,16 +22,9 @@ func ResolvingPowerBins(lo, hi, r float64) (Bins, error) {
 	if !(r > 0.5) || math.IsInf(r, 0) {
 		return Bins{}, fmt.Errorf("resolving power %g: must be finite and above 0.5", r)
 	}
-	// Edges within [lo, hi], with a relative 1e-9 of slack for ends given
-	// as rounded edge values.
-	k0 := int(math.Ceil(r*math.Log(lo/Micron) - 1e-9*r))
-	k1 := int(math.Floor(r*math.Log(hi/Micron) + 1e-9*r))
-	if k1-k0 < 1 || k1-k0 > 1e7 {
-		return Bins{}, fmt.Errorf("wavelength range %g-%g um holds %d whole bins at R = %g (edges at exp(k/R) um)", lo/Micron, hi/Micron, max(k1-k0, 0), r)
+	blo, bhi := opacity.AnchoredBins(lo/Micron, hi/Micron, r)
+	if len(blo) < 1 || len(blo) > 1e7 {
+		return Bins{}, fmt.Errorf("wavelength range %g-%g um holds %d whole bins at R = %g (edges at exp(k/R) um)", lo/Micron, hi/Micron, len(blo), r)
 	}
-	edges := make([]float64, k1-k0+1)
-	for i := range edges {
-		edges[i] = math.Exp(float64(k0+i)/r) * Micron
-	}
-	return BinsFromEdges(edges)
+	return Bins{Lo: blo, Hi: bhi}, nil
 }

@@ -67,7 +67,7 @@ var opacityBuildCommand = &cli.Command{
 		&cli.StringFlag{Name: "bins-from", Usage: "k-table bins: the bin edges of an observation `FILE`"},
 		&cli.StringFlag{Name: "quadrature", Value: "12,4@0.95", Usage: "k-table g quadrature: Gauss-Legendre `N[,N2,...@SPLIT,...]`, e.g. 16 or 12,4@0.95"},
 		&cli.Float64Flag{Name: "wing-widths", Usage: "k-tables: cut each line at min(--cutoff, `N` Voigt half-widths) (0: --cutoff alone)"},
-		&cli.Float64Flag{Name: "weak-cut", Usage: "k-tables: lines weaker than `F` times the strongest line within --weak-ref go into a pseudo-continuum (0: none)"},
+		&cli.Float64Flag{Name: "weak-cut", Value: lbl.DefaultWeakCut, Usage: "k-tables: a line weaker than `F` times the strongest line within --weak-ref and whose peak is below F times the local absorption goes into a pseudo-continuum (0: every line profiled)"},
 		&cli.Float64Flag{Name: "weak-ref", Usage: "k-tables: half-width of the neighbourhood of --weak-cut in `CM-1` (0: 1)"},
 		&cli.Float64Flag{Name: "resolution", Usage: "k-tables: resolving power `R` of the fine grid (0: a third of the Doppler half-width at each temperature)"},
 		&cli.IntFlag{Name: "window-lines", Usage: "k-tables: at most about `N` lines held at once (0: 2000000)"},
@@ -168,11 +168,7 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 	if err != nil {
 		return err
 	}
-	src, err := lineSource(c, files)
-	if err != nil {
-		return err
-	}
-	mixture, err := buildMixture(c)
+	src, mixture, err := lineSource(c, files)
 	if err != nil {
 		return err
 	}
@@ -181,14 +177,9 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 	if err != nil {
 		return sourceError(err)
 	}
-	if err := checkTableName(lines.Gas); err != nil {
+	path, err := tablePath(out, lines.Gas, ".parquet", force)
+	if err != nil {
 		return err
-	}
-	path := filepath.Join(out, lines.Gas+".parquet")
-	if !force {
-		if _, err := os.Lstat(path); err == nil {
-			return fmt.Errorf("opacity build: %s exists; refusing to overwrite it (use --force)", path)
-		}
 	}
 	settings := lbl.XSecSettings{
 		Log10P: logP, T: temps, Wavenumber: nu,
@@ -241,8 +232,19 @@ var sourceFlags = map[string]string{
 	"Abundance": "abundance", "Gamma": "exomol-gamma", "N": "exomol-n", "Fields": "fields", "Broad": "broad",
 }
 
-// lineSource maps the flags of the line list to a build.Source.
-func lineSource(c *cli.Context, files []string) (*build.Source, error) {
+// lineSource maps the flags of the line list to a build.Source and the
+// broadening mixture.
+func lineSource(c *cli.Context, files []string) (*build.Source, lbl.Mixture, error) {
+	m, err := buildMixture(c)
+	if err != nil {
+		return nil, nil, err
+	}
+	src, err := sourceFlagsOf(c, files)
+	return src, m, err
+}
+
+// sourceFlagsOf maps the flags of the files to a build.Source.
+func sourceFlagsOf(c *cli.Context, files []string) (*build.Source, error) {
 	src := &build.Source{
 		Files: files, Gas: c.String("gas"),
 		MolParam: c.String("molparam"), TIPS: c.String("tips"), Broad: c.StringSlice("broad"),
@@ -332,6 +334,21 @@ func buildCIATables(c *cli.Context, files []string, nu []float64, out string, fo
 		fmt.Fprintln(c.App.Writer, path)
 	}
 	return nil
+}
+
+// tablePath returns out/<gas><suffix> for a table of gas, refusing a gas
+// name that cannot name a file, and an existing file unless force.
+func tablePath(out, gas, suffix string, force bool) (string, error) {
+	if err := checkTableName(gas); err != nil {
+		return "", err
+	}
+	path := filepath.Join(out, gas+suffix)
+	if !force {
+		if _, err := os.Lstat(path); err == nil {
+			return "", fmt.Errorf("opacity build: %s exists; refusing to overwrite it (use --force)", path)
+		}
+	}
+	return path, nil
 }
 
 // checkTableName refuses gas names that cannot be file names.

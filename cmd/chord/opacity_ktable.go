@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"path/filepath"
 	"slices"
 	"strconv"
@@ -26,11 +25,7 @@ import (
 // stopped build of the same settings and files from its checkpoint
 // <out>/.<gas>.k.checkpoint.
 func buildKTable(c *cli.Context, files []string, out string, force bool, progress io.Writer) error {
-	src, err := lineSource(c, files)
-	if err != nil {
-		return err
-	}
-	mixture, err := buildMixture(c)
+	src, mixture, err := lineSource(c, files)
 	if err != nil {
 		return err
 	}
@@ -47,14 +42,9 @@ func buildKTable(c *cli.Context, files []string, out string, force bool, progres
 	if err != nil {
 		return sourceError(err)
 	}
-	if err := checkTableName(list.Gas); err != nil {
+	path, err := tablePath(out, list.Gas, ".k.parquet", force)
+	if err != nil {
 		return err
-	}
-	path := filepath.Join(out, list.Gas+".k.parquet")
-	if !force {
-		if _, err := os.Lstat(path); err == nil {
-			return fmt.Errorf("opacity build: %s exists; refusing to overwrite it (use --force)", path)
-		}
 	}
 	logP := opacity.DefaultKLog10P()
 	if c.IsSet("pressure") {
@@ -165,16 +155,12 @@ func kBins(c *cli.Context) (lo, hi []float64, err error) {
 	if !(a > 0) || !(b > a) || !(r > 0) || r > 1e6 {
 		return nil, nil, fmt.Errorf("opacity build: --bins %q: want 0 < LO < HI (um) and 0 < R <= 1e6", c.String("bins"))
 	}
-	k0, k1 := int(math.Ceil(r*math.Log(a)-1e-9)), int(math.Floor(r*math.Log(b)+1e-9))
-	if k1-k0 < 1 {
+	if n := r * math.Log(b/a); n > maxBuildValues/16 {
+		return nil, nil, fmt.Errorf("opacity build: --bins %q: %.0f bins is too many", c.String("bins"), n)
+	}
+	lo, hi = opacity.AnchoredBins(a, b, r)
+	if len(lo) == 0 {
 		return nil, nil, fmt.Errorf("opacity build: --bins %q: no bin of the grid exp(k/%g) um lies inside %g-%g um", c.String("bins"), r, a, b)
-	}
-	if k1-k0 > maxBuildValues/16 {
-		return nil, nil, fmt.Errorf("opacity build: --bins %q: %d bins is too many", c.String("bins"), k1-k0)
-	}
-	for k := k0; k < k1; k++ {
-		lo = append(lo, math.Exp(float64(k)/r)*1e-6)
-		hi = append(hi, math.Exp(float64(k+1)/r)*1e-6)
 	}
 	return lo, hi, nil
 }

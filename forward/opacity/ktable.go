@@ -459,3 +459,17 @@ func (mg *merger) merge(dst []float32) {
 		}
 	}
 }
+
+// AnchoredBins returns the bins of resolving power r on the anchored grid
+// lambda_k = exp(k/r) um whose edges lie within [loUm, hiUm] um, as
+// wavelengths in m, ascending. On this grid the bins of r are unions of
+// the bins of any multiple of r (R = 100 bins of ten R = 1000 bins), so
+// one table set serves every instrument (Rebin).
+func AnchoredBins(loUm, hiUm, r float64) (lo, hi []float64) {
+	k0, k1 := int(math.Ceil(r*math.Log(loUm)-1e-9)), int(math.Floor(r*math.Log(hiUm)+1e-9))
+	for k := k0; k < k1; k++ {
+		lo = append(lo, math.Exp(float64(k)/r)*1e-6)
+		hi = append(hi, math.Exp(float64(k+1)/r)*1e-6)
+	}
+	return lo, hi
+}

@@ -25,8 +25,8 @@ import (
 	"chord/forward/opacity"
 	"chord/forward/opacity/exomol"
 	"chord/forward/opacity/hitran"
-	"chord/forward/opacity/internal/compressed"
 	"chord/forward/opacity/lbl"
+	"chord/internal/compressed"
 )
 
 // Source names the files of one gas's line list and what goes with them.
@@ -245,6 +245,23 @@ var errPastRange = errors.New("past the range")
 // hitranFile reads a HITRAN file's lines in [lo, hi].
 func (l *List) hitranFile(path string, lo, hi float64, workers int) *streamFile {
 	fields := l.src.Fields[path]
+	return rangeFile(path, lo, hi, workers, func(r io.Reader, fn func(*lbl.Line) error) error {
+		return hitran.ScanLines(r, path, fields, fn)
+	})
+}
+
+// exomolFile reads an ExoMol transition file's lines in [lo, hi].
+func (l *List) exomolFile(path string, lo, hi float64, workers int) *streamFile {
+	return rangeFile(path, lo, hi, workers, func(r io.Reader, fn func(*lbl.Line) error) error {
+		return l.conv.ScanTrans(r, path, func(ln lbl.Line) error { return fn(&ln) })
+	})
+}
+
+// rangeFile is a stream file whose scan opens path (decompressing it on
+// workers goroutines), reads it with scan and passes on the lines in [lo,
+// hi], stopping at the first line above hi (files are sorted) or when its
+// context is cancelled.
+func rangeFile(path string, lo, hi float64, workers int, scan func(io.Reader, func(*lbl.Line) error) error) *streamFile {
 	return &streamFile{name: path, scan: func(ctx context.Context, fn func(*lbl.Line) error) error {
 		r, err := compressed.Open(path, workers)
 		if err != nil {
@@ -252,7 +269,7 @@ func (l *List) hitranFile(path string, lo, hi float64, workers int) *streamFile 
 		}
 		defer r.Close()
 		n := 0
-		err = hitran.ScanLines(r, path, fields, func(ln *lbl.Line) error {
+		err = scan(r, func(ln *lbl.Line) error {
 			if n++; n&1023 == 0 && ctx.Err() != nil {
 				return ctx.Err()
 			}
@@ -263,34 +280,6 @@ func (l *List) hitranFile(path string, lo, hi float64, workers int) *streamFile 
 				return nil
 			}
 			return fn(ln)
-		})
-		if errors.Is(err, errPastRange) {
-			return nil
-		}
-		return err
-	}}
-}
-
-// exomolFile reads an ExoMol transition file's lines in [lo, hi].
-func (l *List) exomolFile(path string, lo, hi float64, workers int) *streamFile {
-	return &streamFile{name: path, scan: func(ctx context.Context, fn func(*lbl.Line) error) error {
-		r, err := compressed.Open(path, workers)
-		if err != nil {
-			return fmt.Errorf("exomol: %w", err)
-		}
-		defer r.Close()
-		n := 0
-		err = l.conv.ScanTrans(r, path, func(ln lbl.Line) error {
-			if n++; n&1023 == 0 && ctx.Err() != nil {
-				return ctx.Err()
-			}
-			switch {
-			case ln.Nu > hi:
-				return errPastRange
-			case ln.Nu < lo:
-				return nil
-			}
-			return fn(&ln)
 		})
 		if errors.Is(err, errPastRange) {
 			return nil

@@ -2,53 +2,21 @@ package build_test
 
 import (
 	"context"
-	"math"
 	"path/filepath"
 	"runtime"
 	"runtime/debug"
 	"slices"
 	"sync"
-	"sync/atomic"
 	"testing"
-	"time"
 	"unsafe"
 
 	"chord/forward/opacity"
 	"chord/forward/opacity/build"
 	"chord/forward/opacity/exomol"
-	"chord/forward/opacity/internal/synthlines"
 	"chord/forward/opacity/lbl"
+	"chord/internal/synthlines"
+	"chord/internal/testenv"
 )
-
-// anchored returns the bins exp(k/r) um inside [lo, hi] um.
-func anchored(lo, hi, r float64) (blo, bhi []float64) {
-	for k := int(math.Ceil(r * math.Log(lo))); float64(k+1) <= r*math.Log(hi); k++ {
-		blo = append(blo, math.Exp(float64(k)/r)*1e-6)
-		bhi = append(bhi, math.Exp(float64(k+1)/r)*1e-6)
-	}
-	return blo, bhi
-}
-
-// peakHeap samples the heap in use every millisecond until stop is
-// closed, and returns the largest value seen.
-func peakHeap(stop <-chan struct{}) *atomic.Uint64 {
-	var peak atomic.Uint64
-	go func() {
-		var ms runtime.MemStats
-		for {
-			runtime.ReadMemStats(&ms)
-			if ms.HeapInuse > peak.Load() {
-				peak.Store(ms.HeapInuse)
-			}
-			select {
-			case <-stop:
-				return
-			case <-time.After(time.Millisecond):
-			}
-		}
-	}()
-	return &peak
-}
 
 // TestStreamedBuildEqualsInMemory: a synthetic list of 1e6 lines written
 // as 12 gzip chunk files is built into a k-table by streaming, holding at
@@ -66,7 +34,7 @@ func TestStreamedBuildEqualsInMemory(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	lo, hi := anchored(1e4/2590, 1e4/2010, 100)
+	lo, hi := opacity.AnchoredBins(1e4/2590, 1e4/2010, 100)
 	s := lbl.KSettings{
 		Log10P: []float64{2, 4}, T: []float64{500, 1000}, Lo: lo, Hi: hi, Resolution: 3e5,
 		Lines:       lbl.LineSettings{WeakCut: 1e-3, WingWidths: 500},
@@ -84,7 +52,7 @@ func TestStreamedBuildEqualsInMemory(t *testing.T) {
 	runtime.ReadMemStats(&ms)
 	base := ms.HeapInuse
 	stop := make(chan struct{})
-	peak := peakHeap(stop)
+	peak := testenv.PeakHeap(stop)
 	streamed, err := list.KTable(context.Background(), s)
 	close(stop)
 	if err != nil {
@@ -133,7 +101,7 @@ func TestStreamResume(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	lo, hi := anchored(1e4/2590, 1e4/2010, 200)
+	lo, hi := opacity.AnchoredBins(1e4/2590, 1e4/2010, 200)
 	list, err := build.Open(&build.Source{Files: []string{def}}, lbl.Observer{})
 	if err != nil {
 		t.Fatal(err)

@@ -61,13 +61,7 @@ var (
 
 // demoBins returns the bins of the demo k-tables.
 func demoBins() (lo, hi []float64) {
-	k0 := int(math.Ceil(ResolvingPower * math.Log(demoLambdaMin*1e6)))
-	k1 := int(math.Floor(ResolvingPower * math.Log(demoLambdaMax*1e6)))
-	for k := k0; k < k1; k++ {
-		lo = append(lo, math.Exp(float64(k)/ResolvingPower)*1e-6)
-		hi = append(hi, math.Exp(float64(k+1)/ResolvingPower)*1e-6)
-	}
-	return lo, hi
+	return opacity.AnchoredBins(demoLambdaMin*1e6, demoLambdaMax*1e6, ResolvingPower)
 }
 
 // Gases returns the names of the demo gases.

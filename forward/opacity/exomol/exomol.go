@@ -31,8 +31,8 @@ import (
 	"strconv"
 	"strings"
 
-	"chord/forward/opacity/internal/compressed"
 	"chord/forward/opacity/lbl"
+	"chord/internal/compressed"
 )
 
 // exomolBarPerAtm converts per-bar half-widths to per-atm: 1 atm = 1.01325 bar

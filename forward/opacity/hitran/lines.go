@@ -10,8 +10,8 @@ import (
 	"strconv"
 	"strings"
 
-	"chord/forward/opacity/internal/compressed"
 	"chord/forward/opacity/lbl"
+	"chord/internal/compressed"
 )
 
 // HITRAN line-list reading.

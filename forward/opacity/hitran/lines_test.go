@@ -190,6 +190,11 @@ func FuzzReadLines(f *testing.F) {
 	f.Add([]byte(co2Record + "\r\n" + co2Record))
 	f.Add([]byte("2\t666.016232\t9.946e-29\t1.166\t0.0683\t0.086\t4690.5806\t0.76\t-0.000732\n"))
 	f.Add([]byte("molec_id\tnu\tsw\ta\tgamma_air\tgamma_self\telower\tn_air\tdelta_air\n"))
+	// The layouts of issue 18: comma-separated broadener fields after the
+	// record, a header-named table, a CDSD-HITEMP record.
+	f.Add([]byte(co2Record + ",   0.0489,   5, 1345,   0.5143,   5, 1345,   0.0755,   5, 1345,   0.6634,   5, 1345,   0.1076,   5, 1345,   0.6983,   5, 1345 \n"))
+	f.Add([]byte("molec_id,local_iso_id,nu,sw,elower,gamma_air,n_air,gamma_H2,n_H2,delta_H2\n5,1,2147.08,9.29e-20,0,0.0803,0.76,0.0755,#,-0.0018\n"))
+	f.Add([]byte(" 23 2283.700120 4.517E-46 4.817E+02.0528.064812620.34940.59-.005067 0.66  1 2 2 32       1 2 2 22 13 2  50 10 2  23  R123f  750\n"))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		ls, err := hitran.ReadLines(bytes.NewReader(data), "fuzz", hitran.LineFilter{})
 		if err != nil {

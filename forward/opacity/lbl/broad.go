@@ -182,14 +182,19 @@ func newWidthRule(m Mixture, b Broadening, self float64, noShift bool) (widthRul
 // at returns a line's Lorentz half-width and centre shift (cm^-1) at
 // pressure pAtm (atm) and lnT = ln(296/T).
 func (r *widthRule) at(l *Line, pAtm, lnT float64) (gammaL, shift float64) {
-	pSelf := r.self * pAtm
-	pBg := pAtm - pSelf
+	g, gs, d := r.parts(l, lnT)
+	return r.combine(l, g, gs, d, pAtm)
+}
+
+// parts returns what of a line's width and shift depends on temperature
+// alone (lnT = ln(296/T)): the background's half-width g and shift d per
+// atm, and the self-broadened half-width gs per atm.
+func (r *widthRule) parts(l *Line, lnT float64) (g, gs, d float64) {
 	airN := l.NAir
 	if r.airN > 0 {
 		airN = r.airN
 	}
 	airG := r.scale * l.GammaAir * math.Exp(airN*lnT)
-	var g, d float64
 	for _, c := range r.comps {
 		cg, cd := airG, l.DeltaAir
 		if c.b < NumBroadeners {
@@ -208,7 +213,15 @@ func (r *widthRule) at(l *Line, pAtm, lnT float64) (gammaL, shift float64) {
 		g += c.frac * cg
 		d += c.frac * cd
 	}
-	gammaL = g*pBg + l.GammaSelf*math.Exp(l.NAir*lnT)*pSelf
+	return g, l.GammaSelf * math.Exp(l.NAir*lnT), d
+}
+
+// combine gives the Lorentz half-width and shift at pressure pAtm (atm)
+// from the parts.
+func (r *widthRule) combine(l *Line, g, gs, d, pAtm float64) (gammaL, shift float64) {
+	pSelf := r.self * pAtm
+	pBg := pAtm - pSelf
+	gammaL = g*pBg + gs*pSelf
 	if !r.noShift {
 		shift = d*pBg + l.DeltaAir*pSelf
 	}
@@ -248,4 +261,17 @@ func fallbackNote(counts map[string]int, n int) string {
 	}
 	sort.Strings(parts)
 	return "lines without their own broadening parameters use the air values (scaled as given) in their place: " + strings.Join(parts, "; ")
+}
+
+// LorentzWidth returns the Lorentz half-width and the centre shift
+// (cm^-1) of line l at pressure pAtm (atm) and temperature t (K) in the
+// background m (with Broadening b for the air values) and absorber
+// fraction self, as the builders compute them (see Mixture).
+func LorentzWidth(l *Line, m Mixture, b Broadening, self, pAtm, t float64) (gammaL, shift float64, err error) {
+	r, err := newWidthRule(m, b, self, false)
+	if err != nil {
+		return 0, 0, err
+	}
+	gammaL, shift = r.at(l, pAtm, math.Log(TRef/t))
+	return gammaL, shift, nil
 }

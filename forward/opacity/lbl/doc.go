@@ -1,7 +1,9 @@
-// Package lbl computes cross-section tables line by line: the Line type of
-// line lists, isotopologue data and partition functions, the Voigt profile
-// through the Faddeeva function, and BuildXSec, which turns lines into an
-// opacity.XSecTable of point values or cell means.
+// Package lbl computes opacity tables line by line: the Line type of line
+// lists with its per-line broadening, isotopologue data and partition
+// functions, the Voigt profile through the Faddeeva function, BuildXSec,
+// which turns lines into an opacity.XSecTable of point values, and
+// BuildK/BuildKFrom, which stream lines of any number into an
+// opacity.KTable (correlated-k).
 //
 // Lines keep the units of the spectroscopic databases (cm^-1,
 // cm^-1/(molecule cm^-2), cm^-1/atm; HITRAN definitions); the tables

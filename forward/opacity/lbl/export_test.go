@@ -4,7 +4,5 @@ package lbl
 // (which read line lists and partition sums through package hitran, which
 // package lbl's own tests cannot import).
 var (
-	UniformGrid   = uniformGrid
-	CellSum       = cellSum
-	LorentzWindow = lorentzWindow
+	UniformGrid = uniformGrid
 )

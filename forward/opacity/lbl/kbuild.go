@@ -13,6 +13,7 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"sync/atomic"
 
 	"chord/forward/opacity"
 )
@@ -347,10 +348,6 @@ func (b *kBuild) span(g opacity.LnGrid, b0, b1 int) int {
 func (b *kBuild) meta() map[string]string {
 	s := b.s
 	c := b.core
-	var fallbacks map[string]int
-	if len(c.width.comps) > 0 {
-		fallbacks = b.fallbacks
-	}
 	bs := map[string]any{
 		"method":                    "k-distribution from line-by-line cross-sections",
 		"profile":                   "Voigt; Faddeeva function by Humlicek (1982, JQSRT 27, 437), w4; cores on the fine grid, wings on every 32nd point with cubic interpolation",
@@ -373,7 +370,7 @@ func (b *kBuild) meta() map[string]string {
 		"broadener":                 cmpOr(s.Lines.Broadening.Name, "air"),
 		"broadener_scale":           c.scale,
 		"broadening_mixture":        s.Lines.Mixture.String(),
-		"broadening_fallback_lines": fallbacks,
+		"broadening_fallback_lines": b.fallbacks,
 		"pressure_shift":            !s.Lines.NoPressureShift,
 	}
 	if s.Lines.Broadening.N > 0 {
@@ -494,20 +491,34 @@ func (b *kBuild) window(ctx context.Context, b0, b1 int, lines []Line, work []po
 		}
 	}
 	b.countFallbacks(lines, b0, b1)
+	// What the lines need at a temperature is the same at every pressure:
+	// it is computed once per temperature, by the first worker to need
+	// it, and freed when the last pressure is done. Tasks go temperature
+	// by temperature, so at most about one per worker is held.
+	nP := len(s.Log10P)
+	caches := make([]tCache, len(s.T))
+	for it := range caches {
+		caches[it].left.Store(int32(nP))
+	}
 	type task struct{ ip, it int }
 	tasks := make(chan task)
 	var wg sync.WaitGroup
-	for w := range min(b.workers, len(s.Log10P)*len(s.T)) {
+	for w := range min(b.workers, nP*len(s.T)) {
 		wg.Add(1)
 		go func(pw *pointWork) {
 			defer wg.Done()
 			for t := range tasks {
-				b.point(ls, t.ip, t.it, b0, b1, pw)
+				tc := &caches[t.it]
+				tc.once.Do(func() { tc.lt.fill(ls, 0, len(ls.lines), s.T[t.it], &pw.lw) })
+				b.point(ls, t.ip, t.it, b0, b1, pw, &tc.lt)
+				if tc.left.Add(-1) == 0 {
+					tc.lt = lineT{}
+				}
 			}
 		}(&work[w])
 	}
-	for ip := range s.Log10P {
-		for it := range s.T {
+	for it := range s.T {
+		for ip := range s.Log10P {
 			tasks <- task{ip, it}
 		}
 	}
@@ -557,8 +568,17 @@ type pointWork struct {
 	k       []float64
 }
 
-// point fills bins [b0, b1) of the table row of grid point (ip, it).
-func (b *kBuild) point(ls *LineSet, ip, it, b0, b1 int, pw *pointWork) {
+// tCache holds the window's lines at one temperature (lineT) while its
+// pressures are computed.
+type tCache struct {
+	once sync.Once
+	lt   lineT
+	left atomic.Int32 // pressures still to do
+}
+
+// point fills bins [b0, b1) of the table row of grid point (ip, it),
+// with the lines' quantities at the temperature from lt.
+func (b *kBuild) point(ls *LineSet, ip, it, b0, b1 int, pw *pointWork, lt *lineT) {
 	s := b.s
 	p, t := math.Pow(10, s.Log10P[ip]), s.T[it]
 	row := b.table.Row(ip, it)
@@ -571,7 +591,7 @@ func (b *kBuild) point(ls *LineSet, ip, it, b0, b1 int, pw *pointWork) {
 	// slice: its points are all needed for its distribution.
 	for a := k0; a < k1; a += maxChunk {
 		z := min(a+maxChunk, k1)
-		ls.crossSections(pw.sigma[a-k0:z-k0], g, a, p, t, &pw.lw)
+		ls.crossSectionsT(pw.sigma[a-k0:z-k0], g, a, p, t, &pw.lw, lt)
 	}
 	for bin := b0; bin < b1; bin++ {
 		pw.samples = b.binSamples(pw.samples[:0], g, bin, pw.sigma, k0)

@@ -3,7 +3,6 @@ package lbl
 import (
 	"cmp"
 	"encoding/json"
-	"errors"
 	"fmt"
 	"math"
 	"runtime"
@@ -99,18 +98,6 @@ type XSecSettings struct {
 	// NoPressureShift turns the air pressure shift delta_air p off (by
 	// default line centres are shifted).
 	NoPressureShift bool
-	// CellAverage makes each value the mean of the cross-section over its
-	// grid cell, from the midpoint to the previous grid point to the
-	// midpoint to the next (the end cells are symmetric about their
-	// points), instead of the value at the grid point. Each line's cell
-	// integrals come from the closed-form distribution function of
-	// cellProfile, within the wing cut-off, so the sum of mean x width
-	// over the cells is the line's integrated intensity within the
-	// cut-off on any grid; cells narrower than a quarter of the line's
-	// Voigt half-width take the point value instead (cellPointFraction).
-	// false (the default) gives point values. Needs at least two
-	// wavenumbers.
-	CellAverage bool
 
 	// Workers is the number of goroutines; 0 means GOMAXPROCS. The result
 	// does not depend on it.
@@ -144,9 +131,9 @@ type XSecSettings struct {
 // By default the values are the cross-section at the grid wavenumbers
 // (point samples): a grid coarser than the line widths samples the lines
 // rather than averaging them, so build on a grid fine enough for the
-// widths at the lowest pressure. With CellAverage the values are means
-// over the grid cells instead, which conserve every line's intensity on
-// any grid.
+// widths at the lowest pressure. (Means over grid cells are not offered:
+// averaging cross-sections before the exponential is not radiative
+// transfer; k-tables are the fast path.)
 //
 // The work is split over grid points and wavenumber chunks on Workers
 // goroutines; every value sums the same lines in the same order whatever
@@ -178,9 +165,6 @@ type lineBuild struct {
 	lines   []Line      // sorted by Nu
 	lineIso []*isoState // per line
 	nuCm    []float64   // grid wavenumbers, cm^-1
-	edges   []float64   // CellAverage: cell edges, cm^-1 (len(nuCm)+1)
-	widths  []float64   // CellAverage: cell widths, cm^-1
-	invW    []float64   // CellAverage: 1/widths
 	cut     float64
 	bgScale float64
 	width   widthRule
@@ -231,10 +215,8 @@ func newBuild(lines []Line, iso IsoData, s *XSecSettings) (*lineBuild, error) {
 		warnings = append(warnings, w)
 	}
 	b.setGrid()
-	if !s.CellAverage {
-		if w := b.samplingWarning(); w != "" {
-			warnings = append(warnings, w)
-		}
+	if w := b.samplingWarning(); w != "" {
+		warnings = append(warnings, w)
 	}
 	b.workers = s.Workers
 	if b.workers == 0 {
@@ -301,9 +283,6 @@ func checkSettings(s *XSecSettings, nLines int) error {
 	}
 	if nLines == 0 {
 		return fmt.Errorf("opacity: BuildXSec %s: no lines to build from", s.Gas)
-	}
-	if s.CellAverage && len(s.Wavenumber) < 2 {
-		return fmt.Errorf("opacity: BuildXSec %s: cell averaging needs at least 2 wavenumbers to define cells, the grid has %d", s.Gas, len(s.Wavenumber))
 	}
 	return nil
 }
@@ -389,35 +368,17 @@ func (b *lineBuild) setPartitionRatios() error {
 	return nil
 }
 
-// setGrid sets the grid wavenumbers in cm^-1 and, for CellAverage, the
-// cells: edges at the midpoints between grid points, the end cells
-// symmetric about their points.
+// setGrid sets the grid wavenumbers in cm^-1.
 func (b *lineBuild) setGrid() {
 	b.nuCm = make([]float64, len(b.s.Wavenumber))
 	for k, v := range b.s.Wavenumber {
 		b.nuCm[k] = v / 100
 	}
-	if !b.s.CellAverage {
-		return
-	}
-	n := len(b.nuCm)
-	b.edges = make([]float64, n+1)
-	b.widths = make([]float64, n)
-	b.edges[0] = b.nuCm[0] - (b.nuCm[1]-b.nuCm[0])/2
-	b.edges[n] = b.nuCm[n-1] + (b.nuCm[n-1]-b.nuCm[n-2])/2
-	for k := 1; k < n; k++ {
-		b.edges[k] = (b.nuCm[k-1] + b.nuCm[k]) / 2
-	}
-	b.invW = make([]float64, n)
-	for k := range b.widths {
-		b.widths[k] = b.edges[k+1] - b.edges[k]
-		b.invW[k] = 1 / b.widths[k]
-	}
 }
 
 // samplingWarning says when the grid is coarse against the lines: if the
 // largest grid spacing exceeds twice the median Voigt half-width at the
-// lowest pressure and temperature (see GridCoarseness), line cores fall
+// lowest pressure and temperature, line cores fall
 // between grid points and point values are samples of a spiky function,
 // not averages over the spacing.
 func (b *lineBuild) samplingWarning() string {
@@ -427,51 +388,15 @@ func (b *lineBuild) samplingWarning() string {
 		return ""
 	}
 	return fmt.Sprintf("grid spacing up to %.3g cm^-1 is %.0f times the median line half-width at %g Pa and %g K (%.3g cm^-1): "+
-		"the table holds point samples of the cross-section (opacity sampling), not averages over the spacing; use a finer grid or cell averaging where that matters",
+		"the table holds point samples of the cross-section (opacity sampling), not averages over the spacing; use a finer grid, or a k-table, where that matters",
 		dmax, dmax/med, math.Pow(10, s.Log10P[0]), s.T[0], med)
 }
 
 // CoarseGridRatio is the ratio of grid spacing to median line half-width
-// (GridCoarseness) above which BuildXSec warns that point values sample
+// above which BuildXSec warns that point values sample
 // the lines rather than resolve them: 2, i.e. fewer than about one grid
 // point per line full width.
 const CoarseGridRatio = 2.0
-
-// GridCoarseness returns the largest spacing of the grid s.Wavenumber
-// divided by the median Voigt half-width of the lines at the lowest
-// pressure and temperature of s (Lorentz width from gamma_air and the
-// broadening scale; HWHM ~ 0.5346 gL + sqrt(0.2166 gL^2 + aD^2), Olivero &
-// Longbothum 1977, JQSRT 17, 233, good to 0.02 %). Above CoarseGridRatio
-// the grid does not resolve the lines, and cell averaging
-// (XSecSettings.CellAverage) is the sounder choice. It needs the mass of
-// every line's isotopologue in iso.
-func GridCoarseness(lines []Line, iso IsoData, s *XSecSettings) (float64, error) {
-	if s == nil || len(s.Log10P) == 0 || len(s.T) == 0 || len(s.Wavenumber) < 2 || len(lines) == 0 {
-		return 0, errors.New("opacity: GridCoarseness needs lines, a pressure, a temperature and at least 2 wavenumbers")
-	}
-	mass := make([]float64, len(lines))
-	for i := range lines {
-		k := IsoKey{lines[i].Mol, lines[i].Iso}
-		d := iso[k]
-		if d == nil || !(d.Mass > 0) {
-			return 0, fmt.Errorf("opacity: GridCoarseness %s: no isotopologue mass for %v", s.Gas, k)
-		}
-		mass[i] = d.Mass
-	}
-	nuCm := make([]float64, len(s.Wavenumber))
-	for k, v := range s.Wavenumber {
-		nuCm[k] = v / 100
-	}
-	scale := s.Broadening.Scale
-	if scale == 0 {
-		scale = 1
-	}
-	dmax, med := spacingAndWidth(nuCm, lines, func(i int) float64 { return mass[i] }, scale, slices.Min(s.Log10P), slices.Min(s.T))
-	if !(med > 0) {
-		return math.Inf(1), nil
-	}
-	return dmax / med, nil
-}
 
 // spacingAndWidth returns the largest spacing of nuCm and the median Voigt
 // half-width (cm^-1) of the lines at log10 P (Pa) and T.
@@ -515,14 +440,8 @@ type buildSettings struct {
 	Fallback        map[string]int    `json:"broadening_fallback_lines,omitempty"`
 }
 
-// The build_settings "sampling" values.
-const (
-	samplingPoint = "point values at the grid wavenumbers"
-	samplingCell  = "cell means over [midpoint to the previous point, midpoint to the next point]: " +
-		"closed-form cell integrals of each line within the cut-off (Thompson, Cox & Hastings 1987 pseudo-Voigt core, " +
-		"J. Appl. Cryst. 20, 79; two-term Lorentz-Gauss wing expansion beyond 13 Doppler sigma); " +
-		"Humlicek point values in cells narrower than 0.25 of the line's Voigt HWHM"
-)
+// samplingPoint is the build_settings "sampling" value.
+const samplingPoint = "point values at the grid wavenumbers"
 
 func (b *lineBuild) meta(warnings []string) map[string]string {
 	s := b.s
@@ -542,9 +461,6 @@ func (b *lineBuild) meta(warnings []string) map[string]string {
 		PartitionSource: map[string]string{},
 		Mixture:         s.Mixture.String(),
 		Fallback:        b.width.fallbacks(b.lines),
-	}
-	if s.CellAverage {
-		bs.Sampling = samplingCell
 	}
 	if s.Broadening.N > 0 {
 		bs.BroadenerN = strconv.FormatFloat(s.Broadening.N, 'g', -1, 64)
@@ -651,11 +567,7 @@ func (b *lineBuild) line(i int, ps *ptState) (ls lineState, ok bool) {
 // k0..k1-1 of grid point (ip, it), using acc as float64 workspace.
 func (b *lineBuild) chunk(dst []float32, acc []float64, t task) {
 	clear(acc)
-	if b.s.CellAverage {
-		b.cellChunk(acc, t)
-	} else {
-		b.pointChunk(acc, t)
-	}
+	b.pointChunk(acc, t)
 	for k, v := range acc {
 		dst[k] = float32(v * 1e-4) // cm^2 -> m^2
 	}
@@ -703,51 +615,6 @@ func (b *lineBuild) pointChunk(acc []float64, t task) {
 		}
 		for k := b1; k < z; k++ {
 			acc[k] += ay * wingRe((nu[k]-nu0)*r, q, y2)
-		}
-	}
-}
-
-// cellChunk adds the cell means of the lines over cells k0..k1-1 to acc
-// (cm^2): S int V over the part of the cell inside the line's cut-off
-// window, divided by the cell width; cells narrower than
-// cellPointFraction times the line's Voigt half-width take the point
-// value times the fraction of the cell inside the window.
-func (b *lineBuild) cellChunk(acc []float64, t task) {
-	nu := b.nuCm[t.k0:t.k1]
-	e := b.edges[t.k0 : t.k1+1]
-	w := b.widths[t.k0:t.k1]
-	invW := b.invW[t.k0:t.k1]
-	ps := b.pt(t)
-	n := len(nu)
-	// Lines whose window (Nu - cut, Nu + cut) meets the cells (e[0], e[n]).
-	lo := sort.Search(len(b.lines), func(i int) bool { return b.lines[i].Nu+b.cut > e[0] })
-	hi := sort.Search(len(b.lines), func(i int) bool { return b.lines[i].Nu-b.cut >= e[n] })
-	var p cellProfile
-	for i := lo; i < hi; i++ {
-		l := &b.lines[i]
-		ls, ok := b.line(i, &ps)
-		if !ok {
-			continue
-		}
-		wl, wh := l.Nu-b.cut, l.Nu+b.cut
-		a := sort.Search(n, func(k int) bool { return e[k+1] > wl })
-		z := sort.SearchFloat64s(e[:n], wh)
-		if a >= z {
-			continue
-		}
-		gL, aD := ls.gammaL, ls.alphaD
-		thr := cellPointFraction * (0.5346*gL + math.Sqrt(0.2166*gL*gL+aD*aD))
-		p.set(aD, gL)
-		r := sqrtLn2 / aD
-		y := gL * r
-		amp := ls.S * sqrtLn2OverPi / aD
-		for k := a; k < z; k++ {
-			c0, c1 := max(e[k], wl), min(e[k+1], wh)
-			if w[k] < thr {
-				acc[k] += amp * voigtRe((nu[k]-ls.nu0)*r, y) * ((c1 - c0) * invW[k])
-			} else {
-				acc[k] += ls.S * p.integral(c0-ls.nu0, c1-ls.nu0) * invW[k]
-			}
 		}
 	}
 }

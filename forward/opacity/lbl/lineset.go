@@ -21,6 +21,14 @@ func FineResolution(t, mass float64) float64 {
 	return 3 * SpeedOfLight / math.Sqrt(2*math.Ln2*boltzmann*t/(mass*atomicMass))
 }
 
+// DefaultWeakCut is the weak-line cut chord's k-table builds use unless
+// told otherwise (LineSettings.WeakCut): measured on the CO2 CDSD-HITEMP
+// fragment and the CH4 nu3 and hot bands in the hot hydrogen atmosphere of
+// the k-table tests, it changes the transit depth in R = 100 bins by at
+// most 0.1 ppm against every line profiled (1e-3: 3 ppm, 1e-2: 18 ppm;
+// forward/opacity/build, TestWeakLinesAccuracy).
+const DefaultWeakCut = 1e-4
+
 // LineSettings are the line-shape settings of a LineSet. Zero values pick
 // the stated defaults.
 type LineSettings struct {
@@ -32,24 +40,32 @@ type LineSettings struct {
 	// width: a line is cut at min(WingCutoff, WingWidths x its Voigt
 	// half-width) from its centre (the half-width by Olivero & Longbothum
 	// 1977, JQSRT 17, 233). A Lorentz line loses the fraction
-	// 2/(pi WingWidths) of its intensity beyond the cut (0.13 % at 500);
-	// at low pressure, where lines are a few Doppler widths wide, it spares
-	// evaluating wings that hold nothing. 0 keeps the fixed cut-off.
+	// 2/(pi WingWidths) of its intensity beyond the cut; at low pressure,
+	// where lines are a few Doppler widths wide, it spares evaluating
+	// wings that hold nothing. The far wings of many lines add up in the
+	// windows between them: measured on the CH4 nu3 and hot bands in the
+	// hot hydrogen atmosphere of the k-table tests, 500 half-widths lower
+	// the transit depth by up to 32 ppm in R = 100 bins, 5000 by less
+	// than 0.01 ppm (TestWeakLinesAccuracy). 0 keeps the fixed cut-off.
 	WingWidths float64
 	// MinIntensity skips lines whose intensity at the temperature of the
 	// calculation is below it, cm^-1/(molecule cm^-2); 0 keeps every line.
 	MinIntensity float64
 	// WeakCut, when positive, moves weak lines into a pseudo-continuum
 	// instead of computing their profiles ("super-lines", Rey et al. 2016,
-	// A&A 594, A56; Yurchenko et al. 2017, A&A 605, A95): a line whose
-	// intensity at the temperature of the calculation is below WeakCut
-	// times that of the strongest line within WeakRef of it is weak. The
-	// weak lines' intensities are summed on the coarse grid of the
-	// two-level evaluation (every 32nd fine point, linear shares to the
-	// two nearest nodes, so the sum of intensities is kept exactly) and
-	// spread by one Voigt profile with their intensity-weighted mean
-	// Doppler and Lorentz widths; the result joins the wings, interpolated
-	// to the fine grid. 0 computes every line's profile.
+	// A&A 594, A56; Yurchenko et al. 2017, A&A 605, A95). A line is weak
+	// when, at the pressure and temperature of the calculation, its
+	// intensity is below WeakCut times that of the strongest line within
+	// WeakRef of it, and its peak cross-section is below WeakCut times
+	// the cross-section of the lines profiled, at its centre (the local
+	// strong-line absorption): it changes the absorption where it lies by
+	// less than that fraction. The weak lines' intensities are summed on
+	// the coarse grid of the two-level evaluation (every 32nd fine point,
+	// linear shares to the two nearest nodes, so the sum of intensities is
+	// kept exactly), spread by one Voigt profile with their
+	// intensity-weighted mean Doppler and Lorentz widths, and interpolated
+	// linearly to the fine grid. 0 computes every line's profile; see
+	// DefaultWeakCut for the error.
 	WeakCut float64
 	// WeakRef is the half-width (cm^-1) of the neighbourhood whose
 	// strongest line sets a line's WeakCut; 0 means 1 cm^-1.
@@ -288,11 +304,12 @@ type lineWork struct {
 	node   []float64
 	coarse []float64
 	q      []float64 // per isotopologue: Q(296)/Q(T)
-	s      []float64 // per line of the chunk: intensity at T
-	ref    []float64 // per line of the chunk: strongest intensity near it
+	lt     lineT     // the chunk's lines at T, when not given
 	dq     []int     // sliding-maximum deque
 	dep    []float64 // weak lines' intensities on the coarse nodes
 	kern   []float64 // pseudo-continuum profile on the coarse nodes
+	weak   []int     // lines weak next to their neighbours
+	cont   []float64 // pseudo-continuum on the coarse nodes (node c at c+1)
 	// profiled and binned count the lines whose profiles were computed
 	// and those moved into the pseudo-continuum.
 	profiled, binned int64
@@ -318,6 +335,46 @@ func (ls *LineSet) CrossSections(dst []float64, g opacity.LnGrid, k0 int, p, t f
 }
 
 func (ls *LineSet) crossSections(dst []float64, g opacity.LnGrid, k0 int, p, t float64, w *lineWork) {
+	ls.crossSectionsT(dst, g, k0, p, t, w, nil)
+}
+
+// lineT holds what each line needs at one temperature, for all pressures:
+// its intensity S, the strongest intensity near it (ref, with WeakCut),
+// its Doppler half-width aD, and the parts of its Lorentz half-width and
+// shift per atm (widthRule.parts: background g, self gs, shift d), from
+// which widthRule.combine makes them at any pressure exactly as
+// widthRule.at does. Entry j is line off+j.
+type lineT struct {
+	off                  int
+	s, ref, aD, g, gs, d []float64
+}
+
+// fill computes the entries of lines lo..hi-1 at temperature t.
+func (lt *lineT) fill(ls *LineSet, lo, hi int, t float64, w *lineWork) {
+	n := hi - lo
+	lt.off = lo
+	lt.s, lt.aD, lt.g, lt.gs, lt.d = grow(lt.s, n), grow(lt.aD, n), grow(lt.g, n), grow(lt.gs, n), grow(lt.d, n)
+	w.q = grow(w.q, len(ls.isos))
+	for i, li := range ls.isos {
+		w.q[i] = li.q296 / li.q.Q(t)
+	}
+	lnT := math.Log(TRef / t)
+	for i := lo; i < hi; i++ {
+		l := &ls.lines[i]
+		lt.s[i-lo] = LineIntensity(l, t, w.q[ls.iso[i]], 1)
+		lt.aD[i-lo] = DopplerHWHM(l.Nu, t, ls.isos[ls.iso[i]].mass)
+		lt.g[i-lo], lt.gs[i-lo], lt.d[i-lo] = ls.width.parts(l, lnT)
+	}
+	if ls.s.WeakCut > 0 {
+		lt.ref = grow(lt.ref, n)
+		ls.strongest(lo, hi, lt.s, lt.ref, w)
+	}
+}
+
+// crossSectionsT is crossSections with the lines' quantities at t taken
+// from lt when it is not nil (it must cover the lines that reach the
+// chunk).
+func (ls *LineSet) crossSectionsT(dst []float64, g opacity.LnGrid, k0 int, p, t float64, w *lineWork, lt *lineT) {
 	n := len(dst)
 	clear(dst)
 	if n == 0 {
@@ -326,59 +383,82 @@ func (ls *LineSet) crossSections(dst []float64, g opacity.LnGrid, k0 int, p, t f
 	nc := (n-1)/coarseStep + 4 // coarse nodes -1 .. (n-1)/step + 2, stored at +1
 	w.nus = grow(w.nus, n)
 	w.coarse = grow(w.coarse, nc)
-	w.q = grow(w.q, len(ls.isos))
 	nus, coarse := w.nus[:n], w.coarse[:nc]
 	clear(coarse)
 	for k := range nus {
 		nus[k] = g.Nu(k0 + k)
 	}
-	for i, li := range ls.isos {
-		w.q[i] = li.q296 / li.q.Q(t)
-	}
 	pAtm := p / StandardAtmosphere
-	lnT := math.Log(TRef / t)
 	// Lines whose window meets [nus[0], nus[n-1]].
 	lo := sort.Search(len(ls.lines), func(i int) bool { return ls.lines[i].Nu >= nus[0]-ls.cut })
 	hi := sort.Search(len(ls.lines), func(i int) bool { return ls.lines[i].Nu > nus[n-1]+ls.cut })
-	w.s = grow(w.s, hi-lo)
-	for i := lo; i < hi; i++ {
-		w.s[i-lo] = LineIntensity(&ls.lines[i], t, w.q[ls.iso[i]], 1)
+	if lt == nil {
+		lt = &w.lt
+		lt.fill(ls, lo, hi, t, w)
 	}
 	weak := ls.s.WeakCut > 0
 	if weak {
-		ls.strongest(lo, hi, w)
 		w.dep = grow(w.dep, 0)
 	}
 	var cont continuum
+	w.weak = w.weak[:0]
 	for i := lo; i < hi; i++ {
-		l := &ls.lines[i]
-		S := w.s[i-lo]
+		j := i - lt.off
+		S := lt.s[j]
 		if S == 0 || S < ls.s.MinIntensity {
 			continue
 		}
-		gL, shift := ls.width.at(l, pAtm, lnT)
-		aD := DopplerHWHM(l.Nu, t, ls.isos[ls.iso[i]].mass)
-		if weak && S < ls.s.WeakCut*w.ref[i-lo] {
-			cont.add(S, l.Nu+shift, aD, gL, g, k0, w)
-			w.binned++
+		if weak && S < ls.s.WeakCut*lt.ref[j] {
+			w.weak = append(w.weak, i)
 			continue
 		}
-		w.profiled++
-		p := newVoigtLine(S, l.Nu+shift, aD, gL)
-		cut := ls.cut
-		if ls.s.WingWidths > 0 {
-			cut = min(cut, ls.s.WingWidths*voigtHWHM(aD, gL))
+		gL, shift := ls.width.combine(&ls.lines[i], lt.g[j], lt.gs[j], lt.d[j], pAtm)
+		ls.profile(i, S, lt.aD[j], gL, shift, dst, coarse, nus, g, k0, w)
+	}
+	// A line weak next to its neighbours goes into the pseudo-continuum
+	// only if its peak is also below WeakCut times the cross-section the
+	// profiled lines give at its centre (lines centred outside the chunk
+	// reach it with their wings alone and always go). The Gaussian peak
+	// S sqrt(ln2/pi)/aD bounds the Voigt peak, so lines below the cut
+	// by it need no profile value.
+	for _, i := range w.weak {
+		j := i - lt.off
+		S, aD := lt.s[j], lt.aD[j]
+		gL, shift := ls.width.combine(&ls.lines[i], lt.g[j], lt.gs[j], lt.d[j], pAtm)
+		nu0 := ls.lines[i].Nu + shift
+		if kk := int(math.Round(g.Index(nu0))) - k0; kk >= 0 && kk < n {
+			c := kk / coarseStep
+			lw := &lagrangeW[kk-c*coarseStep]
+			cut := ls.s.WeakCut * (lw[0]*coarse[c] + lw[1]*coarse[c+1] + lw[2]*coarse[c+2] + lw[3]*coarse[c+3] + dst[kk])
+			if S*sqrtLn2OverPi/aD >= cut {
+				if p := newVoigtLine(S, nu0, aD, gL); p.at(nu0) >= cut {
+					ls.profile(i, S, aD, gL, shift, dst, coarse, nus, g, k0, w)
+					continue
+				}
+			}
 		}
-		ls.addLine(dst, coarse, nus, g, k0, l.Nu-cut, l.Nu+cut, &p, w)
+		cont.add(S, nu0, aD, gL, g, k0, w)
+		w.binned++
 	}
 	if cont.sum > 0 {
-		cont.spread(coarse, g, k0, n, ls.cut, w)
+		cont.spread(g, k0, n, ls.cut, w)
 	}
 	for k := range dst {
 		c := k / coarseStep
 		lw := &lagrangeW[k-c*coarseStep]
 		v := (lw[0]*coarse[c] + lw[1]*coarse[c+1] + lw[2]*coarse[c+2] + lw[3]*coarse[c+3]) + dst[k]
 		dst[k] = v * 1e-4 // cm^2 -> m^2
+	}
+	if cont.sum > 0 {
+		// The pseudo-continuum is interpolated linearly between the
+		// nodes, which keeps it non-negative (a cubic would ring next to
+		// a node that holds a narrow weak line).
+		cn := w.cont
+		for k := range dst {
+			c := k / coarseStep
+			f := float64(k-c*coarseStep) / coarseStep
+			dst[k] += ((1-f)*cn[c+1] + f*cn[c+2]) * 1e-4
+		}
 	}
 }
 
@@ -474,6 +554,20 @@ func (ls *LineSet) addLine(dst, coarse, nus []float64, g opacity.LnGrid, k0 int,
 	correct(nb-1, nb+2)
 }
 
+// profile adds line i (intensity S, Doppler and Lorentz half-widths aD
+// and gL, shift) to the chunk with its own Voigt profile, cut at the wing
+// cut-off (or the adaptive one).
+func (ls *LineSet) profile(i int, S, aD, gL, shift float64, dst, coarse, nus []float64, g opacity.LnGrid, k0 int, w *lineWork) {
+	l := &ls.lines[i]
+	w.profiled++
+	p := newVoigtLine(S, l.Nu+shift, aD, gL)
+	cut := ls.cut
+	if ls.s.WingWidths > 0 {
+		cut = min(cut, ls.s.WingWidths*voigtHWHM(aD, gL))
+	}
+	ls.addLine(dst, coarse, nus, g, k0, l.Nu-cut, l.Nu+cut, &p, w)
+}
+
 // voigtHWHM is the half-width at half maximum of a Voigt profile of
 // Doppler and Lorentz half-widths aD and gL, by the approximation of
 // Olivero & Longbothum (1977, JQSRT 17, 233), good to 0.02 %.
@@ -481,19 +575,18 @@ func voigtHWHM(aD, gL float64) float64 {
 	return 0.5346*gL + math.Sqrt(0.2166*gL*gL+aD*aD)
 }
 
-// strongest sets w.ref[i-lo] to the largest intensity (w.s) among the
-// lines within ls.ref cm^-1 of line i, for lines lo..hi-1 (sorted by
+// strongest sets ref[i-lo] to the largest intensity (s[i-lo]) among the
+// lines lo..hi-1 within ls.ref cm^-1 of line i (lines sorted by
 // wavenumber): a sliding maximum over a window of wavenumbers, with a
 // deque of line indexes of decreasing intensity (each line enters and
 // leaves it once).
-func (ls *LineSet) strongest(lo, hi int, w *lineWork) {
-	w.ref = grow(w.ref, hi-lo)
+func (ls *LineSet) strongest(lo, hi int, s, ref []float64, w *lineWork) {
 	dq := w.dq[:0]
 	j := lo // next line to enter the window
 	for i := lo; i < hi; i++ {
 		nu := ls.lines[i].Nu
 		for j < hi && ls.lines[j].Nu <= nu+ls.ref {
-			for len(dq) > 0 && w.s[dq[len(dq)-1]-lo] <= w.s[j-lo] {
+			for len(dq) > 0 && s[dq[len(dq)-1]-lo] <= s[j-lo] {
 				dq = dq[:len(dq)-1]
 			}
 			dq = append(dq, j)
@@ -504,7 +597,7 @@ func (ls *LineSet) strongest(lo, hi int, w *lineWork) {
 			k++
 		}
 		dq = dq[k:]
-		w.ref[i-lo] = w.s[dq[0]-lo]
+		ref[i-lo] = s[dq[0]-lo]
 	}
 	w.dq = dq[:0]
 }
@@ -543,13 +636,13 @@ func (c *continuum) add(S, nu0, aD, gL float64, g opacity.LnGrid, k0 int, w *lin
 	c.sumL += S * gL
 }
 
-// spread adds the pseudo-continuum to the coarse nodes (coarse[c+1] for
-// node c, as addLine keeps them) of a chunk of n fine points: the node
-// intensities convolved with the Voigt profile of the mean widths,
+// spread sets the pseudo-continuum on the coarse nodes (w.cont[c+1] for
+// node c, as addLine keeps its nodes) of a chunk of n fine points: the
+// node intensities convolved with the Voigt profile of the mean widths,
 // sampled at the node spacing and normalised so that it keeps the total
 // intensity. The profile reaches min(cut, 50 Voigt half-widths, at least
 // three node steps) either side.
-func (c *continuum) spread(coarse []float64, g opacity.LnGrid, k0, n int, cut float64, w *lineWork) {
+func (c *continuum) spread(g opacity.LnGrid, k0, n int, cut float64, w *lineWork) {
 	aD, gL := c.sumD/c.sum, c.sumL/c.sum
 	// Node spacing (cm^-1) at the middle of the chunk.
 	mid := g.Nu(k0 + n/2)
@@ -568,6 +661,9 @@ func (c *continuum) spread(coarse []float64, g opacity.LnGrid, k0, n int, cut fl
 		w.kern[i] /= tot * h // sum of kernel x h = 1
 	}
 	cLast := (n-1)/coarseStep + 2
+	w.cont = grow(w.cont, cLast+2)
+	clear(w.cont)
+	coarse := w.cont
 	for j, d := range w.dep {
 		if d == 0 {
 			continue

@@ -9,7 +9,6 @@ import (
 	"strings"
 	"testing"
 
-	"chord/forward/opacity"
 	"chord/forward/opacity/hitran"
 	"chord/forward/opacity/internal/opacitytest"
 	"chord/forward/opacity/lbl"
@@ -94,39 +93,6 @@ func TestGoldenHAPI(t *testing.T) {
 			}
 		}
 		t.Logf("%s: %d lines, worst relative difference %.2g", c.ref, len(lines), worst)
-	}
-}
-
-// TestCellAverageConservationBand: the HITRAN2012 CO fundamental
-// (../shared/data/hitran-lines/05_hit12_CO_full.par, all isotopologues,
-// 1950-2350 cm^-1) on a 1 cm^-1 grid at 296 K: at 1e-3 atm every line is
-// far narrower than a cell, at 1 atm about 0.05 cm^-1 wide. The sum of
-// sigma w over the grid equals the sum of the intensities (S(296 K) is
-// the listed value, Rothman et al. 1998) times each line's part inside
-// the cut-off (lbl.LorentzWindow, shift included), to 1e-6 (float32 storage).
-func TestCellAverageConservationBand(t *testing.T) {
-	lines := readShared(t, "05_hit12_CO_full.par", hitran.LineFilter{NuMin: 1950, NuMax: 2350})
-	iso := opacitytest.IsoData(t)
-	grid := lbl.UniformGrid(1950-lbl.DefaultWingCutoff-1, 2350+lbl.DefaultWingCutoff+1, 1)
-	for _, pAtm := range []float64{1e-3, 1} {
-		tab, err := lbl.BuildXSec(lines, iso, &lbl.XSecSettings{Gas: "CO", Log10P: []float64{math.Log10(pAtm * lbl.StandardAtmosphere)}, T: []float64{lbl.TRef},
-			Wavenumber: grid, CellAverage: true})
-		if err != nil {
-			t.Fatal(err)
-		}
-		var want, plain float64
-		for _, l := range lines {
-			want += l.S * lbl.LorentzWindow(l.GammaAir*pAtm, lbl.DefaultWingCutoff, l.DeltaAir*pAtm)
-			plain += l.S
-		}
-		got := lbl.CellSum(tab, tab.Sigma)
-		if rel := math.Abs(got/want - 1); rel > 1e-6 {
-			t.Errorf("CO 1-0 at %g atm: sum sigma w = %.9g cm/molecule, intensities within the cut-off %.9g (rel %.2g)", pAtm, got, want, rel)
-		}
-		t.Logf("CO 1-0 at %g atm: %d lines, sum sigma w %.6g, sum S %.6g", pAtm, len(lines), got, plain)
-		if !strings.Contains(tab.Meta[opacity.MetaBuildSettings], "cell means") || strings.Contains(tab.Meta[lbl.MetaWarnings], "opacity sampling") {
-			t.Errorf("meta does not state cell averaging: %v", tab.Meta)
-		}
 	}
 }
 

@@ -3,8 +3,10 @@
 // file and the transitions in chunk files of a fixed wavenumber width,
 // each bzip2- or gzip-compressed, as ExoMol distributes large lists.
 //
-// The list is invented (no molecule has it): states with energies spread
-// uniformly up to 25000 cm^-1, J from 0 to 60 and g = 2J+1; transitions at
+// The list is invented (no molecule has it): states with energies up to
+// 25000 cm^-1 whose number grows as E^2 (as the density of vibrational
+// states of a polyatomic molecule rises with energy, fact of the trade),
+// J from 0 to 60 and g = 2J+1; transitions at
 // wavenumbers spread evenly over the range with a small random jitter,
 // between random states, with Einstein A log-uniform over 1e-4 to 1e2
 // s^-1. With lower-state energies up to 25000 cm^-1 the intensities at
@@ -56,7 +58,7 @@ func Write(s Spec) (string, error) {
 	}
 	e := make([]float64, s.States)
 	for i := range e {
-		e[i] = 25000 * rng.Float64()
+		e[i] = 25000 * math.Cbrt(rng.Float64()) // density of states as E^2
 	}
 	e[0] = 0
 	slices.Sort(e)
