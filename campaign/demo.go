@@ -12,6 +12,7 @@ import (
 	"chord/config"
 	"chord/internal/atomicfile"
 	"chord/internal/logto"
+	"chord/internal/runlock"
 	"chord/retrieve"
 	"chord/simulate"
 )
@@ -78,19 +79,26 @@ func DemoTruth() (*config.ModelConfig, error) {
 // and observation to opt.Dir, fits them into opt.Dir/run and reports.
 func Demo(ctx context.Context, opt DemoOptions) (*retrieve.RunReport, error) {
 	log := logto.First(opt.Log)
-	if err := os.MkdirAll(opt.Dir, 0o755); err != nil {
-		return nil, err
-	}
 	cfgPath := filepath.Join(opt.Dir, DemoConfigFile)
 	obsPath := filepath.Join(opt.Dir, DemoObservationFile)
 	runDir := filepath.Join(opt.Dir, DemoRunDir)
-	if !opt.Force {
+	// The demo's directory is locked while it writes the files beside its
+	// run (the fit locks the run directory itself).
+	lock, err := runlock.Create(opt.Dir, runlock.Holder("chord demo"), func() error {
+		if opt.Force {
+			return nil
+		}
 		for _, p := range []string{cfgPath, obsPath, runDir} {
 			if _, err := os.Stat(p); err == nil {
-				return nil, fmt.Errorf("%s already exists (an earlier demo?): %w", p, fs.ErrExist)
+				return fmt.Errorf("%s already exists (an earlier demo?): %w", p, fs.ErrExist)
 			}
 		}
+		return nil
+	})
+	if err != nil {
+		return nil, err
 	}
+	defer lock.Release()
 	truth, err := DemoTruth()
 	if err != nil {
 		return nil, err

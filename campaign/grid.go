@@ -26,6 +26,7 @@ import (
 	"chord/internal/atomicfile"
 	"chord/internal/filehash"
 	"chord/internal/logto"
+	"chord/internal/runlock"
 	"chord/internal/table"
 	"chord/internal/version"
 	"chord/obs"
@@ -72,7 +73,7 @@ import (
 //	base.toml               a copy of the base file
 //	index.csv, index.parquet   point number, directory and settings of every point
 //	points/p0000/           one point: observation.csv (scenario bases), fit.toml, run/
-//	                        (a normal run directory), lock (held while the point runs), log.txt,
+//	                        (a normal run directory), chord.lock (held while the point runs), log.txt,
 //	                        error.txt (the error of a failed attempt)
 //	slurm/                  job-array scripts, jobs.txt (submissions), logs/
 //	summary.csv, summary.parquet, comparison.txt, comparison.json, widths*.png   (collect)
@@ -1029,7 +1030,7 @@ func (g *Grid) Status() ([]PointStatus, error) {
 		} else if _, serr := os.Stat(filepath.Join(run, retrieve.CheckpointFile)); serr == nil {
 			return nil, fmt.Errorf("grid: point %d: %w", i, err)
 		}
-		if holder, running := probeLock(filepath.Join(g.PointDir(i), "lock")); running {
+		if holder, running := runlock.Probe(g.PointDir(i)); running {
 			s.State, s.Holder = PointRunning, holder
 			continue
 		}
@@ -1071,11 +1072,11 @@ func (g *Grid) RunPoint(ctx context.Context, i int, opt PointOptions) (*retrieve
 	if i < 0 || i >= len(g.Points) {
 		return nil, fmt.Errorf("grid: point %d: the grid in %s has points 0 to %d", i, g.Dir, len(g.Points)-1)
 	}
-	unlock, err := lockPoint(filepath.Join(g.PointDir(i), "lock"), opt.Holder)
+	lock, err := runlock.Acquire(g.PointDir(i), opt.Holder)
 	if err != nil {
 		return nil, fmt.Errorf("grid: point %d: %w", i, err)
 	}
-	defer unlock()
+	defer lock.Release()
 	log := logto.First(opt.Log)
 	ef := filepath.Join(g.PointDir(i), pointErrorFile)
 	if err := os.Remove(ef); err != nil && !errors.Is(err, os.ErrNotExist) {
@@ -1093,11 +1094,17 @@ func (g *Grid) RunPoint(ctx context.Context, i int, opt PointOptions) (*retrieve
 		truth = &c.ModelConfig
 	}
 	r, err := fitOrResume(ctx, "chord grid", fit, g.RunDir(i), opt.Opacity, config.StopRule{}, opt.Workers, opt.DemoCache, opt.Progress, log, truth)
-	if err != nil {
+	if err != nil && !interrupted(ctx, err) {
 		// Kept for chord grid status; the next attempt removes it.
 		atomicfile.Write(ef, []byte(strings.ReplaceAll(err.Error(), "\n", " ")+"\n"), true)
 	}
 	return r, err
+}
+
+// interrupted reports whether err is ctx's cancellation: a point stopped
+// by a signal before anything was written, which is not a failure.
+func interrupted(ctx context.Context, err error) bool {
+	return ctx.Err() != nil && errors.Is(err, ctx.Err())
 }
 
 // fitOrResume starts, resumes or keeps the fit of cfg in run (who names
@@ -1213,15 +1220,22 @@ func (g *Grid) RunLocal(ctx context.Context, opt LocalOptions) (*LocalReport, er
 	var mu sync.Mutex
 	sem := make(chan struct{}, jobs)
 	var wg sync.WaitGroup
+	// After a cancellation no point starts: the running ones stop at a
+	// checkpoint, the others stay as they are.
+start:
 	for _, i := range pts {
+		select {
+		case <-ctx.Done():
+			break start
+		case sem <- struct{}{}:
+		}
 		if ctx.Err() != nil {
+			<-sem
 			break
 		}
-		sem <- struct{}{}
 		wg.Add(1)
 		go func() {
 			defer func() { <-sem; wg.Done() }()
-			host, _ := os.Hostname()
 			lf, err := os.OpenFile(filepath.Join(g.PointDir(i), "log.txt"), os.O_CREATE|os.O_WRONLY|os.O_APPEND, 0o644)
 			var r *retrieve.RunReport
 			if err == nil {
@@ -1229,15 +1243,21 @@ func (g *Grid) RunLocal(ctx context.Context, opt LocalOptions) (*LocalReport, er
 				fmt.Fprintf(log, "chord grid: point %d (%s): started\n", i, g.Settings(i))
 				mu.Unlock()
 				r, err = g.RunPoint(ctx, i, PointOptions{Workers: workers, Opacity: pset[i], DemoCache: opt.DemoCache,
-					Progress: retrieve.Progress{Writer: lf}, Log: lf, Holder: fmt.Sprintf("host %s, pid %d, chord grid --local", host, os.Getpid())})
+					Progress: retrieve.Progress{Writer: lf}, Log: lf, Holder: runlock.Holder("chord grid --local")})
 				lf.Close()
 			}
 			mu.Lock()
 			defer mu.Unlock()
 			switch {
+			case err != nil && interrupted(ctx, err):
+				rep.Stopped = append(rep.Stopped, i)
+				fmt.Fprintf(log, "chord grid: point %d: stopped before its run started\n", i)
 			case err != nil:
 				rep.Failed, rep.Errors = append(rep.Failed, i), append(rep.Errors, err)
 				fmt.Fprintf(log, "chord grid: point %d: failed: %v\n", i, err)
+			case r.Outcome != nil && r.Outcome.BeforeStart:
+				rep.Stopped = append(rep.Stopped, i)
+				fmt.Fprintf(log, "chord grid: point %d: stopped before its first checkpoint\n", i)
 			case r.Summary == nil || (r.Outcome != nil && r.Outcome.Stop == sampler.StopCanceled):
 				rep.Stopped = append(rep.Stopped, i)
 				fmt.Fprintf(log, "chord grid: point %d: stopped at step %d (checkpoint written)\n", i, r.Outcome.Step)

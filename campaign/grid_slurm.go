@@ -11,7 +11,6 @@ import (
 	"sort"
 	"strconv"
 	"strings"
-	"syscall"
 	"time"
 
 	"chord/internal/atomicfile"
@@ -212,55 +211,6 @@ func (g *Grid) Unfinished() ([]int, error) {
 		}
 	}
 	return pts, nil
-}
-
-// lockPoint takes the point's lock (an flock on path, which also works on
-// NFS-mounted grid directories), waiting up to a few seconds for a status
-// probe to let go, and writes holder into it. It fails when another
-// process runs the point.
-func lockPoint(path, holder string) (func(), error) {
-	f, err := os.OpenFile(path, os.O_CREATE|os.O_RDWR, 0o644)
-	if err != nil {
-		return nil, err
-	}
-	for try := 0; ; try++ {
-		err = syscall.Flock(int(f.Fd()), syscall.LOCK_EX|syscall.LOCK_NB)
-		if err == nil {
-			break
-		}
-		if !errors.Is(err, syscall.EWOULDBLOCK) || try == 50 {
-			text, _ := os.ReadFile(path)
-			f.Close()
-			if errors.Is(err, syscall.EWOULDBLOCK) {
-				return nil, fmt.Errorf("another chord process runs this point (%s)", strings.TrimSpace(string(text)))
-			}
-			return nil, fmt.Errorf("locking %s: %w", path, err)
-		}
-		time.Sleep(100 * time.Millisecond)
-	}
-	f.Truncate(0)
-	f.WriteAt([]byte(holder+"\n"), 0)
-	return func() {
-		f.Truncate(0)
-		syscall.Flock(int(f.Fd()), syscall.LOCK_UN)
-		f.Close()
-	}, nil
-}
-
-// probeLock reports whether a process holds the lock at path, and what it
-// wrote there.
-func probeLock(path string) (string, bool) {
-	f, err := os.Open(path)
-	if err != nil {
-		return "", false
-	}
-	defer f.Close()
-	if err := syscall.Flock(int(f.Fd()), syscall.LOCK_SH|syscall.LOCK_NB); err != nil {
-		text, _ := os.ReadFile(path)
-		return strings.TrimSpace(string(text)), errors.Is(err, syscall.EWOULDBLOCK)
-	}
-	syscall.Flock(int(f.Fd()), syscall.LOCK_UN)
-	return "", false
 }
 
 // queuedPoints asks squeue which array tasks of the grid's submissions

@@ -16,9 +16,12 @@ import (
 	"github.com/BurntSushi/toml"
 
 	"chord/config"
+	"chord/forward"
 	"chord/forward/opacity"
 	"chord/internal/atomicfile"
+	"chord/internal/filehash"
 	"chord/internal/logto"
+	"chord/internal/runlock"
 	"chord/internal/version"
 	"chord/obs"
 	"chord/report"
@@ -196,9 +199,15 @@ func (p *PlanSpec) stop() config.StopRule {
 	return config.StopRule{Steps: p.Steps, Budget: p.Budget, UntilConverged: p.UntilConverged}
 }
 
-// RunPlan runs or resumes the plan in opt.Dir.
+// RunPlan runs or resumes the plan in opt.Dir, holding the plan
+// directory's lock throughout (each level's fit holds its run's too).
 func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 	log := logto.First(opt.Log, opt.Progress.Writer)
+	lock, err := runlock.Create(opt.Dir, runlock.Holder("chord plan"), func() error { return checkPlanDir(opt.Dir) })
+	if err != nil {
+		return nil, fmt.Errorf("plan: %w", err)
+	}
+	defer lock.Release()
 	spec, err := openPlan(opt)
 	if err != nil {
 		return nil, err
@@ -241,6 +250,10 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 	for i := range lv {
 		l := &lv[i]
 		r, err := fitOrResume(ctx, "chord plan", l.cfg, l.run, set, spec.stop(), opt.Workers, opt.DemoCache, opt.Progress, log, &sc.Config.ModelConfig)
+		if err != nil && interrupted(ctx, err) {
+			rep.Interrupted = true
+			return rep, nil
+		}
 		if err != nil {
 			return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
 		}
@@ -300,7 +313,9 @@ func (l *planLevel) write(planDir string, sc *simulate.Scenario, set *opacity.Se
 	if err := keepOrWriteObservation(l.obs, o); err != nil {
 		return fmt.Errorf("plan: level %s: %w", l.name, err)
 	}
-	hdr := []string{fmt.Sprintf("Retrieval configuration of plan %s, level %s (chord %s).", planDir, l.name, version.Version)}
+	hdr := []string{fmt.Sprintf("Retrieval configuration of a plan's level %s (chord %s).", l.name, version.Version)}
+	// The observation beside it, by a relative path: the plan can move.
+	fc.Observations[0].File = filepath.Base(l.obs)
 	if _, err := os.Stat(l.cfg); errors.Is(err, os.ErrNotExist) {
 		return config.Write(l.cfg, fc, hdr, false)
 	}
@@ -412,16 +427,13 @@ func openPlan(opt PlanOptions) (*PlanSpec, error) {
 		return nil, err
 	}
 	if stored != nil {
-		var a, b bytes.Buffer
-		toml.NewEncoder(&a).Encode(stored)
-		toml.NewEncoder(&b).Encode(&spec)
-		if !bytes.Equal(a.Bytes(), b.Bytes()) {
-			return nil, fmt.Errorf("plan: %s %w (%s differs from this request: scenario, levels, bins, noise, seeds or stopping rule)", opt.Dir, ErrOtherPlan, planPath)
+		if diff := planDiff(stored, &spec); diff != "" {
+			return nil, fmt.Errorf("plan: %s %w: %s", opt.Dir, ErrOtherPlan, diff)
 		}
 		return stored, nil
 	}
-	if ents, err := os.ReadDir(opt.Dir); err == nil && len(ents) > 0 {
-		return nil, fmt.Errorf("plan: directory %s is not empty and holds no plan: choose another", opt.Dir)
+	if err := checkPlanDir(opt.Dir); err != nil {
+		return nil, err
 	}
 	if err := os.MkdirAll(opt.Dir, 0o755); err != nil {
 		return nil, err
@@ -444,14 +456,71 @@ func openPlan(opt PlanOptions) (*PlanSpec, error) {
 	return &spec, nil
 }
 
+// checkPlanDir refuses a directory that holds something but no plan.
+func checkPlanDir(dir string) error {
+	if _, err := os.Stat(filepath.Join(dir, PlanFile)); err == nil {
+		return nil
+	}
+	if names, err := runlock.Entries(dir); err != nil {
+		return err
+	} else if len(names) > 0 {
+		return fmt.Errorf("plan: directory %s is not empty (it holds %s) and holds no plan (%s): choose another", dir, names[0], PlanFile)
+	}
+	return nil
+}
+
+// planDiff says how the request asked differs from the stored plan, ""
+// when it asks for the same plan. Files (bins, noise) are compared by
+// their contents and the scenario by its digest, never by path: a plan
+// is the same however its files are named, from wherever it is run, and
+// after it is moved.
+func planDiff(stored, asked *PlanSpec) string {
+	a, b := stored.fields(), asked.fields()
+	var diffs []string
+	for i := range a {
+		if a[i].key != b[i].key {
+			diffs = append(diffs, fmt.Sprintf("its %s is %s, this request's %s", a[i].name, a[i].show, b[i].show))
+		}
+	}
+	return strings.Join(diffs, "; ")
+}
+
+// planField is a setting of a plan: key is what is compared, show how it
+// is named in messages.
+type planField struct{ name, show, key string }
+
+func (p *PlanSpec) fields() []planField {
+	val := func(name string, v any) planField { s := fmt.Sprint(v); return planField{name, s, s} }
+	file := func(name, path string) planField {
+		if path == "" {
+			return planField{name, "none", ""}
+		}
+		h, _, err := filehash.File(path)
+		if err != nil {
+			return planField{name, fmt.Sprintf("%s (%v)", path, err), "unreadable " + path}
+		}
+		return planField{name, fmt.Sprintf("%s (SHA-256 %s)", path, filehash.Short(h)), h}
+	}
+	return []planField{
+		{"scenario", "SHA-256 " + filehash.Short(p.ScenarioSHA256), p.ScenarioSHA256},
+		val("noise levels (ppm)", p.NoisePPM), val("numbers of transits", p.Transits),
+		file("bins file", p.BinsFile), val("wavelength range (um)", p.RangeUm), val("resolving power", p.ResolvingPower),
+		file("noise file", p.NoiseFile), val("single-transit noise (ppm)", p.SingleNoisePPM),
+		val("Gaussian noise (--seed)", p.Scatter), val("noise seed", p.NoiseSeed),
+		val("step count", p.Steps), val("budget (s)", p.Budget), val("until-converged rule", p.UntilConverged),
+	}
+}
+
 // keepOrWriteObservation writes o to path, or, when path exists, checks
 // that it holds the same observation (a resumed plan must fit what it
-// simulated).
+// simulated). The data are compared as the file gives them (bins, depths
+// and errors after reading), not its comment lines, which say how and
+// where it was made.
 func keepOrWriteObservation(path string, o *obs.Observation) error {
-	old, err := os.ReadFile(path)
-	if errors.Is(err, os.ErrNotExist) {
+	if _, err := os.Stat(path); errors.Is(err, os.ErrNotExist) {
 		return obs.WriteObservation(path, o, false)
 	}
+	old, err := obs.ReadDataset(path)
 	if err != nil {
 		return err
 	}
@@ -459,15 +528,38 @@ func keepOrWriteObservation(path string, o *obs.Observation) error {
 	if err := obs.WriteObservation(tmp, o, true); err != nil {
 		return err
 	}
-	now, err := os.ReadFile(tmp)
+	now, err := obs.ReadDataset(tmp)
 	os.Remove(tmp)
 	if err != nil {
 		return err
 	}
-	if !bytes.Equal(old, now) {
-		return fmt.Errorf("%s differs from the observation this plan simulates now (the scenario's opacity tables or the program changed?); remove the plan's level directory to simulate and fit it again", path)
+	if diff := observationDiff(old, now); diff != "" {
+		return fmt.Errorf("%s differs from the observation simulated now: %s (did the scenario's opacity tables or the program change?); remove the level's directory to simulate and fit it again", path, diff)
 	}
 	return nil
+}
+
+// observationDiff names the first difference between the data of two
+// observations, "" when they are the same.
+func observationDiff(old, now *obs.Dataset) string {
+	if old.Len() != now.Len() {
+		return fmt.Sprintf("it has %d bins, the simulation %d", old.Len(), now.Len())
+	}
+	for i := range old.Lo {
+		what := ""
+		switch {
+		case old.Lo[i] != now.Lo[i] || old.Hi[i] != now.Hi[i]:
+			what = fmt.Sprintf("bin %.6g-%.6g um, simulated %.6g-%.6g um", old.Lo[i]/forward.Micron, old.Hi[i]/forward.Micron, now.Lo[i]/forward.Micron, now.Hi[i]/forward.Micron)
+		case old.Depth[i] != now.Depth[i]:
+			what = fmt.Sprintf("depth %.12g ppm, simulated %.12g ppm", old.Depth[i]*1e6, now.Depth[i]*1e6)
+		case old.Sigma[i] != now.Sigma[i]:
+			what = fmt.Sprintf("error %.12g ppm, simulated %.12g ppm", old.Sigma[i]*1e6, now.Sigma[i]*1e6)
+		default:
+			continue
+		}
+		return fmt.Sprintf("line %d has %s", old.Line[i], what)
+	}
+	return ""
 }
 
 func sha256Sum(b []byte) []byte { s := sha256.Sum256(b); return s[:] }

@@ -187,7 +187,7 @@ func Create(dir string, layout Layout) (*Writer, error) {
 // temporary file in dir (rows written after the checkpoint) and continues with
 // the next part number and step.
 func Resume(dir string, layout Layout, committed []PartInfo) (*Writer, []string, error) {
-	if err := CheckParts(dir, committed); err != nil {
+	if err := CheckParts(dir, committed, nil); err != nil {
 		return nil, nil, err
 	}
 	removed, err := Trim(dir, committed)
@@ -434,17 +434,53 @@ func listParts(dir string) ([]string, error) {
 }
 
 // CheckParts verifies that every committed part exists with its recorded
-// size and SHA-256 digest. A *PartError names the first damaged part.
-func CheckParts(dir string, parts []PartInfo) error {
+// size and SHA-256 digest and, for each key of meta, holds that key-value
+// metadata (e.g. "chord.run_id": the run's identity, so that a part of
+// another run is refused even with a checkpoint copied along). A
+// *PartError names the first part that fails.
+func CheckParts(dir string, parts []PartInfo, meta map[string]string) error {
 	for i, p := range parts {
-		if err := checkPart(dir, p); err != nil {
+		err := checkPart(dir, p)
+		if err == nil && len(meta) > 0 {
+			err = checkMeta(filepath.Join(dir, p.Name), meta)
+		}
+		if err != nil {
 			return &PartError{Index: i, Part: p, Err: err}
 		}
 	}
 	return nil
 }
 
-// PartError reports a committed part file that is missing or damaged.
+// checkMeta checks the key-value metadata of the part file at path.
+func checkMeta(path string, meta map[string]string) error {
+	f, err := os.Open(path)
+	if err != nil {
+		return err
+	}
+	defer f.Close()
+	st, err := f.Stat()
+	if err != nil {
+		return err
+	}
+	pf, err := parquet.OpenFile(f, st.Size())
+	if err != nil {
+		return err
+	}
+	keys := make([]string, 0, len(meta))
+	for k := range meta {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	for _, k := range keys {
+		if got, _ := pf.Lookup(k); got != meta[k] {
+			return fmt.Errorf("its %s is %q, this run's is %q: it belongs to another run", k, got, meta[k])
+		}
+	}
+	return nil
+}
+
+// PartError reports a committed part file that is missing, damaged, or
+// not the file the checkpoint recorded.
 type PartError struct {
 	Index int // position in the checkpoint's list of parts
 	Part  PartInfo
@@ -452,7 +488,7 @@ type PartError struct {
 }
 
 func (e *PartError) Error() string {
-	return fmt.Sprintf("chain part %s (steps %d-%d) is damaged: %v", e.Part.Name, e.Part.FirstStep, e.Part.LastStep, e.Err)
+	return fmt.Sprintf("chain part %s (steps %d-%d) is missing, damaged or replaced: %v", e.Part.Name, e.Part.FirstStep, e.Part.LastStep, e.Err)
 }
 func (e *PartError) Unwrap() error { return e.Err }
 

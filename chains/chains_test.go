@@ -76,8 +76,15 @@ func TestChainsRoundTrip(t *testing.T) {
 	if got := len(w.Committed()); got != 2 {
 		t.Fatalf("%d parts committed, want 2", got)
 	}
-	if err := CheckParts(dir, w.Committed()); err != nil {
+	if err := CheckParts(dir, w.Committed(), map[string]string{"chord.run_id": "test"}); err != nil {
 		t.Fatal(err)
+	}
+	// A part of another run is refused, named, even when its digest is the
+	// one recorded (a checkpoint copied along with it).
+	err = CheckParts(dir, w.Committed(), map[string]string{"chord.run_id": "other"})
+	var pe *PartError
+	if !errors.As(err, &pe) || pe.Index != 0 || !strings.Contains(err.Error(), `part-000001.parquet (steps 1-7)`) || !strings.Contains(err.Error(), `its chord.run_id is "test", this run's is "other"`) {
+		t.Errorf("part of another run: %v", err)
 	}
 
 	// Independent reader: row count = walkers x steps, column names as laid out.
@@ -197,7 +204,7 @@ func TestChainsFullDisk(t *testing.T) {
 	if err2 := w.WriteStep(10, pos, logp, extra); err2 != err {
 		t.Errorf("writer accepted rows after failing: %v", err2)
 	}
-	if err := CheckParts(dir, safe); err != nil {
+	if err := CheckParts(dir, safe, nil); err != nil {
 		t.Errorf("committed part damaged by the failure: %v", err)
 	}
 	if _, err := os.Stat(filepath.Join(dir, "part-000002.parquet.tmp")); !os.IsNotExist(err) {

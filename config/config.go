@@ -235,6 +235,9 @@ type Resolved struct {
 	// Notes are remarks for the run's log (sorted observations, averaged
 	// asymmetric errors, a generated seed).
 	Notes []string
+	// Warnings name implausible values of the system, each with its key
+	// (ModelConfig.SystemWarnings).
+	Warnings []string
 }
 
 // Load reads, validates and resolves a retrieval configuration,
@@ -368,9 +371,12 @@ func (c *Config) Resolve() (*Resolved, error) {
 	// free parameters set filled in from their priors' medians where the
 	// model sections leave them out; checked by the shared validator.
 	r.fillFromPriors(&full.ModelConfig)
+	full.ModelConfig.free = r.freeSpans()
 	if err := full.ModelConfig.Validate(); err != nil {
 		return nil, err
 	}
+	r.Warnings = full.ModelConfig.SystemWarnings()
+	full.ModelConfig.free = nil
 	if err := r.checkApplies(&full); err != nil {
 		return nil, err
 	}
@@ -743,6 +749,12 @@ func (r *Resolved) checkApplies(c *Config) error {
 
 var moves = []string{"stretch", "walk", "de"}
 
+// MaxWalkersPerParameter bounds sampler.walkers: at most this many walkers
+// per free parameter. The default is 4 per parameter (at least 32); the
+// bound keeps a mistyped size (1e8 walkers: gigabytes per step, hours
+// before the first one) from being accepted.
+const MaxWalkersPerParameter = 1000
+
 func (r *Resolved) resolveSampler(s SamplerConfig, full *SamplerConfig) error {
 	dim := len(r.Free)
 	r.Walkers = max(32, 4*dim)
@@ -751,6 +763,9 @@ func (r *Resolved) resolveSampler(s SamplerConfig, full *SamplerConfig) error {
 		w := *s.Walkers
 		if w%2 != 0 || w < 2*(dim+1) {
 			return keyErr("sampler.walkers", "%d: must be even and at least 2(dim+1) = %d for %d free parameters", w, 2*(dim+1), dim)
+		}
+		if w > MaxWalkersPerParameter*dim {
+			return keyErr("sampler.walkers", "%d: at most %d per free parameter, %d for %d; an ensemble sampler gains nothing from more (a few times the number of parameters is usual), and each walker costs a posterior evaluation per step and several in the search for a starting point", w, MaxWalkersPerParameter, MaxWalkersPerParameter*dim, dim)
 		}
 		r.Walkers = w
 	}
@@ -862,6 +877,22 @@ func (r *Resolved) fillFromPriors(m *ModelConfig) {
 			}
 		}
 	}
+}
+
+// freeSpans are the ranges of the quantities the free parameters set
+// (central 1 - 2e-9 of each prior, as checkPriorRange); a quantity that
+// several parameters set (log10_vmr) spans all of them.
+func (r *Resolved) freeSpans() map[Quantity]priorSpan {
+	const tail = 1e-9
+	m := map[Quantity]priorSpan{}
+	for _, p := range r.Free {
+		s := priorSpan{p.Prior.Quantile(tail), p.Prior.Quantile(1 - tail)}
+		if o, ok := m[p.Sets]; ok {
+			s = priorSpan{math.Min(o.lo, s.lo), math.Max(o.hi, s.hi)}
+		}
+		m[p.Sets] = s
+	}
+	return m
 }
 
 // WriteTOML writes the resolved configuration (r.Config) as TOML, with a

@@ -168,6 +168,9 @@ func TestBadConfigs(t *testing.T) {
 		{"cfg-unknown-quantity.toml", "parameters[1].sets"},
 		{"cfg-vmr-prior-above-zero.toml", "parameters[2]"},
 		{"cfg-walkers-few.toml", "sampler.walkers"},
+		{"cfg-walkers-many.toml", "sampler.walkers"},
+		{"cfg-star-smaller.toml", "star.radius_rsun"},
+		{"cfg-unbound.toml", "planet.mass_mjup"},
 		{"cfg-walkers-odd.toml", "sampler.walkers"},
 	}
 	// Errors found only once the model and opacities are known: these

@@ -35,6 +35,9 @@ type ModelConfig struct {
 	// BaseDir is the directory relative paths are resolved against (the
 	// configuration file's directory); set by the decoder, not a key.
 	BaseDir string `toml:"-"`
+	// free holds the prior ranges of the quantities free parameters set
+	// (Resolve), for the system checks (system.go).
+	free map[Quantity]priorSpan
 }
 
 // StarConfig is [star]. Exactly one radius key is required.
@@ -318,7 +321,7 @@ func orDefault[T any](v *T, d T) *T {
 // tables: required keys present, values in range, one way of giving each
 // quantity. Errors name the key.
 func (c *ModelConfig) Validate() error {
-	for _, check := range []func() error{c.checkBodies, c.checkPositive, c.checkAtmosphere, c.checkClouds, c.checkOpacity, c.checkSpectrum} {
+	for _, check := range []func() error{c.checkBodies, c.checkPositive, c.checkAtmosphere, c.checkClouds, c.checkOpacity, c.checkSpectrum, c.checkSystem} {
 		if err := check(); err != nil {
 			return err
 		}

@@ -2,6 +2,7 @@ package obs
 
 import (
 	"bufio"
+	"bytes"
 	"errors"
 	"fmt"
 	"io"
@@ -29,7 +30,14 @@ func ReadBins(path string) (bins forward.Bins, errPPM []float64, err error) {
 }
 
 func parseBins(r io.Reader, path string) (forward.Bins, []float64, error) {
-	sc := bufio.NewScanner(r)
+	data, err := io.ReadAll(io.LimitReader(r, maxFileSize+1))
+	if err != nil {
+		return forward.Bins{}, nil, fmt.Errorf("%s: %w", path, err)
+	}
+	if err := checkEncoding(data); err != nil {
+		return forward.Bins{}, nil, fmt.Errorf("%s: %w", path, err)
+	}
+	sc := bufio.NewScanner(bytes.NewReader(data))
 	var cols map[string]int
 	var csv bool
 	var lo, hi, errs []float64
@@ -98,8 +106,8 @@ func parseBins(r io.Reader, path string) (forward.Bins, []float64, error) {
 			return forward.Bins{}, nil, fmt.Errorf("%s: bin %g-%g um overlaps or precedes the previous bin (%g-%g um): list bins in order of wavelength", where, a/forward.Micron, b/forward.Micron, lo[n-1]/forward.Micron, hi[n-1]/forward.Micron)
 		}
 		if _, ok := cols["error_ppm"]; ok {
-			if !(v["error_ppm"] > 0) {
-				return forward.Bins{}, nil, fmt.Errorf("%s: error_ppm %g: must be positive", where, v["error_ppm"])
+			if err := checkErrorPPM(v["error_ppm"]); err != nil {
+				return forward.Bins{}, nil, fmt.Errorf("%s: error_ppm %g: %w", where, v["error_ppm"], err)
 			}
 			errs = append(errs, v["error_ppm"])
 		}

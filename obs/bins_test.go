@@ -23,6 +23,8 @@ func TestReadBinsFile(t *testing.T) {
 		{"edge_low_um,edge_high_um\n1,2\n1.5,3\n", "b.csv:3: bin 1.5-3 um overlaps"},
 		{"edge_low_um,edge_high_um\n1,NaN\n", "not a finite number"},
 		{"edge_low_um,edge_high_um,error_ppm\n1,2,0\n", "error_ppm 0"},
+		{"edge_low_um,edge_high_um,error_ppm\n1,2,1e300\n", "b.csv:2: error_ppm 1e+300: a transit-depth error of 1e+300 ppm is outside the physical range"},
+		{"\xff\xfee\x00d\x00", "b.csv: the file is encoded in UTF-16"},
 		{"# nothing\n", "no bins"},
 	} {
 		if _, _, err := parseBins(strings.NewReader(c.text), "b.csv"); err == nil || !strings.Contains(err.Error(), c.want) {

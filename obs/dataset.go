@@ -40,8 +40,8 @@ import (
 // first order: sigma_D = 2 (Rp/Rs) sigma_(Rp/Rs) (fact of the trade).
 //
 // Rows are bins. Each must have finite values, positive widths (or
-// edge_low < edge_high), a positive error, and a depth in [0, 1) after
-// conversion; two bins may not be the same bin or overlap by more than
+// edge_low < edge_high), an error between MinErrorPPM and MaxErrorPPM
+// after conversion, and a depth in [0, 1) after conversion; two bins may not be the same bin or overlap by more than
 // the edge tolerance (edges.go: shared edges rounded differently are
 // snapped, with a note). Rows not sorted by wavelength are sorted, with a
 // note. Every error names the file, line and column.
@@ -446,8 +446,32 @@ func (h *header) row(fields []string, vals []float64, where string) (bin, error)
 	if !(b.depth >= 0 && b.depth < 1) {
 		return bin{}, fmt.Errorf("%s: %s: %g is a transit depth of %.6g, outside [0, 1)", where, h.depth, v, b.depth)
 	}
-	if !(b.sig > 0) || math.IsInf(b.sig, 0) {
-		return bin{}, fmt.Errorf("%s: error %g underflows or overflows after conversion to a fraction", where, b.sig)
+	if err := checkErrorPPM(b.sig * 1e6); err != nil {
+		col := h.label[colError]
+		if h.idx[colError] < 0 {
+			col = h.label[colErrPlus] + ", " + h.label[colErrMinus]
+		}
+		return bin{}, fmt.Errorf("%s: %s: %w", where, col, err)
 	}
 	return b, nil
+}
+
+// The physical range of a transit-depth error (1 sigma, ppm of the
+// stellar flux): a depth is a fraction of the star's light, so an error
+// above 1e6 ppm (the whole star) says nothing, and no photometer comes
+// within orders of magnitude of 1e-3 ppm (the best transit depths are
+// measured to a few ppm; fact of the trade). Values outside are unit
+// slips or placeholders (1e300, 1e-300), and are refused.
+const (
+	MinErrorPPM = 1e-3
+	MaxErrorPPM = 1e6
+)
+
+// checkErrorPPM refuses an error (ppm of the stellar flux) outside
+// [MinErrorPPM, MaxErrorPPM].
+func checkErrorPPM(e float64) error {
+	if !(e >= MinErrorPPM && e <= MaxErrorPPM) {
+		return fmt.Errorf("a transit-depth error of %.3g ppm is outside the physical range %g to %g ppm (check the column's unit)", e, MinErrorPPM, float64(MaxErrorPPM))
+	}
+	return nil
 }

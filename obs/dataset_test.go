@@ -105,6 +105,10 @@ func TestBadObservations(t *testing.T) {
 		{"obs-empty.csv", ": no header and no data"},
 		{"obs-header-only.csv", ": header but no data rows"},
 		{"obs-mixed-bins.csv", ":1: header: give bins either as wavelength and width or as edge_low and edge_high"},
+		// Error bars outside the physical range (issue 12: these blamed the
+		// priors).
+		{"obs-error-huge.csv", ":3: column 4 (error_ppm): a transit-depth error of 1e+300 ppm is outside the physical range 0.001 to 1e+06 ppm"},
+		{"obs-error-tiny.csv", ":2: column 4 (error_ppm): a transit-depth error of 1e-300 ppm is outside the physical range"},
 	}
 	seen := map[string]bool{}
 	for _, c := range cases {

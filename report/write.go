@@ -112,7 +112,9 @@ type Options struct {
 }
 
 // Write reads the committed parts of the run in dir, and writes the
-// summaries, the plots and (with Options.HTML) report.html.
+// summaries, the plots and (with Options.HTML) report.html. When the
+// summary files cannot be written it returns the summary with a
+// *WriteError, having written nothing.
 func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 	chainsDir := filepath.Join(dir, chains.DirName)
 	all, err := chains.Read(chainsDir, parts, 0, 1)
@@ -148,7 +150,7 @@ func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 	}
 	s.sortChecks()
 	if err := writeSummaryFiles(dir, s); err != nil {
-		return nil, err
+		return s, &WriteError{Dir: dir, Err: err}
 	}
 	figs = append(figs,
 		func() error {
@@ -167,6 +169,20 @@ func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 	}
 	return s, nil
 }
+
+// WriteError is the error of Write when the summary was computed but its
+// files could not be written (a read-only run directory, a full disk):
+// Write returns the summary with it, and nothing of the run's is changed.
+type WriteError struct {
+	Dir string
+	Err error
+}
+
+func (e *WriteError) Error() string {
+	return fmt.Sprintf("could not write the report files in %s: %v", e.Dir, e.Err)
+}
+
+func (e *WriteError) Unwrap() error { return e.Err }
 
 // newView returns a SampleView sized for m.
 func newView(m Model) *SampleView {

@@ -53,6 +53,14 @@ type CheckpointHeader struct {
 	Evaluations  int64             `json:"evaluations"`
 	// Stop is the run's stopping rule as set at the start or last resume.
 	Stop config.StopRule `json:"stop"`
+	// Stopped is set by the session that met Stop: the sampler's reason
+	// ("converged", "step count reached", "wall-clock budget spent"); ""
+	// while the run is under way or after an interruption. A resume with
+	// the same rule does nothing when it is set.
+	Stopped string `json:"stopped,omitempty"`
+	// CheckpointSteps is the interval between checkpoints the run uses, in
+	// steps; a resume keeps it unless told otherwise.
+	CheckpointSteps int `json:"checkpoint_steps,omitempty"`
 }
 
 // Checkpoint is a decoded checkpoint file.

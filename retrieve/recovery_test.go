@@ -201,6 +201,16 @@ func TestRunBadInputs(t *testing.T) {
 	if _, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, DemoCache: testDemoCache(t)}); !errors.As(err, new(*NotEmptyError)) || !errors.Is(err, fs.ErrExist) {
 		t.Errorf("non-empty run directory: %v", err)
 	}
+	// A directory that is not a chord run: --force is refused too.
+	if _, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, Force: true, DemoCache: testDemoCache(t)}); !errors.As(err, new(*NotRunError)) {
+		t.Errorf("--force in a directory that is not a run: %v", err)
+	}
+	os.Remove(filepath.Join(runDir, "notes.txt"))
+	if _, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, DemoCache: testDemoCache(t), Stop: config.StopRule{Steps: 3}}); err != nil {
+		t.Fatal(err)
+	}
+	// In a chord run, --force replaces chord's entries and no other.
+	os.WriteFile(filepath.Join(runDir, "notes.txt"), []byte("mine"), 0o644)
 	rep, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: runDir, Force: true, DemoCache: testDemoCache(t), Stop: config.StopRule{Steps: 6}})
 	if err != nil {
 		t.Fatal(err)

@@ -27,6 +27,7 @@ import (
 	"chord/internal/atomicfile"
 	"chord/internal/eta"
 	"chord/internal/logto"
+	"chord/internal/runlock"
 	"chord/internal/version"
 	"chord/obs"
 	"chord/priors"
@@ -108,6 +109,13 @@ type RunOutcome struct {
 	// Recovered is set when the newest part was damaged and the run
 	// resumed from the checkpoint's previous state, one part earlier.
 	Recovered bool
+	// Met is set when the run had already met its stopping rule: nothing
+	// was sampled (Stop says which rule).
+	Met bool
+	// BeforeStart is set when the session was interrupted while the
+	// initial ensemble was being made (Stop is StopCanceled): there is no
+	// checkpoint yet, and a resume starts the run again from its seed.
+	BeforeStart bool
 }
 
 // StartRun samples a new run into dir, whose chain store must be empty.
@@ -121,6 +129,9 @@ func StartRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions) (*
 	t0 := time.Now()
 	st, err := spec.Init(ctx, opt.Workers)
 	if err != nil {
+		if ctx.Err() != nil && errors.Is(err, ctx.Err()) {
+			return &RunOutcome{Stop: sampler.StopCanceled, BeforeStart: true}, nil
+		}
 		return nil, fmt.Errorf("initial walkers: %w", err)
 	}
 	stepTime := time.Since(t0)
@@ -130,11 +141,11 @@ func StartRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions) (*
 	}
 	r := &runner{dir: dir, spec: spec, opt: opt, w: w, stop: opt.Stop}
 	r.evals = int64(st.Walkers)
-	if err := r.checkpoint(st); err != nil {
-		return nil, err
-	}
 	if opt.CheckpointSteps == 0 {
 		r.opt.CheckpointSteps = autoCheckpointSteps(stepTime)
+	}
+	if err := r.checkpoint(st); err != nil {
+		return nil, err
 	}
 	return r.sample(ctx, st, &RunOutcome{})
 }
@@ -148,16 +159,13 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 	if err != nil {
 		return nil, err
 	}
-	if ck.ConfigSHA256 != spec.ConfigSHA256 {
-		return nil, fmt.Errorf("%s: the checkpoint belongs to a run with configuration digest %s, the run's configuration and inputs now give %s: they changed since the run started; start a new run instead", dir, short(ck.ConfigSHA256), short(spec.ConfigSHA256))
-	}
-	if ck.Walkers != spec.Layout.Walkers || ck.Dim != spec.Layout.Dim {
-		return nil, fmt.Errorf("%s: the checkpoint holds %d walkers x %d parameters, the configuration gives %d x %d", dir, ck.Walkers, ck.Dim, spec.Layout.Walkers, spec.Layout.Dim)
+	if err := checkOwner(dir, ck, spec); err != nil {
+		return nil, err
 	}
 	out := &RunOutcome{}
 	store := filepath.Join(dir, chains.DirName)
 	parts, stateBytes := ck.Parts, ck.State
-	if err := chains.CheckParts(store, parts); err != nil {
+	if err := chains.CheckParts(store, parts, partMeta(spec)); err != nil {
 		var pe *chains.PartError
 		n := len(parts)
 		if !errors.As(err, &pe) || pe.Index != n-1 || ck.Prev == nil || ck.PrevStep != parts[n-1].FirstStep-1 {
@@ -180,6 +188,24 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 	if st.Step != last {
 		return nil, fmt.Errorf("%s: the checkpoint's state is at step %d but its parts end at step %d", dir, st.Step, last)
 	}
+	stop := opt.Stop
+	if stop == (config.StopRule{}) {
+		stop = ck.Stop
+	}
+	if err := checkStop(stop); err != nil {
+		return nil, err
+	}
+	stopped := ck.Stopped
+	if out.Recovered {
+		stopped = "" // the state resumed from is one part before the one that met the rule
+	}
+	if reason, met, err := metRule(stop, st.Step, secs(ck.Elapsed), stopped); err != nil {
+		return nil, fmt.Errorf("%s: %w", dir, err)
+	} else if met {
+		out.Stop, out.Met, out.Step = reason, true, st.Step
+		out.TotalElapsed, out.Evaluations = secs(ck.Elapsed), ck.Evaluations
+		return out, nil
+	}
 	removed, err := chains.Trim(store, parts)
 	out.Removed = removed
 	if err != nil {
@@ -189,34 +215,89 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 	if err != nil {
 		return nil, err
 	}
-	stop := opt.Stop
-	if stop == (config.StopRule{}) {
-		stop = ck.Stop
-	}
-	if err := checkStop(stop); err != nil {
-		return nil, err
-	}
 	r := &runner{dir: dir, spec: spec, opt: opt, w: w, stop: stop, evals: ck.Evaluations, base: secs(ck.Elapsed)}
 	// The state resumed from is the previous state of the next checkpoint.
 	r.last = &Checkpoint{CheckpointHeader: ck.CheckpointHeader, State: stateBytes}
-	r.last.Step, r.last.Parts = st.Step, parts
-	if opt.CheckpointSteps == 0 {
+	r.last.Step, r.last.Parts, r.last.Stopped = st.Step, parts, stopped
+	if out.Recovered {
+		r.last.Prev = nil
+	} else {
+		r.last.Prev = ck.Prev
+	}
+	switch {
+	case opt.CheckpointSteps > 0:
+	case ck.CheckpointSteps > 0:
+		r.opt.CheckpointSteps = ck.CheckpointSteps // the run's own interval
+	default: // a checkpoint that does not record it
 		per := CheckpointInterval / 100
 		if ck.Step > 0 && ck.Elapsed > 0 {
 			per = secs(ck.Elapsed / float64(ck.Step))
 		}
 		r.opt.CheckpointSteps = autoCheckpointSteps(per)
 	}
+	if err := ctx.Err(); err != nil {
+		out.Stop, out.Step = sampler.StopCanceled, st.Step
+		return out, nil
+	}
 	// Rebuild the histories (convergence rule, progress) from the stored chain.
 	if err := r.newHistories(st); err != nil {
 		return nil, err
 	}
 	if len(parts) > 0 {
-		if err := replay(store, parts, &spec.Layout, r.histories()...); err != nil {
+		if err := replay(ctx, store, parts, &spec.Layout, r.histories()...); err != nil {
+			if ctx.Err() != nil && errors.Is(err, ctx.Err()) {
+				out.Stop, out.Step = sampler.StopCanceled, st.Step
+				return out, nil
+			}
 			return nil, fmt.Errorf("%s: replaying the chain: %w", dir, err)
 		}
 	}
 	return r.sample(ctx, st, out)
+}
+
+// checkOwner refuses a checkpoint that is not the run's: one of another
+// run (copied over it), of another configuration or inputs, or of another
+// ensemble shape.
+func checkOwner(dir string, ck *Checkpoint, spec *RunSpec) error {
+	if ck.RunID != spec.RunID {
+		return fmt.Errorf("%s: the checkpoint belongs to run %s, run.toml to run %s: it was copied from another run; restore this run's checkpoint, or start a new run", dir, ck.RunID, spec.RunID)
+	}
+	if ck.ConfigSHA256 != spec.ConfigSHA256 {
+		return fmt.Errorf("%s: the checkpoint belongs to a run with configuration digest %s, the run's configuration and inputs now give %s: they changed since the run started; start a new run instead", dir, short(ck.ConfigSHA256), short(spec.ConfigSHA256))
+	}
+	if ck.Walkers != spec.Layout.Walkers || ck.Dim != spec.Layout.Dim {
+		return fmt.Errorf("%s: the checkpoint holds %d walkers x %d parameters, the configuration gives %d x %d", dir, ck.Walkers, ck.Dim, spec.Layout.Walkers, spec.Layout.Dim)
+	}
+	return nil
+}
+
+// partMeta is the metadata every chain part of the run must carry: its
+// run identity, when the layout writes one.
+func partMeta(spec *RunSpec) map[string]string {
+	if id, ok := spec.Layout.Meta[runIDKey]; ok {
+		return map[string]string{runIDKey: id}
+	}
+	return nil
+}
+
+// runIDKey is the chain parts' metadata key of the run identity.
+const runIDKey = "chord.run_id"
+
+// metRule reports whether a run at step, having sampled for elapsed, has
+// met the rule stop (stopped: the reason recorded by the session that
+// met the run's rule, or ""). A step count below the chain's length is an
+// error: chains are never shortened.
+func metRule(stop config.StopRule, step int, elapsed time.Duration, stopped string) (sampler.StopReason, bool, error) {
+	switch {
+	case stop.Steps > 0:
+		if step > stop.Steps {
+			return 0, false, fmt.Errorf("the chain already holds %d steps, more than the %d asked for", step, stop.Steps)
+		}
+		return sampler.StopMaxSteps, step == stop.Steps, nil
+	case stop.Budget > 0:
+		return sampler.StopBudget, elapsed >= secs(stop.Budget), nil
+	}
+	return sampler.StopConverged, stopped == sampler.StopConverged.String(), nil
 }
 
 func checkSpec(spec *RunSpec) error {
@@ -339,14 +420,18 @@ func (r *runner) Record(s *sampler.Step) error {
 func (r *runner) Flush() error { return r.w.Flush() }
 
 // checkpoint is the sampler's checkpoint callback (after Flush).
-func (r *runner) checkpoint(st *sampler.State) error {
-	if r.last != nil && st.Step == r.last.Step {
+func (r *runner) checkpoint(st *sampler.State) error { return r.checkpointStopped(st, "") }
+
+// checkpointStopped writes a checkpoint of st unless the last one is of
+// the same step and stopping reason (stopped: see CheckpointHeader).
+func (r *runner) checkpointStopped(st *sampler.State, stopped string) error {
+	if r.last != nil && st.Step == r.last.Step && stopped == r.last.Stopped {
 		return nil
 	}
-	return r.writeCheckpoint(st)
+	return r.writeCheckpoint(st, stopped)
 }
 
-func (r *runner) writeCheckpoint(st *sampler.State) error {
+func (r *runner) writeCheckpoint(st *sampler.State, stopped string) error {
 	parts := r.w.Committed()
 	last := 0
 	if n := len(parts); n > 0 {
@@ -367,11 +452,17 @@ func (r *runner) writeCheckpoint(st *sampler.State) error {
 		CheckpointHeader: CheckpointHeader{
 			Version: version.Version, RunID: r.spec.RunID, ConfigSHA256: r.spec.ConfigSHA256, Seed: r.spec.Seed,
 			Walkers: st.Walkers, Dim: st.Dim, Step: st.Step, Parts: append([]chains.PartInfo(nil), parts...),
-			Elapsed: elapsed.Seconds(), Evaluations: r.evals, Stop: r.stop,
+			Elapsed: elapsed.Seconds(), Evaluations: r.evals, Stop: r.stop, Stopped: stopped,
+			CheckpointSteps: r.opt.CheckpointSteps,
 		},
 		State: data,
 	}
-	if r.last != nil {
+	switch {
+	case r.last != nil && r.last.Step == st.Step:
+		// The same state again (now with why the run stopped): the
+		// previous state stays the one before the newest part.
+		ck.PrevStep, ck.Prev = r.last.PrevStep, r.last.Prev
+	case r.last != nil:
 		ck.PrevStep, ck.Prev = r.last.Step, r.last.State
 	}
 	if err := WriteCheckpoint(filepath.Join(r.dir, CheckpointFile), ck); err != nil {
@@ -396,21 +487,9 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 	}
 	switch {
 	case r.stop.Steps > 0:
-		if st.Step >= r.stop.Steps {
-			if st.Step > r.stop.Steps {
-				return nil, fmt.Errorf("%s: the chain already holds %d steps, more than the %d asked for", r.dir, st.Step, r.stop.Steps)
-			}
-			out.Stop = sampler.StopMaxSteps
-			return out, nil
-		}
 		set.MaxSteps = r.stop.Steps
 	case r.stop.Budget > 0:
-		left := secs(r.stop.Budget) - r.base
-		if left <= 0 {
-			out.Stop = sampler.StopBudget
-			return out, nil
-		}
-		set.MaxDuration = left
+		set.MaxDuration = max(secs(r.stop.Budget)-r.base, time.Nanosecond)
 	case r.stop.UntilConverged:
 		set.Convergence = &sampler.Convergence{History: r.conv}
 	}
@@ -431,7 +510,11 @@ func (r *runner) sample(ctx context.Context, st *sampler.State, out *RunOutcome)
 		}
 		return out, &StoppedError{Dir: r.dir, Step: r.last.Step, Err: err}
 	}
-	if err := r.checkpoint(st); err != nil {
+	stopped := ""
+	if res.Stop != sampler.StopCanceled {
+		stopped = res.Stop.String()
+	}
+	if err := r.checkpointStopped(st, stopped); err != nil {
 		return out, &StoppedError{Dir: r.dir, Step: r.last.Step, Err: err}
 	}
 	out.Stop = res.Stop
@@ -456,8 +539,9 @@ func (r *runner) layoutLogLikelihood() int {
 	return -1
 }
 
-// replay streams the stored chain, step by step, into the recorders.
-func replay(dir string, parts []chains.PartInfo, l *chains.Layout, recs ...sampler.Recorder) error {
+// replay streams the stored chain, step by step, into the recorders; it
+// stops with ctx's error when ctx is cancelled.
+func replay(ctx context.Context, dir string, parts []chains.PartInfo, l *chains.Layout, recs ...sampler.Recorder) error {
 	if len(recs) == 0 {
 		return nil
 	}
@@ -472,6 +556,9 @@ func replay(dir string, parts []chains.PartInfo, l *chains.Layout, recs ...sampl
 		Extra: make([]float64, l.Walkers*l.NumExtra), Accepted: make([]bool, l.Walkers),
 	}
 	for {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
 		if _, err := r.Next(); err == io.EOF {
 			return nil
 		} else if err != nil {
@@ -637,6 +724,7 @@ type RunInfo struct {
 	RunID      string      `toml:"run_id"`      // random identity, also in the chain parts and checkpoint
 	Created    string      `toml:"created"`     // UTC start time, RFC 3339
 	ConfigFile string      `toml:"config_file"` // the configuration file the run was started from
+	RunDir     string      `toml:"run_dir"`     // the run directory when it was made (rundir.go: moved inputs)
 	Demo       bool        `toml:"demo_opacities"`
 	Inputs     []InputFile `toml:"inputs"`
 }
@@ -696,10 +784,18 @@ func runInputs(r *config.Resolved, set *opacity.Set) ([]InputFile, error) {
 
 // configDigest is the digest a checkpoint is bound to: the resolved
 // configuration (without the stopping rule and workers, which resume may
-// change) and the digests of the inputs.
+// change, and without the input files' paths, so that a run moves with
+// its inputs) and the digests of the inputs, which stand for the files.
 func configDigest(r *config.Resolved, inputs []InputFile) (string, error) {
 	c := r.Config
 	c.Sampler.Steps, c.Sampler.Budget, c.Sampler.UntilConverged, c.Sampler.Workers = nil, "", nil, nil
+	c.Observations = slices.Clone(c.Observations)
+	for i := range c.Observations {
+		c.Observations[i].File = ""
+	}
+	if c.Opacity.Dir != "" {
+		c.Opacity.Dir = "(directory)"
+	}
 	var b bytes.Buffer
 	if err := toml.NewEncoder(&b).Encode(c); err != nil {
 		return "", err
@@ -860,18 +956,19 @@ func (j *job) report(dir string, burn int, auto bool, thin int, html bool, out *
 					}
 				}
 			}
+			s.Warnings = append(s.Warnings, j.res.Warnings...)
 			for _, n := range j.res.Notes {
 				s.Warnings = append(s.Warnings, "note: "+n)
 			}
 			s.Warnings = append(s.Warnings, j.prob.Notes()...)
 		},
 	})
-	if err != nil {
+	if s == nil {
 		return nil, "", err
 	}
 	var txt bytes.Buffer
 	s.WriteText(&txt)
-	return s, txt.String(), nil
+	return s, txt.String(), err
 }
 
 // FitOptions configures Fit.
@@ -910,10 +1007,6 @@ type RunReport struct {
 	ConfigFile, ObservationFile string
 }
 
-// runEntries are the names chord writes in a run directory (their
-// temporary files, atomicfile.TempPattern, too).
-var runEntries = append([]string{RunFile, chains.DirName, CheckpointFile, TruthFile}, report.Files()...)
-
 // StoppedError is the error of a session that stopped on an error after a
 // checkpoint: the chain up to the checkpoint's step is intact, and the run
 // can be resumed from it once the cause is fixed.
@@ -929,53 +1022,6 @@ func (e *StoppedError) Error() string {
 
 func (e *StoppedError) Unwrap() error { return e.Err }
 
-// NotEmptyError refuses a new run in a directory that holds something
-// (FitOptions.Force replaces the run in it). It is an fs.ErrExist.
-type NotEmptyError struct {
-	Dir, Entry string // the directory and an entry in it
-}
-
-func (e *NotEmptyError) Error() string {
-	return fmt.Sprintf("run directory %s is not empty (it holds %s)", e.Dir, e.Entry)
-}
-
-// Is reports whether target is fs.ErrExist.
-func (e *NotEmptyError) Is(target error) bool { return target == fs.ErrExist }
-
-// checkRunDir refuses a non-empty dir unless force: a new run needs an
-// absent or empty directory.
-func checkRunDir(dir string, force bool) error {
-	ents, err := os.ReadDir(dir)
-	if errors.Is(err, os.ErrNotExist) {
-		return nil
-	}
-	if err != nil {
-		return err
-	}
-	if len(ents) > 0 && !force {
-		return &NotEmptyError{Dir: dir, Entry: ents[0].Name()}
-	}
-	return nil
-}
-
-// prepareRunDir creates dir, or clears it of a run's entries (files that
-// are not chord's are left alone). Called once everything is validated, so
-// that --force with a broken configuration keeps the old run.
-func prepareRunDir(dir string) error {
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return err
-	}
-	for _, name := range runEntries {
-		tmp, _ := filepath.Glob(filepath.Join(dir, atomicfile.TempPattern(name)))
-		for _, p := range append(tmp, filepath.Join(dir, name)) {
-			if err := os.RemoveAll(p); err != nil {
-				return err
-			}
-		}
-	}
-	return nil
-}
-
 func newRunID() string {
 	var b [8]byte
 	crand.Read(b[:])
@@ -983,8 +1029,16 @@ func newRunID() string {
 }
 
 // Fit validates a configuration, starts a run in opt.RunDir and reports it.
+// It holds the run directory's lock throughout (see rundir.go). A
+// cancelled ctx before run.toml is written ends it with an error wrapping
+// ctx's, nothing written; after, with the outcome StopCanceled.
 func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	log := logto.First(opt.Log, opt.Progress.Writer)
+	lock, err := runlock.Create(opt.RunDir, runlock.Holder("chord fit"), func() error { return checkRunDir(opt.RunDir, opt.Force) })
+	if err != nil {
+		return nil, err
+	}
+	defer lock.Release()
 	r, err := config.Load(opt.ConfigPath)
 	if err != nil {
 		return nil, err
@@ -1024,8 +1078,8 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	for _, n := range r.Notes {
 		fmt.Fprintln(log, "chord: note:", n)
 	}
-	if err := checkRunDir(opt.RunDir, opt.Force); err != nil {
-		return nil, err
+	for _, w := range r.Warnings {
+		fmt.Fprintln(log, "chord: warning:", w)
 	}
 	set := opt.Opacity
 	if set == nil {
@@ -1049,6 +1103,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	abs, _ := filepath.Abs(opt.ConfigPath)
 	info := RunInfo{Version: version.Version, RunID: runID, Created: time.Now().UTC().Format(time.RFC3339), ConfigFile: abs, Demo: set.Demo,
 		Inputs: append([]InputFile{{Role: "configuration", Path: abs, SHA256: cfgHash}}, j.inputs...)}
+	info.RunDir, _ = filepath.Abs(opt.RunDir)
 	var buf bytes.Buffer
 	if err := r.WriteTOML(&buf); err != nil {
 		return nil, err
@@ -1058,6 +1113,9 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 		Run RunInfo `toml:"run"`
 	}{info}); err != nil {
 		return nil, err
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, fmt.Errorf("%s: interrupted before the run started; nothing was written: %w", opt.RunDir, err)
 	}
 	if err := prepareRunDir(opt.RunDir); err != nil {
 		return nil, err
@@ -1108,14 +1166,12 @@ func (j *job) finish(dir string, out *RunOutcome) (*RunReport, error) {
 // with, naming any that changed.
 func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo, error) {
 	path := filepath.Join(dir, RunFile)
-	if _, err := os.Stat(path); err != nil {
-		return nil, nil, fmt.Errorf("%s is not a run directory: %w", dir, err)
-	}
 	rf := &runFile{}
 	if _, err := config.DecodeStrict(path, rf); err != nil {
 		return nil, nil, err
 	}
 	rf.Config.BaseDir = dir
+	rf.relocate(dir)
 	r, err := rf.Config.Resolve()
 	if err != nil {
 		return nil, nil, config.InFile(path, err)
@@ -1132,12 +1188,13 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 		if in.Role == "configuration" {
 			continue // the run uses run.toml, not the original file
 		}
-		h, err := fileSHA256(in.Path)
+		p := in.Path
+		h, err := fileSHA256(p)
 		if err != nil {
 			return nil, nil, fmt.Errorf("%s: input %s of the run: %w", dir, in.Path, err)
 		}
 		if h != in.SHA256 {
-			return nil, nil, fmt.Errorf("%s: the %s file %s changed since the run started (SHA-256 %s, run.toml records %s): the chain cannot be continued or reported against it; restore the file, or start a new run", dir, in.Role, in.Path, short(h), short(in.SHA256))
+			return nil, nil, fmt.Errorf("%s: the %s file %s changed since the run started (SHA-256 %s, run.toml records %s): the chain cannot be continued or reported against it; restore the file, or start a new run", dir, in.Role, p, short(h), short(in.SHA256))
 		}
 	}
 	j, err := newJob(r, set, rf.Run.RunID)
@@ -1162,13 +1219,26 @@ type ResumeOptions struct {
 	HTML    bool // also write report.html
 }
 
-// Resume continues the run in dir from its checkpoint and reports it.
+// Resume continues the run in dir from its checkpoint and reports it,
+// holding the run directory's lock throughout. A run that has met its
+// stopping rule is left as it is (RunOutcome.Met; its report is written
+// if it is missing); a run stopped before its first checkpoint starts
+// again from its seed.
 func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, error) {
 	log := logto.First(opt.Log, opt.Progress.Writer)
+	if err := isRunDir(dir); err != nil {
+		return nil, err
+	}
+	lock, err := runlock.Acquire(dir, runlock.Holder("chord resume"))
+	if err != nil {
+		return nil, err
+	}
+	defer lock.Release()
 	j, _, err := loadRun(dir, opt.DemoCache, opt.Opacity, log)
 	if err != nil {
 		return nil, err
 	}
+	j.log = log // a run restarted from its seed searches for its start again
 	j.html = opt.HTML
 	if j.set.Demo {
 		fmt.Fprintln(log, "chord: "+report.DemoWarning)
@@ -1180,7 +1250,11 @@ func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, err
 		}
 		workers = *opt.Workers
 	}
-	out, err := ContinueRun(ctx, dir, j.spec, RunOptions{Workers: workers, Stop: opt.Stop, Progress: opt.Progress, CheckpointSteps: opt.CheckpointSteps})
+	ro := RunOptions{Workers: workers, Stop: opt.Stop, Progress: opt.Progress, CheckpointSteps: opt.CheckpointSteps}
+	if _, err := os.Stat(filepath.Join(dir, CheckpointFile)); errors.Is(err, fs.ErrNotExist) {
+		return j.restart(ctx, dir, ro, log)
+	}
+	out, err := ContinueRun(ctx, dir, j.spec, ro)
 	if err != nil {
 		return nil, err
 	}
@@ -1190,7 +1264,42 @@ func Resume(ctx context.Context, dir string, opt ResumeOptions) (*RunReport, err
 	if out.Recovered {
 		fmt.Fprintln(log, "chord: the newest chain part was damaged; resumed from the checkpoint's previous state, one part earlier")
 	}
+	if out.Met {
+		if _, err := os.Stat(filepath.Join(dir, "summary.json")); err == nil {
+			return &RunReport{Dir: dir, Walkers: j.res.Walkers, Outcome: out}, nil
+		}
+		fmt.Fprintf(log, "chord: %s has met its stopping rule but has no report (stopped before it was written): writing it\n", dir)
+	}
 	return j.finish(dir, out)
+}
+
+// restart starts again the run in dir that stopped before its first
+// checkpoint (while its initial ensemble was being made): everything is
+// drawn from the run's seed, so this is the run it would have been.
+func (j *job) restart(ctx context.Context, dir string, opt RunOptions, log io.Writer) (*RunReport, error) {
+	store := filepath.Join(dir, chains.DirName)
+	if _, err := os.Stat(store); err == nil {
+		if _, err := chains.Trim(store, nil); err != nil {
+			return nil, err
+		}
+	}
+	if opt.Stop == (config.StopRule{}) {
+		opt.Stop = j.res.Stop
+	}
+	fmt.Fprintf(log, "chord: %s stopped before its first checkpoint; starting it again from its seed %d (stopping rule: %s)\n", dir, j.res.Seed, describeStop(opt.Stop))
+	out, err := StartRun(ctx, dir, j.spec, opt)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", dir, err)
+	}
+	return j.finish(dir, out)
+}
+
+// isRunDir refuses a dir without run.toml.
+func isRunDir(dir string) error {
+	if _, err := os.Stat(filepath.Join(dir, RunFile)); err != nil {
+		return fmt.Errorf("%s is not a run directory: %w", dir, err)
+	}
+	return nil
 }
 
 // ReportRunOptions configures Report.
@@ -1203,11 +1312,39 @@ type ReportRunOptions struct {
 }
 
 // Report recomputes the summaries and plots of the run in dir; it returns
-// the summary and its text.
+// the summary and its text. It first verifies what Resume verifies: the
+// checkpoint is this run's (run identity, configuration and inputs), and
+// every chain part it lists is the very file it recorded (size, SHA-256)
+// and this run's (run identity in its metadata); a part that fails is
+// named. In a directory this process cannot write, the summary and its
+// text are returned with a *report.WriteError.
 func Report(dir string, opt ReportRunOptions) (*report.Summary, string, error) {
+	if err := isRunDir(dir); err != nil {
+		return nil, "", err
+	}
+	lock, _, err := runLock(dir, "chord report")
+	if err != nil {
+		return nil, "", err
+	}
+	defer lock.Release()
 	j, _, err := loadRun(dir, opt.DemoCache, nil, nil)
 	if err != nil {
 		return nil, "", err
+	}
+	ck, err := ReadCheckpoint(filepath.Join(dir, CheckpointFile))
+	if err != nil {
+		return nil, "", err
+	}
+	if err := checkOwner(dir, ck, j.spec); err != nil {
+		return nil, "", err
+	}
+	if err := chains.CheckParts(filepath.Join(dir, chains.DirName), ck.Parts, partMeta(j.spec)); err != nil {
+		advice := "restore it from a copy, or start a new run"
+		var pe *chains.PartError
+		if errors.As(err, &pe) && pe.Index == len(ck.Parts)-1 && ck.Prev != nil && ck.PrevStep == pe.Part.FirstStep-1 {
+			advice = "chord resume " + dir + " samples its steps again from the state before it"
+		}
+		return nil, "", fmt.Errorf("%s: %w; the run is not reported: %s", dir, err, advice)
 	}
 	return j.report(dir, opt.Burn, opt.BurnAuto, max(opt.Thin, 1), opt.HTML, nil)
 }
@@ -1220,13 +1357,15 @@ func RunNoisePPM(dir string) (float64, error) {
 	if _, err := config.DecodeStrict(path, rf); err != nil {
 		return 0, err
 	}
+	rf.Config.BaseDir = dir
+	rf.relocate(dir)
 	var sigma []float64
 	for i, o := range rf.Config.Observations {
 		opt, err := o.ReadOptions(fmt.Sprintf("observations[%d]", i+1))
 		if err != nil {
 			return 0, config.InFile(path, err)
 		}
-		ds, err := obs.Read(o.File, opt)
+		ds, err := obs.Read(rf.Config.Abs(o.File), opt)
 		if err != nil {
 			return 0, fmt.Errorf("%s: %w", path, err)
 		}

@@ -111,8 +111,9 @@ func (r *StartResult) String() string {
 // walker) of a chain, found as described above, and what the searches
 // found. draw fills dst with a prior draw at which the posterior is finite
 // (as for InitPrior); width[k] is the central 68% width of parameter k's
-// prior (a width that is not positive and finite counts as 1). A cancelled
-// ctx stops the searches and returns its error.
+// prior (a width that is not positive and finite counts as 1). ctx is
+// checked before every evaluation of the posterior: once it is cancelled
+// StartBall evaluates nothing more and returns its error.
 func StartBall(ctx context.Context, t Target, draw func(dst []float64, rng *rand.Rand) error, width []float64, set StartSettings) ([]float64, *StartResult, error) {
 	rng := rand.New(rand.NewPCG(set.Seed, 0x9e3779b97f4a7c15))
 	dim := t.Dim()
@@ -123,13 +124,13 @@ func StartBall(ctx context.Context, t Target, draw func(dst []float64, rng *rand
 	lps := make([]float64, n)
 	for i := range n {
 		x := draws[i*dim : (i+1)*dim]
-		if err := draw(x, rng); err != nil {
-			return nil, nil, fmt.Errorf("initial walkers: %w", err)
-		}
-		lps[i] = eval.LogProb(x, extra)
 		if err := ctx.Err(); err != nil {
 			return nil, nil, err
 		}
+		if err := draw(x, rng); err != nil {
+			return nil, nil, err
+		}
+		lps[i] = eval.LogProb(x, extra)
 	}
 	scale := make([]float64, dim)
 	for k, w := range width {
@@ -182,13 +183,24 @@ func StartBall(ctx context.Context, t Target, draw func(dst []float64, rng *rand
 	if err := ctx.Err(); err != nil {
 		return nil, nil, err
 	}
-	res := &StartResult{Optima: distinctOptima(ends, endLP, func(x []float64) float64 { return eval.LogProb(x, extra) }), Searches: len(starts)}
+	res := &StartResult{Optima: distinctOptima(ends, endLP, func(x []float64) float64 {
+		if ctx.Err() != nil {
+			return math.Inf(-1)
+		}
+		return eval.LogProb(x, extra)
+	}), Searches: len(starts)}
+	if err := ctx.Err(); err != nil {
+		return nil, nil, err
+	}
 	best := res.Optima[0].X
 	step := make([]float64, dim)
 	for k := range step {
 		step[k] = StartScale * scale[k]
 	}
 	negLP := func(x []float64) float64 {
+		if ctx.Err() != nil {
+			return math.Inf(1)
+		}
 		lp := eval.LogProb(x, extra)
 		if math.IsNaN(lp) || math.IsInf(lp, -1) {
 			return math.Inf(1)
@@ -202,6 +214,9 @@ func StartBall(ctx context.Context, t Target, draw func(dst []float64, rng *rand
 		w := pos[k*dim : (k+1)*dim]
 		ok := false
 		for try := 0; try < 1000 && !ok; try++ {
+			if err := ctx.Err(); err != nil {
+				return nil, nil, err
+			}
 			for i := range z {
 				z[i] = rng.NormFloat64()
 			}
@@ -223,7 +238,7 @@ func StartBall(ctx context.Context, t Target, draw func(dst []float64, rng *rand
 			ok = !math.IsNaN(lp) && !math.IsInf(lp, 0)
 		}
 		if !ok {
-			return nil, nil, fmt.Errorf("initial walkers: no valid point in 1000 draws around the best start %v", best)
+			return nil, nil, fmt.Errorf("no valid point in 1000 draws around the best start %v", best)
 		}
 	}
 	return pos, res, nil

@@ -105,6 +105,10 @@ func InitPositions(ctx context.Context, t Target, pos []float64, s InitSettings)
 	return newState(ctx, t, append([]float64(nil), pos...), rand.NewPCG(s.Seed, seedStream), s)
 }
 
+// initBatchPerWorker is the number of walkers per worker evaluated
+// between two checks of the context when an ensemble starts.
+const initBatchPerWorker = 4
+
 func newState(ctx context.Context, t Target, pos []float64, pcg *rand.PCG, s InitSettings) (*State, error) {
 	d, ne := t.Dim(), t.NumExtra()
 	st := &State{
@@ -115,12 +119,19 @@ func newState(ctx context.Context, t Target, pos []float64, pcg *rand.PCG, s Ini
 		Accepted: make([]uint64, s.Walkers),
 		pcg:      pcg,
 	}
-	p := newPool(t, workerCount(s.Workers, s.Walkers))
+	workers := workerCount(s.Workers, s.Walkers)
+	p := newPool(t, workers)
 	defer p.close()
-	if err := ctx.Err(); err != nil {
-		return nil, err
+	// In batches, ctx checked before each: a large ensemble stops within
+	// a few evaluations per worker of a cancellation.
+	batch := initBatchPerWorker * workers
+	for k := 0; k < s.Walkers; k += batch {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		n := min(batch, s.Walkers-k)
+		p.evaluate(st.LogP[k:k+n], st.Extra[k*ne:(k+n)*ne], st.Pos[k*d:(k+n)*d], n)
 	}
-	p.evaluate(st.LogP, st.Extra, st.Pos, s.Walkers)
 	if err := st.check(); err != nil {
 		return nil, err
 	}

@@ -40,13 +40,15 @@ func fitCommand() *cli.Command {
 			"and the plots (spectrum, temperature, gases, traces, corner; PNG and SVG) to the run\n" +
 			"directory. --truth names the scenario an observation was simulated from, so that the\n" +
 			"plots mark the true values. Progress goes to stderr.\n" +
-			"SIGINT or SIGTERM finishes the current step, writes a checkpoint and exits with\n" +
-			"code 3; continue with `chord resume RUNDIR`.",
+			"SIGINT or SIGTERM stops at the next safe point (during sampling: the current step is\n" +
+			"finished and a checkpoint written) and exits with code 3; continue with\n" +
+			"`chord resume RUNDIR`. A second signal stops at once. The run directory is locked\n" +
+			"while the fit runs (docs/runs.md).",
 		Flags: append([]cli.Flag{
 			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "retrieval configuration `FILE` (TOML)", Required: true},
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "run `DIR` to create (must be empty or absent)", Required: true},
 			&cli.Uint64Flag{Name: "seed", Usage: "random seed `N` (default: the configuration's, else a fresh one, recorded)"},
-			&cli.BoolFlag{Name: "force", Usage: "replace the run in a non-empty run directory"},
+			&cli.BoolFlag{Name: "force", Usage: "replace the chord run in DIR (only a directory with a run.toml; only chord's files are removed)"},
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 			&cli.StringFlag{Name: "truth", Usage: "scenario or model configuration `FILE` the observation was simulated from (its values are marked in the plots)"},
 		}, stopFlags...),
@@ -86,9 +88,25 @@ func stopRule(c *cli.Context) (config.StopRule, error) {
 }
 
 // session holds what fit, resume and demo share: the signal context and
-// the progress settings.
+// the progress settings. The first SIGINT or SIGTERM cancels the context
+// (the command stops at its next check, saving what it must); after it
+// the signals have their default effect again, so a second one ends the
+// process at once. That is safe at any instant: every file chord writes
+// is replaced atomically, and a run resumes from its last checkpoint.
 func session(c *cli.Context) (context.Context, context.CancelFunc, retrieve.Progress) {
-	ctx, cancel := signal.NotifyContext(c.Context, os.Interrupt, syscall.SIGTERM)
+	ctx, cancel := context.WithCancel(c.Context)
+	sig := make(chan os.Signal, 1)
+	signal.Notify(sig, os.Interrupt, syscall.SIGTERM)
+	go func() {
+		select {
+		case s := <-sig:
+			signal.Stop(sig) // the default handling again
+			fmt.Fprintf(c.App.ErrWriter, "\nchord: %v: stopping at the next safe point (a second signal stops at once; a run resumes from its last checkpoint)\n", s)
+			cancel()
+		case <-ctx.Done():
+			signal.Stop(sig)
+		}
+	}()
 	p := retrieve.Progress{
 		Writer:   c.App.ErrWriter,
 		Terminal: term.IsTerminal(int(os.Stderr.Fd())) && c.App.ErrWriter == os.Stderr,
@@ -131,9 +149,12 @@ func runFit(c *cli.Context) error {
 // runAdvice adds to the error of a run what to do next with chord.
 func runAdvice(err error) error {
 	var se *retrieve.StoppedError
+	var ne *retrieve.NotEmptyError
 	switch {
 	case errors.As(err, &se):
 		return fmt.Errorf("%w; fix the cause and continue it with: chord resume %s", err, se.Dir)
+	case errors.As(err, &ne) && ne.Entry == retrieve.RunFile:
+		return fmt.Errorf("%w: continue it with chord resume %s, choose another directory with -o, or pass --force to replace it", err, ne.Dir)
 	case errors.Is(err, fs.ErrExist):
 		return fmt.Errorf("%w: choose another directory with -o, or pass --force to replace it", err)
 	}
@@ -148,6 +169,16 @@ func finishRun(c *cli.Context, rep *retrieve.RunReport, err error) error {
 	}
 	w := c.App.ErrWriter
 	out := rep.Outcome
+	switch {
+	case out.BeforeStart:
+		fmt.Fprintf(w, "chord: interrupted while the starting point and initial walkers were being found, before the first checkpoint.\n")
+		fmt.Fprintf(w, "chord: continue it with:  chord resume %s   (it starts again from the run's seed)\n", rep.Dir)
+		return errInterrupted
+	case out.Met:
+		fmt.Fprintf(w, "chord: %s has already met its stopping rule (%v, %d steps in the chain): nothing to do.\n", rep.Dir, out.Stop, out.Step)
+		fmt.Fprintf(w, "chord: to sample further, give a new rule: chord resume %s --steps N (a total above %d) or --budget DURATION\n", rep.Dir, out.Step)
+		return nil
+	}
 	fmt.Fprintf(w, "chord: %s: %d steps in the chain (%d this session, %s, %.0f evaluations/s); stopped: %v\n",
 		rep.Dir, out.Step, out.Steps, out.Elapsed.Round(time.Second), float64(out.Steps*rep.Walkers)/max(out.Elapsed.Seconds(), 1e-9), out.Stop)
 	if out.Stop == sampler.StopCanceled {

@@ -10,6 +10,7 @@ import (
 	"text/tabwriter"
 
 	"chord/campaign"
+	"chord/internal/runlock"
 
 	"github.com/urfave/cli/v2"
 )
@@ -201,11 +202,11 @@ func runGridPoint(c *cli.Context) error {
 	}
 	ctx, cancel, prog := session(c)
 	defer cancel()
-	host, _ := os.Hostname()
-	holder := fmt.Sprintf("host %s, pid %d", host, os.Getpid())
+	what := "chord grid run-point"
 	if j := os.Getenv("SLURM_ARRAY_JOB_ID"); j != "" {
-		holder += fmt.Sprintf(", Slurm job %s_%s", j, os.Getenv("SLURM_ARRAY_TASK_ID"))
+		what += fmt.Sprintf(", Slurm job %s_%s", j, os.Getenv("SLURM_ARRAY_TASK_ID"))
 	}
+	holder := runlock.Holder(what)
 	opt := campaign.PointOptions{DemoCache: c.String("demo-cache"), Progress: prog, Log: c.App.ErrWriter, Holder: holder}
 	w, set := 0, false
 	if c.IsSet("workers") {

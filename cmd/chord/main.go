@@ -5,6 +5,7 @@
 package main
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"os"
@@ -49,6 +50,10 @@ func main() {
 	case err == nil:
 		os.Exit(exitOK)
 	case errors.Is(err, errInterrupted):
+		os.Exit(exitInterrupted)
+	case errors.Is(err, context.Canceled):
+		// Stopped by a signal before anything needed saving.
+		fmt.Fprintln(os.Stderr, "chord:", err)
 		os.Exit(exitInterrupted)
 	default:
 		fmt.Fprintln(os.Stderr, "chord:", err)

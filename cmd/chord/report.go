@@ -1,11 +1,13 @@
 package main
 
 import (
+	"errors"
 	"fmt"
 	"strconv"
 
 	"github.com/urfave/cli/v2"
 
+	"chord/report"
 	"chord/retrieve"
 )
 
@@ -18,7 +20,9 @@ func reportCommand() *cli.Command {
 		Description: "Reads the checkpointed chain of RUNDIR and writes summary.json, summary.txt and the\n" +
 			"plots (spectrum, temperature, gases, traces, corner; each PNG and SVG); with --html also\n" +
 			"report.html, one self-contained page with all of it. --burn auto drops 3\n" +
-			"autocorrelation times (at most half the chain).",
+			"autocorrelation times (at most half the chain). The run is verified first, as resume\n" +
+			"does (checkpoint and every chain part are this run's); in a directory it cannot write,\n" +
+			"the summary goes to standard output and the command fails saying so.",
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "burn", Value: "auto", Usage: "burn-in: `N` steps, or auto"},
 			&cli.IntFlag{Name: "thin", Value: 1, Usage: "keep every `N`-th step for the intervals and plots"},
@@ -46,7 +50,14 @@ func runReport(c *cli.Context) error {
 	if opt.Thin < 1 {
 		return fmt.Errorf("--thin %d: must be at least 1", opt.Thin)
 	}
-	_, text, err := retrieve.Report(c.Args().First(), opt)
+	s, text, err := retrieve.Report(c.Args().First(), opt)
+	var we *report.WriteError
+	if errors.As(err, &we) && s != nil {
+		// A run this user cannot write (read-only, someone else's): the
+		// summary still goes to standard output.
+		fmt.Fprint(c.App.Writer, text)
+		return fmt.Errorf("report: the summary above is not saved: %w", err)
+	}
 	if err != nil {
 		return err
 	}

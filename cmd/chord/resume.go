@@ -16,8 +16,11 @@ func resumeCommand() *cli.Command {
 		ArgsUsage: "RUNDIR",
 		Description: "Continues the very same chain, bit for bit, after an interruption, SIGKILL or power\n" +
 			"loss: rows written after the checkpoint are removed and sampled again. Without a\n" +
-			"stopping option it carries on toward the run's own rule; --steps N sets the run's total\n" +
-			"length and --budget its total sampling time, as in `chord fit`.",
+			"stopping option it carries on toward the run's own rule, and does nothing (exit 0) once\n" +
+			"the run has met it; --steps N sets the run's total length and --budget its total sampling\n" +
+			"time, as in `chord fit`. The run's checkpoint interval is kept unless --checkpoint-every\n" +
+			"is given. A run stopped before its first checkpoint starts again from its seed. The run\n" +
+			"directory is locked while resume runs (docs/runs.md).",
 		Flags: append([]cli.Flag{
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 		}, stopFlags...),

@@ -231,7 +231,7 @@ func TestInterruptBinary(t *testing.T) {
 		args []string
 		want string
 	}{
-		{[]string{"fit", "-c", cfg, "-o", run}, "not empty"},
+		{[]string{"fit", "-c", cfg, "-o", run}, "holds a run (run.toml): continue it with chord resume"},
 		{[]string{"fit", "-c", filepath.Join(dir, "missing.toml"), "-o", filepath.Join(dir, "r2")}, "missing.toml"},
 		{[]string{"fit", "-c", cfg, "-o", filepath.Join(dir, "r3"), "--steps", "5", "--until-converged"}, "at most one"},
 		{[]string{"resume", dir}, "not a run directory"},
