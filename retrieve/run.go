@@ -13,6 +13,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"runtime"
 	"slices"
 	"sort"
 	"strconv"
@@ -126,7 +127,6 @@ func StartRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions) (*
 	if err := checkSpec(spec); err != nil {
 		return nil, err
 	}
-	t0 := time.Now()
 	st, err := spec.Init(ctx, opt.Workers)
 	if err != nil {
 		if ctx.Err() != nil && errors.Is(err, ctx.Err()) {
@@ -134,7 +134,7 @@ func StartRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions) (*
 		}
 		return nil, fmt.Errorf("initial walkers: %w", err)
 	}
-	stepTime := time.Since(t0)
+	stepTime := timeStep(spec.Target, st, opt.Workers)
 	w, err := chains.Create(filepath.Join(dir, chains.DirName), spec.Layout)
 	if err != nil {
 		return nil, err
@@ -325,6 +325,25 @@ func checkStop(s config.StopRule) error {
 		return fmt.Errorf("stopping rule: give exactly one of a step count, a budget or until-converged (got steps %d, budget %gs, until-converged %v)", s.Steps, s.Budget, s.UntilConverged)
 	}
 	return nil
+}
+
+// timeStep estimates the time of one ensemble step: the fastest of three
+// evaluations at the first walker, times the walkers per worker. (The
+// start itself is no measure: its search for the mode takes thousands of
+// evaluations.)
+func timeStep(t sampler.Target, st *sampler.State, workers int) time.Duration {
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	ev := t.NewEvaluator()
+	extra := make([]float64, st.NumExtra)
+	best := time.Duration(math.MaxInt64)
+	for range 3 {
+		t0 := time.Now()
+		ev.LogProb(st.Pos[:st.Dim], extra)
+		best = min(best, time.Since(t0))
+	}
+	return best * time.Duration((st.Walkers+workers-1)/workers)
 }
 
 func autoCheckpointSteps(stepTime time.Duration) int {
