@@ -28,7 +28,9 @@ import (
 //
 //	[[observations]]  the observed spectra, one table each
 //	[[parameters]]    the free parameters, each with the quantity it sets and its prior
-//	[sampler]         walkers, seed, stopping rule, workers, move
+//	[sampler]         method, seed, stopping rule, workers; walkers and move
+//	                  (ensemble) or live points, batch and evidence tolerance
+//	                  (nested sampling)
 //
 // The model sections give the values of everything that is not a free
 // parameter. In a retrieval the bins come from the observations, so
@@ -146,13 +148,31 @@ type ParameterConfig struct {
 
 // SamplerConfig is [sampler].
 type SamplerConfig struct {
+	// Method is "ensemble" (default: the affine-invariant ensemble
+	// sampler, for posteriors) or "nested" (nested sampling, which also
+	// gives the evidence; docs/evidence.md).
+	Method string `toml:"method,omitempty"`
 	// Walkers is the ensemble size, even and at least 2(dim+1); default
-	// max(32, 4 dim) rounded up to even.
+	// max(32, 4 dim) rounded up to even. Ensemble only.
 	Walkers *int `toml:"walkers"`
+	// LivePoints is the number of live points of nested sampling, at
+	// least 2(dim+1); default DefaultLivePoints. Nested only.
+	LivePoints *int `toml:"live_points"`
+	// Batch is the number of likelihood evaluations nested sampling
+	// draws and evaluates together on the workers; the run depends on it
+	// (never on workers), so it is fixed here. Default DefaultBatch, at
+	// most live_points. Nested only.
+	Batch *int `toml:"batch"`
+	// EvidenceTolerance ends a nested run once the live points could
+	// raise ln Z by less than this (nats); default
+	// DefaultEvidenceTolerance. Nested only.
+	EvidenceTolerance *float64 `toml:"evidence_tolerance"`
 	// Seed of the random generator; default a fresh random seed, recorded
 	// in the resolved configuration.
 	Seed *int64 `toml:"seed"`
-	// Stopping rule, at most one; default until_converged = true.
+	// Stopping rule, at most one; default until_converged = true. A
+	// nested run stops at its evidence tolerance (until_converged) or at
+	// the budget, whichever comes first; steps apply to the ensemble only.
 	Steps          *int   `toml:"steps"`            // total ensemble steps
 	Budget         string `toml:"budget,omitempty"` // wall-clock sampling time, e.g. "8h", "90m"
 	UntilConverged *bool  `toml:"until_converged"`  // sampler.Convergence with its defaults
@@ -161,6 +181,7 @@ type SamplerConfig struct {
 	Workers *int `toml:"workers"`
 	// Move is the proposal: "stretch" (default; Goodman & Weare 2010,
 	// a = 2), "walk" or "de" (differential evolution, ter Braak 2006).
+	// Ensemble only.
 	Move string `toml:"move,omitempty"`
 }
 
@@ -226,12 +247,18 @@ type Resolved struct {
 	// CLR is the joint prior of the clr parameters, which are the last
 	// len(CLR.Gases)-1 free parameters; nil without [composition] prior =
 	// "clr".
-	CLR     *priors.CLR
-	Walkers int
-	Seed    uint64
-	Stop    StopRule
-	Workers int
-	Move    string
+	CLR *priors.CLR
+	// Method is MethodEnsemble or MethodNested.
+	Method  string
+	Walkers int    // ensemble: walkers; 0 for nested sampling
+	Move    string // ensemble: the move; "" for nested sampling
+	// Nested sampling: live points, batch and evidence tolerance (nats);
+	// zero for the ensemble.
+	LivePoints, Batch int
+	EvidenceTol       float64
+	Seed              uint64
+	Stop              StopRule
+	Workers           int
 	// Notes are remarks for the run's log (sorted observations, averaged
 	// asymmetric errors, a generated seed).
 	Notes []string
@@ -274,7 +301,7 @@ func Decode(text, name, baseDir string) (*Config, error) {
 var nameRE = regexp.MustCompile(`^[A-Za-z][A-Za-z0-9_]*$`)
 
 // reservedNames are chain columns that parameters may not take.
-var reservedNames = map[string]bool{"step": true, "walker": true, "log_posterior": true, "log_likelihood": true}
+var reservedNames = map[string]bool{"step": true, "walker": true, "log_posterior": true, "log_likelihood": true, "point": true, "final": true, "log_weight": true}
 
 // Abs returns the path p (relative to the configuration file) made
 // absolute, so a resolved configuration works from any directory.
@@ -491,7 +518,7 @@ func (r *Resolved) resolveParams(c *Config, full *Config) error {
 			}
 		}
 		if !nameRE.MatchString(p.Name) || reservedNames[p.Name] {
-			return keyErr(key+".name", "%q: use letters, digits and '_', starting with a letter, and not step, walker, log_posterior or log_likelihood", p.Name)
+			return keyErr(key+".name", "%q: use letters, digits and '_', starting with a letter, and not a fixed column of the chain store (step, walker, log_posterior, log_likelihood, point, final, log_weight)", p.Name)
 		}
 		if other, dup := byName[p.Name]; dup {
 			return keyErr(key+".name", "parameter %q is defined twice (also %s)", p.Name, other)
@@ -755,19 +782,83 @@ var moves = []string{"stretch", "walk", "de"}
 // before the first one) from being accepted.
 const MaxWalkersPerParameter = 1000
 
+// Sampling methods ([sampler] method).
+const (
+	MethodEnsemble = "ensemble"
+	MethodNested   = "nested"
+)
+
+// Defaults of nested sampling ([sampler] with method = "nested").
+const (
+	// DefaultLivePoints is a few hundred live points, the common choice
+	// for model comparison (fact of the trade, common practice): ln Z's
+	// error sqrt(H/N) is then about 0.2 for the information H of about 15
+	// nats a spectrum typically holds.
+	DefaultLivePoints = 400
+	// DefaultBatch is the sampler's default batch (sampler.NestedSettings).
+	DefaultBatch = 16
+	// DefaultEvidenceTolerance is the sampler's default tolerance on ln Z
+	// (nats).
+	DefaultEvidenceTolerance = 0.1
+)
+
 func (r *Resolved) resolveSampler(s SamplerConfig, full *SamplerConfig) error {
 	dim := len(r.Free)
-	r.Walkers = max(32, 4*dim)
-	r.Walkers += r.Walkers % 2
-	if s.Walkers != nil {
-		w := *s.Walkers
-		if w%2 != 0 || w < 2*(dim+1) {
-			return keyErr("sampler.walkers", "%d: must be even and at least 2(dim+1) = %d for %d free parameters", w, 2*(dim+1), dim)
+	r.Method = s.Method
+	switch r.Method {
+	case "":
+		r.Method = MethodEnsemble
+	case MethodEnsemble, MethodNested:
+	default:
+		return keyErr("sampler.method", "unknown method %q (ensemble, nested)", s.Method)
+	}
+	nested := r.Method == MethodNested
+	// Keys of the other method are errors, not silently ignored.
+	wrong := func(key string, given bool) error {
+		if !given {
+			return nil
 		}
-		if w > MaxWalkersPerParameter*dim {
-			return keyErr("sampler.walkers", "%d: at most %d per free parameter, %d for %d; an ensemble sampler gains nothing from more (a few times the number of parameters is usual), and each walker costs a posterior evaluation per step and several in the search for a starting point", w, MaxWalkersPerParameter, MaxWalkersPerParameter*dim, dim)
+		if nested {
+			return keyErr("sampler."+key, "applies to method = \"ensemble\", not to nested sampling")
 		}
-		r.Walkers = w
+		return keyErr("sampler."+key, "applies to method = \"nested\"; this configuration uses the ensemble (the default)")
+	}
+	for _, k := range []struct {
+		key   string
+		given bool
+	}{
+		{"walkers", nested && s.Walkers != nil}, {"move", nested && s.Move != ""},
+		{"live_points", !nested && s.LivePoints != nil}, {"batch", !nested && s.Batch != nil},
+		{"evidence_tolerance", !nested && s.EvidenceTolerance != nil},
+	} {
+		if err := wrong(k.key, k.given); err != nil {
+			return err
+		}
+	}
+	if nested {
+		if err := r.resolveNested(s, dim); err != nil {
+			return err
+		}
+	} else {
+		r.Walkers = max(32, 4*dim)
+		r.Walkers += r.Walkers % 2
+		if s.Walkers != nil {
+			w := *s.Walkers
+			if w%2 != 0 || w < 2*(dim+1) {
+				return keyErr("sampler.walkers", "%d: must be even and at least 2(dim+1) = %d for %d free parameters", w, 2*(dim+1), dim)
+			}
+			if w > MaxWalkersPerParameter*dim {
+				return keyErr("sampler.walkers", "%d: at most %d per free parameter, %d for %d; an ensemble sampler gains nothing from more (a few times the number of parameters is usual), and each walker costs a posterior evaluation per step and several in the search for a starting point", w, MaxWalkersPerParameter, MaxWalkersPerParameter*dim, dim)
+			}
+			r.Walkers = w
+		}
+		r.Move = s.Move
+		if r.Move == "" {
+			r.Move = "stretch"
+		}
+		if !contains(moves, r.Move) {
+			return keyErr("sampler.move", "unknown move %q (stretch, walk, de)", s.Move)
+		}
 	}
 	if s.Seed != nil {
 		if *s.Seed < 0 {
@@ -784,6 +875,9 @@ func (r *Resolved) resolveSampler(s SamplerConfig, full *SamplerConfig) error {
 	}
 	rules := 0
 	if s.Steps != nil {
+		if nested {
+			return keyErr("sampler.steps", "a nested-sampling run ends when the live points can change ln Z by less than sampler.evidence_tolerance; bound its time with sampler.budget instead")
+		}
 		rules++
 		if *s.Steps < 1 {
 			return keyErr("sampler.steps", "must be at least 1, got %d", *s.Steps)
@@ -817,16 +911,15 @@ func (r *Resolved) resolveSampler(s SamplerConfig, full *SamplerConfig) error {
 		}
 		r.Workers = *s.Workers
 	}
-	r.Move = s.Move
-	if r.Move == "" {
-		r.Move = "stretch"
-	}
-	if !contains(moves, r.Move) {
-		return keyErr("sampler.move", "unknown move %q (stretch, walk, de)", s.Move)
-	}
 	seed := int64(r.Seed)
-	walkers, workers := r.Walkers, r.Workers
-	*full = SamplerConfig{Walkers: &walkers, Seed: &seed, Workers: &workers, Move: r.Move}
+	workers := r.Workers
+	if nested {
+		live, batch, tol := r.LivePoints, r.Batch, r.EvidenceTol
+		*full = SamplerConfig{Method: MethodNested, LivePoints: &live, Batch: &batch, EvidenceTolerance: &tol, Seed: &seed, Workers: &workers}
+	} else {
+		walkers := r.Walkers
+		*full = SamplerConfig{Walkers: &walkers, Seed: &seed, Workers: &workers, Move: r.Move}
+	}
 	switch {
 	case r.Stop.Steps > 0:
 		steps := r.Stop.Steps
@@ -836,6 +929,36 @@ func (r *Resolved) resolveSampler(s SamplerConfig, full *SamplerConfig) error {
 	default:
 		t := true
 		full.UntilConverged = &t
+	}
+	return nil
+}
+
+// resolveNested fills the nested-sampling settings of s for dim free
+// parameters.
+func (r *Resolved) resolveNested(s SamplerConfig, dim int) error {
+	if r.CLR != nil {
+		return keyErr("sampler.method", "nested sampling draws each parameter from its own prior (through its quantile function), and the centred-log-ratio prior of [composition] is a joint prior; use the ensemble (the default method) with it")
+	}
+	r.LivePoints, r.Batch, r.EvidenceTol = DefaultLivePoints, DefaultBatch, DefaultEvidenceTolerance
+	if s.LivePoints != nil {
+		if n := *s.LivePoints; n < 2*(dim+1) {
+			return keyErr("sampler.live_points", "%d: must be at least 2(dim+1) = %d for %d free parameters, so that bounding ellipsoids can be fitted", n, 2*(dim+1), dim)
+		}
+		r.LivePoints = *s.LivePoints
+	}
+	r.LivePoints = max(r.LivePoints, 2*(dim+1))
+	if s.Batch != nil {
+		if b := *s.Batch; b < 1 || b > r.LivePoints {
+			return keyErr("sampler.batch", "%d: must be from 1 to the %d live points", b, r.LivePoints)
+		}
+		r.Batch = *s.Batch
+	}
+	r.Batch = min(r.Batch, r.LivePoints)
+	if s.EvidenceTolerance != nil {
+		if t := *s.EvidenceTolerance; !(t > 0) || math.IsInf(t, 0) {
+			return keyErr("sampler.evidence_tolerance", "%g: must be a positive number of nats (e.g. 0.1)", t)
+		}
+		r.EvidenceTol = *s.EvidenceTolerance
 	}
 	return nil
 }
