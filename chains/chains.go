@@ -22,8 +22,13 @@ import (
 // DirName is the chain store's directory inside a run directory.
 const DirName = "chains"
 
-// Format names the version of the chain file schema written in each part.
-const Format = "chord-chains/1"
+// Format names the version of the chain file schema written in each part
+// of an ensemble chain, FormatNested that of the dead points of a
+// nested-sampling run.
+const (
+	Format       = "chord-chains/1"
+	FormatNested = "chord-dead-points/1"
+)
 
 // Column roles in a Layout.
 const (
@@ -32,7 +37,8 @@ const (
 )
 
 // Column describes one value column of the chain rows after the fixed
-// step, walker and log_posterior columns.
+// columns (step, walker and log_posterior; for nested sampling point,
+// final, log_weight and log_posterior).
 type Column struct {
 	Name     string `json:"name"`
 	Role     string `json:"role"`               // RoleParameter or RoleDerived
@@ -44,9 +50,13 @@ type Column struct {
 
 // Layout is the shape of the chain rows of one run.
 type Layout struct {
+	// Nested marks the dead points of a nested-sampling run (one row per
+	// point, written by WriteDead) instead of an ensemble chain (one row
+	// per walker and step, written by WriteStep); Walkers is then 1.
+	Nested   bool
 	Walkers  int
-	Dim      int // free parameters per walker
-	NumExtra int // extra values per walker
+	Dim      int // free parameters per walker (per point)
+	NumExtra int // extra values per walker (per point)
 	Columns  []Column
 	// Meta holds further key-value metadata written into every part
 	// (keys should start with "chord.").
@@ -59,7 +69,13 @@ func (l *Layout) Validate() error {
 	if l.Walkers < 1 || l.Dim < 1 || l.NumExtra < 0 {
 		return fmt.Errorf("chain layout: walkers %d, parameters %d, extras %d: need walkers >= 1, parameters >= 1", l.Walkers, l.Dim, l.NumExtra)
 	}
-	seen := map[string]bool{"step": true, "walker": true, "log_posterior": true}
+	if l.Nested && l.Walkers != 1 {
+		return fmt.Errorf("chain layout: dead points of nested sampling with %d walkers, want 1", l.Walkers)
+	}
+	seen := map[string]bool{}
+	for _, c := range l.fixedColumns() {
+		seen[c.Name] = true
+	}
 	stored := make([]bool, l.Dim)
 	for i, c := range l.Columns {
 		if c.Name == "" {
@@ -97,14 +113,44 @@ func (l *Layout) Validate() error {
 
 // ColumnNames returns the names of all columns of a part file, fixed ones first.
 func (l *Layout) ColumnNames() []string {
-	names := []string{"step", "walker", "log_posterior"}
-	for _, c := range l.Columns {
+	var names []string
+	for _, c := range l.allColumns() {
 		names = append(names, c.Name)
 	}
 	return names
 }
 
-// PartInfo describes one committed part file.
+// The fixed columns: two integer (for nested sampling, integer and
+// boolean) index columns, then one or two doubles.
+var (
+	ensembleColumns = []Column{
+		{Name: "step", Role: "index", Quantity: "ensemble step, 1 for the first step after the initial ensemble"},
+		{Name: "walker", Role: "index", Quantity: "walker index from 0"},
+		{Name: "log_posterior", Role: RoleLogDensity, Quantity: "natural log of the posterior density (unnormalised)"},
+	}
+	nestedColumns = []Column{
+		{Name: "point", Role: "index", Quantity: "dead point, 1 for the first discarded live point"},
+		{Name: "final", Role: "index", Quantity: "one of the live points added when the run finished"},
+		{Name: "log_weight", Role: RoleLogWeight, Quantity: "natural log of prior mass times likelihood (unnormalised posterior weight; normalised by the run's final ln Z)"},
+		{Name: "log_posterior", Role: RoleLogDensity, Quantity: "natural log of the posterior density (unnormalised)"},
+	}
+)
+
+// Roles of the fixed value columns.
+const (
+	RoleLogDensity = "log_density" // log_posterior
+	RoleLogWeight  = "log_weight"  // log_weight of a dead point
+)
+
+func (l *Layout) fixedColumns() []Column {
+	if l.Nested {
+		return nestedColumns
+	}
+	return ensembleColumns
+}
+
+// PartInfo describes one committed part file. For the dead points of a
+// nested-sampling run, steps are points.
 type PartInfo struct {
 	Name      string `json:"name"` // base name, e.g. part-000001.parquet
 	FirstStep int    `json:"first_step"`
@@ -145,9 +191,10 @@ type Writer struct {
 	next      int // number of the next part
 	nextStep  int // step index expected next
 
-	cur  *openPart
-	rows []parquet.Row
-	err  error
+	cur      *openPart
+	rows     []parquet.Row
+	partMeta map[string]string // SetPartMeta's entries for the open part
+	err      error
 }
 
 type openPart struct {
@@ -168,8 +215,11 @@ func chainSchema(l *Layout) *parquet.Schema {
 	var g table.Group
 	for i, name := range l.ColumnNames() {
 		leaf := parquet.Leaf(parquet.DoubleType)
-		if i < 2 {
+		switch {
+		case i == 0 || (i == 1 && !l.Nested):
 			leaf = parquet.Leaf(parquet.Int64Type)
+		case i == 1:
+			leaf = parquet.Leaf(parquet.BooleanType)
 		}
 		g = append(g, table.Field(name, parquet.Compressed(parquet.Encoded(leaf, &parquet.Plain), &parquet.Snappy)))
 	}
@@ -229,11 +279,12 @@ func NewWriter(fsys atomicfile.FS, dir string, layout Layout, committed []PartIn
 	if n := len(committed); n > 0 {
 		w.nextStep = committed[n-1].LastStep + 1
 	}
-	ncol := 3 + len(layout.Columns)
+	ncol := len(layout.fixedColumns()) + len(layout.Columns)
 	w.rows = make([]parquet.Row, layout.Walkers)
 	for i := range w.rows {
 		w.rows[i] = make(parquet.Row, ncol)
 	}
+	w.partMeta = map[string]string{}
 	return w, nil
 }
 
@@ -260,6 +311,9 @@ func (w *Writer) WriteStep(step int, pos, logp, extra []float64) error {
 		return w.err
 	}
 	l := &w.layout
+	if l.Nested {
+		panic("chains: WriteStep on a store of dead points (use WriteDead)")
+	}
 	if len(pos) != l.Walkers*l.Dim || len(logp) != l.Walkers || len(extra) != l.Walkers*l.NumExtra {
 		panic(fmt.Sprintf("retrieve: step of %d positions, %d log densities, %d extras for layout %d walkers x %d+%d", len(pos), len(logp), len(extra), l.Walkers, l.Dim, l.NumExtra))
 	}
@@ -267,10 +321,8 @@ func (w *Writer) WriteStep(step int, pos, logp, extra []float64) error {
 		w.err = fmt.Errorf("chain store: got step %d, expected step %d", step, w.nextStep)
 		return w.err
 	}
-	if w.cur == nil {
-		if err := w.openPart(step); err != nil {
-			return w.fail(err)
-		}
+	if err := w.ensureOpen(step); err != nil {
+		return err
 	}
 	for k := 0; k < l.Walkers; k++ {
 		r := w.rows[k]
@@ -287,14 +339,76 @@ func (w *Writer) WriteStep(step int, pos, logp, extra []float64) error {
 			r[3+j] = parquet.DoubleValue(v).Level(0, 0, 3+j)
 		}
 	}
+	return w.writeRows(step)
+}
+
+// WriteDead appends one dead point of a nested-sampling run (a Nested
+// layout): its index (points must come in order, 1 first), whether it is
+// one of the final live points, its log weight and log posterior, its
+// parameters x (len Dim) and extra values (len NumExtra).
+func (w *Writer) WriteDead(point int, final bool, logWt, logPost float64, x, extra []float64) error {
+	if w.err != nil {
+		return w.err
+	}
+	l := &w.layout
+	if !l.Nested {
+		panic("chains: WriteDead on an ensemble chain store (use WriteStep)")
+	}
+	if len(x) != l.Dim || len(extra) != l.NumExtra {
+		panic(fmt.Sprintf("chains: dead point of %d parameters and %d extras for layout %d+%d", len(x), len(extra), l.Dim, l.NumExtra))
+	}
+	if point != w.nextStep {
+		w.err = fmt.Errorf("chain store: got dead point %d, expected point %d", point, w.nextStep)
+		return w.err
+	}
+	if err := w.ensureOpen(point); err != nil {
+		return err
+	}
+	r := w.rows[0]
+	r[0] = parquet.Int64Value(int64(point)).Level(0, 0, 0)
+	r[1] = parquet.BooleanValue(final).Level(0, 0, 1)
+	r[2] = parquet.DoubleValue(logWt).Level(0, 0, 2)
+	r[3] = parquet.DoubleValue(logPost).Level(0, 0, 3)
+	for j, c := range l.Columns {
+		var v float64
+		if c.Role == RoleParameter {
+			v = x[c.Source]
+		} else {
+			v = extra[c.Source]
+		}
+		r[4+j] = parquet.DoubleValue(v).Level(0, 0, 4+j)
+	}
+	return w.writeRows(point)
+}
+
+// ensureOpen opens a part starting at step (a dead point's index) unless
+// one is open.
+func (w *Writer) ensureOpen(step int) error {
+	if w.cur != nil {
+		return nil
+	}
+	if err := w.openPart(step); err != nil {
+		return w.fail(err)
+	}
+	return nil
+}
+
+// writeRows writes w.rows as the rows of step.
+func (w *Writer) writeRows(step int) error {
 	if _, err := w.cur.pw.WriteRows(w.rows); err != nil {
 		return w.fail(err)
 	}
 	w.cur.lastStep = step
-	w.cur.rows += int64(l.Walkers)
+	w.cur.rows += int64(len(w.rows))
 	w.nextStep++
 	return nil
 }
+
+// SetPartMeta sets a key-value metadata entry of the open part (or of the
+// next one), written when it is committed; keys should start with "chord.".
+// A nested run records its running evidence this way, so that every part
+// states ln Z as it stood when the part was committed.
+func (w *Writer) SetPartMeta(key, value string) { w.partMeta[key] = value }
 
 func (w *Writer) openPart(step int) error {
 	name := partName(w.next)
@@ -312,7 +426,7 @@ func (w *Writer) openPart(step int) error {
 		w.schema,
 		parquet.MaxRowsPerRowGroup(rowGroupRows),
 		parquet.CreatedBy("chord", version.Version, ""),
-		parquet.KeyValueMetadata("chord.format", Format),
+		parquet.KeyValueMetadata("chord.format", w.layout.format()),
 		parquet.KeyValueMetadata("chord.columns", string(cols)),
 		parquet.KeyValueMetadata("chord.walkers", strconv.Itoa(w.layout.Walkers)),
 		parquet.KeyValueMetadata("chord.part", strconv.Itoa(w.next)),
@@ -331,12 +445,14 @@ func (w *Writer) openPart(step int) error {
 
 // allColumns lists the fixed and layout columns for the metadata.
 func (l *Layout) allColumns() []Column {
-	cols := []Column{
-		{Name: "step", Role: "index", Quantity: "ensemble step, 1 for the first step after the initial ensemble"},
-		{Name: "walker", Role: "index", Quantity: "walker index from 0"},
-		{Name: "log_posterior", Role: "log_density", Quantity: "natural log of the posterior density (unnormalised)"},
+	return append(append([]Column(nil), l.fixedColumns()...), l.Columns...)
+}
+
+func (l *Layout) format() string {
+	if l.Nested {
+		return FormatNested
 	}
-	return append(cols, l.Columns...)
+	return Format
 }
 
 // fail records err as the writer's final error, drops the open part's
@@ -377,8 +493,20 @@ func (w *Writer) Commit() (info PartInfo, err error) {
 	if p == nil {
 		return PartInfo{}, nil
 	}
-	p.pw.SetKeyValueMetadata("chord.first_step", strconv.Itoa(p.firstStep))
-	p.pw.SetKeyValueMetadata("chord.last_step", strconv.Itoa(p.lastStep))
+	first, last := "chord.first_step", "chord.last_step"
+	if w.layout.Nested {
+		first, last = "chord.first_point", "chord.last_point"
+	}
+	p.pw.SetKeyValueMetadata(first, strconv.Itoa(p.firstStep))
+	p.pw.SetKeyValueMetadata(last, strconv.Itoa(p.lastStep))
+	keys := make([]string, 0, len(w.partMeta))
+	for k := range w.partMeta {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	for _, k := range keys {
+		p.pw.SetKeyValueMetadata(k, w.partMeta[k])
+	}
 	if err := p.pw.Close(); err != nil {
 		return PartInfo{}, w.fail(err)
 	}

@@ -1,6 +1,7 @@
 // Package chains is the crash-safe chain store of a run: it writes the
-// rows of an ensemble chain as Parquet parts (Writer) and reads them back
-// (Read, Scan).
+// rows of an ensemble chain, or the dead points of a nested-sampling run,
+// as Parquet parts (Writer) and reads them back (Read, Reader,
+// ReadEqualWeight).
 //
 // The chains of a run are a Parquet dataset in RUNDIR/chains: part-000001.parquet,
 // part-000002.parquet, ... Each part is a complete Parquet file holding the rows
@@ -17,6 +18,26 @@
 // (a JSON array of Column: name, role, quantity, unit, prior),
 // "chord.walkers", "chord.part", "chord.first_step", "chord.last_step", and the
 // layout's own entries (program version, run identity, demo flag).
+//
+// # Dead points of nested sampling
+//
+// A nested-sampling run (Layout.Nested) stores one row per dead point, in
+// the order the run produced them, under the format "chord-dead-points/1"
+// (FormatNested):
+//
+//	point          int64   dead point, 1 for the first discarded live point
+//	final          boolean one of the live points added when the run finished
+//	log_weight     double  ln(w L): prior mass times likelihood, unnormalised
+//	log_posterior  double  ln prior + ln likelihood at the point
+//	...            double  the columns of the Layout (log_likelihood, the free
+//	               parameters, derived quantities)
+//
+// The posterior weight of a point is exp(log_weight - ln Z) with the run's
+// final ln Z; ReadEqualWeight resamples the points into equally weighted
+// samples. "chord.walkers" is 1, "chord.first_point" and "chord.last_point"
+// replace the steps, and the run adds its running evidence to each part as
+// it is committed (Writer.SetPartMeta: "chord.log_evidence" and others,
+// listed in docs/evidence.md).
 //
 // A part is written to part-NNNNNN.parquet.tmp, closed, fsynced, renamed to its
 // final name and the directory fsynced (Commit), so a part file either is

@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -15,15 +16,21 @@ import (
 
 // Chain holds the rows of a stored chain read back for reports: the kept
 // steps (after burn-in and thinning) of every walker, one slice per value
-// column.
+// column. The equal-weight posterior samples of a nested-sampling run
+// (ReadEqualWeight) are a Chain of one walker whose steps are the samples.
 type Chain struct {
 	Walkers int
 	Steps   []int    // the kept step indexes, ascending
 	Columns []Column // log_posterior (role "log_density") then the layout's columns
 	// Values[c][i*Walkers+k] is column c at kept step i for walker k.
 	Values [][]float64
-	// TotalSteps is the number of steps in the chain files read.
+	// TotalSteps is the number of steps in the chain files read (for
+	// nested sampling, of dead points).
 	TotalSteps int
+	// EffectiveSize is, for the samples of a nested-sampling run, Kish's
+	// effective size of the dead points' weights (sampler.EffectiveSize);
+	// 0 for an ensemble chain.
+	EffectiveSize float64
 }
 
 // Column returns the values of the named column, or nil.
@@ -48,6 +55,9 @@ func Read(dir string, parts []PartInfo, burn, thin int) (*Chain, error) {
 		return nil, err
 	}
 	defer r.Close()
+	if r.Nested() {
+		return nil, fmt.Errorf("chains: %s holds the weighted dead points of nested sampling, not a chain; read them with ReadEqualWeight", dir)
+	}
 	out := &Chain{Walkers: r.Walkers(), Columns: r.Columns()}
 	out.Values = make([][]float64, len(out.Columns))
 	for {
@@ -75,19 +85,88 @@ func Read(dir string, parts []PartInfo, burn, thin int) (*Chain, error) {
 	return out, nil
 }
 
+// ReadEqualWeight reads the dead points of a nested-sampling run from the
+// given parts of the store in dir (all part files when parts is nil) and
+// resamples them into equally weighted posterior samples
+// (sampler.EqualWeight, systematic resampling with one uniform draw from
+// rng), as many as the weights' effective size (sampler.EffectiveSize,
+// rounded). The result is a Chain of one walker whose steps 1, 2, ... are
+// the samples in the order of their points, with the columns log_posterior
+// and the layout's (log_weight dropped). It reads the store twice, keeping
+// one weight per point and the samples in memory.
+func ReadEqualWeight(dir string, parts []PartInfo, rng *rand.Rand) (*Chain, error) {
+	r, err := NewReader(dir, parts)
+	if err != nil {
+		return nil, err
+	}
+	if !r.Nested() {
+		r.Close()
+		return nil, fmt.Errorf("chains: %s holds an ensemble chain, not the dead points of nested sampling", dir)
+	}
+	var logWt []float64
+	for {
+		if _, err := r.Next(); err == io.EOF {
+			break
+		} else if err != nil {
+			r.Close()
+			return nil, err
+		}
+		logWt = append(logWt, r.Walker(0)[0])
+	}
+	r.Close()
+	ess := sampler.EffectiveSize(logWt)
+	if !(ess > 0) {
+		return nil, fmt.Errorf("chains: none of the %d dead points in %s has a positive weight (every likelihood was zero)", len(logWt), dir)
+	}
+	idx := sampler.EqualWeight(nil, logWt, rng)
+
+	if r, err = NewReader(dir, parts); err != nil {
+		return nil, err
+	}
+	defer r.Close()
+	cols := r.Columns()[1:]
+	out := &Chain{Walkers: 1, Columns: cols, Values: make([][]float64, len(cols)), TotalSteps: len(logWt), EffectiveSize: ess}
+	for c := range out.Values {
+		out.Values[c] = make([]float64, 0, len(idx))
+	}
+	j := 0
+	for j < len(idx) {
+		p, err := r.Next()
+		if err != nil {
+			if err == io.EOF {
+				err = fmt.Errorf("chains: %s ended at point %d while reading it again", dir, p)
+			}
+			return nil, err
+		}
+		for ; j < len(idx) && idx[j] == p-1; j++ {
+			out.Steps = append(out.Steps, j+1)
+			for c, v := range r.Walker(0)[1:] {
+				out.Values[c] = append(out.Values[c], v)
+			}
+		}
+	}
+	return out, nil
+}
+
 // Reader streams a stored chain one ensemble step at a time, as
 // archive/tar's Reader streams entries: Next advances to the next step,
 // whose values Walker then gives. Memory stays bounded by one read buffer
 // whatever the chain length. It checks as it goes that the rows are the
 // consecutive steps 1, 2, ... each with every walker in order, and that all
 // parts share one set of columns; errors name the part file.
+//
+// A store of the dead points of nested sampling reads the same way, one
+// point per step with one walker: its value columns begin with log_weight
+// (role "log_weight"), and Final tells the final live points.
 type Reader struct {
 	dir     string
 	names   []string // part files, in order
 	next    int      // index in names of the next file to open
 	colsJS  string   // chord.columns of the first part
-	cols    []Column // value columns: log_posterior, then the layout's
+	cols    []Column // value columns: log_posterior (nested: log_weight, log_posterior), then the layout's
 	walkers int
+	nested  bool
+	final   bool      // nested: the current point is a final live point
 	step    int       // the current step, 0 before the first Next
 	vals    []float64 // walkers x len(cols) of the current step
 
@@ -128,8 +207,16 @@ func NewReader(dir string, parts []PartInfo) (*Reader, error) {
 // then the layout's columns. The caller must not modify it.
 func (r *Reader) Columns() []Column { return r.cols }
 
-// Walkers returns the number of walkers.
+// Walkers returns the number of walkers (1 for dead points).
 func (r *Reader) Walkers() int { return r.walkers }
+
+// Nested reports whether the store holds the dead points of nested
+// sampling.
+func (r *Reader) Nested() bool { return r.nested }
+
+// Final reports whether the current dead point is one of the live points
+// added when the run finished (false for ensemble chains).
+func (r *Reader) Final() bool { return r.final }
 
 // Step returns the current step (the number of steps read).
 func (r *Reader) Step() int { return r.step }
@@ -184,7 +271,16 @@ func (r *Reader) Next() (int, error) {
 		if err != nil {
 			return r.step, err
 		}
-		if s, w := int(row[0].Int64()), int(row[1].Int64()); s != r.step+1 || w != k {
+		if r.nested {
+			if p := int(row[0].Int64()); p != r.step+1 {
+				return r.step, r.fail(fmt.Errorf("found dead point %d where point %d was expected", p, r.step+1))
+			}
+			f := row[1].Boolean()
+			if r.final && !f {
+				return r.step, r.fail(fmt.Errorf("dead point %d is not final but follows a final point", r.step+1))
+			}
+			r.final = f
+		} else if s, w := int(row[0].Int64()), int(row[1].Int64()); s != r.step+1 || w != k {
 			return r.step, r.fail(fmt.Errorf("found step %d walker %d where step %d walker %d was expected", s, w, r.step+1, k))
 		}
 		for c := range n {
@@ -254,8 +350,14 @@ func (r *Reader) open() error {
 		return r.fail(err)
 	}
 	cj, _ := pf.Lookup("chord.columns")
-	if format, _ := pf.Lookup("chord.format"); format != Format {
-		return r.fail(fmt.Errorf("chord.format is %q, want %q", format, Format))
+	format, _ := pf.Lookup("chord.format")
+	if format != Format && format != FormatNested {
+		return r.fail(fmt.Errorf("chord.format is %q, want %q or %q", format, Format, FormatNested))
+	}
+	if nested := format == FormatNested; first {
+		r.nested = nested
+	} else if nested != r.nested {
+		return r.fail(fmt.Errorf("chord.format %q differs from that of %s", format, r.names[0]))
 	}
 	if first {
 		r.colsJS = cj
@@ -267,7 +369,7 @@ func (r *Reader) open() error {
 			return r.fail(fmt.Errorf("%d columns, metadata lists %d", len(pf.Schema().Columns()), len(all)))
 		}
 		ws, _ := pf.Lookup("chord.walkers")
-		if r.walkers, err = strconv.Atoi(ws); err != nil || r.walkers < 1 {
+		if r.walkers, err = strconv.Atoi(ws); err != nil || r.walkers < 1 || (r.nested && r.walkers != 1) {
 			return r.fail(fmt.Errorf("bad chord.walkers metadata %q", ws))
 		}
 		r.cols = all[2:]
