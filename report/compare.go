@@ -40,12 +40,17 @@ type CompareRun struct {
 
 // Comparison is the result of Compare, also written as JSON by WriteJSON.
 type Comparison struct {
-	Runs       []ComparedRun      `json:"runs"`
-	Parameters []ParameterWidths  `json:"parameters"`
-	Dropped    []DroppedParameter `json:"dropped,omitempty"`
-	Notes      []string           `json:"notes,omitempty"`
-	Cautions   []string           `json:"cautions,omitempty"`
-	byName     map[string]*ParameterWidths
+	Runs       []ComparedRun     `json:"runs"`
+	Parameters []ParameterWidths `json:"parameters"`
+	// Evidence lists the runs made by nested sampling with their ln Z, and
+	// BayesFactors compares each pair of them that fits the same data
+	// (bayes.go).
+	Evidence     []RunEvidence      `json:"evidence,omitempty"`
+	BayesFactors []BayesFactor      `json:"bayes_factors,omitempty"`
+	Dropped      []DroppedParameter `json:"dropped,omitempty"`
+	Notes        []string           `json:"notes,omitempty"`
+	Cautions     []string           `json:"cautions,omitempty"`
+	byName       map[string]*ParameterWidths
 }
 
 // ComparedRun names a run and its noise level.
@@ -170,10 +175,11 @@ func Compare(runs []CompareRun) (*Comparison, error) {
 		}
 	}
 	for _, r := range runs {
-		if !r.Summary.Converged {
+		if !r.Summary.Converged && r.Summary.Evidence == nil {
 			c.Notes = append(c.Notes, fmt.Sprintf("run %s is not converged: its widths are not final", r.Label))
 		}
 	}
+	c.bayesFactors(runs)
 	return c, nil
 }
 
@@ -209,6 +215,7 @@ func (c *Comparison) WriteTable(w io.Writer) error {
 		}
 	}
 	tw.Flush()
+	c.writeEvidence(&b)
 	for _, n := range c.Notes {
 		b.WriteString("\nnote: " + n + "\n")
 	}

@@ -62,6 +62,7 @@ type htmlPage struct {
 	Config                string
 	Inputs                []Input
 	Converged             bool
+	Nested                bool // nested sampling: the evidence instead of the chain's convergence
 }
 
 // WriteHTML writes dir/report.html from the summary s, the run details d
@@ -73,7 +74,7 @@ func WriteHTML(dir string, s *Summary, d *RunDetails) error {
 		Overview: s.overview(), Convention: IntervalConvention,
 		Params: rows(s.Parameters, fn), Derived: rows(s.Derived, fn),
 		Warnings: s.warningsWithoutBanner(),
-		Config:   d.Config, Inputs: d.Inputs, Converged: s.Converged,
+		Config:   d.Config, Inputs: d.Inputs, Converged: s.Converged, Nested: s.Evidence != nil,
 	}
 	page.Notes = fn.text
 	for _, c := range s.Cautions {
@@ -158,13 +159,16 @@ pre { background: #f3f0e8; padding: 0.8em; overflow-x: auto; font-size: 0.8em; }
 {{if .Notes}}<ol class="notes">{{range .Notes}}<li>{{.}}</li>{{end}}</ol>{{end}}
 </section>
 <section id="convergence">
-<h2>Convergence</h2>
+{{if .Nested}}<h2>Evidence</h2>
+<p>{{if .Converged}}<span class="ok">Finished</span>: the live points could change ln Z by less than the evidence tolerance.{{else}}<span class="notok">Not finished</span>: ln Z and the intervals are not final; resume the run.{{end}}</p>
+<dl class="overview">{{range .Overview}}<dt>{{index . 0}}</dt><dd>{{index . 1}}</dd>{{end}}</dl>
+{{else}}<h2>Convergence</h2>
 <p>{{if .Converged}}<span class="ok">Converged</span>: the chain is longer than 50 autocorrelation times.{{else}}<span class="notok">Not converged</span>: the intervals are not final; resume the run.{{end}}</p>
 <dl class="overview">{{range .Overview}}<dt>{{index . 0}}</dt><dd>{{index . 1}}</dd>{{end}}</dl>
 <table>
 <tr><th>parameter</th><th>max-posterior</th><th>tau (steps)</th><th>ESS</th><th>R-hat</th></tr>
 {{range .Params}}<tr><td class="mono">{{.Name}}</td><td class="num">{{.MaxPost}}</td><td class="num">{{.Tau}}</td><td class="num">{{.ESS}}</td><td class="num">{{.RHat}}</td></tr>
-{{end}}</table>
+{{end}}</table>{{end}}
 </section>
 <section id="plots">
 <h2>Plots</h2>

@@ -73,6 +73,14 @@ type SummaryOptions struct {
 	// Atmosphere gives the context of the cautions on gases associated
 	// with life (Caution); nil means none (the full caution applies).
 	Atmosphere *Atmosphere
+	// Evidence, for a nested-sampling run, is its evidence; the chain is
+	// then its equal-weight samples (EqualWeightSamples), summarised as
+	// independent draws, and Burn and Thin must be 0 or 1.
+	Evidence *Evidence
+	// ConfigFile is the configuration the run was made from, named in the
+	// advice on getting the evidence-based number when a Savage-Dickey
+	// significance is only a lower bound; "" names it CONFIG.
+	ConfigFile string
 }
 
 // Summary is the content of summary.json.
@@ -80,12 +88,19 @@ type Summary struct {
 	Program       string `json:"program"`
 	RunID         string `json:"run_id,omitempty"`
 	DemoOpacities bool   `json:"demo_opacities"`
-	Walkers       int    `json:"walkers"`
-	Steps         int    `json:"steps"` // total steps of the chain
-	Burn          int    `json:"burn"`
-	BurnAuto      bool   `json:"burn_auto"`
-	Thin          int    `json:"thin"`
-	Samples       int    `json:"samples"` // samples behind the percentiles
+	// Method is MethodEnsemble or MethodNested (absent in summaries
+	// written before nested sampling: ensemble).
+	Method string `json:"method,omitempty"`
+	// Evidence is the evidence of a nested-sampling run (nil for the
+	// ensemble).
+	Evidence *Evidence `json:"evidence,omitempty"`
+	// Walkers and Steps are the ensemble's (0 for nested sampling).
+	Walkers  int  `json:"walkers"`
+	Steps    int  `json:"steps"` // total steps of the chain
+	Burn     int  `json:"burn"`
+	BurnAuto bool `json:"burn_auto"`
+	Thin     int  `json:"thin"`
+	Samples  int  `json:"samples"` // samples behind the percentiles
 
 	Acceptance Acceptance `json:"acceptance"`
 	// MaxTau is the largest integrated autocorrelation time of the free
@@ -109,6 +124,11 @@ type Summary struct {
 	// Coverage is what the opacity tables cover of the data (nil when not
 	// known).
 	Coverage *Coverage `json:"coverage,omitempty"`
+
+	// Atmosphere is the context of the cautions (SummaryOptions.Atmosphere),
+	// kept for the cautions of detections made later from this run (chord
+	// detect); nil when not known.
+	Atmosphere *Atmosphere `json:"atmosphere,omitempty"`
 
 	// InvalidStates counts rejected proposals by reason (from the run).
 	InvalidStates map[string]int64 `json:"invalid_states,omitempty"`
@@ -244,6 +264,10 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 	if thin < 1 || opt.Burn < 0 {
 		return nil, fmt.Errorf("summary: burn-in %d, thinning %d", opt.Burn, opt.Thin)
 	}
+	nested := opt.Evidence != nil
+	if nested && (opt.Burn != 0 || thin != 1 || c.Walkers != 1) {
+		return nil, fmt.Errorf("summary: the equal-weight samples of nested sampling take no burn-in or thinning (got burn-in %d, thinning %d, %d walkers)", opt.Burn, thin, c.Walkers)
+	}
 	if len(c.Steps) < 2 {
 		return nil, fmt.Errorf("summary: %d steps after burn-in: need at least 2", len(c.Steps))
 	}
@@ -252,14 +276,22 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 		return nil, fmt.Errorf("summary: the chains have no log_posterior column")
 	}
 	s := &Summary{
-		Program: "chord " + version.Version, Walkers: c.Walkers, Steps: c.TotalSteps,
+		Program: "chord " + version.Version, Method: MethodEnsemble, Walkers: c.Walkers, Steps: c.TotalSteps,
 		Burn: opt.Burn, BurnAuto: opt.BurnAuto, Thin: thin,
 		Warnings: []string{}, Cautions: []string{}, Checks: []Check{},
 	}
+	if nested {
+		s.Method, s.Evidence, s.Walkers, s.Steps = MethodNested, opt.Evidence, 0, 0
+	}
 	best := s.setBest(c, lp)
-	s.Acceptance = acceptance(c)
-	if msg := modesCheck(c, s.Acceptance); msg != "" {
-		s.addCheck(CheckModes, msg)
+	if nested {
+		s.Acceptance.Stuck = []int{}
+		s.MaxTau, s.ChainTaus = Float(math.NaN()), Float(math.NaN())
+	} else {
+		s.Acceptance = acceptance(c)
+		if msg := modesCheck(c, s.Acceptance); msg != "" {
+			s.addCheck(CheckModes, msg)
+		}
 	}
 	gases := make(map[string]GasParam, len(opt.Gases))
 	for _, g := range opt.Gases {
@@ -285,17 +317,24 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 			continue
 		}
 		buf = keptValues(buf[:0], c, i, thin)
-		cs := columnStats(c, i, buf)
+		var cs ColumnSummary
+		if nested {
+			cs = columnSummary(col, buf)
+			cs.Tau, cs.TauReliable, cs.ESS = Float(math.NaN()), false, Float(c.EffectiveSize)
+			cs.RHat, cs.BulkESS = Float(math.NaN()), Float(math.NaN())
+		} else {
+			cs = columnStats(c, i, buf)
+		}
 		cs.MaxPost = c.Values[i][best]
 		if col.Role == chains.RoleDerived {
 			s.Derived = append(s.Derived, cs)
 			continue
 		}
-		allTau = allTau && cs.TauReliable
+		allTau = allTau && (cs.TauReliable || nested)
 		if cs.RHat > RHatLimit {
 			highRHat = append(highRHat, fmt.Sprintf("%s %.3f", col.Name, float64(cs.RHat)))
 		}
-		if tau := float64(cs.Tau); tau > float64(s.MaxTau) || math.IsNaN(tau) {
+		if tau := float64(cs.Tau); !nested && (tau > float64(s.MaxTau) || math.IsNaN(tau)) {
 			s.MaxTau = cs.Tau
 		}
 		if b, ok := bounds[col.Name]; ok {
@@ -304,8 +343,19 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 			}
 		}
 		if g, ok := gases[col.Name]; ok {
+			// The equal-weight samples of nested sampling count as
+			// independent draws.
+			ess := math.Min(float64(cs.ESS), float64(len(buf)))
+			switch {
+			case nested:
+				ess = float64(len(buf))
+			case !cs.TauReliable:
+				// tau is then only a lower bound, so this ESS is an upper
+				// bound, and a significance from it would be overstated.
+				ess = math.NaN()
+			}
 			var err error
-			if cs.Gas, err = gasVerdict(g, buf, cs); err != nil {
+			if cs.Gas, err = gasVerdict(g, buf, ess); err != nil {
 				return nil, fmt.Errorf("summary: parameter %s: %w", col.Name, err)
 			}
 			detected = append(detected, [2]string{g.Gas, col.Name})
@@ -313,6 +363,14 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 		s.Parameters = append(s.Parameters, cs)
 	}
 	s.setCautions(detected, opt.Atmosphere)
+	s.adviseEvidence(opt.ConfigFile)
+	if nested {
+		s.Converged = s.Evidence.Finished
+		if !s.Converged {
+			s.Warnings = append(s.Warnings, "not finished: the nested-sampling run stopped before its evidence tolerance; ln Z includes the live points' estimated share, and the posterior lacks it (it is made of the dead points so far); resume the run before trusting either")
+		}
+		return s, nil
+	}
 	if len(highRHat) > 0 {
 		s.Warnings = append(s.Warnings, fmt.Sprintf("split R-hat above %g: %s; the walkers disagree, the chain may need to be longer", RHatLimit, strings.Join(highRHat, ", ")))
 	}
@@ -324,25 +382,45 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 // each; the limb temperature is the median of the atmosphere's temperature
 // column, or its fixed temperature.
 func (s *Summary) setCautions(gases [][2]string, a *Atmosphere) {
-	t := math.NaN()
 	if a != nil {
-		t = a.TemperatureK
-		for _, p := range s.Parameters {
-			if a.TemperatureColumn != "" && p.Name == a.TemperatureColumn {
-				t = p.Median
-			}
+		c := *a
+		if math.IsNaN(c.TemperatureK) {
+			c.TemperatureK = 0 // unknown; JSON has no NaN
 		}
+		s.Atmosphere = &c
 	}
 	for _, g := range gases {
 		for _, p := range s.Parameters {
 			if p.Name != g[1] || p.Gas == nil {
 				continue
 			}
-			if c := Caution(g[0], p.Gas.Class, a, t); c != "" && !slices.Contains(s.Cautions, c) {
-				s.Cautions = append(s.Cautions, c)
-			}
+			s.addCaution(g[0], p.Gas.Class)
 		}
 	}
+}
+
+// addCaution adds the caution a verdict of class on gas calls for
+// (Caution) with the context of s.Atmosphere, once.
+func (s *Summary) addCaution(gas string, class GasClass) {
+	if c := Caution(gas, class, s.Atmosphere, s.limbTemperature()); c != "" && !slices.Contains(s.Cautions, c) {
+		s.Cautions = append(s.Cautions, c)
+	}
+}
+
+// limbTemperature is the median of the atmosphere's temperature column,
+// or its fixed temperature; NaN when unknown.
+func (s *Summary) limbTemperature() float64 {
+	a := s.Atmosphere
+	if a == nil {
+		return math.NaN()
+	}
+	t := a.TemperatureK
+	for _, p := range s.Parameters {
+		if a.TemperatureColumn != "" && p.Name == a.TemperatureColumn {
+			t = p.Median
+		}
+	}
+	return t
 }
 
 // setBest records the maximum-posterior sample of lp (column
@@ -394,14 +472,8 @@ func columnStats(c *chains.Chain, i int, x []float64) ColumnSummary {
 }
 
 // gasVerdict classifies the gas g from its kept log10 mixing ratios x
-// (ClassifyGas), with the effective sample size of its column summary cs.
-func gasVerdict(g GasParam, x []float64, cs ColumnSummary) (*GasVerdict, error) {
-	ess := math.Min(float64(cs.ESS), float64(len(x)))
-	if !cs.TauReliable {
-		// tau is then only a lower bound, so this ESS is an upper bound,
-		// and a significance from it would be overstated.
-		ess = math.NaN()
-	}
+// (ClassifyGas) with the effective sample size ess (NaN: unknown).
+func gasVerdict(g GasParam, x []float64, ess float64) (*GasVerdict, error) {
 	d, err := ClassifyGas(x, g.Low, g.High, ess)
 	if err != nil {
 		return nil, err

@@ -183,12 +183,14 @@ func (s *Summary) WriteText(w io.Writer) error {
 		}
 		writeColumns(&b, header[:7], align[:7], cells)
 	}
-	b.WriteString("\ndiagnostics per parameter (tau: integrated autocorrelation time in steps, '>' when the chain is too short for it; ESS: effective samples)\n")
-	cells = cells[:0]
-	for _, r := range par {
-		cells = append(cells, []string{r.Name, r.MaxPost, r.Tau, r.ESS, r.RHat})
+	if s.Evidence == nil {
+		b.WriteString("\ndiagnostics per parameter (tau: integrated autocorrelation time in steps, '>' when the chain is too short for it; ESS: effective samples)\n")
+		cells = cells[:0]
+		for _, r := range par {
+			cells = append(cells, []string{r.Name, r.MaxPost, r.Tau, r.ESS, r.RHat})
+		}
+		writeColumns(&b, []string{"name", "max-posterior", "tau", "ESS", "R-hat"}, []int{alignLeft, alignRight, alignRight, alignRight, alignRight}, cells)
 	}
-	writeColumns(&b, []string{"name", "max-posterior", "tau", "ESS", "R-hat"}, []int{alignLeft, alignRight, alignRight, alignRight, alignRight}, cells)
 	if len(fn.text) > 0 {
 		b.WriteString("\nnotes\n")
 		for i, t := range fn.text {
@@ -221,8 +223,8 @@ func (s *Summary) warningsWithoutBanner() []string {
 	return out
 }
 
-// overview lists the run-level facts as label and text.
-func (s *Summary) overview() [][2]string {
+// overviewEnsemble lists the facts of an ensemble chain.
+func (s *Summary) overviewEnsemble() [][2]string {
 	burn := fmt.Sprint(s.Burn)
 	if s.BurnAuto {
 		burn += fmt.Sprintf(" (auto: %g tau)", AutoBurnTaus)
@@ -237,7 +239,17 @@ func (s *Summary) overview() [][2]string {
 		conv = "yes"
 	}
 	out = append(out, [2]string{"autocorr.", fmt.Sprintf("largest tau %.1f steps; chain = %.1f tau; converged (>= %g tau): %s", float64(s.MaxTau), float64(s.ChainTaus), sampler.DefaultConvergedTaus, conv)})
-	out = append(out, [2]string{"best sample", fmt.Sprintf("step %d walker %d: log posterior %.3f, log likelihood %.3f", s.Best.Step, s.Best.Walker, s.Best.LogPosterior, s.Best.LogLikelihood)})
+	return append(out, [2]string{"best sample", fmt.Sprintf("step %d walker %d: log posterior %.3f, log likelihood %.3f", s.Best.Step, s.Best.Walker, s.Best.LogPosterior, s.Best.LogLikelihood)})
+}
+
+// overview lists the run-level facts as label and text.
+func (s *Summary) overview() [][2]string {
+	var out [][2]string
+	if s.Evidence != nil {
+		out = s.overviewNested()
+	} else {
+		out = s.overviewEnsemble()
+	}
 	if s.Best.DataPoints > 0 {
 		out = append(out, [2]string{"", fmt.Sprintf("chi-square %.2f for %d data points and %d free parameters (reduced %.3f)", s.Best.ChiSquare, s.Best.DataPoints, s.Best.FreeParameters, float64(s.Best.ReducedChiSquare))})
 	}

@@ -109,6 +109,14 @@ type Options struct {
 	Fill func(*Summary)
 	// HTML, when not nil, also writes report.html with these run details.
 	HTML *RunDetails
+	// Evidence, for a nested-sampling run, is its evidence: the summary
+	// and plots are then made from the run's equal-weight samples
+	// (EqualWeightSamples with Evidence.Seed), without burn-in or
+	// thinning, and there is no trace plot.
+	Evidence *Evidence
+	// ConfigFile is the run's configuration, named in the summary's advice
+	// (SummaryOptions.ConfigFile).
+	ConfigFile string
 }
 
 // Write reads the committed parts of the run in dir, and writes the
@@ -117,20 +125,30 @@ type Options struct {
 // *WriteError, having written nothing.
 func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 	chainsDir := filepath.Join(dir, chains.DirName)
-	all, err := chains.Read(chainsDir, parts, 0, 1)
-	if err != nil {
-		return nil, err
+	var all, c *chains.Chain
+	var err error
+	burn, thin := opt.Burn, max(opt.Thin, 1)
+	if opt.Evidence != nil {
+		if burn != 0 || thin != 1 {
+			return nil, fmt.Errorf("report: burn-in and thinning apply to ensemble chains; the posterior of nested sampling is its equal-weight samples")
+		}
+		opt.BurnAuto = false
+		if c, err = EqualWeightSamples(chainsDir, parts, opt.Evidence.Seed); err != nil {
+			return nil, err
+		}
+	} else {
+		if all, err = chains.Read(chainsDir, parts, 0, 1); err != nil {
+			return nil, err
+		}
+		if opt.BurnAuto {
+			burn = AutoBurn(all)
+		}
+		if c, err = chains.Read(chainsDir, parts, burn, 1); err != nil {
+			return nil, err
+		}
 	}
-	burn := opt.Burn
-	if opt.BurnAuto {
-		burn = AutoBurn(all)
-	}
-	c, err := chains.Read(chainsDir, parts, burn, 1)
-	if err != nil {
-		return nil, err
-	}
-	thin := max(opt.Thin, 1)
-	s, err := Summarize(c, SummaryOptions{Burn: burn, BurnAuto: opt.BurnAuto, Thin: thin, Gases: opt.Gases, Bounds: opt.Bounds, Atmosphere: opt.Atmosphere})
+	s, err := Summarize(c, SummaryOptions{Burn: burn, BurnAuto: opt.BurnAuto, Thin: thin, Gases: opt.Gases, Bounds: opt.Bounds, Atmosphere: opt.Atmosphere,
+		Evidence: opt.Evidence, ConfigFile: opt.ConfigFile})
 	if err != nil {
 		return nil, err
 	}
@@ -152,11 +170,12 @@ func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 	if err := writeSummaryFiles(dir, s); err != nil {
 		return s, &WriteError{Dir: dir, Err: err}
 	}
-	figs = append(figs,
-		func() error {
-			return PlotCorner(filepath.Join(dir, "corner"), c, CornerOptions{Thin: thin, Demo: s.DemoOpacities, Truth: opt.Truth})
-		},
-		func() error { return PlotTraces(filepath.Join(dir, "traces"), all, burn, s.DemoOpacities) })
+	figs = append(figs, func() error {
+		return PlotCorner(filepath.Join(dir, "corner"), c, CornerOptions{Thin: thin, Demo: s.DemoOpacities, Truth: opt.Truth})
+	})
+	if all != nil {
+		figs = append(figs, func() error { return PlotTraces(filepath.Join(dir, "traces"), all, burn, s.DemoOpacities) })
+	}
 	for _, f := range figs {
 		if err := f(); err != nil {
 			return nil, err
