@@ -443,6 +443,10 @@ func (w *Writer) openPart(step int) error {
 	return nil
 }
 
+// ValueColumns returns the columns a Reader gives (Reader.Columns): every
+// column after the two index columns.
+func (l *Layout) ValueColumns() []Column { return l.allColumns()[2:] }
+
 // allColumns lists the fixed and layout columns for the metadata.
 func (l *Layout) allColumns() []Column {
 	return append(append([]Column(nil), l.fixedColumns()...), l.Columns...)

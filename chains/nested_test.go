@@ -166,7 +166,7 @@ func TestReadEqualWeight(t *testing.T) {
 	if err := w.Flush(); err != nil {
 		t.Fatal(err)
 	}
-	c, err := ReadEqualWeight(dir, nil, rand.New(rand.NewPCG(1, 2)))
+	c, err := ReadEqualWeight(dir, nil, nil, rand.New(rand.NewPCG(1, 2)))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -203,9 +203,36 @@ func TestReadEqualWeight(t *testing.T) {
 		}
 	}
 
+	// Points not in the store (the live points of an unfinished run) are
+	// resampled after the stored ones, alone or with them; points of other
+	// columns are refused.
+	l := deadLayout()
+	more := &Points{Columns: l.ValueColumns()}
+	for p := n + 1; p <= n+5; p++ {
+		_, lw, lp, x, extra := deadPoint(p, n)
+		more.Rows = append(more.Rows, []float64{lw + 40, lp, extra[1], x[0], x[1], x[2], extra[2]})
+	}
+	both, err := ReadEqualWeight(dir, w.Committed(), more, rand.New(rand.NewPCG(1, 2)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The added points carry e^40 times the weight: every sample is one.
+	if both.TotalSteps != n+5 || both.Column("log_h2o")[0] <= n {
+		t.Errorf("with more points: %d points, first sample from point %v", both.TotalSteps, both.Column("log_h2o")[0])
+	}
+	alone, err := ReadEqualWeight(dir, []PartInfo{}, more, rand.New(rand.NewPCG(1, 2)))
+	if err != nil || alone.TotalSteps != 5 || alone.Column("log_h2o")[0] < n+1 {
+		t.Errorf("more points alone: %v, %+v", err, alone)
+	}
+	ens := testLayout(1)
+	other := &Points{Columns: ens.ValueColumns(), Rows: more.Rows}
+	if _, err := ReadEqualWeight(dir, nil, other, rand.New(rand.NewPCG(1, 2))); err == nil {
+		t.Error("points of other columns were resampled with the store's")
+	}
+
 	// An ensemble chain is not resampled; no positive weight is an error.
-	ens := t.TempDir()
-	we, err := Create(ens, testLayout(2))
+	ensDir := t.TempDir()
+	we, err := Create(ensDir, testLayout(2))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -213,7 +240,7 @@ func TestReadEqualWeight(t *testing.T) {
 	if err := we.Flush(); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := ReadEqualWeight(ens, nil, rand.New(rand.NewPCG(1, 2))); err == nil {
+	if _, err := ReadEqualWeight(ensDir, nil, nil, rand.New(rand.NewPCG(1, 2))); err == nil {
 		t.Error("an ensemble chain was resampled")
 	}
 	zero := t.TempDir()
@@ -225,7 +252,7 @@ func TestReadEqualWeight(t *testing.T) {
 	if err := wz.Flush(); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := ReadEqualWeight(zero, nil, rand.New(rand.NewPCG(1, 2))); err == nil || !strings.Contains(err.Error(), "positive weight") {
+	if _, err := ReadEqualWeight(zero, nil, nil, rand.New(rand.NewPCG(1, 2))); err == nil || !strings.Contains(err.Error(), "positive weight") {
 		t.Errorf("no positive weight: %v", err)
 	}
 }

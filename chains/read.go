@@ -85,67 +85,124 @@ func Read(dir string, parts []PartInfo, burn, thin int) (*Chain, error) {
 	return out, nil
 }
 
+// Points are weighted points of a nested-sampling run that are not in its
+// store: the live points of a run that has not finished, each with the
+// share of the prior mass left it would get as a final point. Columns are
+// the store's value columns (Layout.ValueColumns: log_weight first) and
+// each row holds one value per column.
+type Points struct {
+	Columns []Column
+	Rows    [][]float64
+}
+
 // ReadEqualWeight reads the dead points of a nested-sampling run from the
-// given parts of the store in dir (all part files when parts is nil) and
-// resamples them into equally weighted posterior samples
+// given parts of the store in dir (all part files when parts is nil; none
+// when parts is empty), followed by the points of more (nil for none),
+// and resamples them into equally weighted posterior samples
 // (sampler.EqualWeight, systematic resampling with one uniform draw from
 // rng), as many as the weights' effective size (sampler.EffectiveSize,
 // rounded). The result is a Chain of one walker whose steps 1, 2, ... are
 // the samples in the order of their points, with the columns log_posterior
-// and the layout's (log_weight dropped). It reads the store twice, keeping
-// one weight per point and the samples in memory.
-func ReadEqualWeight(dir string, parts []PartInfo, rng *rand.Rand) (*Chain, error) {
-	r, err := NewReader(dir, parts)
-	if err != nil {
-		return nil, err
-	}
-	if !r.Nested() {
-		r.Close()
-		return nil, fmt.Errorf("chains: %s holds an ensemble chain, not the dead points of nested sampling", dir)
-	}
+// and the layout's (log_weight dropped); TotalSteps counts the points. It
+// reads the store twice, keeping one weight per point and the samples in
+// memory.
+func ReadEqualWeight(dir string, parts []PartInfo, more *Points, rng *rand.Rand) (*Chain, error) {
+	var cols []Column
 	var logWt []float64
-	for {
-		if _, err := r.Next(); err == io.EOF {
-			break
-		} else if err != nil {
-			r.Close()
+	stored := parts == nil || len(parts) > 0
+	if stored {
+		r, err := NewReader(dir, parts)
+		if err != nil {
 			return nil, err
 		}
-		logWt = append(logWt, r.Walker(0)[0])
+		if !r.Nested() {
+			r.Close()
+			return nil, fmt.Errorf("chains: %s holds an ensemble chain, not the dead points of nested sampling", dir)
+		}
+		cols = r.Columns()
+		for {
+			if _, err := r.Next(); err == io.EOF {
+				break
+			} else if err != nil {
+				r.Close()
+				return nil, err
+			}
+			logWt = append(logWt, r.Walker(0)[0])
+		}
+		r.Close()
 	}
-	r.Close()
+	if more != nil {
+		if !stored {
+			cols = more.Columns
+		} else if !sameColumns(cols, more.Columns) {
+			return nil, fmt.Errorf("chains: the points added to %s have other columns than its dead points", dir)
+		}
+		for _, row := range more.Rows {
+			logWt = append(logWt, row[0])
+		}
+	}
+	if len(cols) == 0 || cols[0].Role != RoleLogWeight {
+		return nil, fmt.Errorf("chains: no dead points in %s", dir)
+	}
 	ess := sampler.EffectiveSize(logWt)
 	if !(ess > 0) {
-		return nil, fmt.Errorf("chains: none of the %d dead points in %s has a positive weight (every likelihood was zero)", len(logWt), dir)
+		return nil, fmt.Errorf("chains: none of the %d points of %s has a positive weight (every likelihood was zero)", len(logWt), dir)
 	}
 	idx := sampler.EqualWeight(nil, logWt, rng)
 
-	if r, err = NewReader(dir, parts); err != nil {
-		return nil, err
-	}
-	defer r.Close()
-	cols := r.Columns()[1:]
-	out := &Chain{Walkers: 1, Columns: cols, Values: make([][]float64, len(cols)), TotalSteps: len(logWt), EffectiveSize: ess}
+	out := &Chain{Walkers: 1, Columns: cols[1:], Values: make([][]float64, len(cols)-1), TotalSteps: len(logWt), EffectiveSize: ess}
 	for c := range out.Values {
 		out.Values[c] = make([]float64, 0, len(idx))
 	}
 	j := 0
-	for j < len(idx) {
-		p, err := r.Next()
-		if err != nil {
-			if err == io.EOF {
-				err = fmt.Errorf("chains: %s ended at point %d while reading it again", dir, p)
-			}
-			return nil, err
-		}
+	take := func(p int, row []float64) { // p counts points from 1
 		for ; j < len(idx) && idx[j] == p-1; j++ {
 			out.Steps = append(out.Steps, j+1)
-			for c, v := range r.Walker(0)[1:] {
+			for c, v := range row[1:] {
 				out.Values[c] = append(out.Values[c], v)
 			}
 		}
 	}
+	n := 0
+	if stored {
+		r, err := NewReader(dir, parts)
+		if err != nil {
+			return nil, err
+		}
+		defer r.Close()
+		for j < len(idx) {
+			p, err := r.Next()
+			if err == io.EOF {
+				break
+			}
+			if err != nil {
+				return nil, err
+			}
+			take(p, r.Walker(0))
+			n = p
+		}
+	}
+	if more != nil {
+		for i, row := range more.Rows {
+			take(n+i+1, row)
+		}
+	}
+	if j != len(idx) {
+		return nil, fmt.Errorf("chains: %s changed while it was read", dir)
+	}
 	return out, nil
+}
+
+func sameColumns(a, b []Column) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for i := range a {
+		if a[i] != b[i] {
+			return false
+		}
+	}
+	return true
 }
 
 // Reader streams a stored chain one ensemble step at a time, as

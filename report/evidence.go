@@ -1,6 +1,7 @@
 package report
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -32,8 +33,8 @@ type Evidence struct {
 	// the number of equal-weight samples drawn.
 	EffectiveSize float64 `json:"effective_size"`
 	// Finished is set when the live points could raise ln Z by less than
-	// Tolerance and were added; otherwise ln Z counts the live points as
-	// the final ones would be, and the posterior lacks their share.
+	// Tolerance and were added; otherwise ln Z and the posterior count
+	// the live points as the final ones would be.
 	Finished  bool    `json:"finished"`
 	Tolerance float64 `json:"evidence_tolerance"`
 	// Method is the sampler's exact description of the settings that
@@ -46,6 +47,15 @@ type Evidence struct {
 	// digests): Bayes factors compare runs of the same data only.
 	Data string `json:"data_sha256"`
 }
+
+// MinNestedSamples is the fewest equal-weight samples a nested run's
+// summary is made from: early in a run one point carries almost all the
+// weight, and intervals from fewer samples would be noise.
+const MinNestedSamples = 10
+
+// ErrFewSamples is wrapped by the error of a report of a nested run that
+// has not got far enough for MinNestedSamples equal-weight samples.
+var ErrFewSamples = errors.New("too few equal-weight samples for a summary")
 
 // Methods of a summary (Summary.Method).
 const (
@@ -61,10 +71,11 @@ func ResampleRNG(seed uint64) *rand.Rand {
 }
 
 // EqualWeightSamples reads the equal-weight posterior samples of the
-// nested run whose chain store is dir (chains.ReadEqualWeight with
-// ResampleRNG(seed)).
-func EqualWeightSamples(dir string, parts []chains.PartInfo, seed uint64) (*chains.Chain, error) {
-	return chains.ReadEqualWeight(dir, parts, ResampleRNG(seed))
+// nested run whose chain store is dir, with the live points of a run that
+// has not finished (live; nil for a finished run): chains.ReadEqualWeight
+// with ResampleRNG(seed).
+func EqualWeightSamples(dir string, parts []chains.PartInfo, live *chains.Points, seed uint64) (*chains.Chain, error) {
+	return chains.ReadEqualWeight(dir, parts, live, ResampleRNG(seed))
 }
 
 // LnB is a log Bayes factor ln Z1 - ln Z2 with its error
@@ -78,7 +89,7 @@ func (s *Summary) overviewNested() [][2]string {
 	e := s.Evidence
 	fin := fmt.Sprintf("yes (the live points could add less than %g to ln Z)", e.Tolerance)
 	if !e.Finished {
-		fin = "no: ln Z counts the live points as the final ones would be, and the posterior lacks their share; resume the run"
+		fin = "no: ln Z and the posterior count the live points as the final ones would be (an estimate); resume the run"
 	}
 	out := [][2]string{
 		{"sampler", fmt.Sprintf("nested sampling, %d live points; %d dead points, %d likelihood evaluations", e.LivePoints, e.DeadPoints, e.Evaluations)},

@@ -367,7 +367,7 @@ func Summarize(c *chains.Chain, opt SummaryOptions) (*Summary, error) {
 	if nested {
 		s.Converged = s.Evidence.Finished
 		if !s.Converged {
-			s.Warnings = append(s.Warnings, "not finished: the nested-sampling run stopped before its evidence tolerance; ln Z includes the live points' estimated share, and the posterior lacks it (it is made of the dead points so far); resume the run before trusting either")
+			s.Warnings = append(s.Warnings, "not finished: the nested-sampling run stopped before its evidence tolerance; ln Z and the posterior count the live points as the final ones would be, an estimate that the rest of the run refines; resume the run before trusting either")
 		}
 		return s, nil
 	}

@@ -114,6 +114,9 @@ type Options struct {
 	// (EqualWeightSamples with Evidence.Seed), without burn-in or
 	// thinning, and there is no trace plot.
 	Evidence *Evidence
+	// Live are the live points of a nested run that has not finished
+	// (chains.Points), resampled with the dead points; nil otherwise.
+	Live *chains.Points
 	// ConfigFile is the run's configuration, named in the summary's advice
 	// (SummaryOptions.ConfigFile).
 	ConfigFile string
@@ -133,8 +136,11 @@ func Write(dir string, parts []chains.PartInfo, opt Options) (*Summary, error) {
 			return nil, fmt.Errorf("report: burn-in and thinning apply to ensemble chains; the posterior of nested sampling is its equal-weight samples")
 		}
 		opt.BurnAuto = false
-		if c, err = EqualWeightSamples(chainsDir, parts, opt.Evidence.Seed); err != nil {
+		if c, err = EqualWeightSamples(chainsDir, parts, opt.Live, opt.Evidence.Seed); err != nil {
 			return nil, err
+		}
+		if len(c.Steps) < MinNestedSamples {
+			return nil, fmt.Errorf("%w: the weights of the %d points so far are worth %.1f samples, fewer than %d; resume the run", ErrFewSamples, c.TotalSteps, c.EffectiveSize, MinNestedSamples)
 		}
 	} else {
 		if all, err = chains.Read(chainsDir, parts, 0, 1); err != nil {
