@@ -61,6 +61,12 @@ type CheckpointHeader struct {
 	// CheckpointSteps is the interval between checkpoints the run uses, in
 	// steps; a resume keeps it unless told otherwise.
 	CheckpointSteps int `json:"checkpoint_steps,omitempty"`
+	// Method is "nested" for a nested-sampling run ("" for the
+	// ensemble): Step and PrevStep then count dead points, LivePoints is
+	// the number of live points (Walkers is 0), and the states are
+	// sampler.NestedState encodings.
+	Method     string `json:"method,omitempty"`
+	LivePoints int    `json:"live_points,omitempty"`
 }
 
 // Checkpoint is a decoded checkpoint file.

@@ -286,7 +286,8 @@ func toPPM(v []float64) {
 }
 
 // ReadPosterior reads the chain of the run in dir after the burn-in its
-// summary.json states (the samples behind its intervals).
+// summary.json states (the samples behind its intervals); for a
+// nested-sampling run, its equal-weight samples.
 func ReadPosterior(dir string) (*chains.Chain, error) {
 	s, err := report.ReadSummary(dir)
 	if err != nil {
@@ -296,5 +297,9 @@ func ReadPosterior(dir string) (*chains.Chain, error) {
 	if err != nil {
 		return nil, err
 	}
-	return chains.Read(filepath.Join(dir, chains.DirName), ck.Parts, s.Burn, 1)
+	store := filepath.Join(dir, chains.DirName)
+	if s.Evidence != nil {
+		return nestedPosterior(store, ck, s.Evidence.Seed)
+	}
+	return chains.Read(store, ck.Parts, s.Burn, 1)
 }

@@ -73,6 +73,10 @@ type RunSpec struct {
 	// differs from ConfigSHA256 is refused on resume.
 	RunID        string
 	ConfigSHA256 string
+	// Nested, when set, makes the run a nested-sampling run (nested.go):
+	// Target is then the log-likelihood, Layout a store of dead points, and
+	// Move and Init are unused.
+	Nested *NestedSpec
 }
 
 // RunOptions are the settings of one session of a run.
@@ -117,10 +121,19 @@ type RunOutcome struct {
 	// initial ensemble was being made (Stop is StopCanceled): there is no
 	// checkpoint yet, and a resume starts the run again from its seed.
 	BeforeStart bool
+	// Nested sampling: Step and Steps count dead points, and Evidence is
+	// the evidence as the session left it (nil for the ensemble).
+	Evidence *report.Evidence
+	// SessionEvaluations counts the evaluations of this session (nested
+	// sampling; 0 for the ensemble, where it is Steps times the walkers).
+	SessionEvaluations int64
 }
 
 // StartRun samples a new run into dir, whose chain store must be empty.
 func StartRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions) (*RunOutcome, error) {
+	if spec.Nested != nil {
+		return startNested(ctx, dir, spec, opt)
+	}
 	if err := checkStop(opt.Stop); err != nil {
 		return nil, err
 	}
@@ -152,6 +165,9 @@ func StartRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions) (*
 
 // ContinueRun resumes the run in dir from its checkpoint.
 func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions) (*RunOutcome, error) {
+	if spec.Nested != nil {
+		return continueNested(ctx, dir, spec, opt)
+	}
 	if err := checkSpec(spec); err != nil {
 		return nil, err
 	}
@@ -265,8 +281,11 @@ func checkOwner(dir string, ck *Checkpoint, spec *RunSpec) error {
 	if ck.ConfigSHA256 != spec.ConfigSHA256 {
 		return fmt.Errorf("%s: the checkpoint belongs to a run with configuration digest %s, the run's configuration and inputs now give %s: they changed since the run started; start a new run instead", dir, short(ck.ConfigSHA256), short(spec.ConfigSHA256))
 	}
-	if ck.Walkers != spec.Layout.Walkers || ck.Dim != spec.Layout.Dim {
-		return fmt.Errorf("%s: the checkpoint holds %d walkers x %d parameters, the configuration gives %d x %d", dir, ck.Walkers, ck.Dim, spec.Layout.Walkers, spec.Layout.Dim)
+	if spec.Nested != nil {
+		return checkNestedOwner(dir, ck, spec)
+	}
+	if ck.Method != "" || ck.Walkers != spec.Layout.Walkers || ck.Dim != spec.Layout.Dim {
+		return fmt.Errorf("%s: the checkpoint holds %d walkers x %d parameters (%s), the configuration gives an ensemble of %d x %d", dir, ck.Walkers, ck.Dim, methodName(ck.Method), spec.Layout.Walkers, spec.Layout.Dim)
 	}
 	return nil
 }
@@ -835,6 +854,9 @@ type job struct {
 	spec   *RunSpec
 	inputs []InputFile
 	log    io.Writer // the run's log (the start's searches); nil for none
+	// configFile is the configuration file the run was started from (for
+	// advice in the summary); "" when not known.
+	configFile string
 }
 
 // quantityUnit is the unit of each quantity in chains and reports.
@@ -886,6 +908,14 @@ func newJob(r *config.Resolved, set *opacity.Set, runID string) (*job, error) {
 		info := derivedInfo[extras[j]]
 		l.Columns = append(l.Columns, chains.Column{Name: extras[j], Role: chains.RoleDerived, Source: j, Quantity: info[0], Unit: info[1]})
 	}
+	var target sampler.Target = prob
+	var nested *NestedSpec
+	if r.Method == config.MethodNested {
+		if l, nested, err = nestedJob(r, prob, l); err != nil {
+			return nil, err
+		}
+		target = likelihood{prob}
+	}
 	var move sampler.Move
 	switch r.Move {
 	case "walk":
@@ -897,7 +927,7 @@ func newJob(r *config.Resolved, set *opacity.Set, runID string) (*job, error) {
 	}
 	j := &job{}
 	spec := &RunSpec{
-		Target: prob, Layout: l, Move: move, Seed: r.Seed, RunID: runID, ConfigSHA256: digest,
+		Target: target, Layout: l, Move: move, Seed: r.Seed, RunID: runID, ConfigSHA256: digest, Nested: nested,
 		Init: func(ctx context.Context, workers int) (*sampler.State, error) {
 			pos, found, err := sampler.StartBall(ctx, prob, prob.DrawPrior, priorWidths(prob.Priors()), sampler.StartSettings{Walkers: r.Walkers, Seed: r.Seed, Workers: workers})
 			if err != nil {
@@ -939,8 +969,12 @@ func (j *job) report(dir string, burn int, auto bool, thin int, html bool, out *
 	if err != nil {
 		return nil, "", err
 	}
-	if len(ck.Parts) == 0 {
-		return nil, "", fmt.Errorf("%s: the chain has no steps yet", dir)
+	parts := ck.Parts
+	if len(parts) == 0 {
+		if j.spec.Nested == nil {
+			return nil, "", fmt.Errorf("%s: the chain has no steps yet", dir)
+		}
+		parts = []chains.PartInfo{} // no dead points yet: the live points alone
 	}
 	title := j.res.Config.Planet.Name
 	truth, err := ReadTruth(dir)
@@ -953,7 +987,18 @@ func (j *job) report(dir string, burn int, auto bool, thin int, html bool, out *
 			return nil, "", err
 		}
 	}
-	s, err := report.Write(dir, ck.Parts, report.Options{
+	var evidence *report.Evidence
+	var live *chains.Points
+	if j.spec.Nested != nil {
+		if evidence, live, err = j.nestedReport(ck); err != nil {
+			return nil, "", fmt.Errorf("%s: %w", dir, err)
+		}
+		if auto {
+			burn = 0
+		}
+	}
+	s, err := report.Write(dir, parts, report.Options{
+		Evidence: evidence, Live: live, ConfigFile: j.configFile,
 		Burn: burn, BurnAuto: auto, Thin: thin, Gases: j.gases(), Model: newReportModel(j), Fitted: j.fitted(), Title: title,
 		Atmosphere: j.atmosphere(), Truth: truth, HTML: details,
 		Bounds:         paramBounds(j.res.Free, *j.res.Config.Atmosphere.BottomPressureBar),
@@ -1013,14 +1058,20 @@ type FitOptions struct {
 	Truth *config.ModelConfig
 	// HTML also writes report.html.
 	HTML bool
+	// Without names gases whose log10 mixing ratio the fit holds at its
+	// prior's lower edge: the reduced model of a detection by evidence
+	// (config.Config.Without).
+	Without []string
 }
 
 // RunReport is what Fit, Resume and Demo return.
 type RunReport struct {
-	Dir         string
-	Walkers     int
-	Outcome     *RunOutcome
-	Summary     *report.Summary // nil when the run was interrupted
+	Dir     string
+	Walkers int
+	Outcome *RunOutcome
+	// Summary is nil when the run was interrupted, or when a nested run
+	// stopped too early for one (SummaryText then says so).
+	Summary     *report.Summary
 	SummaryText string
 	// ConfigFile and ObservationFile are the demo's files (Demo only).
 	ConfigFile, ObservationFile string
@@ -1058,7 +1109,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 		return nil, err
 	}
 	defer lock.Release()
-	r, err := config.Load(opt.ConfigPath)
+	r, err := loadConfig(opt.ConfigPath, opt.Without)
 	if err != nil {
 		return nil, err
 	}
@@ -1094,11 +1145,17 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 			sc.UntilConverged = &t
 		}
 	}
+	if r.Method == config.MethodNested && r.Stop.Steps > 0 {
+		return nil, fmt.Errorf("%s: a nested-sampling run ends at its evidence tolerance (until converged) or a budget; a step count does not apply", opt.ConfigPath)
+	}
 	for _, n := range r.Notes {
 		fmt.Fprintln(log, "chord: note:", n)
 	}
 	for _, w := range r.Warnings {
 		fmt.Fprintln(log, "chord: warning:", w)
+	}
+	if len(opt.Without) > 0 {
+		fmt.Fprintf(log, "chord: the reduced model: %s held at its prior's lower edge (absent)\n", strings.Join(opt.Without, ", "))
 	}
 	set := opt.Opacity
 	if set == nil {
@@ -1120,6 +1177,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 		return nil, err
 	}
 	abs, _ := filepath.Abs(opt.ConfigPath)
+	j.configFile = abs
 	info := RunInfo{Version: version.Version, RunID: runID, Created: time.Now().UTC().Format(time.RFC3339), ConfigFile: abs, Demo: set.Demo,
 		Inputs: append([]InputFile{{Role: "configuration", Path: abs, SHA256: cfgHash}}, j.inputs...)}
 	info.RunDir, _ = filepath.Abs(opt.RunDir)
@@ -1148,7 +1206,11 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 		}
 	}
 	j.html = opt.HTML
-	fmt.Fprintf(log, "chord: run %s: %d free parameters, %d walkers, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.Walkers, r.Seed, describeStop(r.Stop))
+	if r.Method == config.MethodNested {
+		fmt.Fprintf(log, "chord: run %s: %d free parameters, nested sampling with %d live points, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.LivePoints, r.Seed, describeNestedStop(r))
+	} else {
+		fmt.Fprintf(log, "chord: run %s: %d free parameters, %d walkers, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.Walkers, r.Seed, describeStop(r.Stop))
+	}
 	out, err := StartRun(ctx, opt.RunDir, j.spec, RunOptions{Workers: r.Workers, Stop: r.Stop, Progress: opt.Progress, CheckpointSteps: opt.CheckpointSteps})
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", opt.RunDir, err)
@@ -1173,6 +1235,11 @@ func (j *job) finish(dir string, out *RunOutcome) (*RunReport, error) {
 		return rep, nil
 	}
 	s, txt, err := j.report(dir, 0, true, 1, j.html, out)
+	if errors.Is(err, report.ErrFewSamples) && out.Evidence != nil && !out.Evidence.Finished {
+		// A nested run stopped early (a budget): no summary yet.
+		rep.SummaryText = fmt.Sprintf("no summary yet: %v\n", err)
+		return rep, nil
+	}
 	if err != nil {
 		return rep, fmt.Errorf("%s: report: %w", dir, err)
 	}
@@ -1220,6 +1287,7 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 	if err != nil {
 		return nil, nil, config.InFile(path, err)
 	}
+	j.configFile = rf.Run.ConfigFile
 	return j, &rf.Run, nil
 }
 

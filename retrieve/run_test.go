@@ -82,6 +82,9 @@ func allRows(t *testing.T, dir string) []string {
 		for k := range r.Walkers() {
 			var b strings.Builder
 			fmt.Fprintf(&b, "%d %d ", s, k)
+			if r.Nested() {
+				fmt.Fprintf(&b, "%v ", r.Final())
+			}
 			for _, v := range r.Walker(k) {
 				fmt.Fprintf(&b, "%x ", math.Float64bits(v))
 			}
