@@ -90,6 +90,10 @@ type PlanSpec struct {
 	Steps          int     `toml:"steps,omitempty"`
 	Budget         float64 `toml:"budget_s,omitempty"`
 	UntilConverged bool    `toml:"until_converged,omitempty"`
+	// Detect lists the gases whose detection by evidence each level
+	// reports (detectplan.go); the scenario's fits must then be nested
+	// sampling.
+	Detect []string `toml:"detect,omitempty"`
 }
 
 // PlanOptions configures RunPlan.
@@ -126,7 +130,10 @@ type PlanReport struct {
 	// plan resumes when run again.
 	Interrupted bool
 	Comparison  *report.Comparison // nil when interrupted
-	Table       string             // the comparison as text
+	Table       string             // the comparison as text (and the detections, with PlanSpec.Detect)
+	// Detections are the detections by evidence per level and gas (nil
+	// without PlanSpec.Detect or when interrupted).
+	Detections *report.DetectionTable
 }
 
 func (p *PlanSpec) check() error {
@@ -156,6 +163,12 @@ func (p *PlanSpec) check() error {
 		return errors.New("plan: steps and budget must not be negative")
 	}
 	seen := map[string]bool{}
+	for _, g := range p.Detect {
+		if seen["gas "+g] {
+			return fmt.Errorf("plan: gas %s to detect is given twice", g)
+		}
+		seen["gas "+g] = true
+	}
 	for i := range p.levels() {
 		n := p.levelName(i)
 		if seen[n] {
@@ -226,6 +239,9 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 	if err != nil {
 		return nil, err
 	}
+	if err := checkPlanDetect(scPath, &sc.Config, spec.Detect); err != nil {
+		return nil, err
+	}
 	set, err := sc.Config.ModelConfig.LoadOpacity(opt.DemoCache, log)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", scPath, err)
@@ -266,9 +282,22 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 			rep.Interrupted = true
 			return rep, nil
 		}
+		if len(spec.Detect) > 0 {
+			stopped, err := rep.detectLevel(ctx, l, spec, set, opt, log)
+			if err != nil {
+				return nil, fmt.Errorf("plan: level %s: %w", l.name, err)
+			}
+			if stopped {
+				rep.Interrupted = true
+				return rep, nil
+			}
+		}
 		onLevel(i + 1)
 	}
 	if err := rep.compare(log); err != nil {
+		return nil, err
+	}
+	if err := rep.writeDetections(); err != nil {
 		return nil, err
 	}
 	return rep, nil
@@ -396,14 +425,20 @@ func openPlan(opt PlanOptions) (*PlanSpec, error) {
 		if err != nil {
 			return nil, err
 		}
+		if err := checkPlanDetect(DemoScenarioName, &sc.Config, opt.Spec.Detect); err != nil {
+			return nil, err
+		}
 		if text, err = scenarioText(sc); err != nil {
 			return nil, err
 		}
 	} else {
-		if _, err := simulate.LoadScenario(opt.ScenarioPath); err != nil {
+		sc, err := simulate.LoadScenario(opt.ScenarioPath)
+		if err != nil {
 			return nil, err
 		}
-		var err error
+		if err := checkPlanDetect(opt.ScenarioPath, &sc.Config, opt.Spec.Detect); err != nil {
+			return nil, err
+		}
 		if text, err = os.ReadFile(opt.ScenarioPath); err != nil {
 			return nil, fmt.Errorf("plan: %w", err)
 		}
