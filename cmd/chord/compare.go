@@ -16,13 +16,15 @@ import (
 func compareCommand() *cli.Command {
 	return &cli.Command{
 		Name:      "compare",
-		Usage:     "compare posterior widths of runs side by side",
+		Usage:     "compare posterior widths (and, for nested runs, evidences) of runs side by side",
 		ArgsUsage: "RUNDIR...",
 		Description: "For every free parameter the runs have in common: the 68% width (84th-16th\n" +
 			"percentile) and the 95% width (97.5th-2.5th) in each run, their ratio to the first\n" +
 			"run's, each run's noise level (the median error of its observations, ppm) and the gas\n" +
 			"verdicts (detected with sigma, constrained, upper limit). Parameters missing from some\n" +
-			"runs are dropped and named. Reads each run's summary.json (chord report makes it).",
+			"runs are dropped and named. Runs made by nested sampling also get their ln Z, and each\n" +
+			"pair of them that fits the same observations its ln Bayes factor with its error, sigma\n" +
+			"and strength (docs/evidence.md). Reads each run's summary.json (chord report makes it).",
 		Flags: []cli.Flag{
 			&cli.BoolFlag{Name: "json", Usage: "write the comparison as JSON instead of a table"},
 			&cli.StringFlag{Name: "plot", Usage: "draw the 68% width against noise (log-log, with the width-proportional-to-noise line) to `FILE`.png (and FILE.svg)"},

@@ -51,6 +51,7 @@ func fitCommand() *cli.Command {
 			&cli.BoolFlag{Name: "force", Usage: "replace the chord run in DIR (only a directory with a run.toml; only chord's files are removed)"},
 			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
 			&cli.StringFlag{Name: "truth", Usage: "scenario or model configuration `FILE` the observation was simulated from (its values are marked in the plots)"},
+			&cli.StringSliceFlag{Name: "without", Usage: "fit the reduced model: hold `GAS`'s log10 mixing ratio at its prior's lower edge (repeatable; compare the evidences with chord compare, or use chord detect)"},
 		}, stopFlags...),
 		Action: runFit,
 	}
@@ -132,7 +133,7 @@ func runFit(c *cli.Context) error {
 	opt := retrieve.FitOptions{
 		ConfigPath: c.String("config"), RunDir: c.String("output"), Force: c.Bool("force"),
 		Stop: stop, DemoCache: c.String("demo-cache"), Progress: prog, CheckpointSteps: c.Int("checkpoint-every"),
-		HTML: c.Bool("html"),
+		HTML: c.Bool("html"), Without: c.StringSlice("without"),
 	}
 	opt.Seed, opt.Workers = flagIfSet(c, "seed", c.Uint64), flagIfSet(c, "workers", c.Int)
 	if path := c.String("truth"); path != "" {
@@ -169,24 +170,43 @@ func finishRun(c *cli.Context, rep *retrieve.RunReport, err error) error {
 	}
 	w := c.App.ErrWriter
 	out := rep.Outcome
+	unit, at, evals := "steps in the chain", "step", float64(out.Steps*rep.Walkers)
+	if out.Evidence != nil {
+		unit, at, evals = "dead points", "dead point", float64(out.SessionEvaluations)
+	}
 	switch {
 	case out.BeforeStart:
-		fmt.Fprintf(w, "chord: interrupted while the starting point and initial walkers were being found, before the first checkpoint.\n")
+		fmt.Fprintf(w, "chord: interrupted while the starting point and initial walkers (or live points) were being made, before the first checkpoint.\n")
 		fmt.Fprintf(w, "chord: continue it with:  chord resume %s   (it starts again from the run's seed)\n", rep.Dir)
 		return errInterrupted
+	case out.Met && out.Evidence != nil:
+		fmt.Fprintf(w, "chord: %s has already met its stopping rule (%v, %d dead points): nothing to do.\n", rep.Dir, out.Stop, out.Step)
+		if !out.Evidence.Finished {
+			fmt.Fprintf(w, "chord: to sample further, give a new budget: chord resume %s --budget DURATION (a total above the time spent) or --until-converged\n", rep.Dir)
+		}
+		return nil
 	case out.Met:
 		fmt.Fprintf(w, "chord: %s has already met its stopping rule (%v, %d steps in the chain): nothing to do.\n", rep.Dir, out.Stop, out.Step)
 		fmt.Fprintf(w, "chord: to sample further, give a new rule: chord resume %s --steps N (a total above %d) or --budget DURATION\n", rep.Dir, out.Step)
 		return nil
 	}
-	fmt.Fprintf(w, "chord: %s: %d steps in the chain (%d this session, %s, %.0f evaluations/s); stopped: %v\n",
-		rep.Dir, out.Step, out.Steps, out.Elapsed.Round(time.Second), float64(out.Steps*rep.Walkers)/max(out.Elapsed.Seconds(), 1e-9), out.Stop)
+	fmt.Fprintf(w, "chord: %s: %d %s (%d this session, %s, %.0f evaluations/s); stopped: %v\n",
+		rep.Dir, out.Step, unit, out.Steps, out.Elapsed.Round(time.Second), evals/max(out.Elapsed.Seconds(), 1e-9), out.Stop)
 	if out.Stop == sampler.StopCanceled {
-		fmt.Fprintf(w, "chord: interrupted; the chain and a checkpoint at step %d are saved.\n", out.Step)
+		fmt.Fprintf(w, "chord: interrupted; the chain and a checkpoint at %s %d are saved.\n", at, out.Step)
 		fmt.Fprintf(w, "chord: continue it with:  chord resume %s\n", rep.Dir)
 		return errInterrupted
 	}
-	if s := rep.Summary; s != nil {
+	if rep.Summary == nil && rep.SummaryText != "" {
+		fmt.Fprintf(w, "chord: %s", rep.SummaryText)
+		fmt.Fprintf(w, "chord: continue it with:  chord resume %s\n", rep.Dir)
+	}
+	if s := rep.Summary; s != nil && s.Evidence != nil {
+		e := s.Evidence
+		fmt.Fprintf(w, "chord: ln Z = %.2f ± %.2f, information %.1f nats; finished: %v (summary.txt)\n", e.LogZ, e.LogZErr, e.Information, yesNo(e.Finished))
+		fmt.Fprintf(c.App.Writer, "%s\n", rep.SummaryText)
+		fmt.Fprintf(w, "chord: the summary (summary.txt, summary.json) and plots are in %s\n", rep.Dir)
+	} else if s != nil {
 		// tau as the summary states it (estimated after the burn-in), so
 		// that the last line and summary.txt agree.
 		fmt.Fprintf(w, "chord: largest autocorrelation time %.1f steps; the chain is %.1f of them long; converged: %v (summary.txt)\n", float64(s.MaxTau), float64(s.ChainTaus), yesNo(s.Converged))

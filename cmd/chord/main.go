@@ -31,7 +31,7 @@ var errInterrupted = errors.New("interrupted")
 
 func newApp() *cli.App {
 	cmds := append([]*cli.Command{
-		compareCommand(), demoCommand(), fitCommand(), gridCommand(), planCommand(),
+		compareCommand(), demoCommand(), detectCommand(), fitCommand(), gridCommand(), planCommand(),
 		reportCommand(), resumeCommand(), simulateCommand(), spectrumCommand(), versionCommand(),
 	}, commands...)
 	sort.Slice(cmds, func(i, j int) bool { return cmds[i].Name < cmds[j].Name })

@@ -24,7 +24,11 @@ func planCommand() *cli.Command {
 			"--transits 1,4,16 one fit per number of transits, with the single-transit noise from\n" +
 			"--noise PPM or --noise-file. Observations are noise-free with error bars unless --seed\n" +
 			"N asks for Gaussian noise (level i drawn with seed N+i). The fits run one after\n" +
-			"another with every worker and share one load of the opacity tables.\n\n" +
+			"another with every worker and share one load of the opacity tables. --detect H2O,CH4\n" +
+			"also fits at each level the model without each gas (the scenario's [sampler] must say\n" +
+			"method = \"nested\") and reports ln B, its sigma and strength per level and gas\n" +
+			"(PLANDIR/detection.txt, detection.json): on noise-free observations, the expected\n" +
+			"detection significance at that noise level.\n\n" +
 			"A plan stopped by SIGINT/SIGTERM (exit code 3), killed, or cut by a power loss resumes\n" +
 			"where it stopped: run `chord plan -o PLANDIR` (or the same command again).",
 		Flags: append(append([]cli.Flag{
@@ -34,6 +38,7 @@ func planCommand() *cli.Command {
 			&cli.StringFlag{Name: "noise", Usage: "noise levels `PPM,...` (one fit each), or with --transits the one single-transit level"},
 			&cli.StringFlag{Name: "transits", Usage: "numbers of transits `N,...` (one fit each)"},
 			&cli.Uint64Flag{Name: "seed", Usage: "draw Gaussian noise, level i with seed `N`+i (default: noise-free observations)"},
+			&cli.StringFlag{Name: "detect", Usage: "also report at each level the detection by evidence of `GAS,...` (the scenario's fits must be nested sampling; docs/evidence.md)"},
 		}, observingFlags...), stopFlags...),
 		Action: runPlan,
 	}
@@ -55,7 +60,7 @@ func runPlan(c *cli.Context) error {
 		opt.Demo = true
 	}
 	if opt.ScenarioPath == "" && !opt.Demo {
-		if f, ok := firstSet(c, "noise", "transits", "seed", "bins", "wavelength-range", "resolving-power", "noise-file", "steps", "budget", "until-converged"); ok {
+		if f, ok := firstSet(c, "noise", "transits", "seed", "bins", "wavelength-range", "resolving-power", "noise-file", "steps", "budget", "until-converged", "detect"); ok {
 			return fmt.Errorf("plan: --%s without -c or --demo: a plan is resumed as it was asked (its plan.toml); give -c SCENARIO to start a new plan", f)
 		}
 	} else {
@@ -67,6 +72,14 @@ func runPlan(c *cli.Context) error {
 			BinsFile: obs.BinsFile, RangeUm: obs.RangeUm, ResolvingPower: obs.ResolvingPower, NoiseFile: obs.NoiseFile,
 			Scatter: c.IsSet("seed"), NoiseSeed: c.Uint64("seed"),
 			Steps: stop.Steps, Budget: stop.Budget, UntilConverged: stop.UntilConverged,
+		}
+		if c.IsSet("detect") {
+			for _, g := range strings.Split(c.String("detect"), ",") {
+				if g = strings.TrimSpace(g); g == "" {
+					return fmt.Errorf("plan: --detect %q: give gases separated by commas, e.g. H2O,CH4", c.String("detect"))
+				}
+				spec.Detect = append(spec.Detect, strings.TrimSpace(g))
+			}
 		}
 		noise, err := floatList(c.String("noise"))
 		if c.IsSet("noise") && err != nil {
@@ -117,5 +130,8 @@ func runPlan(c *cli.Context) error {
 	}
 	fmt.Fprint(c.App.Writer, rep.Table)
 	fmt.Fprintf(c.App.ErrWriter, "chord plan: comparison.txt, comparison.json and widths.png written to %s\n", rep.Dir)
+	if rep.Detections != nil {
+		fmt.Fprintf(c.App.ErrWriter, "chord plan: detection.txt and detection.json written to %s\n", rep.Dir)
+	}
 	return nil
 }

@@ -61,9 +61,12 @@ func chainRows(t *testing.T, run string) (cols []string, rows []string) {
 			for _, row := range buf[:n] {
 				var b strings.Builder
 				for _, v := range row {
-					if v.Kind() == parquet.Int64 {
+					switch v.Kind() {
+					case parquet.Int64:
 						fmt.Fprintf(&b, "%d ", v.Int64())
-					} else {
+					case parquet.Boolean:
+						fmt.Fprintf(&b, "%v ", v.Boolean())
+					default:
 						fmt.Fprintf(&b, "%x ", math.Float64bits(v.Double()))
 					}
 				}
@@ -119,14 +122,25 @@ func TestKillResumeBinary(t *testing.T) {
 		t.Errorf("columns %s", got)
 	}
 
+	killUntilDone(t, bin, cfg, filepath.Join(dir, "run"), "4", refTime, want)
+}
+
+// killUntilDone starts `chord fit -c cfg -o run` (checkpoints every
+// checkpoint steps or dead points) and kills it, then `chord resume run`
+// with two workers, with SIGKILL at random moments within refTime (the
+// uninterrupted run's duration, so that kills land whether the machine is
+// idle or loaded), sometimes cutting the newest part file short as a lost
+// write would, until the run completes; its chain rows must equal want,
+// bit for bit.
+func killUntilDone(t *testing.T, bin, cfg, run, checkpoint string, refTime time.Duration, want []string) {
+	t.Helper()
 	rng := rand.New(rand.NewPCG(7, 8))
-	run := filepath.Join(dir, "run")
 	kills, truncations := 0, 0
 	const maxKills = 6 // then the run is let finish
 	for attempt := 0; attempt < 40; attempt++ {
-		args := []string{"resume", run, "--workers", "2", "--checkpoint-every", "4"}
+		args := []string{"resume", run, "--workers", "2", "--checkpoint-every", checkpoint}
 		if _, err := os.Stat(filepath.Join(run, "checkpoint")); err != nil {
-			args = []string{"fit", "-c", cfg, "-o", run, "--force", "--checkpoint-every", "4"}
+			args = []string{"fit", "-c", cfg, "-o", run, "--force", "--checkpoint-every", checkpoint}
 		}
 		cmd := exec.Command(bin, args...)
 		var stderr bytes.Buffer
