@@ -4,6 +4,8 @@ import (
 	"bytes"
 	"encoding/json"
 	"math"
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -214,5 +216,29 @@ func TestSummarizeNested(t *testing.T) {
 	}
 	if _, err := Summarize(c, SummaryOptions{Evidence: e, Burn: 10}); err == nil {
 		t.Error("burn-in accepted for equal-weight samples")
+	}
+}
+
+// report.html of a nested run: an Evidence section with ln Z in place of
+// the convergence section and its autocorrelation table.
+func TestReportHTMLNested(t *testing.T) {
+	dir := t.TempDir()
+	s := nestedSummary(-42.25, 0.19, "d", col("T", 500, 10, 20))
+	s.Samples = 1000
+	if err := WriteHTML(dir, s, &RunDetails{}); err != nil {
+		t.Fatal(err)
+	}
+	b, err := os.ReadFile(filepath.Join(dir, HTMLFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	page := string(b)
+	for _, want := range []string{"<h2>Evidence</h2>", "ln Z = -42.25 ± 0.19", "Finished"} {
+		if !strings.Contains(page, want) {
+			t.Errorf("report.html lacks %q", want)
+		}
+	}
+	if strings.Contains(page, "tau (steps)") {
+		t.Error("report.html of a nested run has the autocorrelation table")
 	}
 }
