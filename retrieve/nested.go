@@ -560,10 +560,12 @@ func nestedPosterior(store string, ck *Checkpoint, seed uint64) (*chains.Chain, 
 	return report.EqualWeightSamples(store, ck.Parts, live, seed)
 }
 
-func describeNestedStop(r *config.Resolved) string {
-	s := fmt.Sprintf("until the live points could add less than %g to ln Z", r.EvidenceTol)
-	if r.Stop.Budget > 0 {
-		s += ", or a budget of " + secs(r.Stop.Budget).String()
+// describeNestedStop describes the stopping rule of a nested run with
+// evidence tolerance tol.
+func describeNestedStop(tol float64, stop config.StopRule) string {
+	s := fmt.Sprintf("until the live points could add less than %g to ln Z", tol)
+	if stop.Budget > 0 {
+		s += ", or a budget of " + secs(stop.Budget).String()
 	}
 	return s
 }

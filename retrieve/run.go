@@ -1207,7 +1207,7 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	}
 	j.html = opt.HTML
 	if r.Method == config.MethodNested {
-		fmt.Fprintf(log, "chord: run %s: %d free parameters, nested sampling with %d live points, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.LivePoints, r.Seed, describeNestedStop(r))
+		fmt.Fprintf(log, "chord: run %s: %d free parameters, nested sampling with %d live points, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.LivePoints, r.Seed, describeNestedStop(r.EvidenceTol, r.Stop))
 	} else {
 		fmt.Fprintf(log, "chord: run %s: %d free parameters, %d walkers, seed %d, stopping rule: %s\n", opt.RunDir, j.prob.Dim(), r.Walkers, r.Seed, describeStop(r.Stop))
 	}
@@ -1373,7 +1373,11 @@ func (j *job) restart(ctx context.Context, dir string, opt RunOptions, log io.Wr
 	if opt.Stop == (config.StopRule{}) {
 		opt.Stop = j.res.Stop
 	}
-	fmt.Fprintf(log, "chord: %s stopped before its first checkpoint; starting it again from its seed %d (stopping rule: %s)\n", dir, j.res.Seed, describeStop(opt.Stop))
+	rule := describeStop(opt.Stop)
+	if j.spec.Nested != nil {
+		rule = describeNestedStop(j.res.EvidenceTol, opt.Stop)
+	}
+	fmt.Fprintf(log, "chord: %s stopped before its first checkpoint; starting it again from its seed %d (stopping rule: %s)\n", dir, j.res.Seed, rule)
 	out, err := StartRun(ctx, dir, j.spec, opt)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", dir, err)
