@@ -89,30 +89,12 @@ func startNested(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 // continueNested resumes the nested run in dir from its checkpoint
 // (ContinueRun).
 func continueNested(ctx context.Context, dir string, spec *RunSpec, opt RunOptions) (*RunOutcome, error) {
-	if err := checkSpec(spec); err != nil {
-		return nil, err
-	}
-	ck, err := ReadCheckpoint(filepath.Join(dir, CheckpointFile))
+	ck, parts, stateBytes, recovered, err := openCheckpoint(dir, spec, "the dead points of these iterations")
 	if err != nil {
 		return nil, err
 	}
-	if err := checkOwner(dir, ck, spec); err != nil {
-		return nil, err
-	}
-	out := &RunOutcome{}
+	out := &RunOutcome{Recovered: recovered}
 	store := filepath.Join(dir, chains.DirName)
-	parts, stateBytes := ck.Parts, ck.State
-	if err := chains.CheckParts(store, parts, partMeta(spec)); err != nil {
-		var pe *chains.PartError
-		n := len(parts)
-		if !errors.As(err, &pe) || pe.Index != n-1 || ck.Prev == nil || ck.PrevStep != parts[n-1].FirstStep-1 {
-			return nil, fmt.Errorf("%s: %w; the dead points of these iterations cannot be recovered", dir, err)
-		}
-		// As for the ensemble: resume from the state before the damaged
-		// newest part.
-		parts, stateBytes = parts[:n-1], ck.Prev
-		out.Recovered = true
-	}
 	st := new(sampler.NestedState)
 	if err := st.UnmarshalBinary(stateBytes); err != nil {
 		return nil, fmt.Errorf("%s: sampler state in the checkpoint: %w", dir, err)

@@ -168,31 +168,12 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 	if spec.Nested != nil {
 		return continueNested(ctx, dir, spec, opt)
 	}
-	if err := checkSpec(spec); err != nil {
-		return nil, err
-	}
-	ck, err := ReadCheckpoint(filepath.Join(dir, CheckpointFile))
+	ck, parts, stateBytes, recovered, err := openCheckpoint(dir, spec, "the rows of these steps")
 	if err != nil {
 		return nil, err
 	}
-	if err := checkOwner(dir, ck, spec); err != nil {
-		return nil, err
-	}
-	out := &RunOutcome{}
+	out := &RunOutcome{Recovered: recovered}
 	store := filepath.Join(dir, chains.DirName)
-	parts, stateBytes := ck.Parts, ck.State
-	if err := chains.CheckParts(store, parts, partMeta(spec)); err != nil {
-		var pe *chains.PartError
-		n := len(parts)
-		if !errors.As(err, &pe) || pe.Index != n-1 || ck.Prev == nil || ck.PrevStep != parts[n-1].FirstStep-1 {
-			return nil, fmt.Errorf("%s: %w; the rows of these steps cannot be recovered", dir, err)
-		}
-		// The newest part is damaged: resume from the state before it. The
-		// checkpoint stays as it is until the next one: should this session
-		// stop before that, the next resume recovers the same way.
-		parts, stateBytes = parts[:n-1], ck.Prev
-		out.Recovered = true
-	}
 	st := new(sampler.State)
 	if err := st.UnmarshalBinary(stateBytes); err != nil {
 		return nil, fmt.Errorf("%s: sampler state in the checkpoint: %w", dir, err)
@@ -273,6 +254,37 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 
 // checkOwner refuses a checkpoint that is not the run's: one of another
 // run (copied over it), of another configuration or inputs, or of another
+// openCheckpoint reads and verifies the checkpoint of the run in dir: that
+// it and every chain part belong to spec's run. When only the newest part
+// is damaged and the checkpoint holds the state before it, it returns the
+// parts and state before that part, with recovered set: the run resumes
+// from there. The checkpoint stays as it is until the next one, so should
+// this session stop before that, the next resume recovers the same way.
+// lost names what a damaged part held, for the error.
+func openCheckpoint(dir string, spec *RunSpec, lost string) (ck *Checkpoint, parts []chains.PartInfo, state []byte, recovered bool, err error) {
+	if err := checkSpec(spec); err != nil {
+		return nil, nil, nil, false, err
+	}
+	ck, err = ReadCheckpoint(filepath.Join(dir, CheckpointFile))
+	if err != nil {
+		return nil, nil, nil, false, err
+	}
+	if err := checkOwner(dir, ck, spec); err != nil {
+		return nil, nil, nil, false, err
+	}
+	parts, state = ck.Parts, ck.State
+	store := filepath.Join(dir, chains.DirName)
+	if err := chains.CheckParts(store, parts, partMeta(spec)); err != nil {
+		var pe *chains.PartError
+		n := len(parts)
+		if !errors.As(err, &pe) || pe.Index != n-1 || ck.Prev == nil || ck.PrevStep != parts[n-1].FirstStep-1 {
+			return nil, nil, nil, false, fmt.Errorf("%s: %w; %s cannot be recovered", dir, err, lost)
+		}
+		return ck, parts[:n-1], ck.Prev, true, nil
+	}
+	return ck, parts, state, false, nil
+}
+
 // ensemble shape.
 func checkOwner(dir string, ck *Checkpoint, spec *RunSpec) error {
 	if ck.RunID != spec.RunID {
