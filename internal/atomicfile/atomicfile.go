@@ -81,15 +81,24 @@ func Write(path string, data []byte, replace bool) error {
 	return WriteFS(OS, path, data, replace)
 }
 
-// WriteFS writes data to path through a temporary file in the same
-// directory (TempPattern), which is synced and then moved into place:
-// renamed over path when replace is set; otherwise hard-linked, which
-// fails when path exists, so that a file that appeared since the check is
-// never lost (on file systems without hard links: checked again, then
-// renamed). The directory is then synced. A crash leaves the old file or
-// the complete new one, and at most a stray temporary file. When replace
-// is false and path exists, the error wraps fs.ErrExist.
+// WriteFS writes data to path; see WriteFrom.
 func WriteFS(fsys FS, path string, data []byte, replace bool) error {
+	return WriteFrom(fsys, path, replace, func(w io.Writer) error {
+		_, err := w.Write(data)
+		return err
+	})
+}
+
+// WriteFrom writes what write writes to path through a temporary file in
+// the same directory (TempPattern), which is synced and then moved into
+// place: renamed over path when replace is set; otherwise hard-linked,
+// which fails when path exists, so that a file that appeared since the
+// check is never lost (on file systems without hard links: checked again,
+// then renamed). The directory is then synced. A crash leaves the old file
+// or the complete new one, and at most a stray temporary file; so does an
+// error from write, which removes the temporary file. When replace is
+// false and path exists, the error wraps fs.ErrExist.
+func WriteFrom(fsys FS, path string, replace bool, write func(w io.Writer) error) error {
 	exists := fmt.Errorf("%s exists; not replaced: %w", path, fs.ErrExist)
 	if !replace {
 		if _, err := os.Lstat(path); err == nil {
@@ -102,7 +111,7 @@ func WriteFS(fsys FS, path string, data []byte, replace bool) error {
 		return fmt.Errorf("writing %s: %w", path, err)
 	}
 	tmp := f.Name()
-	_, err = f.Write(data)
+	err = write(f)
 	if err == nil {
 		err = f.Sync()
 	}

@@ -40,6 +40,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"maps"
 	"math"
 	"os"
@@ -52,6 +53,7 @@ import (
 	"github.com/parquet-go/parquet-go/encoding"
 
 	"chord/forward/opacity"
+	"chord/internal/atomicfile"
 )
 
 // SchemaVersion is the version of the table-file schema this package
@@ -351,29 +353,9 @@ func contentChecksum[E float32 | float64](meta map[string]string, axes [][]float
 }
 
 // writeFile writes n rows made by fill to path through a temporary file in
-// the same directory (synced, then renamed or linked into place).
-func writeFile[R any](path string, overwrite bool, meta map[string]string, n int, fill func(dst []R, start int)) (err error) {
-	if !overwrite {
-		if _, err := os.Lstat(path); err == nil {
-			return fmt.Errorf("opacity: %s exists; refusing to overwrite it (ask for overwrite to replace it)", path)
-		}
-	}
-	dir, base := filepath.Split(path)
-	if dir == "" {
-		dir = "."
-	}
-	tmp, err := os.CreateTemp(dir, "."+base+".tmp-*")
-	if err != nil {
-		return fmt.Errorf("opacity: write %s: %w", path, err)
-	}
-	tmpName := tmp.Name()
-	defer func() {
-		if err != nil {
-			tmp.Close()
-			os.Remove(tmpName)
-		}
-	}()
-
+// the same directory, synced and then moved into place without ever
+// replacing a file unless overwrite is set (atomicfile.WriteFrom).
+func writeFile[R any](path string, overwrite bool, meta map[string]string, n int, fill func(dst []R, start int)) error {
 	keys := make([]string, 0, len(meta))
 	for k := range meta {
 		keys = append(keys, k)
@@ -383,53 +365,23 @@ func writeFile[R any](path string, overwrite bool, meta map[string]string, n int
 	for _, k := range keys {
 		opts = append(opts, parquet.KeyValueMetadata(k, meta[k]))
 	}
-	w := parquet.NewGenericWriter[R](tmp, opts...)
-	batch := make([]R, min(n, 8192))
-	for start := 0; start < n; start += len(batch) {
-		b := batch[:min(len(batch), n-start)]
-		fill(b, start)
-		if _, err := w.Write(b); err != nil {
-			return fmt.Errorf("opacity: write %s: %w", path, err)
-		}
-	}
-	if err := w.Close(); err != nil {
-		return fmt.Errorf("opacity: write %s: %w", path, err)
-	}
-	if err := tmp.Chmod(0o644); err != nil {
-		return fmt.Errorf("opacity: write %s: %w", path, err)
-	}
-	if err := tmp.Sync(); err != nil {
-		return fmt.Errorf("opacity: write %s: sync: %w", path, err)
-	}
-	if err := tmp.Close(); err != nil {
-		return fmt.Errorf("opacity: write %s: %w", path, err)
-	}
-	if overwrite {
-		err = os.Rename(tmpName, path)
-	} else {
-		// A hard link does not replace an existing file, so a file that
-		// appeared since the check above is not lost.
-		err = os.Link(tmpName, path)
-		switch {
-		case err == nil:
-			err = os.Remove(tmpName)
-		case errors.Is(err, os.ErrExist):
-			err = fmt.Errorf("%s exists; refusing to overwrite it (ask for overwrite to replace it)", path)
-		default:
-			// No hard links on this file system: check again and rename.
-			if _, serr := os.Lstat(path); serr == nil {
-				err = fmt.Errorf("%s exists; refusing to overwrite it (ask for overwrite to replace it)", path)
-			} else {
-				err = os.Rename(tmpName, path)
+	err := atomicfile.WriteFrom(atomicfile.OS, path, overwrite, func(f io.Writer) error {
+		w := parquet.NewGenericWriter[R](f, opts...)
+		batch := make([]R, min(n, 8192))
+		for start := 0; start < n; start += len(batch) {
+			b := batch[:min(len(batch), n-start)]
+			fill(b, start)
+			if _, err := w.Write(b); err != nil {
+				return err
 			}
 		}
+		return w.Close()
+	})
+	if errors.Is(err, fs.ErrExist) && !overwrite {
+		return fmt.Errorf("opacity: %s exists; refusing to overwrite it (ask for overwrite to replace it)", path)
 	}
 	if err != nil {
-		return fmt.Errorf("opacity: write %s: %w", path, err)
-	}
-	if d, derr := os.Open(dir); derr == nil {
-		d.Sync() // make the rename durable; not all file systems support it
-		d.Close()
+		return fmt.Errorf("opacity: %w", err)
 	}
 	return nil
 }
