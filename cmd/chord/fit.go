@@ -23,9 +23,9 @@ import (
 var stopFlags = []cli.Flag{
 	&cli.IntFlag{Name: "steps", Usage: "stop when the chain holds `N` steps in total"},
 	&cli.DurationFlag{Name: "budget", Usage: "stop when the run has sampled for `DURATION` in total (e.g. 8h, 90m)"},
-	&cli.BoolFlag{Name: "until-converged", Usage: fmt.Sprintf("stop when the chain is longer than %g autocorrelation times, tau stable to %g%%", sampler.DefaultConvergedTaus, 100*sampler.DefaultTauRelChange)},
-	&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior (default: the configuration's, else one per core)"},
-	&cli.IntFlag{Name: "checkpoint-every", Usage: "write a checkpoint every `N` steps (default: about one a minute)"},
+	&cli.BoolFlag{Name: "until-converged", Usage: fmt.Sprintf("stop when the chain is longer than %g autocorrelation times, tau stable to %g%% (the rule when neither a flag nor the configuration gives one)", sampler.DefaultConvergedTaus, 100*sampler.DefaultTauRelChange)},
+	&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior", DefaultText: "the configuration's, else one per core"},
+	&cli.IntFlag{Name: "checkpoint-every", Usage: "write a checkpoint every `N` steps", DefaultText: "about one a minute"},
 	&cli.BoolFlag{Name: "html", Usage: "also write report.html, the whole report on one self-contained page"},
 }
 
@@ -47,9 +47,9 @@ func fitCommand() *cli.Command {
 		Flags: append([]cli.Flag{
 			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "retrieval configuration `FILE` (TOML)", Required: true},
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "run `DIR` to create (must be empty or absent)", Required: true},
-			&cli.Uint64Flag{Name: "seed", Usage: "random seed `N` (default: the configuration's, else a fresh one, recorded)"},
+			&cli.Uint64Flag{Name: "seed", Usage: "random seed `N`", DefaultText: "the configuration's, else a fresh one, recorded"},
 			&cli.BoolFlag{Name: "force", Usage: "replace the chord run in DIR (only a directory with a run.toml; only chord's files are removed)"},
-			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+			demoCacheFlag(),
 			&cli.StringFlag{Name: "truth", Usage: "scenario or model configuration `FILE` the observation was simulated from (its values are marked in the plots)"},
 			&cli.StringSliceFlag{Name: "without", Usage: "fit the reduced model: hold `GAS`'s log10 mixing ratio at its prior's lower edge (repeatable; compare the evidences with chord compare, or use chord detect)"},
 		}, stopFlags...),

@@ -15,32 +15,27 @@ import (
 	"chord/forward/opacity/tablefile"
 )
 
-// opacityCommand is "chord opacity", the parent of the opacity-table
-// subcommands. A subcommand in another file adds itself in that file's init:
-//
-//	func init() {
-//		opacityCommand.Subcommands = append(opacityCommand.Subcommands, opacityBuildCommand)
-//	}
-//
-// Package-level variables are initialised before any init function runs, so
-// this works whatever the order of the files.
-var opacityCommand = &cli.Command{
-	Name:        "opacity",
-	Usage:       "build and inspect opacity table files",
-	Subcommands: []*cli.Command{opacityInfoCommand},
+// opacityCommand returns "chord opacity", the parent of the opacity-table
+// subcommands.
+func opacityCommand() *cli.Command {
+	return &cli.Command{
+		Name:        "opacity",
+		Usage:       "build and inspect opacity table files",
+		Subcommands: []*cli.Command{opacityBuildCommand(), opacityInfoCommand()},
+	}
 }
 
-var opacityInfoCommand = &cli.Command{
-	Name:      "info",
-	Usage:     "describe an opacity table file: axes, ranges, units, provenance, size",
-	ArgsUsage: "FILE",
-	Description: "Reads and checks a table file (schema, every row, content checksum) and prints what it\n" +
-		"holds. Demo tables are labelled \"demo, not for science\".",
-	Action: runOpacityInfo,
-}
-
-func init() {
-	commands = append(commands, opacityCommand)
+// opacityInfoCommand returns "chord opacity info".
+func opacityInfoCommand() *cli.Command {
+	return &cli.Command{
+		Name:      "info",
+		Usage:     "describe an opacity table file: axes, ranges, units, provenance, size",
+		ArgsUsage: "FILE",
+		Description: "Reads and checks a table file (schema, every row, content checksum) and prints what it\n" +
+			"holds in the units of chord's inputs (bar, K, cm^-1 and um, cm^2 per molecule); the file\n" +
+			"itself stores SI units. Demo tables are labelled \"demo, not for science\".",
+		Action: runOpacityInfo,
+	}
 }
 
 func runOpacityInfo(c *cli.Context) error {

@@ -18,7 +18,7 @@ func runChord(t *testing.T, args ...string) (string, error) {
 	app := newApp()
 	var out, errOut bytes.Buffer
 	app.Writer, app.ErrWriter = &out, &errOut
-	err := app.Run(append([]string{"chord"}, args...))
+	err := runApp(app, append([]string{"chord"}, args...))
 	return out.String(), err
 }
 

@@ -34,14 +34,14 @@ func spectrumCommand() *cli.Command {
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "CSV `FILE` to write (\"-\" for standard output)", Required: true},
 			&cli.StringFlag{Name: "plot", Usage: "also draw the spectrum to `FILE`.png (and FILE.svg)"},
 			&cli.StringFlag{Name: "by-gas", Usage: "also draw the spectrum with each gas removed in turn to `FILE`.png (and FILE.svg)"},
-			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+			demoCacheFlag(),
 			&cli.StringSliceFlag{Name: "resolved", Usage: "compute the spectrum line by line instead (the reference the k-tables are checked against) from the line list of each gas, `GAS=FILE[,FILE...]`; repeatable, one per absorbing gas; needs [spectrum] bins"},
-			&cli.Float64Flag{Name: "fine-resolution", Value: 1e6, Usage: "with --resolved: resolving power nu/dnu of the fine grid"},
+			&cli.Float64Flag{Name: "fine-resolving-power", Value: 1e6, Usage: "with --resolved: resolving power nu/dnu of the fine grid"},
 			&cli.StringFlag{Name: "molparam", Usage: "with --resolved: HITRAN molparam `FILE` (isotopologue masses, abundances, Q(296 K))"},
 			&cli.StringFlag{Name: "tips", Usage: "with --resolved: TIPS partition-sum table `FILE`"},
 			&cli.StringSliceFlag{Name: "partition", Usage: "with --resolved: two-column partition-sum file of one isotopologue, `[MOL/ISO=]FILE`; repeatable, the newest edition per isotopologue is used"},
 			&cli.StringFlag{Name: "mixture", Usage: "with --resolved: broadening gas mixture `GAS:FRACTION,...` (air, H2, He, CO2, H2O; default air)"},
-			&cli.IntFlag{Name: "workers", Usage: "with --resolved: goroutines (default: the number of CPUs)"},
+			&cli.IntFlag{Name: "workers", Usage: "with --resolved: goroutines", DefaultText: "the number of CPUs"},
 		},
 		Action: runSpectrum,
 	}
@@ -59,7 +59,7 @@ func runSpectrum(c *cli.Context) error {
 	if c.IsSet("resolved") {
 		return runSpectrumResolved(c, cfgPath, cfg)
 	}
-	for _, f := range []string{"molparam", "tips", "partition", "mixture", "fine-resolution", "workers"} {
+	for _, f := range []string{"molparam", "tips", "partition", "mixture", "fine-resolving-power", "workers"} {
 		if c.IsSet(f) {
 			return fmt.Errorf("spectrum: --%s goes with --resolved", f)
 		}
@@ -245,7 +245,7 @@ func runSpectrumResolved(c *cli.Context, cfgPath string, cfg *config.ModelConfig
 		fmt.Fprintf(c.App.ErrWriter, "chord spectrum: %s: %d lines\n", gas, ls.Lines())
 	}
 	depth := make([]float64, m.OutputLen())
-	opt := forward.ResolvedOptions{R: c.Float64("fine-resolution"), Workers: c.Int("workers")}
+	opt := forward.ResolvedOptions{R: c.Float64("fine-resolving-power"), Workers: c.Int("workers")}
 	if err := m.TransitResolved(depth, &st, srcs, opt); err != nil {
 		return fmt.Errorf("%s: %w", cfgPath, err)
 	}

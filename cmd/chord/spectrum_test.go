@@ -17,7 +17,7 @@ func runSpectrumCmd(t *testing.T, args ...string) (string, string, error) {
 	app := newApp()
 	var out, errOut bytes.Buffer
 	app.Writer, app.ErrWriter = &out, &errOut
-	err := app.Run(append([]string{"chord", "spectrum"}, args...))
+	err := runApp(app, append([]string{"chord", "spectrum"}, args...))
 	return out.String(), errOut.String(), err
 }
 
