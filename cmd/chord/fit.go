@@ -19,12 +19,16 @@ import (
 	"chord/simulate"
 )
 
-// stopFlags are the stopping-rule options shared by fit and resume.
+// stopFlags are the stopping-rule options shared by fit, resume and plan.
 var stopFlags = []cli.Flag{
 	&cli.IntFlag{Name: "steps", Usage: "stop when the chain holds `N` steps in total"},
 	&cli.DurationFlag{Name: "budget", Usage: "stop when the run has sampled for `DURATION` in total (e.g. 8h, 90m)"},
 	&cli.BoolFlag{Name: "until-converged", Usage: fmt.Sprintf("stop when the chain is longer than %g autocorrelation times, tau stable to %g%% (the rule when neither a flag nor the configuration gives one)", sampler.DefaultConvergedTaus, 100*sampler.DefaultTauRelChange)},
-	&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior", DefaultText: "the configuration's, else one per core"},
+}
+
+// runFlags are the options of a run's session shared by fit and resume.
+var runFlags = []cli.Flag{
+	workersFlag(),
 	&cli.IntFlag{Name: "checkpoint-every", Usage: "write a checkpoint every `N` steps", DefaultText: "about one a minute"},
 	&cli.BoolFlag{Name: "html", Usage: "also write report.html, the whole report on one self-contained page"},
 }
@@ -52,9 +56,14 @@ func fitCommand() *cli.Command {
 			demoCacheFlag(),
 			&cli.StringFlag{Name: "truth", Usage: "scenario or model configuration `FILE` the observation was simulated from (its values are marked in the plots)"},
 			&cli.StringSliceFlag{Name: "without", Usage: "fit the reduced model: hold `GAS`'s log10 mixing ratio at its prior's lower edge (repeatable; compare the evidences with chord compare, or use chord detect)"},
-		}, stopFlags...),
+		}, append(stopFlags, runFlags...)...),
 		Action: runFit,
 	}
+}
+
+// workersFlag is --workers of the commands that fit.
+func workersFlag() cli.Flag {
+	return &cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior", DefaultText: "the configuration's, else one per core"}
 }
 
 // stopRule reads the stopping-rule flags; the zero rule means "not given".

@@ -39,6 +39,7 @@ func planCommand() *cli.Command {
 			&cli.StringFlag{Name: "transits", Usage: "numbers of transits `N,...` (one fit each)"},
 			&cli.Uint64Flag{Name: "noise-seed", Usage: "draw Gaussian noise, level i with seed `N`+i", DefaultText: "noise-free observations"},
 			&cli.StringFlag{Name: "detect", Usage: "also report at each level the detection by evidence of `GAS,...` (the scenario's fits must be nested sampling; docs/evidence.md)"},
+			workersFlag(),
 		}, observingFlags...), stopFlags...),
 		Action: runPlan,
 	}

@@ -23,7 +23,7 @@ func resumeCommand() *cli.Command {
 			"directory is locked while resume runs (docs/runs.md).",
 		Flags: append([]cli.Flag{
 			demoCacheFlag(),
-		}, stopFlags...),
+		}, append(stopFlags, runFlags...)...),
 		Action: runResume,
 	}
 }

@@ -27,11 +27,15 @@ func spectrumCommand() *cli.Command {
 		Usage:     "compute one transmission spectrum from a model configuration",
 		ArgsUsage: " ",
 		Description: "Reads the [star], [planet], [atmosphere], [clouds], [opacity] and [spectrum]\n" +
-			"sections of a TOML file and writes the transit depth as CSV (wavelength_um, depth,\n" +
-			"and bin_lo_um, bin_hi_um when the spectrum is binned). Lines starting with # are comments.",
+			"sections of a TOML file and writes the transit depth as CSV. A binned spectrum is written\n" +
+			"as an observation file (edge_low_um, edge_high_um, depth_ppm, and error_ppm with\n" +
+			"--error-ppm), which chord fit reads as an observation and chord simulate and opacity\n" +
+			"build as a bins or noise file; an unbinned one as wavelength_um, depth_ppm. Lines\n" +
+			"starting with # are comments.",
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "model configuration `FILE` (TOML)", Required: true},
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "CSV `FILE` to write (\"-\" for standard output)", Required: true},
+			&cli.Float64Flag{Name: "error-ppm", Usage: "state the error of every bin, `PPM` of transit depth, in an error_ppm column (binned spectra only)"},
 			&cli.StringFlag{Name: "plot", Usage: "also draw the spectrum to `FILE`.png (and FILE.svg)"},
 			&cli.StringFlag{Name: "by-gas", Usage: "also draw the spectrum with each gas removed in turn to `FILE`.png (and FILE.svg)"},
 			demoCacheFlag(),
@@ -124,7 +128,10 @@ func writeSpectrum(c *cli.Context, cfg *config.ModelConfig, demo bool, wl, depth
 	if title == "" {
 		title = "model spectrum"
 	}
-	spec := &report.ModelSpectrum{Title: title, Demo: demo, Wavelength: wl, Depth: depth, Lo: lo, Hi: hi}
+	spec := &report.ModelSpectrum{Title: title, Demo: demo, Wavelength: wl, Depth: depth, Lo: lo, Hi: hi, ErrorPPM: c.Float64("error-ppm")}
+	if c.IsSet("error-ppm") && !(spec.ErrorPPM > 0 && spec.ErrorPPM < 1e6) {
+		return fmt.Errorf("spectrum: --error-ppm %g: must be positive, below 1e6 ppm", spec.ErrorPPM)
+	}
 	if err := writeSpectrumCSV(c, c.String("output"), spec); err != nil {
 		return err
 	}
