@@ -44,13 +44,17 @@ func fitCommand() *cli.Command {
 			"and the plots (spectrum, temperature, gases, traces, corner; PNG and SVG) to the run\n" +
 			"directory. --truth names the scenario an observation was simulated from, so that the\n" +
 			"plots mark the true values. Progress goes to stderr.\n" +
+			"--check stops after the validation, writing nothing. A configuration without a stopping\n" +
+			"rule samples until converged, which may take days for a slow posterior: bound it with\n" +
+			"--budget or --steps.\n" +
 			"SIGINT or SIGTERM stops at the next safe point (during sampling: the current step is\n" +
 			"finished and a checkpoint written) and exits with code 3; continue with\n" +
 			"`chord resume RUNDIR`. A second signal stops at once. The run directory is locked\n" +
 			"while the fit runs (docs/runs.md).",
 		Flags: append([]cli.Flag{
 			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "retrieval configuration `FILE` (TOML)", Required: true},
-			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "run `DIR` to create (must be empty or absent)", Required: true},
+			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "run `DIR` to create (must be empty or absent); required unless --check"},
+			&cli.BoolFlag{Name: "check", Usage: "only check: load the configuration, observations, opacity tables and priors, build the problem, evaluate the posterior once at a draw from the prior, say what was checked and stop; nothing is written"},
 			&cli.Uint64Flag{Name: "seed", Usage: "random seed `N`", DefaultText: "the configuration's, else a fresh one, recorded"},
 			&cli.BoolFlag{Name: "force", Usage: "replace the chord run in DIR (only a directory with a run.toml; only chord's files are removed)"},
 			demoCacheFlag(),
@@ -136,6 +140,13 @@ func runFit(c *cli.Context) error {
 	stop, err := stopRule(c)
 	if err != nil {
 		return err
+	}
+	unboundedWarning(c.App.ErrWriter, c.String("config"), stop != (config.StopRule{}))
+	if c.Bool("check") {
+		return checkFit(c, stop)
+	}
+	if c.String("output") == "" {
+		return errors.New("fit: give the run directory with -o DIR (or --check to check the configuration only)")
 	}
 	ctx, cancel, prog := session(c)
 	defer cancel()
