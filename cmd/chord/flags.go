@@ -75,7 +75,7 @@ func flagHelp(f cli.Flag) string {
 		names = append(names, s)
 	}
 	line := strings.Join(names, ", ")
-	if s, ok := f.(cli.DocGenerationSliceFlag); ok && s.IsSliceFlag() && !strings.Contains(usage, "repeatable") {
+	if s, ok := f.(cli.DocGenerationSliceFlag); ok && s.IsSliceFlag() && !strings.Contains(usage, "repeat") {
 		usage += " (repeatable)"
 	}
 	if def := shownDefault(d); def != "" {
@@ -93,6 +93,9 @@ func shownDefault(d cli.DocGenerationFlag) string {
 	case "", "0", "0s", `""`, "[]":
 		return ""
 	default:
+		if u, err := strconv.Unquote(t); err == nil && strings.HasPrefix(t, `"`) {
+			return u // a string's default, without Go's quotes
+		}
 		return t
 	}
 }
