@@ -5,7 +5,6 @@ import (
 	"io"
 	"math"
 	"math/rand/v2"
-	"os"
 	"path/filepath"
 	"strings"
 	"time"
@@ -18,25 +17,6 @@ import (
 	"chord/sampler"
 )
 
-// decodeFit decodes the retrieval configuration at path and applies
-// --without, as chord fit does, without resolving it.
-func decodeFit(path string, without []string) (*config.Config, error) {
-	text, err := os.ReadFile(path)
-	if err != nil {
-		return nil, fmt.Errorf("configuration: %w", err)
-	}
-	c, err := config.Decode(string(text), path, filepath.Dir(path))
-	if err != nil {
-		return nil, err
-	}
-	if len(without) > 0 {
-		if err := c.Without(without); err != nil {
-			return nil, config.InFile(path, err)
-		}
-	}
-	return c, nil
-}
-
 // unboundedWarning warns, when neither a flag nor the configuration at
 // path gives a stopping rule, that an ensemble run then goes on until
 // converged, which has no bound in time. A configuration that does not
@@ -45,7 +25,7 @@ func unboundedWarning(w io.Writer, path string, flagGiven bool) {
 	if flagGiven {
 		return
 	}
-	c, err := decodeFit(path, nil)
+	c, err := retrieve.DecodeConfig(path, nil)
 	if err != nil {
 		return
 	}
@@ -66,7 +46,7 @@ func unboundedWarning(w io.Writer, path string, flagGiven bool) {
 // Nothing is written.
 func checkFit(c *cli.Context, stop config.StopRule) error {
 	path := c.String("config")
-	cfg, err := decodeFit(path, c.StringSlice("without"))
+	cfg, err := retrieve.DecodeConfig(path, c.StringSlice("without"))
 	if err != nil {
 		return err
 	}
