@@ -304,7 +304,7 @@ func TestInterruptAtStartup(t *testing.T) {
 	if d := time.Since(t0); d > 5*time.Second {
 		t.Errorf("SIGINT at start-up took %v", d)
 	}
-	if !strings.Contains(f.stderr.String(), "interrupted while the starting point and initial walkers were being found") || !strings.Contains(f.stderr.String(), "chord resume "+run) {
+	if !strings.Contains(f.stderr.String(), "interrupted while the starting point and initial walkers (or live points) were being made") || !strings.Contains(f.stderr.String(), "chord resume "+run) {
 		t.Errorf("stderr:\n%s", f.stderr.String())
 	}
 	if _, err := os.Stat(filepath.Join(run, retrieve.CheckpointFile)); err == nil {
