@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"io"
+	"os"
 	"slices"
 	"strings"
 
@@ -12,7 +13,11 @@ import (
 // runApp runs the command line argv (argv[0] is the program) through
 // app after normalizeArgs. main and the tests run chord this way.
 func runApp(app *cli.App, argv []string) error {
-	return app.Run(normalizeArgs(app, argv, app.ErrWriter))
+	var warn io.Writer = os.Stderr
+	if app.ErrWriter != nil {
+		warn = app.ErrWriter
+	}
+	return app.Run(normalizeArgs(app, argv, warn))
 }
 
 // normalizeArgs lets options go anywhere on the line, for every command

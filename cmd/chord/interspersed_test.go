@@ -175,6 +175,17 @@ func TestRenamedFlags(t *testing.T) {
 			t.Errorf("%s: no warning (%q)", tc.in, warn.String())
 		}
 	}
+	// Through runApp, as main runs chord, the warning goes to the app's
+	// standard error.
+	app = newApp()
+	var out bytes.Buffer
+	app.Writer, app.ErrWriter = &out, &out
+	if err := runApp(app, []string{"chord", "grid", "resubmit", "no-such-grid", "--mem", "4G"}); err == nil {
+		t.Error("resubmit of no grid: no error")
+	}
+	if !strings.Contains(out.String(), "--mem is now --memory") {
+		t.Errorf("no warning through runApp: %q", out.String())
+	}
 	// Every renamed flag's new name exists on its command, and its old
 	// name no longer does.
 	for _, r := range renamedFlags {

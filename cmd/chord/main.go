@@ -31,10 +31,12 @@ func newApp() *cli.App {
 	}
 	cli.FlagStringer = flagHelp
 	app := &cli.App{
-		Name:     "chord",
-		Usage:    "retrieve exoplanet atmospheres from transmission spectra",
-		Commands: cmds,
-		Action:   subcommands(nil),
+		Name:      "chord",
+		Usage:     "retrieve exoplanet atmospheres from transmission spectra",
+		Commands:  cmds,
+		Action:    subcommands(nil),
+		Writer:    os.Stdout,
+		ErrWriter: os.Stderr,
 		// Errors are printed once, by main.
 		ExitErrHandler: func(*cli.Context, error) {},
 	}
