@@ -541,7 +541,7 @@ func (p *PlanSpec) fields() []planField {
 		val("noise levels (ppm)", p.NoisePPM), val("numbers of transits", p.Transits),
 		file("bins file", p.BinsFile), val("wavelength range (um)", p.RangeUm), val("resolving power", p.ResolvingPower),
 		file("noise file", p.NoiseFile), val("single-transit noise (ppm)", p.SingleNoisePPM),
-		val("Gaussian noise (--seed)", p.Scatter), val("noise seed", p.NoiseSeed),
+		val("Gaussian noise (--noise-seed)", p.Scatter), val("noise seed", p.NoiseSeed),
 		val("step count", p.Steps), val("budget (s)", p.Budget), val("until-converged rule", p.UntilConverged),
 	}
 }

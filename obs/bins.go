@@ -8,6 +8,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -18,7 +19,10 @@ import (
 // per bin, from a table: CSV or whitespace-separated (a comma in the
 // header means CSV), '#' comments, a header naming the columns
 // edge_low_um and edge_high_um, or wavelength_um and width_um (the _nm
-// forms too), and optionally error_ppm. Errors name the file and line.
+// forms too), and optionally error_ppm; an observation's depth column
+// (depthColumns) is allowed and ignored, so that an observation or a
+// chord spectrum file serves as a bins file. Errors name the file and
+// line.
 // errPPM is nil when the file has no error column.
 func ReadBins(path string) (bins forward.Bins, errPPM []float64, err error) {
 	f, err := os.Open(path)
@@ -28,6 +32,10 @@ func ReadBins(path string) (bins forward.Bins, errPPM []float64, err error) {
 	defer f.Close()
 	return parseBins(f, path)
 }
+
+// depthColumns are the depth columns of an observation file that a bins
+// file may carry (ignored).
+var depthColumns = []string{"depth", "depth_ppm", "depth_percent", "radius_ratio"}
 
 func parseBins(r io.Reader, path string) (forward.Bins, []float64, error) {
 	data, err := io.ReadAll(io.LimitReader(r, maxFileSize+1))
@@ -39,6 +47,7 @@ func parseBins(r io.Reader, path string) (forward.Bins, []float64, error) {
 	}
 	sc := bufio.NewScanner(bytes.NewReader(data))
 	var cols map[string]int
+	var ncols int
 	var csv bool
 	var lo, hi, errs []float64
 	unit := map[string]float64{}
@@ -53,7 +62,9 @@ func parseBins(r io.Reader, path string) (forward.Bins, []float64, error) {
 		if cols == nil {
 			csv = strings.Contains(text, ",")
 			cols = map[string]int{}
-			for i, name := range splitFields(text, csv) {
+			names := splitFields(text, csv)
+			ncols = len(names)
+			for i, name := range names {
 				base, u := name, 1.0
 				switch {
 				case name == "error_ppm":
@@ -66,6 +77,11 @@ func parseBins(r io.Reader, path string) (forward.Bins, []float64, error) {
 				}
 				switch base {
 				case "edge_low", "edge_high", "wavelength", "width", "error_ppm":
+				case "":
+					if slices.Contains(depthColumns, name) {
+						continue // an observation's depth, not needed for bins
+					}
+					fallthrough
 				default:
 					return forward.Bins{}, nil, fmt.Errorf("%s: unknown column %q (edge_low_um and edge_high_um, or wavelength_um and width_um; _nm also; optional error_ppm)", where, name)
 				}
@@ -84,8 +100,8 @@ func parseBins(r io.Reader, path string) (forward.Bins, []float64, error) {
 			continue
 		}
 		fields := splitFields(text, csv)
-		if len(fields) != len(cols) {
-			return forward.Bins{}, nil, fmt.Errorf("%s: %d fields, the header names %d", where, len(fields), len(cols))
+		if len(fields) != ncols {
+			return forward.Bins{}, nil, fmt.Errorf("%s: %d fields, the header names %d", where, len(fields), ncols)
 		}
 		v := map[string]float64{}
 		for name, i := range cols {

@@ -18,28 +18,44 @@ type ModelSpectrum struct {
 	Wavelength []float64 // m: the model grid, or the bin centres
 	Depth      []float64 // transit depth, fraction of the stellar disc
 	Lo, Hi     []float64 // bin edges, m; nil for an unbinned spectrum
+	// ErrorPPM, when positive, is the error stated for every bin, ppm,
+	// written as the error_ppm column (binned spectra only).
+	ErrorPPM float64
 }
 
 // WriteCSV writes the spectrum as CSV: '#' comment lines (program,
-// title, a demo warning), then wavelength_um and depth, with bin_lo_um and
-// bin_hi_um for a binned spectrum; values to 10 significant digits.
+// title, a demo warning), then, for a binned spectrum, the layout of an
+// observation file: edge_low_um, edge_high_um, depth_ppm, and error_ppm
+// when an error is stated (so that chord fit reads it as an observation,
+// and chord simulate and opacity build as a bins or noise file); for an
+// unbinned one wavelength_um and depth_ppm. Values to 10 significant
+// digits.
 func (s *ModelSpectrum) WriteCSV(w io.Writer) error {
+	if s.ErrorPPM > 0 && s.Lo == nil {
+		return fmt.Errorf("spectrum: an error per bin (%g ppm) needs bins; the model grid has none", s.ErrorPPM)
+	}
 	bw := bufio.NewWriter(w)
-	fmt.Fprintf(bw, "# chord %s spectrum: %s; depth is the transit depth (fraction of the stellar disc)\n", version.Version, s.Title)
+	fmt.Fprintf(bw, "# chord %s spectrum: %s; depth_ppm is the transit depth in parts per million of the stellar disc\n", version.Version, s.Title)
 	if s.Demo {
 		fmt.Fprintln(bw, "# demo opacity tables: not for science")
 	}
-	if s.Lo != nil {
-		fmt.Fprintln(bw, "wavelength_um,depth,bin_lo_um,bin_hi_um")
-	} else {
-		fmt.Fprintln(bw, "wavelength_um,depth")
-	}
 	g := func(v float64) string { return strconv.FormatFloat(v, 'g', 10, 64) }
+	switch {
+	case s.Lo == nil:
+		fmt.Fprintln(bw, "wavelength_um,depth_ppm")
+	case s.ErrorPPM > 0:
+		fmt.Fprintln(bw, "edge_low_um,edge_high_um,depth_ppm,error_ppm")
+	default:
+		fmt.Fprintln(bw, "edge_low_um,edge_high_um,depth_ppm")
+	}
 	for i := range s.Depth {
-		if s.Lo != nil {
-			fmt.Fprintf(bw, "%s,%s,%s,%s\n", g(s.Wavelength[i]/forward.Micron), g(s.Depth[i]), g(s.Lo[i]/forward.Micron), g(s.Hi[i]/forward.Micron))
-		} else {
-			fmt.Fprintf(bw, "%s,%s\n", g(s.Wavelength[i]/forward.Micron), g(s.Depth[i]))
+		switch {
+		case s.Lo == nil:
+			fmt.Fprintf(bw, "%s,%s\n", g(s.Wavelength[i]/forward.Micron), g(s.Depth[i]*1e6))
+		case s.ErrorPPM > 0:
+			fmt.Fprintf(bw, "%s,%s,%s,%s\n", g(s.Lo[i]/forward.Micron), g(s.Hi[i]/forward.Micron), g(s.Depth[i]*1e6), g(s.ErrorPPM))
+		default:
+			fmt.Fprintf(bw, "%s,%s,%s\n", g(s.Lo[i]/forward.Micron), g(s.Hi[i]/forward.Micron), g(s.Depth[i]*1e6))
 		}
 	}
 	return bw.Flush()

@@ -552,12 +552,10 @@ func describeNestedStop(tol float64, stop config.StopRule) string {
 	return s
 }
 
-// loadConfig loads the retrieval configuration at path, made the reduced
-// model without the gases named (config.Config.Without) when there are any.
-func loadConfig(path string, without []string) (*config.Resolved, error) {
-	if len(without) == 0 {
-		return config.Load(path)
-	}
+// DecodeConfig reads and decodes the retrieval configuration at path,
+// unresolved, with the gases of without held absent (config.Config.Without,
+// the reduced model of fit --without): what Fit resolves.
+func DecodeConfig(path string, without []string) (*config.Config, error) {
 	text, err := os.ReadFile(path)
 	if err != nil {
 		return nil, fmt.Errorf("configuration: %w", err)
@@ -566,8 +564,23 @@ func loadConfig(path string, without []string) (*config.Resolved, error) {
 	if err != nil {
 		return nil, err
 	}
-	if err := c.Without(without); err != nil {
-		return nil, config.InFile(path, err)
+	if len(without) > 0 {
+		if err := c.Without(without); err != nil {
+			return nil, config.InFile(path, err)
+		}
+	}
+	return c, nil
+}
+
+// loadConfig loads the retrieval configuration at path, made the reduced
+// model without the gases named (config.Config.Without) when there are any.
+func loadConfig(path string, without []string) (*config.Resolved, error) {
+	if len(without) == 0 {
+		return config.Load(path)
+	}
+	c, err := DecodeConfig(path, without)
+	if err != nil {
+		return nil, err
 	}
 	r, err := c.Resolve()
 	if err != nil {

@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"io/fs"
 	"path/filepath"
-	"strings"
 
 	"chord/campaign"
 
@@ -37,11 +36,6 @@ func compareCommand() *cli.Command {
 func runCompare(c *cli.Context) error {
 	if c.NArg() == 0 {
 		return fmt.Errorf("compare: give at least one run directory")
-	}
-	for _, a := range c.Args().Slice() {
-		if strings.HasPrefix(a, "-") {
-			return fmt.Errorf("compare: %q after the run directories: give the options first (chord compare --plot w.png RUNDIR...)", a)
-		}
 	}
 	for _, flag := range []string{"plot", "marginals"} {
 		if p := c.String(flag); p != "" && filepath.Ext(p) != ".png" {

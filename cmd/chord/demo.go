@@ -23,9 +23,9 @@ func demoCommand() *cli.Command {
 			"configuration and observation file are left in DIR, ready for `chord fit -c`.",
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Value: "chord-demo", Usage: "`DIR` for the configuration, observation and run directory"},
-			&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior (default: one per core)"},
+			&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior", DefaultText: "one per core"},
 			&cli.BoolFlag{Name: "force", Usage: "replace an earlier demo in DIR"},
-			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+			demoCacheFlag(),
 			&cli.BoolFlag{Name: "no-html", Usage: "do not write report.html"},
 		},
 		Action: runDemo,

@@ -30,8 +30,8 @@ func detectCommand() *cli.Command {
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "detection `DIR`", Required: true},
 			&cli.StringSliceFlag{Name: "gas", Usage: "test `GAS` (repeatable; default: every gas with a free log10 mixing ratio of uniform prior)"},
 			&cli.DurationFlag{Name: "budget", Usage: "stop each run when it has sampled for `DURATION` in total (it then gives an estimate of ln Z; resume to finish)"},
-			&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the likelihood (default: the configuration's, else one per core; the runs do not depend on it)"},
-			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+			&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the likelihood", DefaultText: "the configuration's, else one per core; the runs do not depend on it"},
+			demoCacheFlag(),
 		},
 		Action: runDetect,
 	}

@@ -19,13 +19,17 @@ import (
 	"chord/simulate"
 )
 
-// stopFlags are the stopping-rule options shared by fit and resume.
+// stopFlags are the stopping-rule options shared by fit, resume and plan.
 var stopFlags = []cli.Flag{
 	&cli.IntFlag{Name: "steps", Usage: "stop when the chain holds `N` steps in total"},
 	&cli.DurationFlag{Name: "budget", Usage: "stop when the run has sampled for `DURATION` in total (e.g. 8h, 90m)"},
-	&cli.BoolFlag{Name: "until-converged", Usage: fmt.Sprintf("stop when the chain is longer than %g autocorrelation times, tau stable to %g%%", sampler.DefaultConvergedTaus, 100*sampler.DefaultTauRelChange)},
-	&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior (default: the configuration's, else one per core)"},
-	&cli.IntFlag{Name: "checkpoint-every", Usage: "write a checkpoint every `N` steps (default: about one a minute)"},
+	&cli.BoolFlag{Name: "until-converged", Usage: fmt.Sprintf("stop when the chain is longer than %g autocorrelation times, tau stable to %g%% (the rule when neither a flag nor the configuration gives one)", sampler.DefaultConvergedTaus, 100*sampler.DefaultTauRelChange)},
+}
+
+// runFlags are the options of a run's session shared by fit and resume.
+var runFlags = []cli.Flag{
+	workersFlag(),
+	&cli.IntFlag{Name: "checkpoint-every", Usage: "write a checkpoint every `N` steps", DefaultText: "about one a minute"},
 	&cli.BoolFlag{Name: "html", Usage: "also write report.html, the whole report on one self-contained page"},
 }
 
@@ -40,21 +44,30 @@ func fitCommand() *cli.Command {
 			"and the plots (spectrum, temperature, gases, traces, corner; PNG and SVG) to the run\n" +
 			"directory. --truth names the scenario an observation was simulated from, so that the\n" +
 			"plots mark the true values. Progress goes to stderr.\n" +
+			"--check stops after the validation, writing nothing. A configuration without a stopping\n" +
+			"rule samples until converged, which may take days for a slow posterior: bound it with\n" +
+			"--budget or --steps.\n" +
 			"SIGINT or SIGTERM stops at the next safe point (during sampling: the current step is\n" +
 			"finished and a checkpoint written) and exits with code 3; continue with\n" +
 			"`chord resume RUNDIR`. A second signal stops at once. The run directory is locked\n" +
 			"while the fit runs (docs/runs.md).",
 		Flags: append([]cli.Flag{
 			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "retrieval configuration `FILE` (TOML)", Required: true},
-			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "run `DIR` to create (must be empty or absent)", Required: true},
-			&cli.Uint64Flag{Name: "seed", Usage: "random seed `N` (default: the configuration's, else a fresh one, recorded)"},
+			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "run `DIR` to create (must be empty or absent); required unless --check"},
+			&cli.BoolFlag{Name: "check", Usage: "only check: load the configuration, observations, opacity tables and priors, build the problem, evaluate the posterior once at a draw from the prior, say what was checked and stop; nothing is written"},
+			&cli.Uint64Flag{Name: "seed", Usage: "random seed `N`", DefaultText: "the configuration's, else a fresh one, recorded"},
 			&cli.BoolFlag{Name: "force", Usage: "replace the chord run in DIR (only a directory with a run.toml; only chord's files are removed)"},
-			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+			demoCacheFlag(),
 			&cli.StringFlag{Name: "truth", Usage: "scenario or model configuration `FILE` the observation was simulated from (its values are marked in the plots)"},
 			&cli.StringSliceFlag{Name: "without", Usage: "fit the reduced model: hold `GAS`'s log10 mixing ratio at its prior's lower edge (repeatable; compare the evidences with chord compare, or use chord detect)"},
-		}, stopFlags...),
+		}, append(stopFlags, runFlags...)...),
 		Action: runFit,
 	}
+}
+
+// workersFlag is --workers of the commands that fit.
+func workersFlag() cli.Flag {
+	return &cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior", DefaultText: "the configuration's, else one per core"}
 }
 
 // stopRule reads the stopping-rule flags; the zero rule means "not given".
@@ -127,6 +140,13 @@ func runFit(c *cli.Context) error {
 	stop, err := stopRule(c)
 	if err != nil {
 		return err
+	}
+	unboundedWarning(c.App.ErrWriter, c.String("config"), stop != (config.StopRule{}))
+	if c.Bool("check") {
+		return checkFit(c, stop)
+	}
+	if c.String("output") == "" {
+		return errors.New("fit: give the run directory with -o DIR (or --check to check the configuration only)")
 	}
 	ctx, cancel, prog := session(c)
 	defer cancel()

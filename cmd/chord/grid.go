@@ -20,7 +20,7 @@ import (
 var slurmFlags = []cli.Flag{
 	&cli.StringFlag{Name: "time", Usage: "time limit per task, Slurm's `FORM` (minutes, H:MM:SS or D-HH:MM:SS)"},
 	&cli.IntFlag{Name: "cpus-per-task", Usage: "`N` cores per task (the fit's workers)"},
-	&cli.StringFlag{Name: "mem", Usage: "memory per task, e.g. 2G"},
+	&cli.StringFlag{Name: "memory", Usage: "memory per task, Slurm's `SIZE` (e.g. 2G, 500M)"},
 	&cli.StringFlag{Name: "partition", Usage: "Slurm `PARTITION`"},
 	&cli.IntFlag{Name: "max-running", Usage: "at most `N` tasks at once"},
 	&cli.BoolFlag{Name: "submit", Usage: "submit the script with sbatch and print the job id"},
@@ -45,9 +45,9 @@ func gridCommand() *cli.Command {
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "grid `DIR` (required)"},
 			&cli.BoolFlag{Name: "local", Usage: "run the unfinished points on this machine"},
 			&cli.IntFlag{Name: "jobs", Value: 1, Usage: "with --local, `N` points at once"},
-			&cli.IntFlag{Name: "workers", Usage: "with --local, `N` workers per fit (default: the cores divided among the jobs)"},
+			&cli.IntFlag{Name: "workers", Usage: "with --local, `N` workers per fit", DefaultText: "the cores divided among the jobs"},
 			&cli.BoolFlag{Name: "slurm", Usage: "write a Slurm job-array script for every point"},
-			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables"},
+			demoCacheFlag(),
 		}, slurmFlags...),
 		Action: runGrid,
 		Subcommands: []*cli.Command{
@@ -59,9 +59,9 @@ func gridCommand() *cli.Command {
 					"exits with code 3.",
 				Flags: []cli.Flag{
 					&cli.IntFlag{Name: "workers", Usage: "`N` goroutines evaluating the posterior"},
-					&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables"},
+					demoCacheFlag(),
 				},
-				Action: interspersed(runGridPoint),
+				Action: runGridPoint,
 			},
 			{
 				Name: "status", Usage: "show each point's state: not started, running, stopped with a checkpoint at step k, done",
@@ -69,7 +69,7 @@ func gridCommand() *cli.Command {
 			},
 			{
 				Name: "resubmit", Usage: "write (and with --submit submit) a job array of the unfinished points, continuing from their checkpoints",
-				ArgsUsage: "GRIDDIR", Flags: slurmFlags, Action: interspersed(runGridResubmit),
+				ArgsUsage: "GRIDDIR", Flags: slurmFlags, Action: runGridResubmit,
 			},
 			{
 				Name: "collect", Usage: "one summary table (summary.csv, summary.parquet) of every point, and the width-against-noise comparison",
@@ -80,14 +80,11 @@ func gridCommand() *cli.Command {
 }
 
 func runGrid(c *cli.Context) error {
-	if c.NArg() > 0 {
-		return fmt.Errorf("grid: unexpected argument %q (subcommands: run-point, status, resubmit, collect)", c.Args().First())
-	}
 	if c.Bool("local") && c.Bool("slurm") {
 		return errors.New("grid: give --local or --slurm, not both")
 	}
 	if !c.Bool("slurm") {
-		if f, ok := firstSet(c, "time", "cpus-per-task", "mem", "partition", "max-running", "submit"); ok {
+		if f, ok := firstSet(c, "time", "cpus-per-task", "memory", "partition", "max-running", "submit"); ok {
 			return fmt.Errorf("grid: --%s belongs with --slurm", f)
 		}
 	}
@@ -149,7 +146,7 @@ func runGrid(c *cli.Context) error {
 // slurmSettings are the grid file's [slurm] with the flags applied.
 func slurmSettings(c *cli.Context, g *campaign.Grid) campaign.SlurmSettings {
 	return g.Slurm().Merge(campaign.SlurmSettings{Time: c.String("time"), CPUsPerTask: c.Int("cpus-per-task"),
-		Memory: c.String("mem"), Partition: c.String("partition"), MaxRunning: c.Int("max-running")})
+		Memory: c.String("memory"), Partition: c.String("partition"), MaxRunning: c.Int("max-running")})
 }
 
 // chordBinary is the absolute path of this chord binary, which the array

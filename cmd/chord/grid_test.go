@@ -61,7 +61,7 @@ func TestGridCommands(t *testing.T) {
 		{[]string{"grid", "run-point", dir}, "GRIDDIR and INDEX"},
 		{[]string{"grid", "collect", dir}, "12 of 12 points are not done"},
 		{[]string{"grid", "status"}, "one grid directory"},
-		{[]string{"grid", "stat", dir}, "unexpected argument"},
+		{[]string{"grid", "stat", dir}, `did you mean "status"`},
 	} {
 		if _, _, err := runCmd(t, c.args...); err == nil || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("case %d %v: %v, want %q", i, c.args, err, c.want)

@@ -15,32 +15,27 @@ import (
 	"chord/forward/opacity/tablefile"
 )
 
-// opacityCommand is "chord opacity", the parent of the opacity-table
-// subcommands. A subcommand in another file adds itself in that file's init:
-//
-//	func init() {
-//		opacityCommand.Subcommands = append(opacityCommand.Subcommands, opacityBuildCommand)
-//	}
-//
-// Package-level variables are initialised before any init function runs, so
-// this works whatever the order of the files.
-var opacityCommand = &cli.Command{
-	Name:        "opacity",
-	Usage:       "build and inspect opacity table files",
-	Subcommands: []*cli.Command{opacityInfoCommand},
+// opacityCommand returns "chord opacity", the parent of the opacity-table
+// subcommands.
+func opacityCommand() *cli.Command {
+	return &cli.Command{
+		Name:        "opacity",
+		Usage:       "build and inspect opacity table files",
+		Subcommands: []*cli.Command{opacityBuildCommand(), opacityInfoCommand()},
+	}
 }
 
-var opacityInfoCommand = &cli.Command{
-	Name:      "info",
-	Usage:     "describe an opacity table file: axes, ranges, units, provenance, size",
-	ArgsUsage: "FILE",
-	Description: "Reads and checks a table file (schema, every row, content checksum) and prints what it\n" +
-		"holds. Demo tables are labelled \"demo, not for science\".",
-	Action: runOpacityInfo,
-}
-
-func init() {
-	commands = append(commands, opacityCommand)
+// opacityInfoCommand returns "chord opacity info".
+func opacityInfoCommand() *cli.Command {
+	return &cli.Command{
+		Name:      "info",
+		Usage:     "describe an opacity table file: axes, ranges, units, provenance, size",
+		ArgsUsage: "FILE",
+		Description: "Reads and checks a table file (schema, every row, content checksum) and prints what it\n" +
+			"holds in the units of chord's inputs (bar, K, cm^-1 and um, cm^2 per molecule); the file\n" +
+			"itself stores SI units. Demo tables are labelled \"demo, not for science\".",
+		Action: runOpacityInfo,
+	}
 }
 
 func runOpacityInfo(c *cli.Context) error {
@@ -71,8 +66,7 @@ func runOpacityInfo(c *cli.Context) error {
 		fmt.Fprintf(w, "shape:        %d pressures x %d temperatures x %d wavenumbers = %d values (float32)\n",
 			len(x.Log10P), len(x.T), len(x.Wavenumber), len(x.Sigma))
 		lo, hi := x.Log10P[0], x.Log10P[len(x.Log10P)-1]
-		fmt.Fprintf(w, "pressure:     log10(P/Pa) %s .. %s: %s .. %s Pa = %s .. %s bar\n",
-			infoNum(lo), infoNum(hi), infoNum(math.Pow(10, lo)), infoNum(math.Pow(10, hi)), infoNum(math.Pow(10, lo)/1e5), infoNum(math.Pow(10, hi)/1e5))
+		fmt.Fprintf(w, "pressure:     %d points, %s .. %s bar\n", len(x.Log10P), infoNum(math.Pow(10, lo)/1e5), infoNum(math.Pow(10, hi)/1e5))
 		infoAxis(w, "temperature:", x.T, "K")
 		infoWavenumbers(w, x.Wavenumber)
 		infoValues(w, "sigma", meta[tablefile.MetaUnitsSigma], infoFloat64s(x.Sigma))
@@ -102,6 +96,14 @@ func runOpacityInfo(c *cli.Context) error {
 		fmt.Fprintf(w, "build:        %s\n", infoOrNone(meta[opacity.MetaBuildSettings]))
 	}
 	fmt.Fprintf(w, "checksum:     content sha256 %s (verified)\n", meta[tablefile.MetaContentSHA256])
+	var stored []string
+	for _, k := range []string{tablefile.MetaUnitsLog10P, tablefile.MetaUnitsTemperature, tablefile.MetaUnitsWavenumber, tablefile.MetaUnitsWavelength,
+		tablefile.MetaUnitsSigma, tablefile.MetaUnitsK, tablefile.MetaUnitsKCoeff} {
+		if u := meta[k]; u != "" {
+			stored = append(stored, strings.TrimPrefix(k, "units.")+" in "+u)
+		}
+	}
+	fmt.Fprintf(w, "units:        shown in the units of chord's inputs (bar, K, cm^-1, um, cm^2 per molecule); the file stores SI: %s\n", strings.Join(stored, ", "))
 	shown := map[string]bool{}
 	for _, k := range []string{tablefile.MetaFormat, tablefile.MetaSchemaVersion, tablefile.MetaKind, tablefile.MetaGas, tablefile.MetaPair,
 		tablefile.MetaShape, tablefile.MetaContentSHA256, opacity.MetaProgramVersion, opacity.MetaSources, opacity.MetaBuildSettings,
@@ -134,10 +136,11 @@ func infoAxis(w io.Writer, label string, x []float64, unit string) {
 	fmt.Fprintf(w, "%-13s %d points, %s .. %s %s\n", label, len(x), infoNum(x[0]), infoNum(x[len(x)-1]), unit)
 }
 
-// infoWavenumbers prints the wavenumber axis in m^-1, cm^-1 and um.
+// infoWavenumbers prints the wavenumber axis (m^-1 in the file) in cm^-1
+// and as wavelengths in um.
 func infoWavenumbers(w io.Writer, nu []float64) {
 	lo, hi := nu[0], nu[len(nu)-1]
-	fmt.Fprintf(w, "wavenumber:   %d points, %s .. %s m^-1 = %s .. %s cm^-1\n", len(nu), infoNum(lo), infoNum(hi), infoNum(lo/100), infoNum(hi/100))
+	fmt.Fprintf(w, "wavenumber:   %d points, %s .. %s cm^-1\n", len(nu), infoNum(lo/100), infoNum(hi/100))
 	wl := func(v float64) string {
 		if v <= 0 {
 			return "inf"
@@ -155,7 +158,24 @@ func infoWavenumbers(w io.Writer, nu []float64) {
 	}
 }
 
+// userUnits maps the SI units of table values to the units of the trade
+// (HITRAN's cross-sections in cm^2/molecule and CIA coefficients in
+// cm^5/molecule^2) and the factor from the one to the other.
+var userUnits = map[string]struct {
+	unit   string
+	factor float64
+}{
+	"m^2 molecule^-1": {"cm^2 molecule^-1", 1e4},
+	"m^5 molecule^-2": {"cm^5 molecule^-2", 1e10},
+}
+
+// infoValues prints the range of the values v, stored in unit, in the
+// user's unit (userUnits).
 func infoValues(w io.Writer, name, unit string, v []float64) {
+	scale := 1.0
+	if u, ok := userUnits[unit]; ok {
+		unit, scale = u.unit, u.factor
+	}
 	lo, hi, zeros := math.Inf(1), 0.0, 0
 	for _, x := range v {
 		if x == 0 {
@@ -168,7 +188,7 @@ func infoValues(w io.Writer, name, unit string, v []float64) {
 		fmt.Fprintf(w, "values:       %s in %s: all zero\n", name, unit)
 		return
 	}
-	fmt.Fprintf(w, "values:       %s in %s: non-zero %s .. %s; %d of %d zero\n", name, unit, infoNum(lo), infoNum(hi), zeros, len(v))
+	fmt.Fprintf(w, "values:       %s in %s: non-zero %s .. %s; %d of %d zero\n", name, unit, infoNum(lo*scale), infoNum(hi*scale), zeros, len(v))
 }
 
 func infoFloat64s(x []float32) []float64 {

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"cmp"
 	"errors"
 	"fmt"
 	"io"
@@ -24,73 +23,77 @@ import (
 	"chord/internal/version"
 )
 
-// opacityBuildCommand is the "build" subcommand of "chord opacity": line
-// lists, partition sums and CIA files plus a grid specification to table
-// files in a directory.
-var opacityBuildCommand = &cli.Command{
-	Name:      "build",
-	Usage:     "build opacity table files from line lists and CIA files (or the demo set)",
-	ArgsUsage: " ",
-	Description: "Builds the table of one gas from the line lists given with --lines (HITRAN 160-character\n" +
-		".par records, HITEMP's, with or without comma-separated broadener fields, CDSD-HITEMP's\n" +
-		"127-character records, HITRAN's tab- or comma-separated downloads, .bz2 or .gz or plain; or one\n" +
-		"ExoMol .def file whose .states and .trans chunk files lie beside it):\n" +
-		"  a k-table <gas>.k.parquet on the bins of --bins (resolving power on the grid exp(k/R) um) or\n" +
-		"  --bins-from (an observation file), at the pressures and temperatures of --pressure and\n" +
-		"  --temperature (defaults: 1e-7 to 100 bar at 6 per decade; 100 to 3000 K in 19 steps, clipped to\n" +
-		"  the partition sums' range), streamed from the files in bounded memory; a build stopped by\n" +
-		"  SIGINT (exit code 3) resumes where it stopped when the same command is run again;\n" +
-		"  or a table of point cross-sections <gas>.parquet on the grid of --wavenumber or --wavelength.\n" +
-		"One CIA table file <A>-<B>.parquet per pair comes from the HITRAN CIA files given with --cia.\n" +
-		"HITRAN line lists need HITRAN's molparam table (--molparam); partition sums come from --tips or\n" +
-		"--partition files (the newest edition per isotopologue), otherwise from a rigid-rotor\n" +
-		"approximation, with a warning. Existing files are not replaced unless --force is given. --demo\n" +
-		"writes the demo tables (synthetic bands; demo, not for science) instead. Progress goes to\n" +
-		"standard error.",
-	Flags: []cli.Flag{
-		&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "output `DIR` for the table files (created if missing)", Required: true},
-		&cli.BoolFlag{Name: "force", Usage: "replace existing table files"},
-		&cli.BoolFlag{Name: "demo", Usage: "write the demo opacity tables (demo, not for science)"},
-		&cli.StringSliceFlag{Name: "lines", Usage: "line-list `FILE` (HITRAN .par or .tsv, or an ExoMol .def); repeat for several files of one gas"},
-		&cli.StringFlag{Name: "gas", Usage: "gas `NAME` of the table (default: the HITRAN molecule of the lines, or the ExoMol formula)"},
-		&cli.StringFlag{Name: "molparam", Usage: "HITRAN molparam `FILE` (isotopologue masses, abundances, Q(296 K)); needed for HITRAN line lists"},
-		&cli.StringFlag{Name: "tips", Usage: "TIPS partition-sum table `FILE` (header Temp(K) NAME_code ...)"},
-		&cli.StringSliceFlag{Name: "partition", Usage: "two-column partition-sum file for one isotopologue, `[MOL/ISO=]FILE` (e.g. 1/1=q1.txt; without MOL/ISO= the file's header names it); repeatable, the newest edition per isotopologue is used"},
-		&cli.StringSliceFlag{Name: "fields", Usage: "names of the comma-separated fields after the records of a HITRAN file, `FILE=NAME,NAME,...` (e.g. f.txt=delta_H2,err,ref); repeatable"},
-		&cli.StringSliceFlag{Name: "broad", Usage: "ExoMol `FILE` <slug>__<H2|He|CO2|H2O>.broad of J-dependent widths; repeatable"},
-		&cli.StringFlag{Name: "mixture", Usage: "broadening gas mixture `GAS:FRACTION,...` of the background (air, H2, He, CO2, H2O), e.g. H2:0.85,He:0.15 (default air)"},
-		&cli.StringSliceFlag{Name: "cia", Usage: "HITRAN CIA `FILE`; repeat for several files and pairs (files of one pair are combined)"},
-		&cli.StringFlag{Name: "pressure", Usage: "pressure grid `LO:HI:N` in bar, N points log-spaced", DefaultText: "k-tables 1e-7:100:55, point tables 1e-7:100:13"},
-		&cli.StringFlag{Name: "temperature", Usage: "temperature grid in K: `LIST` (T1,T2,...) or LO:HI:N evenly spaced",
-			DefaultText: "k-tables 100,150,200,250,300,400,...,2600,3000 clipped to the partition sums; point tables 200,300,400,500,600,800,...,2000"},
-		&cli.StringFlag{Name: "bins", Usage: "k-table bins `LO:HI:R`: wavelengths LO-HI um at resolving power R, edges exp(k/R) um"},
-		&cli.StringFlag{Name: "bins-from", Usage: "k-table bins: the bin edges of an observation `FILE`"},
-		&cli.StringFlag{Name: "quadrature", Value: "12,4@0.95", Usage: "k-table g quadrature: Gauss-Legendre `N[,N2,...@SPLIT,...]`, e.g. 16 or 12,4@0.95"},
-		&cli.Float64Flag{Name: "wing-widths", Usage: "k-tables: cut each line at min(--cutoff, `N` Voigt half-widths) (0: --cutoff alone)"},
-		&cli.Float64Flag{Name: "weak-cut", Value: lbl.DefaultWeakCut, Usage: "k-tables: a line weaker than `F` times the strongest line within --weak-ref and whose peak is below F times the local absorption goes into a pseudo-continuum (0: every line profiled)"},
-		&cli.Float64Flag{Name: "weak-ref", Usage: "k-tables: half-width of the neighbourhood of --weak-cut in `CM-1` (0: 1)"},
-		&cli.Float64Flag{Name: "resolution", Usage: "k-tables: resolving power `R` of the fine grid (0: a third of the Doppler half-width at each temperature)"},
-		&cli.IntFlag{Name: "window-lines", Usage: "k-tables: at most about `N` lines held at once (0: 2000000)"},
-		&cli.StringFlag{Name: "wavenumber", Usage: "wavenumber grid `LO:HI:STEP` in cm^-1"},
-		&cli.StringFlag{Name: "wavelength", Usage: "wavelength grid `LO:HI:R` in um, log-spaced at resolving power R"},
-		&cli.Float64Flag{Name: "cutoff", Value: lbl.DefaultWingCutoff, Usage: "line-wing cut-off in `CM-1` from the line centre"},
-		&cli.Float64Flag{Name: "min-intensity", Usage: "skip lines weaker than `S` at the table temperature, cm^-1/(molecule cm^-2)"},
-		&cli.Float64Flag{Name: "self-fraction", Usage: "volume mixing `RATIO` of the absorber for self-broadening (0: dilute)"},
-		&cli.StringFlag{Name: "broadener", Usage: "background gas `NAME` for provenance, with --broadener-scale (default air)"},
-		&cli.Float64Flag{Name: "broadener-scale", Usage: "background half-width = `SCALE` x air half-width (0: 1)"},
-		&cli.Float64Flag{Name: "broadener-n", Usage: "temperature `EXPONENT` of the background half-width (0: the lines' own)"},
-		&cli.BoolFlag{Name: "no-shift", Usage: "ignore the lines' pressure shifts"},
-		&cli.Float64Flag{Name: "abundance", Usage: "ExoMol: weight intensities by this isotopologue `FRACTION` (0: 1)"},
-		&cli.Float64Flag{Name: "exomol-gamma", Usage: "ExoMol: Lorentz half-width in `CM-1/BAR` at 296 K instead of the .def default"},
-		&cli.Float64Flag{Name: "exomol-n", Usage: "ExoMol: temperature `EXPONENT` of --exomol-gamma"},
-		&cli.IntFlag{Name: "workers", Aliases: []string{"j"}, Usage: "`N` worker goroutines (0: all cores)"},
-		&cli.BoolFlag{Name: "quiet", Aliases: []string{"q"}, Usage: "no progress output"},
-	},
-	Action: runOpacityBuild,
-}
-
-func init() {
-	opacityCommand.Subcommands = append(opacityCommand.Subcommands, opacityBuildCommand)
+// opacityBuildCommand returns "chord opacity build": line lists,
+// partition sums and CIA files plus a grid specification to table files
+// in a directory.
+func opacityBuildCommand() *cli.Command {
+	return &cli.Command{
+		Name:      "build",
+		Usage:     "build opacity table files from line lists and CIA files (or the demo set)",
+		ArgsUsage: " ",
+		Description: "Builds the table of one gas from the line lists given with --lines (HITRAN 160-character\n" +
+			".par records, HITEMP's, with or without comma-separated broadener fields, CDSD-HITEMP's\n" +
+			"127-character records, HITRAN's tab- or comma-separated downloads, .bz2 or .gz or plain; or one\n" +
+			"ExoMol .def file whose .states and .trans chunk files lie beside it):\n" +
+			"  a k-table <gas>.k.parquet on the bins of --wavelength-range-um with --resolving-power (edges on\n" +
+			"  the grid exp(k/R) um) or of --bins-file (an observation file), at the pressures and temperatures\n" +
+			"  of --pressure-range-bar with --pressure-points and --temperatures-k (or --temperature-range-k\n" +
+			"  with --temperature-points); defaults: 1e-7 to 100 bar at 6 per decade; 100 to 3000 K in 19\n" +
+			"  steps, clipped to the partition sums' range; streamed from the files in bounded memory; a build\n" +
+			"  stopped by SIGINT (exit code 3) resumes where it stopped when the same command is run again;\n" +
+			"  or, with --cross-sections or --wavenumber-range, a table of point cross-sections <gas>.parquet.\n" +
+			"One CIA table file <A>-<B>.parquet per pair comes from the HITRAN CIA files given with --cia.\n" +
+			"HITRAN line lists need HITRAN's molparam table (--molparam); partition sums come from --tips or\n" +
+			"--partition files (the newest edition per isotopologue), otherwise from a rigid-rotor\n" +
+			"approximation, with a warning. Existing files are not replaced unless --force is given. --demo\n" +
+			"writes the demo tables (synthetic bands; demo, not for science) instead. Progress goes to\n" +
+			"standard error.",
+		Flags: []cli.Flag{
+			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "output `DIR` for the table files (created if missing)", Required: true},
+			&cli.BoolFlag{Name: "force", Usage: "replace existing table files"},
+			&cli.BoolFlag{Name: "demo", Usage: "write the demo opacity tables (demo, not for science)"},
+			&cli.StringSliceFlag{Name: "lines", Usage: "line-list `FILE` (HITRAN .par or .tsv, or an ExoMol .def); repeat for several files of one gas"},
+			&cli.StringFlag{Name: "gas", Usage: "gas `NAME` of the table", DefaultText: "the HITRAN molecule of the lines, or the ExoMol formula"},
+			&cli.StringFlag{Name: "molparam", Usage: "HITRAN molparam `FILE` (isotopologue masses, abundances, Q(296 K)); needed for HITRAN line lists"},
+			&cli.StringFlag{Name: "tips", Usage: "TIPS partition-sum table `FILE` (header Temp(K) NAME_code ...)"},
+			&cli.StringSliceFlag{Name: "partition", Usage: "two-column partition-sum file for one isotopologue, `[MOL/ISO=]FILE` (e.g. 1/1=q1.txt; without MOL/ISO= the file's header names it); repeatable, the newest edition per isotopologue is used"},
+			&cli.StringSliceFlag{Name: "fields", Usage: "names of the comma-separated fields after the records of a HITRAN file, `FILE=NAME,NAME,...` (e.g. f.txt=delta_H2,err,ref); repeatable"},
+			&cli.StringSliceFlag{Name: "broad", Usage: "ExoMol `FILE` <slug>__<H2|He|CO2|H2O>.broad of J-dependent widths; repeatable"},
+			&cli.StringFlag{Name: "mixture", Usage: "broadening gas mixture `GAS:FRACTION,...` of the background (air, H2, He, CO2, H2O), e.g. H2:0.85,He:0.15", DefaultText: "air"},
+			&cli.StringSliceFlag{Name: "cia", Usage: "HITRAN CIA `FILE`; repeat for several files and pairs (files of one pair are combined)"},
+			&cli.StringFlag{Name: "pressure-range-bar", Usage: "pressure grid from `LO:HI` bar, log-spaced (with --pressure-points)", DefaultText: "1e-7:100"},
+			&cli.IntFlag{Name: "pressure-points", Usage: "`N` pressures of --pressure-range-bar", DefaultText: "k-tables 55 (6 per decade), cross-section tables 13"},
+			&cli.StringFlag{Name: "temperatures-k", Usage: "temperature grid, the list `T1,T2,...` in K, ascending",
+				DefaultText: "k-tables 100,150,200,250,300,400,...,2600,3000 clipped to the partition sums; cross-section tables 200,300,400,500,600,800,...,2000"},
+			&cli.StringFlag{Name: "temperature-range-k", Usage: "temperature grid from `LO:HI` K, evenly spaced (with --temperature-points; instead of --temperatures-k)"},
+			&cli.IntFlag{Name: "temperature-points", Usage: "`N` temperatures of --temperature-range-k"},
+			&cli.StringFlag{Name: "wavelength-range-um", Usage: "spectral range `LO:HI` in um, with --resolving-power: the k-table bins (edges on the grid exp(k/R) um), or with --cross-sections the log-spaced grid of a cross-section table"},
+			&cli.Float64Flag{Name: "resolving-power", Usage: "resolving power `R` of the bins or grid of --wavelength-range-um"},
+			&cli.StringFlag{Name: "bins-file", Usage: "k-table bins: the bin edges of an observation `FILE`"},
+			&cli.BoolFlag{Name: "cross-sections", Usage: "build a table of point cross-sections on the grid of --wavelength-range-um instead of a k-table"},
+			&cli.StringFlag{Name: "wavenumber-range", Usage: "cross-section table: uniform wavenumber grid from `LO:HI` cm^-1 (with --wavenumber-step)"},
+			&cli.Float64Flag{Name: "wavenumber-step", Usage: "`STEP` in cm^-1 of --wavenumber-range"},
+			&cli.StringFlag{Name: "quadrature", Value: "12,4@0.95", Usage: "k-table g quadrature: Gauss-Legendre `N[,N2,...@SPLIT,...]`, e.g. 16 or 12,4@0.95"},
+			&cli.Float64Flag{Name: "wing-widths", Usage: "k-tables: cut each line at min(--cutoff, `N` Voigt half-widths)", DefaultText: "0, the --cutoff alone"},
+			&cli.Float64Flag{Name: "weak-cut", Value: lbl.DefaultWeakCut, Usage: "k-tables: a line weaker than `F` times the strongest line within --weak-ref and whose peak is below F times the local absorption goes into a pseudo-continuum (0: every line profiled)"},
+			&cli.Float64Flag{Name: "weak-ref", Usage: "k-tables: half-width of the neighbourhood of --weak-cut in `CM-1`", DefaultText: "1"},
+			&cli.Float64Flag{Name: "fine-resolving-power", Usage: "k-tables: resolving power `R` of the fine grid", DefaultText: "a third of the Doppler half-width at each temperature"},
+			&cli.IntFlag{Name: "window-lines", Usage: "k-tables: at most about `N` lines held at once", DefaultText: "2000000"},
+			&cli.Float64Flag{Name: "cutoff", Value: lbl.DefaultWingCutoff, Usage: "line-wing cut-off in `CM-1` from the line centre"},
+			&cli.Float64Flag{Name: "min-intensity", Usage: "skip lines weaker than `S` at the table temperature, cm^-1/(molecule cm^-2)", DefaultText: "0, every line kept"},
+			&cli.Float64Flag{Name: "self-fraction", Usage: "volume mixing `RATIO` of the absorber for self-broadening", DefaultText: "0, dilute"},
+			&cli.StringFlag{Name: "broadener", Usage: "background gas `NAME` for provenance, with --broadener-scale", DefaultText: "air"},
+			&cli.Float64Flag{Name: "broadener-scale", Usage: "background half-width = `SCALE` x air half-width", DefaultText: "1"},
+			&cli.Float64Flag{Name: "broadener-n", Usage: "temperature `EXPONENT` of the background half-width", DefaultText: "the lines' own"},
+			&cli.BoolFlag{Name: "no-shift", Usage: "ignore the lines' pressure shifts"},
+			&cli.Float64Flag{Name: "abundance", Usage: "ExoMol: weight intensities by this isotopologue `FRACTION`", DefaultText: "1"},
+			&cli.Float64Flag{Name: "exomol-gamma", Usage: "ExoMol: Lorentz half-width in `CM-1/BAR` at 296 K instead of the .def default"},
+			&cli.Float64Flag{Name: "exomol-n", Usage: "ExoMol: temperature `EXPONENT` of --exomol-gamma"},
+			&cli.IntFlag{Name: "workers", Aliases: []string{"j"}, Usage: "`N` worker goroutines", DefaultText: "all cores"},
+			&cli.BoolFlag{Name: "quiet", Aliases: []string{"q"}, Usage: "no progress output"},
+		},
+		Action: runOpacityBuild,
+	}
 }
 
 // maxBuildValues bounds the size of a table this command builds (float32
@@ -108,7 +111,7 @@ func runOpacityBuild(c *cli.Context) error {
 		progress = nil
 	}
 	if c.Bool("demo") {
-		if f, ok := firstSet(c, "lines", "cia", "molparam", "tips", "partition", "wavenumber", "wavelength", "gas", "bins", "bins-from"); ok {
+		if f, ok := firstSet(c, "lines", "cia", "molparam", "tips", "partition", "wavenumber-range", "wavelength-range-um", "gas", "bins-file"); ok {
 			return fmt.Errorf("opacity build: --demo builds the fixed demo set; --%s cannot be used with it", f)
 		}
 		files, err := demo.Write(out, force, progress)
@@ -130,17 +133,20 @@ func runOpacityBuild(c *cli.Context) error {
 	if len(lineFiles) == 0 && len(ciaFiles) == 0 {
 		return errors.New("opacity build: nothing to build: give line lists (--lines), CIA files (--cia) or --demo")
 	}
-	kBins := c.IsSet("bins") || c.IsSet("bins-from")
+	kBins := c.IsSet("bins-file") || c.IsSet("wavelength-range-um") && !c.Bool("cross-sections")
 	if kBins {
-		if f, ok := firstSet(c, "wavenumber", "wavelength"); ok {
-			return fmt.Errorf("opacity build: --%s makes a point cross-section table; k-table bins (--bins, --bins-from) are built without it", f)
+		if f, ok := firstSet(c, "wavenumber-range", "wavenumber-step"); ok {
+			return fmt.Errorf("opacity build: --%s makes a cross-section table; k-table bins (--wavelength-range-um, --bins-file) are built without it", f)
 		}
-	} else if f, ok := firstSet(c, "quadrature", "wing-widths", "weak-cut", "weak-ref", "resolution", "window-lines"); ok {
-		return fmt.Errorf("opacity build: --%s applies to k-tables: give their bins with --bins or --bins-from", f)
+	} else if f, ok := firstSet(c, "quadrature", "wing-widths", "weak-cut", "weak-ref", "fine-resolving-power", "window-lines"); ok {
+		return fmt.Errorf("opacity build: --%s applies to k-tables: give their bins with --wavelength-range-um and --resolving-power, or --bins-file", f)
 	}
-	nu, err := buildWavenumbers(c.String("wavenumber"), c.String("wavelength"), len(lineFiles) > 0 && !kBins)
-	if err != nil {
-		return err
+	var nu []float64
+	if !kBins {
+		var err error
+		if nu, err = buildWavenumbers(c, len(lineFiles) > 0); err != nil {
+			return err
+		}
 	}
 	if err := os.MkdirAll(out, 0o755); err != nil {
 		return fmt.Errorf("opacity build: %w", err)
@@ -213,11 +219,19 @@ func buildLineTable(c *cli.Context, files []string, nu []float64, out string, fo
 // buildGrid parses the pressure and temperature grids of a line table
 // and refuses a table of more than maxBuildValues values on them and nu.
 func buildGrid(c *cli.Context, nu []float64) (logP, temps []float64, err error) {
-	if logP, err = buildPressures(cmp.Or(c.String("pressure"), "1e-7:100:13")); err != nil {
+	if logP, err = buildPressures(c); err != nil {
 		return nil, nil, err
 	}
-	if temps, err = buildTemperatures(cmp.Or(c.String("temperature"), "200,300,400,500,600,800,1000,1200,1400,1600,1800,2000")); err != nil {
+	if logP == nil { // 1e-7 to 100 bar, 13 points (in log10 Pa: -2 to 7)
+		for i := range 13 {
+			logP = append(logP, -2+0.75*float64(i))
+		}
+	}
+	if temps, err = buildTemperatures(c); err != nil {
 		return nil, nil, err
+	}
+	if temps == nil {
+		temps = []float64{200, 300, 400, 500, 600, 800, 1000, 1200, 1400, 1600, 1800, 2000}
 	}
 	if n := len(logP) * len(temps) * len(nu); n > maxBuildValues {
 		return nil, nil, fmt.Errorf("opacity build: grid of %d x %d x %d = %d values (%.1f GB) is too large; at most %d",
@@ -375,26 +389,38 @@ func parseQSpec(spec string) (lbl.IsoKey, string, error) {
 	return lbl.IsoKey{Mol: mol, Iso: iso}, path, nil
 }
 
-// parseRange reads "LO:HI:N" (three numbers) for the flag named name.
-func parseRange(name, s string) (lo, hi, n float64, err error) {
-	f := strings.Split(s, ":")
-	if len(f) != 3 {
-		return 0, 0, 0, fmt.Errorf("opacity build: --%s %q: want LO:HI:N", name, s)
+// spanWith reads the range flag rangeFlag (LO:HI) and the flag xFlag
+// that gives its spacing, which go together; given is false when neither
+// is set.
+func spanWith(c *cli.Context, rangeFlag, xFlag string) (lo, hi, x float64, given bool, err error) {
+	switch {
+	case !c.IsSet(rangeFlag) && c.IsSet(xFlag):
+		return 0, 0, 0, false, fmt.Errorf("opacity build: --%s goes with --%s", xFlag, rangeFlag)
+	case !c.IsSet(rangeFlag):
+		return 0, 0, 0, false, nil
+	case !c.IsSet(xFlag):
+		return 0, 0, 0, false, fmt.Errorf("opacity build: --%s needs --%s", rangeFlag, xFlag)
 	}
-	var v [3]float64
-	for i, x := range f {
-		if v[i], err = strconv.ParseFloat(strings.TrimSpace(x), 64); err != nil || math.IsNaN(v[i]) || math.IsInf(v[i], 0) {
-			return 0, 0, 0, fmt.Errorf("opacity build: --%s %q: %q is not a number", name, s, x)
-		}
+	if lo, hi, err = parseSpan(rangeFlag, c.String(rangeFlag)); err != nil {
+		return 0, 0, 0, false, fmt.Errorf("opacity build: %w", err)
 	}
-	return v[0], v[1], v[2], nil
+	switch v := c.Value(xFlag).(type) {
+	case int:
+		x = float64(v)
+	case float64:
+		x = v
+	}
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return 0, 0, 0, false, fmt.Errorf("opacity build: --%s %g is not a number", xFlag, x)
+	}
+	return lo, hi, x, true, nil
 }
 
 // gridPoints returns the n grid values at(0), at(1), ... of the flag named
-// name (given as s), refusing more than maxBuildValues of them.
-func gridPoints(name, s string, n float64, at func(i float64) float64) ([]float64, error) {
+// name, refusing more than maxBuildValues of them.
+func gridPoints(name string, n float64, at func(i float64) float64) ([]float64, error) {
 	if n > maxBuildValues {
-		return nil, fmt.Errorf("opacity build: --%s %q: %g points is too many", name, s, n)
+		return nil, fmt.Errorf("opacity build: --%s: %g points is too many", name, n)
 	}
 	out := make([]float64, int(n))
 	for i := range out {
@@ -403,17 +429,18 @@ func gridPoints(name, s string, n float64, at func(i float64) float64) ([]float6
 	return out, nil
 }
 
-// buildPressures parses "--pressure LO:HI:N" (bar) into log10 of Pa.
-func buildPressures(s string) ([]float64, error) {
-	lo, hi, n, err := parseRange("pressure", s)
-	if err != nil {
+// buildPressures reads --pressure-range-bar LO:HI with --pressure-points
+// N into log10 of Pa; without them, nil.
+func buildPressures(c *cli.Context) ([]float64, error) {
+	lo, hi, n, given, err := spanWith(c, "pressure-range-bar", "pressure-points")
+	if err != nil || !given {
 		return nil, err
 	}
 	if !(lo > 0) || !(hi >= lo) || n != math.Trunc(n) || n < 1 || (n == 1) != (lo == hi) || n > 1000 {
-		return nil, fmt.Errorf("opacity build: --pressure %q: want 0 < LO < HI (bar) and 2 <= N <= 1000 points, or LO = HI with N = 1", s)
+		return nil, fmt.Errorf("opacity build: --pressure-range-bar %s --pressure-points %g: want 0 < LO < HI (bar) and 2 <= N <= 1000 points, or LO = HI with N = 1", c.String("pressure-range-bar"), n)
 	}
 	a, b := math.Log10(lo*1e5), math.Log10(hi*1e5)
-	return gridPoints("pressure", s, n, func(i float64) float64 {
+	return gridPoints("pressure-points", n, func(i float64) float64 {
 		if n == 1 {
 			return a
 		}
@@ -421,63 +448,73 @@ func buildPressures(s string) ([]float64, error) {
 	})
 }
 
-// buildTemperatures parses "--temperature T1,T2,..." or "LO:HI:N" (K).
-func buildTemperatures(s string) ([]float64, error) {
-	if strings.Contains(s, ":") {
-		lo, hi, n, err := parseRange("temperature", s)
-		if err != nil {
-			return nil, err
-		}
-		if !(lo > 0) || !(hi > lo) || n != math.Trunc(n) || n < 2 || n > 1000 {
-			return nil, fmt.Errorf("opacity build: --temperature %q: want 0 < LO < HI (K) and 2 <= N <= 1000", s)
-		}
-		return gridPoints("temperature", s, n, func(i float64) float64 { return lo + (hi-lo)*i/(n-1) })
+// buildTemperatures reads --temperatures-k T1,T2,... or
+// --temperature-range-k LO:HI with --temperature-points N (K); without
+// them, nil.
+func buildTemperatures(c *cli.Context) ([]float64, error) {
+	lo, hi, n, given, err := spanWith(c, "temperature-range-k", "temperature-points")
+	if err != nil {
+		return nil, err
 	}
+	if given && c.IsSet("temperatures-k") {
+		return nil, errors.New("opacity build: give --temperatures-k or --temperature-range-k, not both")
+	}
+	if given {
+		if !(lo > 0) || !(hi > lo) || n != math.Trunc(n) || n < 2 || n > 1000 {
+			return nil, fmt.Errorf("opacity build: --temperature-range-k %s --temperature-points %g: want 0 < LO < HI (K) and 2 <= N <= 1000", c.String("temperature-range-k"), n)
+		}
+		return gridPoints("temperature-points", n, func(i float64) float64 { return lo + (hi-lo)*i/(n-1) })
+	}
+	if !c.IsSet("temperatures-k") {
+		return nil, nil
+	}
+	s := c.String("temperatures-k")
 	var out []float64
 	for _, x := range strings.Split(s, ",") {
 		v, err := strconv.ParseFloat(strings.TrimSpace(x), 64)
 		if err != nil || !(v > 0) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("opacity build: --temperature %q: %q is not a positive temperature in K", s, x)
+			return nil, fmt.Errorf("opacity build: --temperatures-k %q: %q is not a positive temperature in K", s, x)
 		}
 		if len(out) > 0 && !(v > out[len(out)-1]) {
-			return nil, fmt.Errorf("opacity build: --temperature %q: temperatures must be strictly ascending (%g after %g)", s, v, out[len(out)-1])
+			return nil, fmt.Errorf("opacity build: --temperatures-k %q: temperatures must be strictly ascending (%g after %g)", s, v, out[len(out)-1])
 		}
 		out = append(out, v)
 	}
 	return out, nil
 }
 
-// buildWavenumbers parses the wavenumber grid (m^-1) from "--wavenumber
-// LO:HI:STEP" (cm^-1) or "--wavelength LO:HI:R" (um). Without either it
+// buildWavenumbers reads the wavenumber grid (m^-1) of a cross-section
+// table from --wavenumber-range LO:HI with --wavenumber-step (cm^-1) or
+// --wavelength-range-um LO:HI with --resolving-power. Without either it
 // returns nil, which is an error when a line table is to be built.
-func buildWavenumbers(wn, wl string, needed bool) ([]float64, error) {
+func buildWavenumbers(c *cli.Context, needed bool) ([]float64, error) {
+	wlo, whi, step, wn, err := spanWith(c, "wavenumber-range", "wavenumber-step")
+	if err != nil {
+		return nil, err
+	}
+	llo, lhi, r, wl, err := spanWith(c, "wavelength-range-um", "resolving-power")
+	if err != nil {
+		return nil, err
+	}
 	switch {
-	case wn != "" && wl != "":
-		return nil, errors.New("opacity build: give --wavenumber or --wavelength, not both")
-	case wn != "":
-		lo, hi, step, err := parseRange("wavenumber", wn)
-		if err != nil {
-			return nil, err
+	case wn && wl:
+		return nil, errors.New("opacity build: give --wavenumber-range or --wavelength-range-um, not both")
+	case wn:
+		if !(wlo > 0) || !(whi > wlo) || !(step > 0) {
+			return nil, fmt.Errorf("opacity build: --wavenumber-range %s --wavenumber-step %g: want 0 < LO < HI and STEP > 0 (cm^-1)", c.String("wavenumber-range"), step)
 		}
-		if !(lo > 0) || !(hi > lo) || !(step > 0) {
-			return nil, fmt.Errorf("opacity build: --wavenumber %q: want 0 < LO < HI and STEP > 0 (cm^-1)", wn)
+		n := math.Floor((whi-wlo)/step+1e-9) + 1
+		return gridPoints("wavenumber-step", n, func(i float64) float64 { return 100 * (wlo + step*i) })
+	case wl:
+		if !(llo > 0) || !(lhi > llo) || !(r > 0) {
+			return nil, fmt.Errorf("opacity build: --wavelength-range-um %s --resolving-power %g: want 0 < LO < HI (um) and R > 0", c.String("wavelength-range-um"), r)
 		}
-		n := math.Floor((hi-lo)/step+1e-9) + 1
-		return gridPoints("wavenumber", wn, n, func(i float64) float64 { return 100 * (lo + step*i) })
-	case wl != "":
-		lo, hi, r, err := parseRange("wavelength", wl)
-		if err != nil {
-			return nil, err
-		}
-		if !(lo > 0) || !(hi > lo) || !(r > 0) {
-			return nil, fmt.Errorf("opacity build: --wavelength %q: want 0 < LO < HI (um) and R > 0", wl)
-		}
-		n := max(2, math.Round(r*math.Log(hi/lo))+1)
+		n := max(2, math.Round(r*math.Log(lhi/llo))+1)
 		// Ascending wavenumber: from 1/hi to 1/lo, log-spaced.
-		a, b := 1e6/hi, 1e6/lo
-		return gridPoints("wavelength", wl, n, func(i float64) float64 { return a * math.Exp(i/(n-1)*math.Log(b/a)) })
+		a, b := 1e6/lhi, 1e6/llo
+		return gridPoints("resolving-power", n, func(i float64) float64 { return a * math.Exp(i/(n-1)*math.Log(b/a)) })
 	case needed:
-		return nil, errors.New("opacity build: line lists need a wavenumber grid: --wavenumber LO:HI:STEP (cm^-1) or --wavelength LO:HI:R (um)")
+		return nil, errors.New("opacity build: line lists need bins or a grid: --wavelength-range-um LO:HI with --resolving-power R (a k-table; add --cross-sections for a cross-section table), --bins-file FILE, or --wavenumber-range LO:HI with --wavenumber-step STEP (cm^-1)")
 	}
 	return nil, nil
 }

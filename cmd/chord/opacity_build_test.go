@@ -8,8 +8,6 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/urfave/cli/v2"
-
 	"chord/forward/opacity"
 	"chord/forward/opacity/hitran"
 	"chord/forward/opacity/lbl"
@@ -17,19 +15,13 @@ import (
 	"chord/internal/testenv"
 )
 
-// runBuild runs "chord opacity build ARGS..." in an app of its own, so the
-// test does not depend on how the parent command is assembled.
+// runBuild runs "chord opacity build ARGS..." as main does.
 func runBuild(t *testing.T, args ...string) (stdout, stderr string, err error) {
 	t.Helper()
 	var o, e bytes.Buffer
-	app := &cli.App{
-		Name:           "chord",
-		Writer:         &o,
-		ErrWriter:      &e,
-		ExitErrHandler: func(*cli.Context, error) {},
-		Commands:       []*cli.Command{{Name: "opacity", Subcommands: []*cli.Command{opacityBuildCommand}}},
-	}
-	err = app.Run(append([]string{"chord", "opacity", "build"}, args...))
+	app := newApp()
+	app.Writer, app.ErrWriter = &o, &e
+	err = runApp(app, append([]string{"chord", "opacity", "build"}, args...))
 	return o.String(), e.String(), err
 }
 
@@ -66,7 +58,7 @@ func TestOpacityBuildHITRAN(t *testing.T) {
 	molparam, tips := filepath.Join(part, "molparam_hitran.txt"), filepath.Join(part, "parsum2011_tips.dat")
 	out := t.TempDir()
 	args := []string{"-o", out, "--lines", lines, "--molparam", molparam, "--tips", tips,
-		"--pressure", "1e-3:1:3", "--temperature", "296,600", "--wavenumber", "2100:2200:0.05", "-q"}
+		"--pressure-range-bar", "1e-3:1", "--pressure-points", "3", "--temperatures-k", "296,600", "--wavenumber-range", "2100:2200", "--wavenumber-step", "0.05", "-q"}
 	stdout, _, err := runBuild(t, args...)
 	if err != nil {
 		t.Fatal(err)
@@ -124,7 +116,7 @@ func TestOpacityBuildExoMolAndCIA(t *testing.T) {
 	cia := filepath.Join(testenv.SharedData(t, "cia"), "N2-N2_2011.cia")
 	out := t.TempDir()
 	stdout, stderr, err := runBuild(t, "-o", out, "--lines", def, "--cia", cia,
-		"--pressure", "1e-3:1:2", "--temperature", "500,1000", "--wavelength", "2:1000:200") // down to 10 cm^-1: the line window starts at 0
+		"--pressure-range-bar", "1e-3:1", "--pressure-points", "2", "--temperatures-k", "500,1000", "--wavelength-range-um", "2:1000", "--resolving-power", "200", "--cross-sections") // down to 10 cm^-1: the line window starts at 0
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -163,32 +155,32 @@ func TestOpacityBuildErrors(t *testing.T) {
 	if err := os.WriteFile(def, []byte("EXOMOL.def # ID\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	grid := []string{"--wavenumber", "2000:2100:1"}
+	grid := []string{"--wavenumber-range", "2000:2100", "--wavenumber-step", "1"}
 	cases := []struct {
 		args []string
 		want string
 	}{
 		{[]string{}, "Required flag"},
 		{[]string{"-o", dir}, "nothing to build"},
-		{[]string{"-o", dir, "--lines", par, "--molparam", mp}, "need a wavenumber grid"},
+		{[]string{"-o", dir, "--lines", par, "--molparam", mp}, "need bins or a grid"},
 		{append([]string{"-o", dir, "--lines", par}, grid...), "molparam"},
 		{append([]string{"-o", dir, "--lines", par, "--molparam", mp}, grid...), "x.par:1"},
-		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--pressure", "100:1:5"}, grid...), "--pressure"},
-		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--pressure", "a:b:c"}, grid...), "not a number"},
-		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--temperature", "300,200"}, grid...), "strictly ascending"},
-		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--temperature", "0,200"}, grid...), "positive temperature"},
-		{[]string{"-o", dir, "--lines", par, "--molparam", mp, "--wavenumber", "2100:2000:1"}, "--wavenumber"},
-		{[]string{"-o", dir, "--lines", par, "--molparam", mp, "--wavelength", "1:2"}, "LO:HI:N"},
-		{[]string{"-o", dir, "--lines", par, "--molparam", mp, "--wavenumber", "1:2:1", "--wavelength", "1:2:3"}, "not both"},
+		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--pressure-range-bar", "100:1", "--pressure-points", "5"}, grid...), "--pressure-range-bar"},
+		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--pressure-range-bar", "a:b", "--pressure-points", "3"}, grid...), "give LO:HI"},
+		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--temperatures-k", "300,200"}, grid...), "strictly ascending"},
+		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--temperatures-k", "0,200"}, grid...), "positive temperature"},
+		{[]string{"-o", dir, "--lines", par, "--molparam", mp, "--wavenumber-range", "2100:2000", "--wavenumber-step", "1"}, "--wavenumber-range"},
+		{[]string{"-o", dir, "--lines", par, "--molparam", mp, "--wavelength-range-um", "1:2", "--cross-sections"}, "--wavelength-range-um needs --resolving-power"},
+		{[]string{"-o", dir, "--lines", par, "--molparam", mp, "--wavenumber-range", "1:2", "--wavenumber-step", "1", "--wavelength-range-um", "1:2", "--resolving-power", "3", "--cross-sections"}, "not both"},
 		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--partition", "1-1=q.txt"}, grid...), "MOL/ISO=FILE"},
 		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--partition", "1/1=q.txt"}, grid...), "not in the molparam table"},
 		{append([]string{"-o", dir, "--lines", def, "--lines", par}, grid...), "not both"},
 		{append([]string{"-o", dir, "--lines", def, "--molparam", mp}, grid...), "--molparam: applies to HITRAN"},
 		{append([]string{"-o", dir, "--lines", def}, grid...), "no isotopologue mass"},
 		{append([]string{"-o", dir, "--lines", par, "--molparam", mp, "--abundance", "0.5"}, grid...), "ExoMol line lists only"},
-		{append([]string{"-o", dir, "--demo"}, grid...), "--wavenumber cannot be used"},
+		{append([]string{"-o", dir, "--demo"}, grid...), "--wavenumber-range cannot be used"},
 		{[]string{"-o", dir, "--cia", par}, "x.par"},
-		{[]string{"-o", dir, "--lines", par, "--molparam", mp, "--pressure", "1e-5:1:1000", "--wavenumber", "1000:3000:0.001"}, "too large"},
+		{[]string{"-o", dir, "--lines", par, "--molparam", mp, "--pressure-range-bar", "1e-5:1", "--pressure-points", "1000", "--wavenumber-range", "1000:3000", "--wavenumber-step", "0.001"}, "too large"},
 		{[]string{"-o", dir, "stray"}, "unexpected argument"},
 	}
 	for i, c := range cases {
@@ -201,7 +193,7 @@ func TestOpacityBuildErrors(t *testing.T) {
 	hl := testenv.SharedData(t, "hitran-lines")
 	part := testenv.SharedData(t, "partition")
 	_, _, err := runBuild(t, "-o", dir, "--lines", filepath.Join(hl, "CO_fragment_3.7_radis.par"), "--lines", filepath.Join(hl, "CO2_fragment_3000_radis.par"),
-		"--molparam", filepath.Join(part, "molparam_hitran.txt"), "--wavenumber", "1:4000:1", "--pressure", "1:1:1", "--temperature", "296", "-q")
+		"--molparam", filepath.Join(part, "molparam_hitran.txt"), "--wavenumber-range", "1:4000", "--wavenumber-step", "1", "--pressure-range-bar", "1:1", "--pressure-points", "1", "--temperatures-k", "296", "-q")
 	if err == nil || !strings.Contains(err.Error(), "a table is one gas") {
 		t.Errorf("two molecules: %v", err)
 	}

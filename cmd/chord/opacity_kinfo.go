@@ -100,7 +100,7 @@ func infoK(w io.Writer, t *opacity.KTable) error {
 	if fr, ok := num("fine_resolution_lowest_t"); ok {
 		if rule, ok := num("doppler_rule_lowest_t"); ok && fr < rule*(1-1e-9) {
 			fmt.Fprintf(w, "WARNING:      the fine grid (resolving power %.4g) was coarser than a third of the Doppler half-width at %g K (%.4g):\n"+
-				"              lines at low pressure are sampled, not resolved; rebuild without --resolution\n", fr, t.T[0], rule)
+				"              lines at low pressure are sampled, not resolved; rebuild without --fine-resolving-power\n", fr, t.T[0], rule)
 		}
 	}
 	if v := meta[lbl.MetaWarnings]; v != "" {

@@ -46,11 +46,12 @@ func buildKTable(c *cli.Context, files []string, out string, force bool, progres
 	if err != nil {
 		return err
 	}
-	logP := opacity.DefaultKLog10P()
-	if c.IsSet("pressure") {
-		if logP, err = buildPressures(c.String("pressure")); err != nil {
-			return err
-		}
+	logP, err := buildPressures(c)
+	if err != nil {
+		return err
+	}
+	if logP == nil {
+		logP = opacity.DefaultKLog10P()
 	}
 	temps, err := kTemperatures(c, list)
 	if err != nil {
@@ -64,7 +65,7 @@ func buildKTable(c *cli.Context, files []string, out string, force bool, progres
 	defer cancel()
 	s := lbl.KSettings{
 		Log10P: logP, T: temps, Lo: lo, Hi: hi, Quadrature: q,
-		Resolution: c.Float64("resolution"),
+		Resolution: c.Float64("fine-resolving-power"),
 		Lines: lbl.LineSettings{
 			WingCutoff: c.Float64("cutoff"), WingWidths: c.Float64("wing-widths"),
 			MinIntensity: c.Float64("min-intensity"),
@@ -121,18 +122,19 @@ func buildKTable(c *cli.Context, files []string, out string, force bool, progres
 	return nil
 }
 
-// kBins returns the k-table bins (m) of --bins LO:HI:R, the anchored grid
-// lambda_k = exp(k/R) um with every edge inside [LO, HI] um (so that the
-// bins of R and of 10 R nest, and R = 100 bins are unions of R = 1000
-// table bins), or of the observation file of --bins-from.
+// kBins returns the k-table bins (m) of --wavelength-range-um LO:HI with
+// --resolving-power R, the anchored grid lambda_k = exp(k/R) um with every
+// edge inside [LO, HI] um (so that the bins of R and of 10 R nest, and R =
+// 100 bins are unions of R = 1000 table bins), or of the observation file
+// of --bins-file.
 func kBins(c *cli.Context) (lo, hi []float64, err error) {
-	if c.IsSet("bins") && c.IsSet("bins-from") {
-		return nil, nil, errors.New("opacity build: give --bins or --bins-from, not both")
+	if c.IsSet("wavelength-range-um") && c.IsSet("bins-file") {
+		return nil, nil, errors.New("opacity build: give --wavelength-range-um or --bins-file, not both")
 	}
-	if c.IsSet("bins-from") {
-		d, err := obs.ReadDataset(c.String("bins-from"))
+	if c.IsSet("bins-file") {
+		d, err := obs.ReadDataset(c.String("bins-file"))
 		if err != nil {
-			return nil, nil, fmt.Errorf("opacity build: --bins-from: %w", err)
+			return nil, nil, fmt.Errorf("opacity build: --bins-file: %w", err)
 		}
 		idx := make([]int, d.Len())
 		for i := range idx {
@@ -141,26 +143,27 @@ func kBins(c *cli.Context) (lo, hi []float64, err error) {
 		slices.SortFunc(idx, func(a, b int) int { return cmpF(d.Lo[a], d.Lo[b]) })
 		for n, i := range idx {
 			if n > 0 && d.Lo[i] < hi[n-1] {
-				return nil, nil, fmt.Errorf("opacity build: --bins-from %s: bins at %s and %s overlap; a k-table's bins must not (build on the anchored grid with --bins and let the fit merge them)",
+				return nil, nil, fmt.Errorf("opacity build: --bins-file %s: bins at %s and %s overlap; a k-table's bins must not (build on the anchored grid with --wavelength-range-um and --resolving-power, and let the fit merge them)",
 					d.Path, d.Where(idx[n-1]), d.Where(i))
 			}
 			lo, hi = append(lo, d.Lo[i]), append(hi, d.Hi[i])
 		}
 		return lo, hi, nil
 	}
-	a, b, r, err := parseRange("bins", c.String("bins"))
+	a, b, r, _, err := spanWith(c, "wavelength-range-um", "resolving-power")
 	if err != nil {
 		return nil, nil, err
 	}
+	what := fmt.Sprintf("--wavelength-range-um %s --resolving-power %g", c.String("wavelength-range-um"), r)
 	if !(a > 0) || !(b > a) || !(r > 0) || r > 1e6 {
-		return nil, nil, fmt.Errorf("opacity build: --bins %q: want 0 < LO < HI (um) and 0 < R <= 1e6", c.String("bins"))
+		return nil, nil, fmt.Errorf("opacity build: %s: want 0 < LO < HI (um) and 0 < R <= 1e6", what)
 	}
 	if n := r * math.Log(b/a); n > maxBuildValues/16 {
-		return nil, nil, fmt.Errorf("opacity build: --bins %q: %.0f bins is too many", c.String("bins"), n)
+		return nil, nil, fmt.Errorf("opacity build: %s: %.0f bins is too many", what, n)
 	}
 	lo, hi = opacity.AnchoredBins(a, b, r)
 	if len(lo) == 0 {
-		return nil, nil, fmt.Errorf("opacity build: --bins %q: no bin of the grid exp(k/%g) um lies inside %g-%g um", c.String("bins"), r, a, b)
+		return nil, nil, fmt.Errorf("opacity build: %s: no bin of the grid exp(k/%g) um lies inside %g-%g um", what, r, a, b)
 	}
 	return lo, hi, nil
 }
@@ -178,8 +181,8 @@ func cmpF(a, b float64) int {
 // kTemperatures returns --temperature, or DefaultKT clipped to the range
 // every isotopologue of the gas's molecule with a partition table covers.
 func kTemperatures(c *cli.Context, l *build.List) ([]float64, error) {
-	if c.IsSet("temperature") {
-		return buildTemperatures(c.String("temperature"))
+	if t, err := buildTemperatures(c); t != nil || err != nil {
+		return t, err
 	}
 	lo, hi := 0.0, math.Inf(1)
 	mol := lbl.MoleculeID(l.Gas)
@@ -196,7 +199,7 @@ func kTemperatures(c *cli.Context, l *build.List) ([]float64, error) {
 		}
 	}
 	if len(out) < 2 {
-		return nil, fmt.Errorf("opacity build: the partition sums of %s cover %g-%g K, too little of the default temperatures; give --temperature", l.Gas, lo, hi)
+		return nil, fmt.Errorf("opacity build: the partition sums of %s cover %g-%g K, too little of the default temperatures; give --temperatures-k", l.Gas, lo, hi)
 	}
 	return out, nil
 }

@@ -30,7 +30,7 @@ func TestOpacityBuildK(t *testing.T) {
 	out := t.TempDir()
 	stdout, stderr, err := runBuild(t, "-o", out, "--lines", lines, "--molparam", filepath.Join(part, "molparam_hitran.txt"),
 		"--partition", filepath.Join(part, "q26_CO_26_tips2021_hapi.txt"), "--tips", filepath.Join(part, "parsum2011_tips.dat"),
-		"--bins", "4.5:4.8:100", "--temperature", "500,1000", "--resolution", "2e5", "--mixture", "H2:0.85,He:0.15")
+		"--wavelength-range-um", "4.5:4.8", "--resolving-power", "100", "--temperatures-k", "500,1000", "--fine-resolving-power", "2e5", "--mixture", "H2:0.85,He:0.15")
 	if err != nil {
 		t.Fatalf("%v\n%s", err, stderr)
 	}
@@ -76,11 +76,11 @@ func TestOpacityBuildK(t *testing.T) {
 		args []string
 		want string
 	}{
-		{[]string{"--bins", "4.5:4.8:100", "--wavelength", "4:5:100"}, "--wavelength makes a point cross-section table"},
-		{[]string{"--wavenumber", "2000:2100:1", "--weak-cut", "1e-3"}, "--weak-cut applies to k-tables"},
-		{[]string{"--bins", "4.5:4.51:10"}, "no bin of the grid"},
-		{[]string{"--bins", "4.5:4.8:100", "--quadrature", "12,4@1.5"}, "--quadrature"},
-		{[]string{"--bins", "4.5:4.8:100", "--mixture", "H2:0.5"}, "--mixture: broadening mixture: fractions sum to 0.5"},
+		{[]string{"--wavelength-range-um", "4.5:4.8", "--resolving-power", "100", "--wavenumber-range", "2000:2100", "--wavenumber-step", "1"}, "--wavenumber-range makes a cross-section table"},
+		{[]string{"--wavenumber-range", "2000:2100", "--wavenumber-step", "1", "--weak-cut", "1e-3"}, "--weak-cut applies to k-tables"},
+		{[]string{"--wavelength-range-um", "4.5:4.51", "--resolving-power", "10"}, "no bin of the grid"},
+		{[]string{"--wavelength-range-um", "4.5:4.8", "--resolving-power", "100", "--quadrature", "12,4@1.5"}, "--quadrature"},
+		{[]string{"--wavelength-range-um", "4.5:4.8", "--resolving-power", "100", "--mixture", "H2:0.5"}, "--mixture: broadening mixture: fractions sum to 0.5"},
 	} {
 		args := append([]string{"-o", t.TempDir(), "--lines", lines, "--molparam", filepath.Join(part, "molparam_hitran.txt")}, c.args...)
 		if _, _, err := runBuild(t, args...); err == nil || !strings.Contains(err.Error(), c.want) {
@@ -106,8 +106,8 @@ func TestOpacityBuildKInterrupt(t *testing.T) {
 		t.Fatal(err)
 	}
 	args := func(out string) []string {
-		return []string{"opacity", "build", "-o", out, "--lines", def, "--bins", "4.2:4.95:200", "--pressure", "1e-4:1:3",
-			"--temperature", "600,1200", "--resolution", "2e5", "--window-lines", "5000", "-j", "2"}
+		return []string{"opacity", "build", "-o", out, "--lines", def, "--wavelength-range-um", "4.2:4.95", "--resolving-power", "200", "--pressure-range-bar", "1e-4:1", "--pressure-points", "3",
+			"--temperatures-k", "600,1200", "--fine-resolving-power", "2e5", "--window-lines", "5000", "-j", "2"}
 	}
 	whole := filepath.Join(dir, "whole")
 	if b, err := exec.Command(bin, args(whole)...).CombinedOutput(); err != nil {

@@ -20,9 +20,9 @@ func planCommand() *cli.Command {
 		Description: "For each level, simulates the scenario's observation, fits it into a normal run\n" +
 			"directory (PLANDIR/<level>/run, which chord resume can continue) and finally compares\n" +
 			"the posterior widths (PLANDIR/comparison.txt, comparison.json, widths.png; the table\n" +
-			"also goes to stdout). --noise 30,60,120 gives one fit per noise level (ppm per bin);\n" +
-			"--transits 1,4,16 one fit per number of transits, with the single-transit noise from\n" +
-			"--noise PPM or --noise-file. Observations are noise-free with error bars unless --seed\n" +
+			"also goes to stdout). --noise-ppm 30,60,120 gives one fit per noise level (ppm per\n" +
+			"bin); --transits 1,4,16 one fit per number of transits, with the single-transit noise\n" +
+			"from --noise-ppm PPM or --noise-file. Observations are noise-free with error bars unless --noise-seed\n" +
 			"N asks for Gaussian noise (level i drawn with seed N+i). The fits run one after\n" +
 			"another with every worker and share one load of the opacity tables. --detect H2O,CH4\n" +
 			"also fits at each level the model without each gas (the scenario's [sampler] must say\n" +
@@ -35,10 +35,11 @@ func planCommand() *cli.Command {
 			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "scenario `FILE` (TOML; see testdata/scenarios); omit it to resume the plan in PLANDIR"},
 			&cli.BoolFlag{Name: "demo", Usage: "plan with the demo's scenario, the invented warm sub-Neptune Ossery b (demo opacities: not for science)"},
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "plan `DIR`", Required: true},
-			&cli.StringFlag{Name: "noise", Usage: "noise levels `PPM,...` (one fit each), or with --transits the one single-transit level"},
+			&cli.StringFlag{Name: "noise-ppm", Usage: "noise levels `PPM,...` (one fit each), or with --transits the one single-transit level"},
 			&cli.StringFlag{Name: "transits", Usage: "numbers of transits `N,...` (one fit each)"},
-			&cli.Uint64Flag{Name: "seed", Usage: "draw Gaussian noise, level i with seed `N`+i (default: noise-free observations)"},
+			&cli.Uint64Flag{Name: "noise-seed", Usage: "draw Gaussian noise, level i with seed `N`+i", DefaultText: "noise-free observations"},
 			&cli.StringFlag{Name: "detect", Usage: "also report at each level the detection by evidence of `GAS,...` (the scenario's fits must be nested sampling; docs/evidence.md)"},
+			workersFlag(),
 		}, observingFlags...), stopFlags...),
 		Action: runPlan,
 	}
@@ -60,7 +61,7 @@ func runPlan(c *cli.Context) error {
 		opt.Demo = true
 	}
 	if opt.ScenarioPath == "" && !opt.Demo {
-		if f, ok := firstSet(c, "noise", "transits", "seed", "bins", "wavelength-range", "resolving-power", "noise-file", "steps", "budget", "until-converged", "detect"); ok {
+		if f, ok := firstSet(c, "noise-ppm", "transits", "noise-seed", "bins-file", "wavelength-range-um", "resolving-power", "noise-file", "steps", "budget", "until-converged", "detect"); ok {
 			return fmt.Errorf("plan: --%s without -c or --demo: a plan is resumed as it was asked (its plan.toml); give -c SCENARIO to start a new plan", f)
 		}
 	} else {
@@ -70,7 +71,7 @@ func runPlan(c *cli.Context) error {
 		}
 		spec := campaign.PlanSpec{
 			BinsFile: obs.BinsFile, RangeUm: obs.RangeUm, ResolvingPower: obs.ResolvingPower, NoiseFile: obs.NoiseFile,
-			Scatter: c.IsSet("seed"), NoiseSeed: c.Uint64("seed"),
+			Scatter: c.IsSet("noise-seed"), NoiseSeed: c.Uint64("noise-seed"),
 			Steps: stop.Steps, Budget: stop.Budget, UntilConverged: stop.UntilConverged,
 		}
 		if c.IsSet("detect") {
@@ -81,9 +82,9 @@ func runPlan(c *cli.Context) error {
 				spec.Detect = append(spec.Detect, strings.TrimSpace(g))
 			}
 		}
-		noise, err := floatList(c.String("noise"))
-		if c.IsSet("noise") && err != nil {
-			return fmt.Errorf("plan: --noise %q: give ppm values separated by commas, e.g. 30,60,120", c.String("noise"))
+		noise, err := floatList(c.String("noise-ppm"))
+		if c.IsSet("noise-ppm") && err != nil {
+			return fmt.Errorf("plan: --noise-ppm %q: give ppm values separated by commas, e.g. 30,60,120", c.String("noise-ppm"))
 		}
 		if c.IsSet("transits") {
 			for _, f := range strings.Split(c.String("transits"), ",") {
@@ -94,19 +95,19 @@ func runPlan(c *cli.Context) error {
 				spec.Transits = append(spec.Transits, n)
 			}
 			if len(noise) > 1 {
-				return errors.New("plan: with --transits, --noise is the one single-transit level")
+				return errors.New("plan: with --transits, --noise-ppm is the one single-transit level")
 			}
 			if len(noise) == 1 {
 				spec.SingleNoisePPM = noise[0]
 			}
-		} else if c.IsSet("noise") {
+		} else if c.IsSet("noise-ppm") {
 			spec.NoisePPM = noise
 		}
 		switch {
-		case !c.IsSet("noise") && !c.IsSet("transits"):
-			return errors.New("plan: give the noise levels (--noise 30,60,120) or the numbers of transits (--transits 1,4,16)")
-		case c.IsSet("transits") && !c.IsSet("noise") && !c.IsSet("noise-file"):
-			return errors.New("plan: a plan over transits needs the single-transit noise (--noise PPM or --noise-file FILE)")
+		case !c.IsSet("noise-ppm") && !c.IsSet("transits"):
+			return errors.New("plan: give the noise levels (--noise-ppm 30,60,120) or the numbers of transits (--transits 1,4,16)")
+		case c.IsSet("transits") && !c.IsSet("noise-ppm") && !c.IsSet("noise-file"):
+			return errors.New("plan: a plan over transits needs the single-transit noise (--noise-ppm PPM or --noise-file FILE)")
 		case !c.IsSet("transits") && c.IsSet("noise-file"):
 			return errors.New("plan: noise levels and a noise file exclude each other; with --noise-file, plan over --transits")
 		}

@@ -26,10 +26,10 @@ func reportCommand() *cli.Command {
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "burn", Value: "auto", Usage: "burn-in: `N` steps, or auto"},
 			&cli.IntFlag{Name: "thin", Value: 1, Usage: "keep every `N`-th step for the intervals and plots"},
-			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+			demoCacheFlag(),
 			&cli.BoolFlag{Name: "html", Usage: "also write report.html, the whole report on one self-contained page"},
 		},
-		Action: interspersed(runReport),
+		Action: runReport,
 	}
 }
 

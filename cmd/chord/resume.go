@@ -22,9 +22,9 @@ func resumeCommand() *cli.Command {
 			"is given. A run stopped before its first checkpoint starts again from its seed. The run\n" +
 			"directory is locked while resume runs (docs/runs.md).",
 		Flags: append([]cli.Flag{
-			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
-		}, stopFlags...),
-		Action: interspersed(runResume),
+			demoCacheFlag(),
+		}, append(stopFlags, runFlags...)...),
+		Action: runResume,
 	}
 }
 

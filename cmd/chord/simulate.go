@@ -17,11 +17,11 @@ import (
 
 // observingFlags are the bin and noise options shared by simulate and plan.
 var observingFlags = []cli.Flag{
-	&cli.StringFlag{Name: "bins", Usage: "instrument bins from `FILE` (columns edge_low_um, edge_high_um or wavelength_um, width_um; optional error_ppm)"},
-	&cli.StringFlag{Name: "wavelength-range", Usage: "bins between `LO,HI` um at constant resolving power (with --resolving-power)"},
-	&cli.Float64Flag{Name: "resolving-power", Usage: "resolving power `R` = lambda/delta-lambda of the bins (with --wavelength-range)"},
+	&cli.StringFlag{Name: "bins-file", Usage: "instrument bins from `FILE` (columns edge_low_um, edge_high_um or wavelength_um, width_um; optional error_ppm)"},
+	&cli.StringFlag{Name: "wavelength-range-um", Usage: "bins between `LO:HI` um at constant resolving power (with --resolving-power)"},
+	&cli.Float64Flag{Name: "resolving-power", Usage: "resolving power `R` = lambda/delta-lambda of the bins (with --wavelength-range-um)"},
 	&cli.StringFlag{Name: "noise-file", Usage: "single-transit error per bin from the error_ppm column of `FILE` (its bins are used unless others are given, which must match)"},
-	&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+	demoCacheFlag(),
 }
 
 // simulateCommand returns the simulate command.
@@ -31,22 +31,22 @@ func simulateCommand() *cli.Command {
 		Usage:     "simulate an observation of a scenario's true spectrum",
 		ArgsUsage: " ",
 		Description: "Computes the scenario's true transmission spectrum on the instrument bins and\n" +
-			"writes it as an observation file (edge_low_um, edge_high_um, depth_ppm, error) that\n" +
-			"chord fit reads. Bins come from --bins, or --wavelength-range with --resolving-power,\n" +
-			"or the --noise-file, or else the scenario's [spectrum]. The error of each bin is\n" +
-			"--noise PPM or the --noise-file's error_ppm for one transit, divided by\n" +
+			"writes it as an observation file that chord fit reads. Bins come from --bins-file, or\n" +
+			"--wavelength-range-um with --resolving-power, or the --noise-file, or else the\n" +
+			"scenario's [spectrum]. The error of each bin is --noise-ppm or the --noise-file's\n" +
+			"error_ppm for one transit, divided by\n" +
 			"sqrt(--transits N).\n\n" +
 			"--no-scatter writes the noise-free spectrum with its error bars: the usual choice\n" +
 			"for forecasts, since the posterior is then centred on the truth and its width is the\n" +
-			"expected one, without the luck of one noise draw. --seed N instead adds Gaussian\n" +
+			"expected one, without the luck of one noise draw. --noise-seed N instead adds Gaussian\n" +
 			"noise drawn with seed N (the same seed gives the same file).",
 		Flags: append([]cli.Flag{
 			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "scenario `FILE` (TOML; see testdata/scenarios)"},
 			&cli.BoolFlag{Name: "demo", Usage: "observe the demo's scenario, the invented warm sub-Neptune Ossery b (demo opacities: not for science)"},
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "observation `FILE` to write (CSV)", Required: true},
-			&cli.Float64Flag{Name: "noise", Usage: "single-transit error per bin, `PPM` of transit depth"},
+			&cli.Float64Flag{Name: "noise-ppm", Usage: "single-transit error per bin, `PPM` of transit depth"},
 			&cli.IntFlag{Name: "transits", Value: 1, Usage: "number of transits `N`: errors are divided by sqrt(N)"},
-			&cli.Uint64Flag{Name: "seed", Usage: "add Gaussian noise drawn with seed `N`"},
+			&cli.Uint64Flag{Name: "noise-seed", Usage: "add Gaussian noise drawn with seed `N`"},
 			&cli.BoolFlag{Name: "no-scatter", Usage: "write the noise-free spectrum with error bars (the usual choice for forecasts)"},
 			&cli.StringFlag{Name: "fit-config", Usage: "also write to `FILE` the retrieval configuration that fits this observation with the scenario's parameters"},
 			&cli.BoolFlag{Name: "force", Usage: "replace existing output files"},
@@ -58,18 +58,18 @@ func simulateCommand() *cli.Command {
 // observingSpec reads the bin and noise flags.
 func observingSpec(c *cli.Context) (simulate.ObservingSpec, error) {
 	spec := simulate.ObservingSpec{
-		BinsFile: c.String("bins"), NoiseFile: c.String("noise-file"),
+		BinsFile: c.String("bins-file"), NoiseFile: c.String("noise-file"),
 		ResolvingPower: c.Float64("resolving-power"),
 	}
 	if c.IsSet("resolving-power") && !(spec.ResolvingPower > 0) {
 		return spec, fmt.Errorf("--resolving-power %g: must be positive", spec.ResolvingPower)
 	}
-	if s := c.String("wavelength-range"); s != "" {
-		v, err := floatList(s)
-		if err != nil || len(v) != 2 {
-			return spec, fmt.Errorf("--wavelength-range %q: give LO,HI in um, e.g. 0.6,12", s)
+	if s := c.String("wavelength-range-um"); s != "" {
+		lo, hi, err := parseSpan("wavelength-range-um", s)
+		if err != nil {
+			return spec, fmt.Errorf("%w in um, e.g. 0.6:12", err)
 		}
-		spec.RangeUm = [2]float64{v[0], v[1]}
+		spec.RangeUm = [2]float64{lo, hi}
 	}
 	return spec, nil
 }
@@ -78,15 +78,15 @@ func runSimulate(c *cli.Context) error {
 	if c.NArg() > 0 {
 		return fmt.Errorf("simulate: unexpected argument %q", c.Args().First())
 	}
-	scatter, noScatter := c.IsSet("seed"), c.Bool("no-scatter")
+	scatter, noScatter := c.IsSet("noise-seed"), c.Bool("no-scatter")
 	if scatter == noScatter {
-		return errors.New("simulate: give --seed N (Gaussian noise) or --no-scatter (the noise-free spectrum, the usual choice for forecasts)")
+		return errors.New("simulate: give --noise-seed N (Gaussian noise) or --no-scatter (the noise-free spectrum, the usual choice for forecasts)")
 	}
-	if !c.IsSet("noise") && !c.IsSet("noise-file") {
-		return errors.New("simulate: give the noise: --noise PPM or --noise-file FILE")
+	if !c.IsSet("noise-ppm") && !c.IsSet("noise-file") {
+		return errors.New("simulate: give the noise: --noise-ppm PPM or --noise-file FILE")
 	}
-	if c.IsSet("noise") && !(c.Float64("noise") > 0) {
-		return fmt.Errorf("simulate: --noise %g ppm: must be positive", c.Float64("noise"))
+	if c.IsSet("noise-ppm") && !(c.Float64("noise-ppm") > 0) {
+		return fmt.Errorf("simulate: --noise-ppm %g: must be positive", c.Float64("noise-ppm"))
 	}
 	if n := c.Int("transits"); n < 1 {
 		return fmt.Errorf("simulate: --transits %d: must be at least 1", n)
@@ -95,7 +95,7 @@ func runSimulate(c *cli.Context) error {
 	if err != nil {
 		return fmt.Errorf("simulate: %w", err)
 	}
-	spec.NoisePPM, spec.Transits = c.Float64("noise"), c.Int("transits")
+	spec.NoisePPM, spec.Transits = c.Float64("noise-ppm"), c.Int("transits")
 	var sc *simulate.Scenario
 	switch {
 	case c.Bool("demo") && c.IsSet("config"):
@@ -118,7 +118,7 @@ func runSimulate(c *cli.Context) error {
 	if err != nil {
 		return err
 	}
-	o, err := sc.Simulate(set, bins, simulate.Options{Noise: noise, Scatter: scatter, Seed: c.Uint64("seed")})
+	o, err := sc.Simulate(set, bins, simulate.Options{Noise: noise, Scatter: scatter, Seed: c.Uint64("noise-seed")})
 	if err != nil {
 		return err
 	}

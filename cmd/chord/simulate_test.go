@@ -15,7 +15,7 @@ func runCmd(t *testing.T, args ...string) (string, string, error) {
 	app := newApp()
 	var out, errOut bytes.Buffer
 	app.Writer, app.ErrWriter = &out, &errOut
-	err := app.Run(append([]string{"chord"}, args...))
+	err := runApp(app, append([]string{"chord"}, args...))
 	return out.String(), errOut.String(), err
 }
 
@@ -33,7 +33,7 @@ func TestSimulatePlanCompareCommands(t *testing.T) {
 		t.Fatal(err)
 	}
 	obs, fit := filepath.Join(dir, "o.csv"), filepath.Join(dir, "fit.toml")
-	_, errOut, err := runCmd(t, "simulate", "-c", sc, "-o", obs, "--noise", "50", "--transits", "4", "--no-scatter", "--fit-config", fit)
+	_, errOut, err := runCmd(t, "simulate", "-c", sc, "-o", obs, "--noise-ppm", "50", "--transits", "4", "--no-scatter", "--fit-config", fit)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -45,7 +45,7 @@ func TestSimulatePlanCompareCommands(t *testing.T) {
 		t.Fatalf("observation %v", rows[:2])
 	}
 	plan := filepath.Join(dir, "plan")
-	out, _, err := runCmd(t, "plan", "-c", sc, "-o", plan, "--noise", "40,80")
+	out, _, err := runCmd(t, "plan", "-c", sc, "-o", plan, "--noise-ppm", "40,80")
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -82,25 +82,25 @@ func TestPlanningCommandErrors(t *testing.T) {
 		args []string
 		want string
 	}{
-		{[]string{"simulate", "-c", sc, "-o", o, "--noise", "50"}, "give --seed N"},
-		{[]string{"simulate", "-c", sc, "-o", o, "--noise", "50", "--seed", "1", "--no-scatter"}, "give --seed N"},
-		{[]string{"simulate", "-c", sc, "-o", o, "--noise", "0", "--no-scatter"}, "--noise 0 ppm"},
-		{[]string{"simulate", "-c", sc, "-o", o, "--noise", "-3", "--no-scatter"}, "must be positive"},
+		{[]string{"simulate", "-c", sc, "-o", o, "--noise-ppm", "50"}, "give --noise-seed N"},
+		{[]string{"simulate", "-c", sc, "-o", o, "--noise-ppm", "50", "--noise-seed", "1", "--no-scatter"}, "give --noise-seed N"},
+		{[]string{"simulate", "-c", sc, "-o", o, "--noise-ppm", "0", "--no-scatter"}, "--noise-ppm 0"},
+		{[]string{"simulate", "-c", sc, "-o", o, "--noise-ppm", "-3", "--no-scatter"}, "must be positive"},
 		{[]string{"simulate", "-c", sc, "-o", o, "--no-scatter"}, "give the noise"},
-		{[]string{"simulate", "-c", sc, "-o", o, "--noise", "5", "--transits", "0", "--no-scatter"}, "--transits 0"},
-		{[]string{"simulate", "-c", bad, "-o", o, "--noise", "5", "--no-scatter"}, "planet.moon: unknown key"},
-		{[]string{"simulate", "-c", sc, "-o", o, "--noise", "5", "--no-scatter", "--wavelength-range", "1"}, "--wavelength-range"},
-		{[]string{"simulate", "-c", sc, "-o", o, "--noise", "5", "--no-scatter", "--wavelength-range", "1,2"}, "needs a resolving power"},
-		{[]string{"simulate", "-o", o, "--noise", "5", "--no-scatter"}, "give the scenario"},
-		{[]string{"plan", "-c", sc, "-o", filepath.Join(dir, "p1"), "--noise", "30,0"}, "noise level 0 ppm"},
-		{[]string{"plan", "-c", sc, "-o", filepath.Join(dir, "p2"), "--noise", "30,x"}, "--noise"},
+		{[]string{"simulate", "-c", sc, "-o", o, "--noise-ppm", "5", "--transits", "0", "--no-scatter"}, "--transits 0"},
+		{[]string{"simulate", "-c", bad, "-o", o, "--noise-ppm", "5", "--no-scatter"}, "planet.moon: unknown key"},
+		{[]string{"simulate", "-c", sc, "-o", o, "--noise-ppm", "5", "--no-scatter", "--wavelength-range-um", "1"}, "--wavelength-range-um"},
+		{[]string{"simulate", "-c", sc, "-o", o, "--noise-ppm", "5", "--no-scatter", "--wavelength-range-um", "1:2"}, "needs a resolving power"},
+		{[]string{"simulate", "-o", o, "--noise-ppm", "5", "--no-scatter"}, "give the scenario"},
+		{[]string{"plan", "-c", sc, "-o", filepath.Join(dir, "p1"), "--noise-ppm", "30,0"}, "noise level 0 ppm"},
+		{[]string{"plan", "-c", sc, "-o", filepath.Join(dir, "p2"), "--noise-ppm", "30,x"}, "--noise-ppm"},
 		{[]string{"plan", "-c", sc, "-o", filepath.Join(dir, "p3"), "--transits", "1,4"}, "single-transit noise"},
-		{[]string{"plan", "-c", sc, "-o", filepath.Join(dir, "p4"), "--transits", "1,4", "--noise", "30,60"}, "one single-transit level"},
-		{[]string{"plan", "-o", filepath.Join(dir, "p5"), "--noise", "30"}, "without -c"},
-		{[]string{"plan", "-c", bad, "-o", filepath.Join(dir, "p6"), "--noise", "30"}, "planet.moon: unknown key"},
+		{[]string{"plan", "-c", sc, "-o", filepath.Join(dir, "p4"), "--transits", "1,4", "--noise-ppm", "30,60"}, "one single-transit level"},
+		{[]string{"plan", "-o", filepath.Join(dir, "p5"), "--noise-ppm", "30"}, "without -c"},
+		{[]string{"plan", "-c", bad, "-o", filepath.Join(dir, "p6"), "--noise-ppm", "30"}, "planet.moon: unknown key"},
 		{[]string{"compare"}, "at least one run directory"},
 		{[]string{"compare", "--plot", "w.pdf", dir}, "PNG"},
-		{[]string{"compare", dir, "--json"}, "give the options first"},
+		{[]string{"compare", dir, "--json"}, "summary.json"}, // the option after the run directory is taken
 		{[]string{"compare", dir}, "summary.json"},
 	} {
 		if _, _, err := runCmd(t, c.args...); err == nil || !strings.Contains(err.Error(), c.want) {

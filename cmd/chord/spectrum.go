@@ -27,21 +27,25 @@ func spectrumCommand() *cli.Command {
 		Usage:     "compute one transmission spectrum from a model configuration",
 		ArgsUsage: " ",
 		Description: "Reads the [star], [planet], [atmosphere], [clouds], [opacity] and [spectrum]\n" +
-			"sections of a TOML file and writes the transit depth as CSV (wavelength_um, depth,\n" +
-			"and bin_lo_um, bin_hi_um when the spectrum is binned). Lines starting with # are comments.",
+			"sections of a TOML file and writes the transit depth as CSV. A binned spectrum is written\n" +
+			"as an observation file (edge_low_um, edge_high_um, depth_ppm, and error_ppm with\n" +
+			"--error-ppm), which chord fit reads as an observation and chord simulate and opacity\n" +
+			"build as a bins or noise file; an unbinned one as wavelength_um, depth_ppm. Lines\n" +
+			"starting with # are comments.",
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "config", Aliases: []string{"c"}, Usage: "model configuration `FILE` (TOML)", Required: true},
 			&cli.StringFlag{Name: "output", Aliases: []string{"o"}, Usage: "CSV `FILE` to write (\"-\" for standard output)", Required: true},
+			&cli.Float64Flag{Name: "error-ppm", Usage: "state the error of every bin, `PPM` of transit depth, in an error_ppm column (binned spectra only)"},
 			&cli.StringFlag{Name: "plot", Usage: "also draw the spectrum to `FILE`.png (and FILE.svg)"},
 			&cli.StringFlag{Name: "by-gas", Usage: "also draw the spectrum with each gas removed in turn to `FILE`.png (and FILE.svg)"},
-			&cli.StringFlag{Name: "demo-cache", Usage: "`DIR` caching the demo opacity tables (default: the user cache directory)"},
+			demoCacheFlag(),
 			&cli.StringSliceFlag{Name: "resolved", Usage: "compute the spectrum line by line instead (the reference the k-tables are checked against) from the line list of each gas, `GAS=FILE[,FILE...]`; repeatable, one per absorbing gas; needs [spectrum] bins"},
-			&cli.Float64Flag{Name: "fine-resolution", Value: 1e6, Usage: "with --resolved: resolving power nu/dnu of the fine grid"},
+			&cli.Float64Flag{Name: "fine-resolving-power", Value: 1e6, Usage: "with --resolved: resolving power nu/dnu of the fine grid"},
 			&cli.StringFlag{Name: "molparam", Usage: "with --resolved: HITRAN molparam `FILE` (isotopologue masses, abundances, Q(296 K))"},
 			&cli.StringFlag{Name: "tips", Usage: "with --resolved: TIPS partition-sum table `FILE`"},
 			&cli.StringSliceFlag{Name: "partition", Usage: "with --resolved: two-column partition-sum file of one isotopologue, `[MOL/ISO=]FILE`; repeatable, the newest edition per isotopologue is used"},
 			&cli.StringFlag{Name: "mixture", Usage: "with --resolved: broadening gas mixture `GAS:FRACTION,...` (air, H2, He, CO2, H2O; default air)"},
-			&cli.IntFlag{Name: "workers", Usage: "with --resolved: goroutines (default: the number of CPUs)"},
+			&cli.IntFlag{Name: "workers", Usage: "with --resolved: goroutines", DefaultText: "the number of CPUs"},
 		},
 		Action: runSpectrum,
 	}
@@ -59,7 +63,7 @@ func runSpectrum(c *cli.Context) error {
 	if c.IsSet("resolved") {
 		return runSpectrumResolved(c, cfgPath, cfg)
 	}
-	for _, f := range []string{"molparam", "tips", "partition", "mixture", "fine-resolution", "workers"} {
+	for _, f := range []string{"molparam", "tips", "partition", "mixture", "fine-resolving-power", "workers"} {
 		if c.IsSet(f) {
 			return fmt.Errorf("spectrum: --%s goes with --resolved", f)
 		}
@@ -124,7 +128,10 @@ func writeSpectrum(c *cli.Context, cfg *config.ModelConfig, demo bool, wl, depth
 	if title == "" {
 		title = "model spectrum"
 	}
-	spec := &report.ModelSpectrum{Title: title, Demo: demo, Wavelength: wl, Depth: depth, Lo: lo, Hi: hi}
+	spec := &report.ModelSpectrum{Title: title, Demo: demo, Wavelength: wl, Depth: depth, Lo: lo, Hi: hi, ErrorPPM: c.Float64("error-ppm")}
+	if c.IsSet("error-ppm") && !(spec.ErrorPPM > 0 && spec.ErrorPPM < 1e6) {
+		return fmt.Errorf("spectrum: --error-ppm %g: must be positive, below 1e6 ppm", spec.ErrorPPM)
+	}
 	if err := writeSpectrumCSV(c, c.String("output"), spec); err != nil {
 		return err
 	}
@@ -245,7 +252,7 @@ func runSpectrumResolved(c *cli.Context, cfgPath string, cfg *config.ModelConfig
 		fmt.Fprintf(c.App.ErrWriter, "chord spectrum: %s: %d lines\n", gas, ls.Lines())
 	}
 	depth := make([]float64, m.OutputLen())
-	opt := forward.ResolvedOptions{R: c.Float64("fine-resolution"), Workers: c.Int("workers")}
+	opt := forward.ResolvedOptions{R: c.Float64("fine-resolving-power"), Workers: c.Int("workers")}
 	if err := m.TransitResolved(depth, &st, srcs, opt); err != nil {
 		return fmt.Errorf("%s: %w", cfgPath, err)
 	}

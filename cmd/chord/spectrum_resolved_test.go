@@ -44,7 +44,8 @@ wavelength_max_um = 5.3
 bin_resolving_power = 100
 `
 
-// readSpectrumCSV returns the depth column of a chord spectrum CSV.
+// readSpectrumCSV returns the depth column of a chord spectrum CSV, as a
+// fraction.
 func readSpectrumCSV(t *testing.T, path string) []float64 {
 	t.Helper()
 	b, err := os.ReadFile(path)
@@ -61,10 +62,13 @@ func readSpectrumCSV(t *testing.T, path string) []float64 {
 	if err != nil {
 		t.Fatal(err)
 	}
-	col := -1
+	col, scale := -1, 1.0
 	for i, h := range recs[0] {
 		if strings.HasPrefix(strings.TrimSpace(h), "depth") {
 			col = i
+		}
+		if strings.TrimSpace(h) == "depth_ppm" {
+			scale = 1e-6
 		}
 	}
 	if col < 0 {
@@ -76,7 +80,7 @@ func readSpectrumCSV(t *testing.T, path string) []float64 {
 		if err != nil {
 			t.Fatal(err)
 		}
-		out = append(out, v)
+		out = append(out, v*scale)
 	}
 	return out
 }

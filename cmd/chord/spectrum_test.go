@@ -3,13 +3,18 @@ package main
 import (
 	"bytes"
 	"encoding/csv"
+	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"strconv"
 	"strings"
 	"testing"
 
+	"chord/config"
 	"chord/internal/testenv"
+	"chord/obs"
+	"chord/simulate"
 )
 
 func runSpectrumCmd(t *testing.T, args ...string) (string, string, error) {
@@ -17,7 +22,7 @@ func runSpectrumCmd(t *testing.T, args ...string) (string, string, error) {
 	app := newApp()
 	var out, errOut bytes.Buffer
 	app.Writer, app.ErrWriter = &out, &errOut
-	err := app.Run(append([]string{"chord", "spectrum"}, args...))
+	err := runApp(app, append([]string{"chord", "spectrum"}, args...))
 	return out.String(), errOut.String(), err
 }
 
@@ -62,7 +67,7 @@ func TestSpectrumCommand(t *testing.T) {
 		t.Fatal(err)
 	}
 	rows := readCSV(t, out)
-	if strings.Join(rows[0], ",") != "wavelength_um,depth" {
+	if strings.Join(rows[0], ",") != "wavelength_um,depth_ppm" {
 		t.Errorf("header %v", rows[0])
 	}
 	// 200 ln(7.5) = 403.0 steps: 404 points (forward.WavelengthGrid).
@@ -71,14 +76,14 @@ func TestSpectrumCommand(t *testing.T) {
 	}
 	first, _ := strconv.ParseFloat(rows[1][0], 64)
 	d, _ := strconv.ParseFloat(rows[1][1], 64)
-	if first != 0.4 || !(d > 0 && d < 1) {
+	if first != 0.4 || !(d > 1 && d < 1e6) {
 		t.Errorf("first row %v", rows[1])
 	}
 	if st, err := os.Stat(png); err != nil || st.Size() < 1000 {
 		t.Errorf("plot: %v", err)
 	}
 
-	// Binned: bin edges add two columns.
+	// Binned: the layout of an observation file.
 	binned := spectrumModel(t).Set("spectrum.bin_edges_um", "[0.5, 1, 2]").String()
 	if err := os.WriteFile(cfg, []byte(binned), 0o644); err != nil {
 		t.Fatal(err)
@@ -87,10 +92,97 @@ func TestSpectrumCommand(t *testing.T) {
 		t.Fatal(err)
 	}
 	rows = readCSV(t, out)
-	if strings.Join(rows[0], ",") != "wavelength_um,depth,bin_lo_um,bin_hi_um" || len(rows) != 3 || rows[2][2] != "1" || rows[2][3] != "2" || rows[2][0] != "1.5" {
+	if strings.Join(rows[0], ",") != "edge_low_um,edge_high_um,depth_ppm" || len(rows) != 3 || rows[2][0] != "1" || rows[2][1] != "2" {
 		t.Errorf("binned CSV %v", rows)
 	}
+	// --error-ppm needs bins, and a positive error.
+	if err := os.WriteFile(cfg, []byte(spectrumModel(t).String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if _, _, err := runSpectrumCmd(t, "-c", cfg, "-o", out, "--error-ppm", "30"); err == nil || !strings.Contains(err.Error(), "needs bins") {
+		t.Errorf("--error-ppm on an unbinned spectrum: %v", err)
+	}
+	if _, _, err := runSpectrumCmd(t, "-c", cfg, "-o", out, "--error-ppm", "-3"); err == nil || !strings.Contains(err.Error(), "--error-ppm -3") {
+		t.Errorf("--error-ppm -3: %v", err)
+	}
 }
+
+// A binned spectrum written with --error-ppm is an observation: chord fit
+// fits it, obs reads it as the observation a noise-free chord simulate
+// writes (the same bins, depths and errors: a noise-free simulated
+// observation is the model spectrum, fact of the trade), and as a bins
+// and noise file.
+func TestSpectrumRoundTrip(t *testing.T) {
+	dir := t.TempDir()
+	truth := runsModel(t).DeleteTable("parameters").DeleteTable("sampler").Set("spectrum.bin_resolving_power", "15").
+		Write(filepath.Join(dir, "truth.toml"))
+	spec := filepath.Join(dir, "spectrum.csv")
+	if _, _, err := runSpectrumCmd(t, "-c", truth, "-o", spec, "--error-ppm", "40"); err != nil {
+		t.Fatal(err)
+	}
+	// As the observation chord simulate writes without noise.
+	mc, err := config.LoadModel(truth)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sim := filepath.Join(dir, "simulated.csv")
+	if err := simulate.ObserveModel(sim, mc, "", nil, 40, false, 0); err != nil {
+		t.Fatal(err)
+	}
+	got, err := obs.ReadDataset(spec)
+	if err != nil {
+		t.Fatalf("the spectrum as an observation: %v", err)
+	}
+	want, err := obs.ReadDataset(sim)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.Len() != want.Len() || got.Len() < 10 {
+		t.Fatalf("%d bins, the simulated observation %d", got.Len(), want.Len())
+	}
+	for i := range got.Len() {
+		// To the digits of chord simulate's file (edges to 8 significant
+		// digits, depths to 0.001 ppm).
+		if !near(got.Lo[i], want.Lo[i], 1e-7) || !near(got.Hi[i], want.Hi[i], 1e-7) || math.Abs(got.Depth[i]-want.Depth[i]) > 1e-9 || !near(got.Sigma[i], 40e-6, 1e-12) {
+			t.Errorf("bin %d: spectrum %g-%g m depth %g error %g; simulated %g-%g m depth %g", i, got.Lo[i], got.Hi[i], got.Depth[i], got.Sigma[i], want.Lo[i], want.Hi[i], want.Depth[i])
+		}
+	}
+	// As a bins and noise file.
+	bins, errPPM, err := obs.ReadBins(spec)
+	if err != nil {
+		t.Fatalf("the spectrum as a bins file: %v", err)
+	}
+	if bins.Len() != got.Len() || len(errPPM) != got.Len() || errPPM[0] != 40 || !near(bins.Lo[3], got.Lo[3], 1e-12) {
+		t.Errorf("as bins: %d bins, errors %v", bins.Len(), errPPM)
+	}
+	// And fitted: a short run reads it and reports on it.
+	cfg := runsModel(t).Delete("planet.radius_rearth").Delete("atmosphere.temperature.temperature_k").Delete("spectrum.bin_resolving_power").
+		Set("parameters[2].high", "1500").Set("sampler.seed", "11").
+		Append("[[observations]]\nfile = \"spectrum.csv\"").Write(filepath.Join(dir, "fit.toml"))
+	run := filepath.Join(dir, "run")
+	if _, stderr, err := runCmd(t, "fit", "-c", cfg, "-o", run, "--steps", "30"); err != nil {
+		t.Fatalf("fit: %v\n%s", err, stderr)
+	}
+	var s struct {
+		Parameters    []struct{} `json:"parameters"`
+		GoodnessOfFit struct {
+			DegreesOfFreedom int `json:"degrees_of_freedom"`
+		} `json:"goodness_of_fit"`
+	}
+	b, err := os.ReadFile(filepath.Join(run, "summary.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := json.Unmarshal(b, &s); err != nil {
+		t.Fatal(err)
+	}
+	// Degrees of freedom: the bins less the free parameters.
+	if dof := s.GoodnessOfFit.DegreesOfFreedom; dof+len(s.Parameters) != got.Len() {
+		t.Errorf("summary.json: %d degrees of freedom and %d parameters, want %d bins in all", dof, len(s.Parameters), got.Len())
+	}
+}
+
+func near(a, b, rel float64) bool { return math.Abs(a-b) <= rel*math.Max(math.Abs(a), math.Abs(b)) }
 
 func TestSpectrumCommandErrors(t *testing.T) {
 	dir := t.TempDir()
@@ -136,7 +228,7 @@ func TestSpectrumExample(t *testing.T) {
 	if !strings.Contains(string(b), "# demo opacity tables: not for science") {
 		t.Error("no demo warning in the CSV")
 	}
-	if rows := readCSV(t, out); len(rows) < 100 || len(rows[0]) != 4 {
+	if rows := readCSV(t, out); len(rows) < 100 || strings.Join(rows[0], ",") != "edge_low_um,edge_high_um,depth_ppm" {
 		t.Errorf("%d rows of %d columns", len(rows), len(rows[0]))
 	}
 }
