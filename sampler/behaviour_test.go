@@ -387,7 +387,11 @@ func TestStepAllocs(t *testing.T) {
 				before = ms.Mallocs
 			case 3000:
 				runtime.ReadMemStats(&ms)
-				if n := ms.Mallocs - before; n != 0 {
+				// Mallocs counts the whole process: under heavy load the
+				// runtime itself (timers, scheduler) allocates a few
+				// times. An allocation per step would show as 2000 or
+				// more; a handful is not the sampler's.
+				if n := ms.Mallocs - before; n >= 50 {
 					t.Errorf("workers %d: %d allocations in 2000 steps", workers, n)
 				}
 			}
