@@ -49,7 +49,7 @@ type Config struct {
 // own prior, the fill gas making up the rest (trace gases summing above 1
 // are rejected). "clr" is the centred-log-ratio prior of Benneke & Seager
 // (2012, ApJ 753, 100) for atmospheres whose dominant gas is unknown: the
-// gases listed and the fill gas (atmosphere.fill, one component) are
+// gases listed and the fill gas (atmosphere.balance_gas, one component) are
 // treated alike, the free parameters are the centred-log-ratio coordinates
 // xi_g = ln(X_g / geometric mean of X) of the listed gases (named clr_<gas>),
 // and the prior is uniform in them wherever every mixing ratio, the fill
@@ -180,7 +180,8 @@ type SamplerConfig struct {
 	// (default) means one per core.
 	Workers *int `toml:"workers"`
 	// Move is the proposal: "stretch" (default; Goodman & Weare 2010,
-	// a = 2), "walk" or "de" (differential evolution, ter Braak 2006).
+	// a = 2), "walk" (the same paper's walk move) or
+	// "differential-evolution" (ter Braak 2006); "de" is the old spelling.
 	// Ensemble only.
 	Move string `toml:"move,omitempty"`
 }
@@ -191,31 +192,31 @@ type Quantity string
 // The quantities a parameter can set. The unit or transform is part of
 // the name.
 const (
-	QLog10VMR         Quantity = "log10_vmr"           // log10 volume mixing ratio of Gas
-	QTemperature      Quantity = "temperature_k"       // isothermal temperature, K
-	QTIrr             Quantity = "t_irr_k"             // Guillot irradiation temperature, K
-	QTInt             Quantity = "t_int_k"             // Guillot internal temperature, K
-	QLog10KappaIR     Quantity = "log10_kappa_ir"      // log10 Guillot infrared opacity (m^2/kg)
-	QLog10Gamma       Quantity = "log10_gamma"         // log10 Guillot visible/infrared opacity ratio
-	QRadiusRjup       Quantity = "radius_rjup"         // radius at the reference pressure, Jupiter radii
-	QRadiusRearth     Quantity = "radius_rearth"       // the same in Earth radii
-	QMassMjup         Quantity = "mass_mjup"           // planet mass, Jupiter masses
-	QMassMearth       Quantity = "mass_mearth"         // planet mass, Earth masses
-	QLog10CloudTop    Quantity = "log10_cloud_top_bar" // log10 cloud-top pressure, bar
-	QCloudFraction    Quantity = "cloud_fraction"      // patchy-cloud fraction
-	QLog10HazeFactor  Quantity = "log10_haze_factor"   // log10 haze amplitude A
-	QHazeSlope        Quantity = "haze_slope"          // haze power-law slope gamma
-	QOffsetPPM        Quantity = "offset_ppm"          // depth offset of Dataset, ppm (model + offset)
-	QErrorInflationPM Quantity = "error_inflation_ppm" // s of sigma_eff^2 = sigma^2 + s^2, ppm
+	QLog10VMR            Quantity = "log10_vmr"                   // log10 volume mixing ratio of Gas
+	QTemperature         Quantity = "temperature_k"               // isothermal temperature, K
+	QTIrr                Quantity = "t_irr_k"                     // Guillot irradiation temperature, K
+	QTInt                Quantity = "t_int_k"                     // Guillot internal temperature, K
+	QLog10ThermalOpacity Quantity = "log10_thermal_opacity_m2_kg" // log10 Guillot thermal (infrared) mean opacity, m^2/kg
+	QLog10OpacityRatio   Quantity = "log10_opacity_ratio"         // log10 Guillot visible-to-thermal opacity ratio
+	QRadiusRjup          Quantity = "radius_rjup"                 // radius at the reference pressure, Jupiter radii
+	QRadiusRearth        Quantity = "radius_rearth"               // the same in Earth radii
+	QMassMjup            Quantity = "mass_mjup"                   // planet mass, Jupiter masses
+	QMassMearth          Quantity = "mass_mearth"                 // planet mass, Earth masses
+	QLog10CloudTop       Quantity = "log10_cloud_top_bar"         // log10 cloud-top pressure, bar
+	QCloudFraction       Quantity = "cloud_fraction"              // patchy-cloud fraction
+	QLog10HazeStrength   Quantity = "log10_haze_strength"         // log10 haze strength A
+	QHazeIndex           Quantity = "haze_index"                  // haze power-law index
+	QOffsetPPM           Quantity = "offset_ppm"                  // depth offset of Dataset, ppm (model + offset)
+	QErrorInflationPM    Quantity = "error_inflation_ppm"         // s of sigma_eff^2 = sigma^2 + s^2, ppm
 	// QCLR is a centred-log-ratio coordinate of Gas; these parameters come
 	// from [composition] prior = "clr", not from [[parameters]].
 	QCLR Quantity = "clr"
 )
 
 // Quantities lists every quantity, in the order of docs/configuration.md.
-var Quantities = []Quantity{QLog10VMR, QTemperature, QTIrr, QTInt, QLog10KappaIR, QLog10Gamma,
+var Quantities = []Quantity{QLog10VMR, QTemperature, QTIrr, QTInt, QLog10ThermalOpacity, QLog10OpacityRatio,
 	QRadiusRjup, QRadiusRearth, QMassMjup, QMassMearth, QLog10CloudTop, QCloudFraction,
-	QLog10HazeFactor, QHazeSlope, QOffsetPPM, QErrorInflationPM}
+	QLog10HazeStrength, QHazeIndex, QOffsetPPM, QErrorInflationPM}
 
 func quantityNames() string {
 	s := make([]string, len(Quantities))
@@ -402,7 +403,8 @@ func (c *Config) Resolve() (*Resolved, error) {
 	if err := full.ModelConfig.Validate(); err != nil {
 		return nil, err
 	}
-	r.Warnings = full.ModelConfig.SystemWarnings()
+	r.Warnings = append(append([]string(nil), c.Renamed...), full.ModelConfig.SystemWarnings()...)
+	full.ModelConfig.Renamed = nil
 	full.ModelConfig.free = nil
 	if err := r.checkApplies(&full); err != nil {
 		return nil, err
@@ -432,7 +434,7 @@ func (r *Resolved) resolveComposition(c *Config, full *Config) error {
 		return keyErr("composition.prior", "unknown composition prior %q (independent, clr)", cc.Prior)
 	}
 	if len(cc.Gases) == 0 {
-		return missingKey("composition.gases", "the gases of the centred-log-ratio prior besides the fill gas")
+		return missingKey("composition.gases", "the gases of the centred-log-ratio prior besides the balance gas")
 	}
 	minVMR := 1e-12
 	if cc.MinVMR != nil {
@@ -445,7 +447,7 @@ func (r *Resolved) resolveComposition(c *Config, full *Config) error {
 		}
 		for _, f := range c.fillSpecies() {
 			if f == g {
-				return keyErr("composition.gases", "%q is the fill gas (%s), the last component of the prior; list the others", g, c.fillName())
+				return keyErr("composition.gases", "%q is the balance gas (%s), the last component of the prior; list the others", g, c.fillName())
 			}
 		}
 		for _, p := range append(append([]Param(nil), r.Free...), r.Fixed...) {
@@ -594,7 +596,7 @@ func (r *Resolved) bindParam(key string, pc ParameterConfig, c *Config, full *Co
 		}
 		for _, f := range c.fillSpecies() {
 			if f == pc.Gas {
-				return Param{}, "", keyErr(key+".gas", "%q is the fill gas (%s), which makes up the rest; it has no free mixing ratio", pc.Gas, c.fillName())
+				return Param{}, "", keyErr(key+".gas", "%q is the balance gas (%s), which makes up the rest; it has no free mixing ratio", pc.Gas, c.fillName())
 			}
 		}
 		p.Gas, target = pc.Gas, pc.Gas
@@ -641,10 +643,10 @@ func (r *Resolved) datasetNames() string {
 }
 
 func (c *ModelConfig) fillName() string {
-	if c.Atmosphere.Fill == "" {
+	if c.Atmosphere.BalanceGas == "" {
 		return forward.FillH2He
 	}
-	return c.Atmosphere.Fill
+	return c.Atmosphere.BalanceGas
 }
 
 // priorKeys are the keys each prior takes (required, optional).
@@ -754,17 +756,17 @@ func (r *Resolved) checkApplies(c *Config) error {
 			if profile != "isothermal" {
 				nothing = fmt.Sprintf("the temperature profile is %q, not isothermal (atmosphere.temperature.profile)", profile)
 			}
-		case QTIrr, QTInt, QLog10KappaIR, QLog10Gamma:
+		case QTIrr, QTInt, QLog10ThermalOpacity, QLog10OpacityRatio:
 			if profile != "guillot" {
 				nothing = fmt.Sprintf("the temperature profile is %q, not guillot (atmosphere.temperature.profile)", profile)
 			}
 		case QCloudFraction:
-			if c.Clouds.TopPressureBar == nil && !has[QLog10CloudTop] {
-				nothing = "there is no cloud deck (no clouds.top_pressure_bar and no log10_cloud_top_bar parameter)"
+			if c.Clouds.CloudTopBar == nil && !has[QLog10CloudTop] {
+				nothing = "there is no cloud deck (no clouds.cloud_top_bar and no log10_cloud_top_bar parameter)"
 			}
-		case QHazeSlope:
-			if *c.Clouds.HazeFactor == 0 && !has[QLog10HazeFactor] {
-				nothing = "there is no haze (clouds.haze_factor is 0 and no log10_haze_factor parameter)"
+		case QHazeIndex:
+			if *c.Clouds.HazeStrength == 0 && !has[QLog10HazeStrength] {
+				nothing = "there is no haze (clouds.haze_strength is 0 and no log10_haze_strength parameter)"
 			}
 		}
 		if nothing != "" {
@@ -774,7 +776,14 @@ func (r *Resolved) checkApplies(c *Config) error {
 	return nil
 }
 
-var moves = []string{"stretch", "walk", "de"}
+// The ensemble moves (sampler.move).
+const (
+	MoveStretch       = "stretch"                // Goodman & Weare (2010) stretch move, a = 2
+	MoveWalk          = "walk"                   // Goodman & Weare (2010) walk move
+	MoveDiffEvolution = "differential-evolution" // ter Braak (2006)
+)
+
+var moves = []string{MoveStretch, MoveWalk, MoveDiffEvolution}
 
 // MaxWalkersPerParameter bounds sampler.walkers: at most this many walkers
 // per free parameter. The default is 4 per parameter (at least 32); the
@@ -854,10 +863,10 @@ func (r *Resolved) resolveSampler(s SamplerConfig, full *SamplerConfig) error {
 		}
 		r.Move = s.Move
 		if r.Move == "" {
-			r.Move = "stretch"
+			r.Move = MoveStretch
 		}
 		if !contains(moves, r.Move) {
-			return keyErr("sampler.move", "unknown move %q (stretch, walk, de)", s.Move)
+			return keyErr("sampler.move", "unknown move %q (%s)", s.Move, strings.Join(moves, ", "))
 		}
 	}
 	if s.Seed != nil {

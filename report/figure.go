@@ -122,9 +122,9 @@ func paramLabel(col chains.Column) string {
 		return "Irradiation temperature [K]"
 	case config.QTInt:
 		return "Internal temperature [K]"
-	case config.QLog10KappaIR:
+	case config.QLog10ThermalOpacity:
 		return "log10 infrared opacity [m²/kg]"
-	case config.QLog10Gamma:
+	case config.QLog10OpacityRatio:
 		return "log10 visible/infrared opacity ratio"
 	case config.QRadiusRjup:
 		return "Radius [Jupiter radii]"
@@ -138,9 +138,9 @@ func paramLabel(col chains.Column) string {
 		return "log10 cloud-top pressure [bar]"
 	case config.QCloudFraction:
 		return "Cloud fraction"
-	case config.QLog10HazeFactor:
+	case config.QLog10HazeStrength:
 		return "log10 haze factor"
-	case config.QHazeSlope:
+	case config.QHazeIndex:
 		return "Haze slope"
 	case config.QOffsetPPM:
 		return "Offset of " + of + " [ppm]"

@@ -259,7 +259,7 @@ func modelPlots(dir string, c *chains.Chain, s *Summary, opt Options) ([]func() 
 		n += len(d.Depth)
 	}
 	s.SetChiSquare(chi2, n)
-	if fit := c.Column("chi2"); fit != nil {
+	if fit := c.Column("chi_square_fitted"); fit != nil {
 		chi2 = fit[(s.Best.Step-c.Steps[0])*c.Walkers+s.Best.Walker] // with the errors as fitted
 	}
 	s.setGoodness(chi2, n, opt.ErrorsInflated)

@@ -169,7 +169,7 @@ func TestInjectionRecovery(t *testing.T) {
 	if len(rows) != 16*steps {
 		t.Errorf("%d rows, want 16 x %d", len(rows), steps)
 	}
-	want := "step,walker,log_posterior,log_likelihood,log10_vmr_H2O,log10_vmr_CH4,temperature_k,radius_rearth,mean_molecular_weight,fill_vmr,chi2"
+	want := "step,walker,log_posterior,log_likelihood,log10_vmr_H2O,log10_vmr_CH4,temperature_k,radius_rearth,mean_molecular_weight,balance_vmr,chi_square_fitted"
 	if got := strings.Join(cols, ","); got != want {
 		t.Errorf("columns %s, want %s", got, want)
 	}

@@ -861,7 +861,7 @@ type job struct {
 
 // quantityUnit is the unit of each quantity in chains and reports.
 var quantityUnit = map[config.Quantity]string{
-	config.QTemperature: "K", config.QTIrr: "K", config.QTInt: "K", config.QLog10KappaIR: "log10(m^2/kg)",
+	config.QTemperature: "K", config.QTIrr: "K", config.QTInt: "K", config.QLog10ThermalOpacity: "log10(m^2/kg)",
 	config.QRadiusRjup: "R_jup", config.QRadiusRearth: "R_earth", config.QMassMjup: "M_jup", config.QMassMearth: "M_earth",
 	config.QLog10CloudTop: "log10(bar)", config.QOffsetPPM: "ppm", config.QErrorInflationPM: "ppm",
 }
@@ -869,8 +869,8 @@ var quantityUnit = map[config.Quantity]string{
 // derivedInfo describes the Problem's extra values after the first.
 var derivedInfo = map[string][2]string{
 	"mean_molecular_weight": {"mean molecular weight", "u"},
-	"fill_vmr":              {"volume mixing ratio of the fill gas", ""},
-	"chi2":                  {"chi-square with the (inflated) errors", ""},
+	"balance_vmr":           {"volume mixing ratio of the balance gas", ""},
+	"chi_square_fitted":     {"chi-square with the errors as fitted (inflated when error_inflation_ppm is fitted)", ""},
 }
 
 func newJob(r *config.Resolved, set *opacity.Set, runID string) (*job, error) {
@@ -918,9 +918,9 @@ func newJob(r *config.Resolved, set *opacity.Set, runID string) (*job, error) {
 	}
 	var move sampler.Move
 	switch r.Move {
-	case "walk":
+	case config.MoveWalk:
 		move = sampler.Walk{}
-	case "de":
+	case config.MoveDiffEvolution:
 		move = sampler.DiffEvolution{}
 	default:
 		move = sampler.Stretch{A: 2}
