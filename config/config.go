@@ -10,6 +10,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
 	"regexp"
 	"strings"
 	"time"
@@ -264,8 +265,11 @@ type Resolved struct {
 	// asymmetric errors, a generated seed).
 	Notes []string
 	// Warnings name implausible values of the system, each with its key
-	// (ModelConfig.SystemWarnings).
+	// (ModelConfig.SystemWarnings), and the old spellings of renamed keys.
 	Warnings []string
+	// given records which keys set by parameters the configuration gave
+	// (WriteTOML).
+	given map[string]bool
 }
 
 // Load reads, validates and resolves a retrieval configuration,
@@ -398,6 +402,7 @@ func (c *Config) Resolve() (*Resolved, error) {
 	// The model sections with the parameters' gases added, and values the
 	// free parameters set filled in from their priors' medians where the
 	// model sections leave them out; checked by the shared validator.
+	r.givenKeys(c)
 	r.fillFromPriors(&full.ModelConfig)
 	full.ModelConfig.free = r.freeSpans()
 	if err := full.ModelConfig.Validate(); err != nil {
@@ -1028,13 +1033,155 @@ func (r *Resolved) freeSpans() map[Quantity]priorSpan {
 }
 
 // WriteTOML writes the resolved configuration (r.Config) as TOML, with a
-// comment line naming the program version.
+// comment line naming the program version. A key whose value a parameter
+// sets shows no placeholder: when the configuration did not give it (the
+// resolved value is a default, a prior's median or a gas added at 0) the
+// line becomes a comment naming the parameter, and reading the file again
+// fills it in the same way; when the configuration gave it, the value is
+// kept with a comment saying the parameter sets it instead.
 func (r *Resolved) WriteTOML(w io.Writer) error {
 	var buf bytes.Buffer
 	fmt.Fprintf(&buf, "# Resolved retrieval configuration written by chord %s: every default explicit.\n", version.Version)
-	if err := toml.NewEncoder(&buf).Encode(r.Config); err != nil {
+	fmt.Fprintf(&buf, "# Keys set by a parameter are marked \"set by parameter ...\"; their values are in the chains.\n")
+	var body bytes.Buffer
+	if err := toml.NewEncoder(&body).Encode(r.Config); err != nil {
 		return fmt.Errorf("writing resolved configuration: %w", err)
 	}
+	buf.WriteString(markSetKeys(body.String(), r.setKeys()))
 	_, err := w.Write(buf.Bytes())
 	return err
+}
+
+// setKey is a key of the model sections that a parameter sets.
+type setKey struct {
+	path  string // dotted key path, e.g. "atmosphere.gases.CH4"
+	param string // the parameter's name
+	fixed bool   // a fixed parameter (its value is its prior's)
+	given bool   // the configuration file gave the key
+}
+
+// setKeys lists the keys of the model sections the parameters set.
+func (r *Resolved) setKeys() []setKey {
+	var out []setKey
+	for i, ps := range [][]Param{r.Free, r.Fixed} {
+		for _, p := range ps {
+			path := quantityKey(p.Sets)
+			if p.Sets == QLog10VMR || p.Sets == QCLR {
+				path = "atmosphere.gases." + p.Gas
+			}
+			if path == "" {
+				continue
+			}
+			out = append(out, setKey{path: path, param: p.Name, fixed: i == 1, given: r.given[path]})
+		}
+	}
+	return out
+}
+
+// quantityKey is the key of the model sections that a quantity sets ("" for
+// none: offsets and error inflation; a gas's key for log10_vmr and clr).
+func quantityKey(q Quantity) string {
+	switch q {
+	case QTemperature, QTIrr, QTInt:
+		return "atmosphere.temperature." + string(q)
+	case QLog10ThermalOpacity:
+		return "atmosphere.temperature.thermal_opacity_m2_kg"
+	case QLog10OpacityRatio:
+		return "atmosphere.temperature.opacity_ratio"
+	case QRadiusRjup, QRadiusRearth, QMassMjup, QMassMearth:
+		return "planet." + string(q)
+	case QLog10CloudTop:
+		return "clouds.cloud_top_bar"
+	case QCloudFraction:
+		return "clouds.cloud_fraction"
+	case QLog10HazeStrength:
+		return "clouds.haze_strength"
+	case QHazeIndex:
+		return "clouds.haze_index"
+	}
+	return ""
+}
+
+// givenKeys records which of the keys the parameters set the configuration
+// c gave (before defaults and priors filled them in).
+func (r *Resolved) givenKeys(c *Config) {
+	r.given = map[string]bool{}
+	root := reflect.ValueOf(c.ModelConfig)
+	for _, ps := range [][]Param{r.Free, r.Fixed} {
+		for _, p := range ps {
+			path := quantityKey(p.Sets)
+			if p.Sets == QLog10VMR || p.Sets == QCLR {
+				_, ok := c.Atmosphere.Gases[p.Gas]
+				r.given["atmosphere.gases."+p.Gas] = ok
+				continue
+			}
+			if path == "" {
+				continue
+			}
+			v := root
+			for _, k := range strings.Split(path, ".") {
+				v = fieldByKey(v, k)
+			}
+			r.given[path] = v.IsValid() && !v.IsNil()
+		}
+	}
+}
+
+// fieldByKey is the field of struct value v with TOML key k (invalid when
+// there is none).
+func fieldByKey(v reflect.Value, k string) reflect.Value {
+	if !v.IsValid() || v.Kind() != reflect.Struct {
+		return reflect.Value{}
+	}
+	for i := range v.NumField() {
+		name, _, _ := strings.Cut(v.Type().Field(i).Tag.Get("toml"), ",")
+		if name == k {
+			return v.Field(i)
+		}
+	}
+	return reflect.Value{}
+}
+
+// markSetKeys marks the lines of the TOML text (as the encoder writes it:
+// one key per line, tables headed [a.b]) of the keys the parameters set.
+func markSetKeys(text string, keys []setKey) string {
+	if len(keys) == 0 {
+		return text
+	}
+	byPath := map[string]setKey{}
+	for _, k := range keys {
+		byPath[k.path] = k
+	}
+	lines := strings.Split(text, "\n")
+	table := ""
+	for i, line := range lines {
+		t := strings.TrimSpace(line)
+		switch {
+		case strings.HasPrefix(t, "[["):
+			table = ""
+			continue
+		case strings.HasPrefix(t, "["):
+			table = strings.Trim(t, "[]")
+			continue
+		}
+		name, _, ok := strings.Cut(t, " = ")
+		if !ok || table == "" {
+			continue
+		}
+		k, ok := byPath[table+"."+name]
+		if !ok {
+			continue
+		}
+		what := "parameter " + k.param
+		if k.fixed {
+			what = "fixed parameter " + k.param
+		}
+		indent := line[:len(line)-len(strings.TrimLeft(line, " \t"))]
+		if k.given {
+			lines[i] = line + "  # set by " + what + "; this value is not used"
+		} else {
+			lines[i] = indent + "# " + name + ": set by " + what
+		}
+	}
+	return strings.Join(lines, "\n")
 }
