@@ -748,7 +748,8 @@ func (p *progress) finish() {
 // Runs from configuration files: chord fit, resume and report.
 //
 // run.toml is the resolved configuration (Resolved.WriteTOML: every default
-// explicit, paths absolute, the seed included) followed by a [run] table
+// explicit, the seed included, the observations named by their copies in
+// the run directory, inputs.go) followed by a [run] table
 // of our own: program version, run identity, the configuration file it
 // came from and the SHA-256 of every input file (the configuration, the
 // observations, the opacity tables). The checkpoint records a digest of
@@ -1181,8 +1182,12 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	info := RunInfo{Version: version.Version, RunID: runID, Created: time.Now().UTC().Format(time.RFC3339), ConfigFile: abs, Demo: set.Demo,
 		Inputs: append([]InputFile{{Role: "configuration", Path: abs, SHA256: cfgHash}}, j.inputs...)}
 	info.RunDir, _ = filepath.Abs(opt.RunDir)
+	copies, err := copyInputs(r, info.Inputs)
+	if err != nil {
+		return nil, err
+	}
 	var buf bytes.Buffer
-	if err := r.WriteTOML(&buf); err != nil {
+	if err := copies.writeTOML(r, &buf); err != nil {
 		return nil, err
 	}
 	buf.WriteString("\n# The run: program version, identity and the SHA-256 of every input file.\n")
@@ -1195,6 +1200,9 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 		return nil, fmt.Errorf("%s: interrupted before the run started; nothing was written: %w", opt.RunDir, err)
 	}
 	if err := prepareRunDir(opt.RunDir); err != nil {
+		return nil, err
+	}
+	if err := copies.write(opt.RunDir); err != nil {
 		return nil, err
 	}
 	if err := atomicfile.Write(filepath.Join(opt.RunDir, RunFile), buf.Bytes(), true); err != nil {
@@ -1275,6 +1283,9 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 			continue // the run uses run.toml, not the original file
 		}
 		p := in.Path
+		if !filepath.IsAbs(p) {
+			p = filepath.Join(dir, p) // an input copied into the run directory
+		}
 		h, err := fileSHA256(p)
 		if err != nil {
 			return nil, nil, fmt.Errorf("%s: input %s of the run: %w", dir, in.Path, err)
