@@ -123,9 +123,9 @@ func paramLabel(col chains.Column) string {
 	case config.QTInt:
 		return "Internal temperature [K]"
 	case config.QLog10ThermalOpacity:
-		return "log10 infrared opacity [m²/kg]"
+		return "log10 thermal opacity [m²/kg]"
 	case config.QLog10OpacityRatio:
-		return "log10 visible/infrared opacity ratio"
+		return "log10 visible-to-thermal opacity ratio"
 	case config.QRadiusRjup:
 		return "Radius [Jupiter radii]"
 	case config.QRadiusRearth:
@@ -139,9 +139,9 @@ func paramLabel(col chains.Column) string {
 	case config.QCloudFraction:
 		return "Cloud fraction"
 	case config.QLog10HazeStrength:
-		return "log10 haze factor"
+		return "log10 haze strength"
 	case config.QHazeIndex:
-		return "Haze slope"
+		return "Haze index"
 	case config.QOffsetPPM:
 		return "Offset of " + of + " [ppm]"
 	case config.QErrorInflationPM:
