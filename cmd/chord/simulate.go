@@ -31,7 +31,7 @@ func simulateCommand() *cli.Command {
 		Usage:     "simulate an observation of a scenario's true spectrum",
 		ArgsUsage: " ",
 		Description: "Computes the scenario's true transmission spectrum on the instrument bins and\n" +
-			"writes it as an observation file (edge_low_um, edge_high_um, depth_ppm, error) that\n" +
+			"writes it as an observation file (edge_low_um, edge_high_um, depth_ppm, error_ppm) that\n" +
 			"chord fit reads. Bins come from --bins, or --wavelength-range with --resolving-power,\n" +
 			"or the --noise-file, or else the scenario's [spectrum]. The error of each bin is\n" +
 			"--noise PPM or the --noise-file's error_ppm for one transit, divided by\n" +
