@@ -47,17 +47,17 @@ type Config struct {
 
 // CompositionConfig is [composition]: the joint prior of the mixing
 // ratios. The default, "independent", gives each log10_vmr parameter its
-// own prior, the fill gas making up the rest (trace gases summing above 1
+// own prior, the balance gas making up the rest (trace gases summing above 1
 // are rejected). "clr" is the centred-log-ratio prior of Benneke & Seager
 // (2012, ApJ 753, 100) for atmospheres whose dominant gas is unknown: the
-// gases listed and the fill gas (atmosphere.balance_gas, one component) are
+// gases listed and the balance gas (atmosphere.balance_gas, one component) are
 // treated alike, the free parameters are the centred-log-ratio coordinates
 // xi_g = ln(X_g / geometric mean of X) of the listed gases (named clr_<gas>),
-// and the prior is uniform in them wherever every mixing ratio, the fill
+// and the prior is uniform in them wherever every mixing ratio, the balance
 // gas's included, is at least min_vmr (see priors.CLR).
 type CompositionConfig struct {
 	Prior  string   `toml:"prior"`   // "independent" (default) or "clr"
-	Gases  []string `toml:"gases"`   // clr: the gases besides the fill gas, at least one
+	Gases  []string `toml:"gases"`   // clr: the gases besides the balance gas, at least one
 	MinVMR *float64 `toml:"min_vmr"` // clr: lowest mixing ratio of every gas; default 1e-12
 }
 
@@ -747,7 +747,7 @@ func checkPriorRange(key, name string, q Quantity, p priors.Prior) error {
 
 // checkApplies rejects parameters that set nothing in this model: a
 // temperature quantity of another profile, a cloud fraction without a
-// cloud deck, a haze slope without haze.
+// cloud deck, a haze index without haze.
 func (r *Resolved) checkApplies(c *Config) error {
 	has := map[Quantity]bool{}
 	for _, p := range append(append([]Param(nil), r.Free...), r.Fixed...) {

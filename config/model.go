@@ -456,7 +456,7 @@ func (c *ModelConfig) checkPositive() error {
 }
 
 // checkAtmosphere checks [atmosphere]: the pressure grid, the reference
-// pressure, the fill gas, the trace gases and the temperature profile.
+// pressure, the balance gas, the trace gases and the temperature profile.
 func (c *ModelConfig) checkAtmosphere() error {
 	a := &c.Atmosphere
 	d := c.withDefaults()
@@ -941,7 +941,7 @@ func tableBins(t *opacity.KTable, lo, hi float64) *forward.Bins {
 }
 
 // inTrace reports whether g is a trace gas of the atmosphere (not the
-// fill).
+// balance gas).
 func (c *ModelConfig) inTrace(g string) bool {
 	_, ok := c.Atmosphere.Gases[g]
 	return ok
@@ -992,7 +992,7 @@ func (c *ModelConfig) State(m *forward.Model) (forward.State, error) {
 	for i, g := range m.Gases() {
 		s.VMR[i] = d.Atmosphere.Gases[g]
 	}
-	if d.Atmosphere.BalanceHeH2Ratio != nil { // an H2+He fill
+	if d.Atmosphere.BalanceHeH2Ratio != nil { // an H2+He balance gas
 		s.HeH2 = *d.Atmosphere.BalanceHeH2Ratio
 	}
 	if s.RefRadius, err = d.planetRadius(); err != nil {
