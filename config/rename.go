@@ -1,8 +1,10 @@
 package config
 
 import (
+	"bytes"
 	"fmt"
 	"sort"
+	"strconv"
 	"strings"
 
 	"github.com/BurntSushi/toml"
@@ -149,4 +151,47 @@ func renamedText(text string) (string, []string, error) {
 	}
 	sort.Strings(warn)
 	return b.String(), warn, nil
+}
+
+// DigestText is the TOML text of c that the digests of runs are computed
+// over: c encoded, with the names of Renames written back in their old
+// spelling, so that a run made before a rename keeps its digest (and is
+// reported and resumed) after it. Only the digest uses it.
+func DigestText(c Config) ([]byte, error) {
+	var b bytes.Buffer
+	if err := toml.NewEncoder(&b).Encode(c); err != nil {
+		return nil, err
+	}
+	keys := map[string]string{}   // new path -> old key name
+	values := map[string]string{} // key path + " = " + new value -> old value
+	for _, r := range Renames {
+		if r.Key != "" {
+			values[r.Key+" = "+strconv.Quote(r.New)] = strconv.Quote(r.Old)
+			continue
+		}
+		keys[r.New] = r.Old[strings.LastIndex(r.Old, ".")+1:]
+	}
+	lines := strings.Split(b.String(), "\n")
+	table := ""
+	for i, line := range lines {
+		t := strings.TrimSpace(line)
+		if strings.HasPrefix(t, "[") {
+			table = strings.Trim(t, "[]")
+			continue
+		}
+		name, value, ok := strings.Cut(t, " = ")
+		if !ok {
+			continue
+		}
+		indent := line[:len(line)-len(strings.TrimLeft(line, " \t"))]
+		path := table + "." + name
+		if old, ok := values[path+" = "+value]; ok {
+			value = old
+		}
+		if old, ok := keys[path]; ok {
+			name = old
+		}
+		lines[i] = indent + name + " = " + value
+	}
+	return []byte(strings.Join(lines, "\n")), nil
 }

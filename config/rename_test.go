@@ -2,6 +2,7 @@ package config
 
 import (
 	"errors"
+	"os"
 	"path/filepath"
 	"reflect"
 	"strings"
@@ -194,5 +195,51 @@ func TestDottedKeysInFreeTables(t *testing.T) {
 	var ke *KeyError
 	if !errors.As(err, &ke) || ke.Key != "other.b" {
 		t.Errorf("unknown key: %v", err)
+	}
+}
+
+// DigestText writes the configuration in the spellings of the version
+// before the renames, so that runs made by it keep their digests: the
+// resolved testdata/cfg/likelihood.toml (seed fixed, observation paths
+// blanked as the run digest blanks them, parameter names as that version
+// named them) gives, byte for byte,
+// testdata/digest-likelihood-0.1.toml, the TOML encoding written by that
+// version (commit bef7183) of the same file.
+func TestDigestTextKeepsOldSpellings(t *testing.T) {
+	r, err := Load(filepath.Join("..", "testdata", "cfg", "likelihood.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := r.Config
+	seed := int64(7)
+	c.Sampler.Seed = &seed
+	for i := range c.Observations {
+		c.Observations[i].File = ""
+	}
+	// The parameters' names, which default to their quantities, are those
+	// the earlier version's run.toml states.
+	c.Parameters = append([]ParameterConfig(nil), c.Parameters...)
+	old := map[string]string{"log10_haze_strength": "log10_haze_factor", "haze_index": "haze_slope"}
+	for i, p := range c.Parameters {
+		if o, ok := old[p.Name]; ok {
+			c.Parameters[i].Name = o
+		}
+	}
+	got, err := DigestText(c)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, err := os.ReadFile(filepath.Join("testdata", "digest-likelihood-0.1.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if string(got) != string(want) {
+		gl, wl := strings.Split(string(got), "\n"), strings.Split(string(want), "\n")
+		for i := range min(len(gl), len(wl)) {
+			if gl[i] != wl[i] {
+				t.Fatalf("line %d: %q, the earlier version wrote %q", i+1, gl[i], wl[i])
+			}
+		}
+		t.Fatalf("%d lines, the earlier version wrote %d", len(gl), len(wl))
 	}
 }

@@ -193,6 +193,9 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 		parts, stateBytes = parts[:n-1], ck.Prev
 		out.Recovered = true
 	}
+	if err := matchColumns(dir, store, parts, &spec.Layout); err != nil {
+		return nil, err
+	}
 	st := new(sampler.State)
 	if err := st.UnmarshalBinary(stateBytes); err != nil {
 		return nil, fmt.Errorf("%s: sampler state in the checkpoint: %w", dir, err)
@@ -287,6 +290,52 @@ func checkOwner(dir string, ck *Checkpoint, spec *RunSpec) error {
 	if ck.Method != "" || ck.Walkers != spec.Layout.Walkers || ck.Dim != spec.Layout.Dim {
 		return fmt.Errorf("%s: the checkpoint holds %d walkers x %d parameters (%s), the configuration gives an ensemble of %d x %d", dir, ck.Walkers, ck.Dim, methodName(ck.Method), spec.Layout.Walkers, spec.Layout.Dim)
 	}
+	return nil
+}
+
+// legacyColumns are the derived chain columns renamed since chord first
+// wrote them (new name -> old name).
+var legacyColumns = map[string]string{"balance_vmr": "fill_vmr", "chi_square_fitted": "chi2"}
+
+// matchColumns gives the layout l the columns of the chains already
+// stored (the first of parts) when they are the same columns, by name or
+// by an older name (legacyColumns), role and source, so that a run started
+// before a rename continues with the names and descriptions it has; any
+// other difference is refused before anything is written.
+func matchColumns(dir, store string, parts []chains.PartInfo, l *chains.Layout) error {
+	if len(parts) == 0 {
+		return nil
+	}
+	r, err := chains.NewReader(store, parts[:1])
+	if err != nil {
+		return fmt.Errorf("%s: %w", dir, err)
+	}
+	var have []chains.Column // the layout's columns, without the log densities
+	for _, c := range r.Columns() {
+		if c.Role == chains.RoleParameter || c.Role == chains.RoleDerived {
+			have = append(have, c)
+		}
+	}
+	r.Close()
+	names := func(cs []chains.Column) string {
+		n := make([]string, len(cs))
+		for i, c := range cs {
+			n[i] = c.Name
+		}
+		return strings.Join(n, ",")
+	}
+	if len(have) != len(l.Columns) {
+		return fmt.Errorf("%s: the stored chains have the columns %s, this configuration gives %s", dir, names(have), names(l.Columns))
+	}
+	for i, c := range l.Columns {
+		h := have[i]
+		if (h.Name != c.Name && h.Name != legacyColumns[c.Name]) || h.Role != c.Role || h.Source != c.Source {
+			return fmt.Errorf("%s: the stored chains have the columns %s, this configuration gives %s", dir, names(have), names(l.Columns))
+		}
+	}
+	// The same columns, perhaps under older names and descriptions:
+	// continue with those stored.
+	l.Columns = slices.Clone(have)
 	return nil
 }
 
@@ -835,12 +884,13 @@ func configDigest(r *config.Resolved, inputs []InputFile) (string, error) {
 	if c.Opacity.Dir != "" {
 		c.Opacity.Dir = "(directory)"
 	}
-	var b bytes.Buffer
-	if err := toml.NewEncoder(&b).Encode(c); err != nil {
+	text, err := config.DigestText(c)
+	if err != nil {
 		return "", err
 	}
+	b := bytes.NewBuffer(text)
 	for _, in := range inputs {
-		fmt.Fprintf(&b, "\n%s %s", in.Role, in.SHA256)
+		fmt.Fprintf(b, "\n%s %s", in.Role, in.SHA256)
 	}
 	sum := sha256.Sum256(b.Bytes())
 	return hex.EncodeToString(sum[:]), nil
