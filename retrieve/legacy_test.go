@@ -17,20 +17,8 @@ import (
 // is the one the earlier version computed is config's
 // TestDigestTextKeepsOldSpellings.)
 func TestRunWithOldKeyNamesResumes(t *testing.T) {
-	src := t.TempDir()
-	cfgText, err := os.ReadFile(filepath.Join("..", "testdata", "cfg", "good.toml"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	obsText, _ := os.ReadFile(filepath.Join("..", "testdata", "obs", "wide.csv"))
-	cfg := filepath.Join(src, "fit.toml")
-	os.WriteFile(cfg, []byte(strings.Replace(string(cfgText), "../obs/wide.csv", "wide.csv", 1)), 0o644)
-	os.WriteFile(filepath.Join(src, "wide.csv"), obsText, 0o644)
 	ctx := context.Background()
-	run := filepath.Join(src, "run")
-	if _, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: run, Stop: config.StopRule{Steps: 40}, CheckpointSteps: 20}); err != nil {
-		t.Fatal(err)
-	}
+	run, _ := fitGood(t, t.TempDir(), 40)
 	rt := filepath.Join(run, RunFile)
 	text, _ := os.ReadFile(rt)
 	old := strings.NewReplacer("balance_gas =", "fill =", "balance_he_h2_ratio =", "he_h2_ratio =", "cloud_top_bar =", "top_pressure_bar =").Replace(string(text))

@@ -10,14 +10,11 @@ import (
 	"chord/config"
 )
 
-// A run travels: its observation files are copied into it (inputs/) and
-// run.toml names them relative to the run directory, so a run moved to
-// another path, with the configuration and observation files it was made
-// from gone (a run copied from a cluster to a laptop), is reported and
-// resumed. Its digests, not its paths, decide whether it may continue: a
-// changed copy is refused, naming the file.
-func TestMovedRunReportsAndResumes(t *testing.T) {
-	src := t.TempDir()
+// fitGood fits testdata/cfg/good.toml (grey opacity, no tables) for steps
+// steps into dir/run, its observation file (testdata/obs/wide.csv) copied
+// into dir/data; it returns the run directory and the observation's text.
+func fitGood(t *testing.T, dir string, steps int) (string, []byte) {
+	t.Helper()
 	cfgText, err := os.ReadFile(filepath.Join("..", "testdata", "cfg", "good.toml"))
 	if err != nil {
 		t.Fatal(err)
@@ -26,16 +23,27 @@ func TestMovedRunReportsAndResumes(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	cfg := filepath.Join(src, "fit.toml")
+	cfg := filepath.Join(dir, "fit.toml")
 	os.WriteFile(cfg, []byte(strings.Replace(string(cfgText), "../obs/wide.csv", "data/wide.csv", 1)), 0o644)
-	os.MkdirAll(filepath.Join(src, "data"), 0o755)
-	os.WriteFile(filepath.Join(src, "data", "wide.csv"), obsText, 0o644)
-
-	ctx := context.Background()
-	run := filepath.Join(src, "run")
-	if _, err := Fit(ctx, FitOptions{ConfigPath: cfg, RunDir: run, Stop: config.StopRule{Steps: 60}, CheckpointSteps: 20}); err != nil {
+	os.MkdirAll(filepath.Join(dir, "data"), 0o755)
+	os.WriteFile(filepath.Join(dir, "data", "wide.csv"), obsText, 0o644)
+	run := filepath.Join(dir, "run")
+	if _, err := Fit(context.Background(), FitOptions{ConfigPath: cfg, RunDir: run, Stop: config.StopRule{Steps: steps}, CheckpointSteps: 20}); err != nil {
 		t.Fatal(err)
 	}
+	return run, obsText
+}
+
+// A run travels: its observation files are copied into it (inputs/) and
+// run.toml names them relative to the run directory, so a run moved to
+// another path, with the configuration and observation files it was made
+// from gone (a run copied from a cluster to a laptop), is reported and
+// resumed. Its digests, not its paths, decide whether it may continue: a
+// changed copy is refused, naming the file.
+func TestMovedRunReportsAndResumes(t *testing.T) {
+	src := t.TempDir()
+	ctx := context.Background()
+	run, obsText := fitGood(t, src, 60)
 	runTOML, _ := os.ReadFile(filepath.Join(run, RunFile))
 	if !strings.Contains(string(runTOML), `file = "inputs/wide.csv"`) || strings.Contains(string(runTOML), filepath.Join(src, "data")) {
 		t.Errorf("run.toml does not name the copy of the observations relative to the run:\n%s", runTOML)
