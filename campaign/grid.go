@@ -598,12 +598,45 @@ func assignValue(dst reflect.Value, val any) error {
 	return nil
 }
 
+// sameConfig reports whether two configuration texts decode to the same
+// configuration, old spellings (config.Renames) read as the new: a point's
+// fit.toml written before a rename is what the grid makes now.
+func sameConfig(a, b []byte) bool {
+	ca, err := config.Decode(string(a), "", "")
+	if err != nil {
+		return false
+	}
+	cb, err := config.Decode(string(b), "", "")
+	if err != nil {
+		return false
+	}
+	ca.Renamed, cb.Renamed = nil, nil
+	return reflect.DeepEqual(ca, cb)
+}
+
+// hash is the grid's identity: the SHA-256 of id encoded as TOML. The
+// encoding hashed is written in the spellings from before the renames
+// of config.Renames ([[axis]], old key paths), so that a grid expanded
+// before them keeps its identity and its points' seeds.
 func (id *gridIdentity) hash() (string, error) {
 	var b bytes.Buffer
 	if err := toml.NewEncoder(&b).Encode(id); err != nil {
 		return "", err
 	}
-	return hex.EncodeToString(sha256Sum(b.Bytes())), nil
+	lines := strings.Split(b.String(), "\n")
+	for i, line := range lines {
+		t := strings.TrimSpace(line)
+		indent := line[:len(line)-len(strings.TrimLeft(line, " \t"))]
+		switch {
+		case t == "[[axes]]":
+			lines[i] = indent + "[[axis]]"
+		case strings.HasPrefix(t, "key = "):
+			if k, err := strconv.Unquote(strings.TrimPrefix(t, "key = ")); err == nil {
+				lines[i] = indent + "key = " + strconv.Quote(config.OldKey(k))
+			}
+		}
+	}
+	return hex.EncodeToString(sha256Sum([]byte(strings.Join(lines, "\n")))), nil
 }
 
 // pointSeed is the sampler seed of point i when the base, [set] and the
@@ -682,7 +715,7 @@ func CreateGrid(specPath, dir string, opt GridOptions) (*Grid, error) {
 	// Existing files must be what this grid makes (a program change could
 	// make a point's observation differ); check all before writing any.
 	for i, b := range built {
-		if old, err := os.ReadFile(filepath.Join(g.PointDir(i), "fit.toml")); err == nil && !bytes.Equal(old, b.fit) {
+		if old, err := os.ReadFile(filepath.Join(g.PointDir(i), "fit.toml")); err == nil && !bytes.Equal(old, b.fit) && !sameConfig(old, b.fit) {
 			return nil, fmt.Errorf("grid: %s differs from the configuration this grid makes now (was it edited, or did the program change?); nothing was changed", filepath.Join(g.PointDir(i), "fit.toml"))
 		}
 	}

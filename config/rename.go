@@ -195,3 +195,15 @@ func DigestText(c Config) ([]byte, error) {
 	}
 	return []byte(strings.Join(lines, "\n")), nil
 }
+
+// OldKey returns the spelling before the rename of the key path p (a
+// grid's [set] key or axis), or p when it was not renamed: identities
+// computed over the old spellings stay those of the files made before.
+func OldKey(p string) string {
+	for _, r := range Renames {
+		if r.Key == "" && r.New == p {
+			return r.Old
+		}
+	}
+	return p
+}
