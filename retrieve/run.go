@@ -293,13 +293,9 @@ func checkOwner(dir string, ck *Checkpoint, spec *RunSpec) error {
 	return nil
 }
 
-// legacyColumns are the derived chain columns renamed since chord first
-// wrote them (new name -> old name).
-var legacyColumns = map[string]string{"balance_vmr": "fill_vmr", "chi_square_fitted": "chi2"}
-
 // matchColumns gives the layout l the columns of the chains already
 // stored (the first of parts) when they are the same columns, by name or
-// by an older name (legacyColumns), role and source, so that a run started
+// by an older name (report.LegacyColumns), role and source, so that a run started
 // before a rename continues with the names and descriptions it has; any
 // other difference is refused before anything is written.
 func matchColumns(dir, store string, parts []chains.PartInfo, l *chains.Layout) error {
@@ -329,7 +325,7 @@ func matchColumns(dir, store string, parts []chains.PartInfo, l *chains.Layout) 
 	}
 	for i, c := range l.Columns {
 		h := have[i]
-		if (h.Name != c.Name && h.Name != legacyColumns[c.Name]) || h.Role != c.Role || h.Source != c.Source {
+		if (h.Name != c.Name && h.Name != report.LegacyColumns[c.Name]) || h.Role != c.Role || h.Source != c.Source {
 			return fmt.Errorf("%s: the stored chains have the columns %s, this configuration gives %s", dir, names(have), names(l.Columns))
 		}
 	}
