@@ -110,6 +110,9 @@ func runSimulate(c *cli.Context) error {
 	if err != nil {
 		return err
 	}
+	for _, w := range sc.Config.Renamed {
+		fmt.Fprintf(c.App.ErrWriter, "chord simulate: warning: %s: %s\n", sc.Path, w)
+	}
 	bins, noise, err := spec.Resolve(sc)
 	if err != nil {
 		return fmt.Errorf("simulate: %w", err)
