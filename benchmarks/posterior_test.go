@@ -62,7 +62,7 @@ profile = "guillot"
 t_int_k = 200
 t_irr_k = 1500
 [clouds]
-top_pressure_bar = %g
+cloud_top_bar = %g
 [opacity]
 rayleigh = ["H2"]
 [spectrum]

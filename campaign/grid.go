@@ -54,12 +54,12 @@ import (
 //	scatter = false          # draw Gaussian noise (seed noise_seed + point), default noise-free
 //	noise_seed = 0
 //	[set]                    # fixed overrides of the base, by key path
-//	"sampler.steps" = 2000
-//	[[axis]]
+//	sampler.steps = 2000     # or "sampler.steps" = 2000
+//	[[axes]]
 //	key = "observe.noise_ppm"           # observe.noise_ppm, observe.transits, observe.noise_seed,
 //	values = [30, 60, 120]              # or any key path of the base's schema
-//	[[axis]]
-//	key = "clouds.top_pressure_bar"
+//	[[axes]]
+//	key = "clouds.cloud_top_bar"
 //	values = [1e-3, 1e-2, 1e-1, 1]
 //	[slurm]                  # defaults of chord grid --slurm (flags override)
 //	time = "2:00:00"
@@ -97,9 +97,15 @@ type GridSpec struct {
 	Seed    *int64         `toml:"seed"`    // first sampler seed; see the file comment
 	Observe GridObserve    `toml:"observe"` // scenario bases only
 	Set     map[string]any `toml:"set"`     // key path -> value, applied to every point
-	Axes    []GridAxis     `toml:"axis"`    // at least one
+	Axes    []GridAxis     `toml:"axes"`    // at least one
 	Slurm   SlurmSettings  `toml:"slurm"`
+	// Renamed are the warnings of old key spellings the file used
+	// (config.Renames), for the log.
+	Renamed []string `toml:"-"`
 }
+
+// SetRenamed keeps the warnings of renamed keys (config.Renamer).
+func (s *GridSpec) SetRenamed(w []string) { s.Renamed = append(s.Renamed, w...) }
 
 // GridObserve is [observe]: how a scenario grid's points are observed
 // (the options of chord simulate).
@@ -114,7 +120,7 @@ type GridObserve struct {
 	NoiseSeed         *int64    `toml:"noise_seed,omitempty"`          // default 0; point i uses noise_seed + i
 }
 
-// GridAxis is one [[axis]]: a key and the values it takes.
+// GridAxis is one [[axes]] table: a key and the values it takes.
 type GridAxis struct {
 	Key    string `toml:"key"`
 	Values []any  `toml:"values"`
@@ -152,7 +158,7 @@ type gridIdentity struct {
 	Observe    GridObserve          `toml:"observe"`
 	Inputs     []retrieve.InputFile `toml:"inputs,omitempty"` // bins and noise files with their digests
 	Set        []GridSetting        `toml:"set,omitempty"`
-	Axes       []GridAxis           `toml:"axis"`
+	Axes       []GridAxis           `toml:"axes"`
 }
 
 // GridPoint is one point of a grid.
@@ -185,7 +191,7 @@ func (g *Grid) PointDir(i int) string { return filepath.Join(g.Dir, "points", g.
 func (g *Grid) RunDir(i int) string { return filepath.Join(g.PointDir(i), "run") }
 
 // Settings describes point i's axis values, e.g. "observe.noise_ppm=30
-// clouds.top_pressure_bar=0.01".
+// clouds.cloud_top_bar=0.01".
 func (g *Grid) Settings(i int) string {
 	s := make([]string, len(g.rec.Axes))
 	for k, a := range g.rec.Axes {
@@ -285,9 +291,15 @@ func resolveGrid(specPath string, s *GridSpec) (*gridIdentity, *config.Config, [
 	if err := id.resolveObserve(abs); err != nil {
 		return nil, nil, nil, where("%v", err)
 	}
-	probe, err := id.resolveSet(s.Set)
+	probe, err := id.resolveSet(s.Set, &s.Renamed)
 	if err != nil {
 		return nil, nil, nil, where("%v", err)
+	}
+	for i := range s.Axes {
+		if k, w := config.RenamedKey(s.Axes[i].Key); w != "" {
+			s.Axes[i].Key = k
+			s.Renamed = append(s.Renamed, fmt.Sprintf("axes[%d].key: %s", i+1, w))
+		}
 	}
 	if err := id.checkAxes(s.Axes, probe); err != nil {
 		return nil, nil, nil, where("%v", err)
@@ -322,10 +334,14 @@ func (id *gridIdentity) resolveObserve(abs func(string) string) error {
 
 // resolveSet records [set] as sorted key paths and checks each on an empty
 // configuration, which it returns for the axes' checks.
-func (id *gridIdentity) resolveSet(set map[string]any) (*config.Config, error) {
+func (id *gridIdentity) resolveSet(set map[string]any, renamed *[]string) (*config.Config, error) {
 	id.Set = flattenSet("", set, nil)
 	probe := &config.Config{}
-	for _, st := range id.Set {
+	for i, st := range id.Set {
+		if k, w := config.RenamedKey(st.Key); w != "" {
+			id.Set[i].Key, st.Key = k, k
+			*renamed = append(*renamed, "set: "+w)
+		}
 		if strings.HasPrefix(st.Key, "observe.") {
 			return nil, fmt.Errorf("set.%s: give observation settings in [observe]", st.Key)
 		}
@@ -340,7 +356,7 @@ func (id *gridIdentity) resolveSet(set map[string]any) (*config.Config, error) {
 // settable on probe or an observation setting) and the number of points.
 func (id *gridIdentity) checkAxes(axes []GridAxis, probe *config.Config) error {
 	if len(axes) == 0 {
-		return fmt.Errorf("no [[axis]]: give at least one axis (key and values)")
+		return fmt.Errorf("no [[axes]]: give at least one axis (key and values)")
 	}
 	seen := map[string]bool{}
 	for i, a := range axes {
@@ -460,7 +476,7 @@ func axisKind(vals []any) byte {
 }
 
 // setConfigKey sets the value at a dotted key path of the configuration
-// schema (e.g. "clouds.top_pressure_bar", "atmosphere.gases.H2O",
+// schema (e.g. "clouds.cloud_top_bar", "atmosphere.gases.H2O",
 // "sampler.seed"). A key the schema does not have, a table given a value,
 // or a value of the wrong type is an error naming the key.
 func setConfigKey(c *config.Config, key string, val any) error {
@@ -582,12 +598,45 @@ func assignValue(dst reflect.Value, val any) error {
 	return nil
 }
 
+// sameConfig reports whether two configuration texts decode to the same
+// configuration, old spellings (config.Renames) read as the new: a point's
+// fit.toml written before a rename is what the grid makes now.
+func sameConfig(a, b []byte) bool {
+	ca, err := config.Decode(string(a), "", "")
+	if err != nil {
+		return false
+	}
+	cb, err := config.Decode(string(b), "", "")
+	if err != nil {
+		return false
+	}
+	ca.Renamed, cb.Renamed = nil, nil
+	return reflect.DeepEqual(ca, cb)
+}
+
+// hash is the grid's identity: the SHA-256 of id encoded as TOML. The
+// encoding hashed is written in the spellings from before the renames
+// of config.Renames ([[axis]], old key paths), so that a grid expanded
+// before them keeps its identity and its points' seeds.
 func (id *gridIdentity) hash() (string, error) {
 	var b bytes.Buffer
 	if err := toml.NewEncoder(&b).Encode(id); err != nil {
 		return "", err
 	}
-	return hex.EncodeToString(sha256Sum(b.Bytes())), nil
+	lines := strings.Split(b.String(), "\n")
+	for i, line := range lines {
+		t := strings.TrimSpace(line)
+		indent := line[:len(line)-len(strings.TrimLeft(line, " \t"))]
+		switch {
+		case t == "[[axes]]":
+			lines[i] = indent + "[[axis]]"
+		case strings.HasPrefix(t, "key = "):
+			if k, err := strconv.Unquote(strings.TrimPrefix(t, "key = ")); err == nil {
+				lines[i] = indent + "key = " + strconv.Quote(config.OldKey(k))
+			}
+		}
+	}
+	return hex.EncodeToString(sha256Sum([]byte(strings.Join(lines, "\n")))), nil
 }
 
 // pointSeed is the sampler seed of point i when the base, [set] and the
@@ -629,6 +678,9 @@ func CreateGrid(specPath, dir string, opt GridOptions) (*Grid, error) {
 	if err != nil {
 		return nil, err
 	}
+	for _, w := range spec.Renamed {
+		fmt.Fprintf(log, "chord: warning: %s: %s\n", specPath, w)
+	}
 	if err := spec.Slurm.check(); err != nil {
 		return nil, fmt.Errorf("grid %s: %w", specPath, err)
 	}
@@ -663,7 +715,7 @@ func CreateGrid(specPath, dir string, opt GridOptions) (*Grid, error) {
 	// Existing files must be what this grid makes (a program change could
 	// make a point's observation differ); check all before writing any.
 	for i, b := range built {
-		if old, err := os.ReadFile(filepath.Join(g.PointDir(i), "fit.toml")); err == nil && !bytes.Equal(old, b.fit) {
+		if old, err := os.ReadFile(filepath.Join(g.PointDir(i), "fit.toml")); err == nil && !bytes.Equal(old, b.fit) && !sameConfig(old, b.fit) {
 			return nil, fmt.Errorf("grid: %s differs from the configuration this grid makes now (was it edited, or did the program change?); nothing was changed", filepath.Join(g.PointDir(i), "fit.toml"))
 		}
 	}

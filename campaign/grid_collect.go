@@ -32,7 +32,7 @@ type GridCollection struct {
 
 // GridGroup is one comparison of a grid.
 type GridGroup struct {
-	Fixed      string // the other axes' values, e.g. "clouds.top_pressure_bar=0.01"
+	Fixed      string // the other axes' values, e.g. "clouds.cloud_top_bar=0.01"
 	Points     []int
 	Comparison *report.Comparison
 	Plot       string // widths plot, "" when the group's noise levels are all equal

@@ -21,7 +21,7 @@ import (
 // gridScenario is the sub-Neptune fixture with a grey cloud deck at 1 bar
 // and a 200-step chain.
 func gridScenario(t testing.TB) *testenv.TOML {
-	return testenv.Fixture(t, "sub-neptune.toml").Set("clouds.top_pressure_bar", "1.0").Set("sampler.steps", "200")
+	return testenv.Fixture(t, "sub-neptune.toml").Set("clouds.cloud_top_bar", "1.0").Set("sampler.steps", "200")
 }
 
 func writeGridFiles(t *testing.T, grid string) string {
@@ -41,11 +41,11 @@ const grid3x4 = `
 base = "scenario.toml"
 [observe]
 transits = 1
-[[axis]]
+[[axes]]
 key = "observe.noise_ppm"
 values = [30, 60, 120]
-[[axis]]
-key = "clouds.top_pressure_bar"
+[[axes]]
+key = "clouds.cloud_top_bar"
 values = [1e-3, 1e-2, 0.1, 1]
 `
 
@@ -91,8 +91,8 @@ func TestGridExpand3x4(t *testing.T) {
 			t.Fatalf("point %d: %v", i, err)
 		}
 		// Last axis fastest: point 5 is noise 60 ppm, cloud top 0.01 bar.
-		if i == 5 && (*r.Config.Clouds.TopPressureBar != 1e-2 || r.Datasets[0].NoisePPM() != 60) {
-			t.Errorf("point 5: cloud top %g bar, noise %g ppm; want 0.01 bar, 60 ppm", *r.Config.Clouds.TopPressureBar, r.Datasets[0].NoisePPM())
+		if i == 5 && (*r.Config.Clouds.CloudTopBar != 1e-2 || r.Datasets[0].NoisePPM() != 60) {
+			t.Errorf("point 5: cloud top %g bar, noise %g ppm; want 0.01 bar, 60 ppm", *r.Config.Clouds.CloudTopBar, r.Datasets[0].NoisePPM())
 		}
 	}
 	idx, err := os.ReadFile(filepath.Join(dir, "index.csv"))
@@ -100,7 +100,7 @@ func TestGridExpand3x4(t *testing.T) {
 		t.Fatal(err)
 	}
 	lines := strings.Split(strings.TrimSpace(string(idx)), "\n")
-	if len(lines) != 13 || lines[0] != "point,dir,observe.noise_ppm,clouds.top_pressure_bar,sampler_seed,noise_ppm" {
+	if len(lines) != 13 || lines[0] != "point,dir,observe.noise_ppm,clouds.cloud_top_bar,sampler_seed,noise_ppm" {
 		t.Fatalf("index.csv:\n%s", idx)
 	}
 	if !strings.HasPrefix(lines[6], "5,points/p0005,60,0.01,") || !strings.HasSuffix(lines[6], ",60") {
@@ -147,23 +147,23 @@ func TestGridBadInput(t *testing.T) {
 	cases := []struct {
 		grid, want string
 	}{
-		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axis]]\nkey = \"clouds.log10_pressure_bar\"\nvalues = [1, 2]\n", `unknown key: clouds has no key "log10_pressure_bar"`},
-		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axis]]\nkey = \"clouds.top_pressure_bar\"\nvalues = []\n", "empty axis"},
-		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n", "no [[axis]]"},
-		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axis]]\nkey = \"clouds.top_pressure_bar\"\nvalues = [\"high\"]\n", "want a number"},
-		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axis]]\nkey = \"clouds.top_pressure_bar\"\nvalues = [1, \"x\"]\n", "different types"},
-		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axis]]\nkey = \"clouds\"\nvalues = [1]\n", "a table"},
-		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axis]]\nkey = \"parameters.low\"\nvalues = [1]\n", "array of tables"},
-		{"base = \"scenario.toml\"\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30, -1]\n", "must be a positive number"},
-		{"base = \"scenario.toml\"\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30, 30]\n", "given twice"},
-		{"base = \"scenario.toml\"\n[[axis]]\nkey = \"observe.colour\"\nvalues = [1]\n", "unknown observation axis"},
-		{"base = \"scenario.toml\"\n[[axis]]\nkey = \"clouds.top_pressure_bar\"\nvalues = [0.1]\n", "noise 0 ppm"},
-		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axis]]\nkey = \"clouds.top_pressure_bar\"\nvalues = [-0.1]\n", "clouds.top_pressure_bar"},
-		{"base = \"missing.toml\"\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "missing.toml"},
-		{"base = \"scenario.toml\"\ncolour = 1\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "colour: unknown key"},
-		{"base = \"scenario.toml\"\n[set]\n\"sampler.stepz\" = 1\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", `sampler has no key "stepz"`},
-		{"base = \"scenario.toml\"\n[set]\n\"sampler.walkers\" = 3\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "walkers"},
-		{"base = \"scenario.toml\"\n[slurm]\ntime = \"two hours\"\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "slurm.time"},
+		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axes]]\nkey = \"clouds.log10_pressure_bar\"\nvalues = [1, 2]\n", `unknown key: clouds has no key "log10_pressure_bar"`},
+		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axes]]\nkey = \"clouds.cloud_top_bar\"\nvalues = []\n", "empty axis"},
+		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n", "no [[axes]]"},
+		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axes]]\nkey = \"clouds.cloud_top_bar\"\nvalues = [\"high\"]\n", "want a number"},
+		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axes]]\nkey = \"clouds.cloud_top_bar\"\nvalues = [1, \"x\"]\n", "different types"},
+		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axes]]\nkey = \"clouds\"\nvalues = [1]\n", "a table"},
+		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axes]]\nkey = \"parameters.low\"\nvalues = [1]\n", "array of tables"},
+		{"base = \"scenario.toml\"\n[[axes]]\nkey = \"observe.noise_ppm\"\nvalues = [30, -1]\n", "must be a positive number"},
+		{"base = \"scenario.toml\"\n[[axes]]\nkey = \"observe.noise_ppm\"\nvalues = [30, 30]\n", "given twice"},
+		{"base = \"scenario.toml\"\n[[axes]]\nkey = \"observe.colour\"\nvalues = [1]\n", "unknown observation axis"},
+		{"base = \"scenario.toml\"\n[[axes]]\nkey = \"clouds.cloud_top_bar\"\nvalues = [0.1]\n", "noise 0 ppm"},
+		{"base = \"scenario.toml\"\n[observe]\nnoise_ppm = 30\n[[axes]]\nkey = \"clouds.cloud_top_bar\"\nvalues = [-0.1]\n", "clouds.cloud_top_bar"},
+		{"base = \"missing.toml\"\n[[axes]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "missing.toml"},
+		{"base = \"scenario.toml\"\ncolour = 1\n[[axes]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "colour: unknown key"},
+		{"base = \"scenario.toml\"\n[set]\n\"sampler.stepz\" = 1\n[[axes]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", `sampler has no key "stepz"`},
+		{"base = \"scenario.toml\"\n[set]\n\"sampler.walkers\" = 3\n[[axes]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "walkers"},
+		{"base = \"scenario.toml\"\n[slurm]\ntime = \"two hours\"\n[[axes]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n", "slurm.time"},
 	}
 	for i, c := range cases {
 		p := filepath.Join(base, "bad.toml")
@@ -184,7 +184,7 @@ func TestGridBadInput(t *testing.T) {
 	obs := filepath.Join(base, "obs.csv")
 	os.WriteFile(obs, []byte("wavelength_um,width_um,depth_ppm,error_ppm\n1.0,0.1,5000,50\n1.2,0.1,5010,50\n1.4,0.1,5005,50\n"), 0o644)
 	os.WriteFile(filepath.Join(base, "fit.toml"), []byte(gridScenario(t).Append("[[observations]]\nfile = \"obs.csv\"").String()), 0o644)
-	os.WriteFile(filepath.Join(base, "bad.toml"), []byte("base = \"fit.toml\"\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n"), 0o644)
+	os.WriteFile(filepath.Join(base, "bad.toml"), []byte("base = \"fit.toml\"\n[[axes]]\nkey = \"observe.noise_ppm\"\nvalues = [30]\n"), 0o644)
 	if _, err := CreateGrid(filepath.Join(base, "bad.toml"), filepath.Join(t.TempDir(), "g"), GridOptions{}); err == nil || !strings.Contains(err.Error(), "need a scenario base") {
 		t.Errorf("observation axis on a retrieval base: %v", err)
 	}
@@ -227,7 +227,7 @@ base = "scenario.toml"
 seed = 40
 [set]
 "sampler.steps" = 300
-[[axis]]
+[[axes]]
 key = "observe.noise_ppm"
 values = [30, 60]
 `
@@ -363,9 +363,9 @@ func TestGridStoppedAndResumedEqualsUninterrupted(t *testing.T) {
 func FuzzGridSpec(f *testing.F) {
 	f.Add(grid3x4)
 	f.Add(grid2)
-	f.Add("base = \"scenario.toml\"\n[set]\natmosphere.gases.H2O = 1e-3\n[[axis]]\nkey = \"atmosphere.temperature.temperatures_k\"\nvalues = [[1, 2], [3]]\n")
-	f.Add("base = \"scenario.toml\"\n[[axis]]\nkey = \"observe.transits\"\nvalues = [1, 4]\n[[axis]]\nkey = \"sampler.seed\"\nvalues = [1, 2]\n")
-	f.Add("base = \"scenario.toml\"\n[[axis]]\nkey = \"opacity.cia\"\nvalues = [[\"H2-H2\"], []]\n")
+	f.Add("base = \"scenario.toml\"\n[set]\natmosphere.gases.H2O = 1e-3\n[[axes]]\nkey = \"atmosphere.temperature.temperatures_k\"\nvalues = [[1, 2], [3]]\n")
+	f.Add("base = \"scenario.toml\"\n[[axes]]\nkey = \"observe.transits\"\nvalues = [1, 4]\n[[axes]]\nkey = \"sampler.seed\"\nvalues = [1, 2]\n")
+	f.Add("base = \"scenario.toml\"\n[[axes]]\nkey = \"opacity.cia\"\nvalues = [[\"H2-H2\"], []]\n")
 	dir := f.TempDir()
 	if err := os.WriteFile(filepath.Join(dir, "scenario.toml"), []byte(gridScenario(f).String()), 0o644); err != nil {
 		f.Fatal(err)
@@ -403,7 +403,7 @@ func TestGridOverRetrievalConfig(t *testing.T) {
 	fit := gridScenario(t).Delete("spectrum.bin_resolving_power").Append("[[observations]]\nfile = \"obs.csv\"").String()
 	os.WriteFile(filepath.Join(dir, "fit.toml"), []byte(fit), 0o644)
 	spec := filepath.Join(dir, "grid.toml")
-	os.WriteFile(spec, []byte("base = \"fit.toml\"\n[[axis]]\nkey = \"sampler.seed\"\nvalues = [11, 12]\n[[axis]]\nkey = \"atmosphere.layers\"\nvalues = [20, 40]\n"), 0o644)
+	os.WriteFile(spec, []byte("base = \"fit.toml\"\n[[axes]]\nkey = \"sampler.seed\"\nvalues = [11, 12]\n[[axes]]\nkey = \"atmosphere.layers\"\nvalues = [20, 40]\n"), 0o644)
 	g, err := CreateGrid(spec, filepath.Join(dir, "out"), GridOptions{})
 	if err != nil {
 		t.Fatal(err)
@@ -426,14 +426,14 @@ func TestGridOverRetrievalConfig(t *testing.T) {
 		t.Errorf("index.csv:\n%s", idx)
 	}
 	// A bad value of the retrieval's schema is caught before anything is written.
-	os.WriteFile(spec, []byte("base = \"fit.toml\"\n[[axis]]\nkey = \"atmosphere.layers\"\nvalues = [20, -1]\n"), 0o644)
+	os.WriteFile(spec, []byte("base = \"fit.toml\"\n[[axes]]\nkey = \"atmosphere.layers\"\nvalues = [20, -1]\n"), 0o644)
 	if _, err := CreateGrid(spec, filepath.Join(dir, "bad"), GridOptions{}); err == nil || !strings.Contains(err.Error(), "point 1") {
 		t.Errorf("negative layers: %v", err)
 	}
 	if _, err := os.Stat(filepath.Join(dir, "bad")); err == nil {
 		t.Error("a refused grid left files")
 	}
-	os.WriteFile(spec, []byte("base = \"fit.toml\"\n[observe]\nnoise_ppm = 30\n[[axis]]\nkey = \"sampler.seed\"\nvalues = [1]\n"), 0o644)
+	os.WriteFile(spec, []byte("base = \"fit.toml\"\n[observe]\nnoise_ppm = 30\n[[axes]]\nkey = \"sampler.seed\"\nvalues = [1]\n"), 0o644)
 	if _, err := CreateGrid(spec, filepath.Join(dir, "bad"), GridOptions{}); err == nil || !strings.Contains(err.Error(), "[observe] belongs to grids over a scenario") {
 		t.Errorf("[observe] with a retrieval base: %v", err)
 	}

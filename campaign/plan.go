@@ -230,6 +230,9 @@ func RunPlan(ctx context.Context, opt PlanOptions) (*PlanReport, error) {
 	if err != nil {
 		return nil, err
 	}
+	for _, w := range sc.Config.Renamed {
+		fmt.Fprintf(log, "chord plan: warning: %s (the plan's copy of the scenario): %s\n", scPath, w)
+	}
 	if text, err := os.ReadFile(scPath); err != nil || hex.EncodeToString(sha256Sum(text)) != spec.ScenarioSHA256 {
 		return nil, fmt.Errorf("plan: %s changed since the plan started (its SHA-256 differs from %s); restore it or start a new plan", scPath, PlanFile)
 	}

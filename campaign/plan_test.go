@@ -295,7 +295,7 @@ mass_mearth = 7
 top_pressure_bar = 1e-6
 bottom_pressure_bar = 10
 layers = 30
-fill = "H2+He"
+balance_gas = "H2+He"
 [atmosphere.gases]
 H2O = 1e-3
 [atmosphere.temperature]

@@ -10,6 +10,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
 	"regexp"
 	"strings"
 	"time"
@@ -46,17 +47,17 @@ type Config struct {
 
 // CompositionConfig is [composition]: the joint prior of the mixing
 // ratios. The default, "independent", gives each log10_vmr parameter its
-// own prior, the fill gas making up the rest (trace gases summing above 1
+// own prior, the balance gas making up the rest (trace gases summing above 1
 // are rejected). "clr" is the centred-log-ratio prior of Benneke & Seager
 // (2012, ApJ 753, 100) for atmospheres whose dominant gas is unknown: the
-// gases listed and the fill gas (atmosphere.fill, one component) are
+// gases listed and the balance gas (atmosphere.balance_gas, one component) are
 // treated alike, the free parameters are the centred-log-ratio coordinates
 // xi_g = ln(X_g / geometric mean of X) of the listed gases (named clr_<gas>),
-// and the prior is uniform in them wherever every mixing ratio, the fill
+// and the prior is uniform in them wherever every mixing ratio, the balance
 // gas's included, is at least min_vmr (see priors.CLR).
 type CompositionConfig struct {
 	Prior  string   `toml:"prior"`   // "independent" (default) or "clr"
-	Gases  []string `toml:"gases"`   // clr: the gases besides the fill gas, at least one
+	Gases  []string `toml:"gases"`   // clr: the gases besides the balance gas, at least one
 	MinVMR *float64 `toml:"min_vmr"` // clr: lowest mixing ratio of every gas; default 1e-12
 }
 
@@ -180,7 +181,8 @@ type SamplerConfig struct {
 	// (default) means one per core.
 	Workers *int `toml:"workers"`
 	// Move is the proposal: "stretch" (default; Goodman & Weare 2010,
-	// a = 2), "walk" or "de" (differential evolution, ter Braak 2006).
+	// a = 2), "walk" (the same paper's walk move) or
+	// "differential-evolution" (ter Braak 2006); "de" is the old spelling.
 	// Ensemble only.
 	Move string `toml:"move,omitempty"`
 }
@@ -191,31 +193,31 @@ type Quantity string
 // The quantities a parameter can set. The unit or transform is part of
 // the name.
 const (
-	QLog10VMR         Quantity = "log10_vmr"           // log10 volume mixing ratio of Gas
-	QTemperature      Quantity = "temperature_k"       // isothermal temperature, K
-	QTIrr             Quantity = "t_irr_k"             // Guillot irradiation temperature, K
-	QTInt             Quantity = "t_int_k"             // Guillot internal temperature, K
-	QLog10KappaIR     Quantity = "log10_kappa_ir"      // log10 Guillot infrared opacity (m^2/kg)
-	QLog10Gamma       Quantity = "log10_gamma"         // log10 Guillot visible/infrared opacity ratio
-	QRadiusRjup       Quantity = "radius_rjup"         // radius at the reference pressure, Jupiter radii
-	QRadiusRearth     Quantity = "radius_rearth"       // the same in Earth radii
-	QMassMjup         Quantity = "mass_mjup"           // planet mass, Jupiter masses
-	QMassMearth       Quantity = "mass_mearth"         // planet mass, Earth masses
-	QLog10CloudTop    Quantity = "log10_cloud_top_bar" // log10 cloud-top pressure, bar
-	QCloudFraction    Quantity = "cloud_fraction"      // patchy-cloud fraction
-	QLog10HazeFactor  Quantity = "log10_haze_factor"   // log10 haze amplitude A
-	QHazeSlope        Quantity = "haze_slope"          // haze power-law slope gamma
-	QOffsetPPM        Quantity = "offset_ppm"          // depth offset of Dataset, ppm (model + offset)
-	QErrorInflationPM Quantity = "error_inflation_ppm" // s of sigma_eff^2 = sigma^2 + s^2, ppm
+	QLog10VMR            Quantity = "log10_vmr"                   // log10 volume mixing ratio of Gas
+	QTemperature         Quantity = "temperature_k"               // isothermal temperature, K
+	QTIrr                Quantity = "t_irr_k"                     // Guillot irradiation temperature, K
+	QTInt                Quantity = "t_int_k"                     // Guillot internal temperature, K
+	QLog10ThermalOpacity Quantity = "log10_thermal_opacity_m2_kg" // log10 Guillot thermal (infrared) mean opacity, m^2/kg
+	QLog10OpacityRatio   Quantity = "log10_opacity_ratio"         // log10 Guillot visible-to-thermal opacity ratio
+	QRadiusRjup          Quantity = "radius_rjup"                 // radius at the reference pressure, Jupiter radii
+	QRadiusRearth        Quantity = "radius_rearth"               // the same in Earth radii
+	QMassMjup            Quantity = "mass_mjup"                   // planet mass, Jupiter masses
+	QMassMearth          Quantity = "mass_mearth"                 // planet mass, Earth masses
+	QLog10CloudTop       Quantity = "log10_cloud_top_bar"         // log10 cloud-top pressure, bar
+	QCloudFraction       Quantity = "cloud_fraction"              // patchy-cloud fraction
+	QLog10HazeStrength   Quantity = "log10_haze_strength"         // log10 haze strength A
+	QHazeIndex           Quantity = "haze_index"                  // haze power-law index
+	QOffsetPPM           Quantity = "offset_ppm"                  // depth offset of Dataset, ppm (model + offset)
+	QErrorInflationPM    Quantity = "error_inflation_ppm"         // s of sigma_eff^2 = sigma^2 + s^2, ppm
 	// QCLR is a centred-log-ratio coordinate of Gas; these parameters come
 	// from [composition] prior = "clr", not from [[parameters]].
 	QCLR Quantity = "clr"
 )
 
 // Quantities lists every quantity, in the order of docs/configuration.md.
-var Quantities = []Quantity{QLog10VMR, QTemperature, QTIrr, QTInt, QLog10KappaIR, QLog10Gamma,
+var Quantities = []Quantity{QLog10VMR, QTemperature, QTIrr, QTInt, QLog10ThermalOpacity, QLog10OpacityRatio,
 	QRadiusRjup, QRadiusRearth, QMassMjup, QMassMearth, QLog10CloudTop, QCloudFraction,
-	QLog10HazeFactor, QHazeSlope, QOffsetPPM, QErrorInflationPM}
+	QLog10HazeStrength, QHazeIndex, QOffsetPPM, QErrorInflationPM}
 
 func quantityNames() string {
 	s := make([]string, len(Quantities))
@@ -263,8 +265,11 @@ type Resolved struct {
 	// asymmetric errors, a generated seed).
 	Notes []string
 	// Warnings name implausible values of the system, each with its key
-	// (ModelConfig.SystemWarnings).
+	// (ModelConfig.SystemWarnings), and the old spellings of renamed keys.
 	Warnings []string
+	// given records which keys set by parameters the configuration gave
+	// (WriteTOML).
+	given map[string]bool
 }
 
 // Load reads, validates and resolves a retrieval configuration,
@@ -397,12 +402,14 @@ func (c *Config) Resolve() (*Resolved, error) {
 	// The model sections with the parameters' gases added, and values the
 	// free parameters set filled in from their priors' medians where the
 	// model sections leave them out; checked by the shared validator.
+	r.givenKeys(c)
 	r.fillFromPriors(&full.ModelConfig)
 	full.ModelConfig.free = r.freeSpans()
 	if err := full.ModelConfig.Validate(); err != nil {
 		return nil, err
 	}
-	r.Warnings = full.ModelConfig.SystemWarnings()
+	r.Warnings = append(append([]string(nil), c.Renamed...), full.ModelConfig.SystemWarnings()...)
+	full.ModelConfig.Renamed = nil
 	full.ModelConfig.free = nil
 	if err := r.checkApplies(&full); err != nil {
 		return nil, err
@@ -432,7 +439,7 @@ func (r *Resolved) resolveComposition(c *Config, full *Config) error {
 		return keyErr("composition.prior", "unknown composition prior %q (independent, clr)", cc.Prior)
 	}
 	if len(cc.Gases) == 0 {
-		return missingKey("composition.gases", "the gases of the centred-log-ratio prior besides the fill gas")
+		return missingKey("composition.gases", "the gases of the centred-log-ratio prior besides the balance gas")
 	}
 	minVMR := 1e-12
 	if cc.MinVMR != nil {
@@ -445,7 +452,7 @@ func (r *Resolved) resolveComposition(c *Config, full *Config) error {
 		}
 		for _, f := range c.fillSpecies() {
 			if f == g {
-				return keyErr("composition.gases", "%q is the fill gas (%s), the last component of the prior; list the others", g, c.fillName())
+				return keyErr("composition.gases", "%q is the balance gas (%s), the last component of the prior; list the others", g, c.fillName())
 			}
 		}
 		for _, p := range append(append([]Param(nil), r.Free...), r.Fixed...) {
@@ -594,7 +601,7 @@ func (r *Resolved) bindParam(key string, pc ParameterConfig, c *Config, full *Co
 		}
 		for _, f := range c.fillSpecies() {
 			if f == pc.Gas {
-				return Param{}, "", keyErr(key+".gas", "%q is the fill gas (%s), which makes up the rest; it has no free mixing ratio", pc.Gas, c.fillName())
+				return Param{}, "", keyErr(key+".gas", "%q is the balance gas (%s), which makes up the rest; it has no free mixing ratio", pc.Gas, c.fillName())
 			}
 		}
 		p.Gas, target = pc.Gas, pc.Gas
@@ -641,10 +648,10 @@ func (r *Resolved) datasetNames() string {
 }
 
 func (c *ModelConfig) fillName() string {
-	if c.Atmosphere.Fill == "" {
+	if c.Atmosphere.BalanceGas == "" {
 		return forward.FillH2He
 	}
-	return c.Atmosphere.Fill
+	return c.Atmosphere.BalanceGas
 }
 
 // priorKeys are the keys each prior takes (required, optional).
@@ -740,7 +747,7 @@ func checkPriorRange(key, name string, q Quantity, p priors.Prior) error {
 
 // checkApplies rejects parameters that set nothing in this model: a
 // temperature quantity of another profile, a cloud fraction without a
-// cloud deck, a haze slope without haze.
+// cloud deck, a haze index without haze.
 func (r *Resolved) checkApplies(c *Config) error {
 	has := map[Quantity]bool{}
 	for _, p := range append(append([]Param(nil), r.Free...), r.Fixed...) {
@@ -754,17 +761,17 @@ func (r *Resolved) checkApplies(c *Config) error {
 			if profile != "isothermal" {
 				nothing = fmt.Sprintf("the temperature profile is %q, not isothermal (atmosphere.temperature.profile)", profile)
 			}
-		case QTIrr, QTInt, QLog10KappaIR, QLog10Gamma:
+		case QTIrr, QTInt, QLog10ThermalOpacity, QLog10OpacityRatio:
 			if profile != "guillot" {
 				nothing = fmt.Sprintf("the temperature profile is %q, not guillot (atmosphere.temperature.profile)", profile)
 			}
 		case QCloudFraction:
-			if c.Clouds.TopPressureBar == nil && !has[QLog10CloudTop] {
-				nothing = "there is no cloud deck (no clouds.top_pressure_bar and no log10_cloud_top_bar parameter)"
+			if c.Clouds.CloudTopBar == nil && !has[QLog10CloudTop] {
+				nothing = "there is no cloud deck (no clouds.cloud_top_bar and no log10_cloud_top_bar parameter)"
 			}
-		case QHazeSlope:
-			if *c.Clouds.HazeFactor == 0 && !has[QLog10HazeFactor] {
-				nothing = "there is no haze (clouds.haze_factor is 0 and no log10_haze_factor parameter)"
+		case QHazeIndex:
+			if *c.Clouds.HazeStrength == 0 && !has[QLog10HazeStrength] {
+				nothing = "there is no haze (clouds.haze_strength is 0 and no log10_haze_strength parameter)"
 			}
 		}
 		if nothing != "" {
@@ -774,7 +781,14 @@ func (r *Resolved) checkApplies(c *Config) error {
 	return nil
 }
 
-var moves = []string{"stretch", "walk", "de"}
+// The ensemble moves (sampler.move).
+const (
+	MoveStretch       = "stretch"                // Goodman & Weare (2010) stretch move, a = 2
+	MoveWalk          = "walk"                   // Goodman & Weare (2010) walk move
+	MoveDiffEvolution = "differential-evolution" // ter Braak (2006)
+)
+
+var moves = []string{MoveStretch, MoveWalk, MoveDiffEvolution}
 
 // MaxWalkersPerParameter bounds sampler.walkers: at most this many walkers
 // per free parameter. The default is 4 per parameter (at least 32); the
@@ -854,10 +868,10 @@ func (r *Resolved) resolveSampler(s SamplerConfig, full *SamplerConfig) error {
 		}
 		r.Move = s.Move
 		if r.Move == "" {
-			r.Move = "stretch"
+			r.Move = MoveStretch
 		}
 		if !contains(moves, r.Move) {
-			return keyErr("sampler.move", "unknown move %q (stretch, walk, de)", s.Move)
+			return keyErr("sampler.move", "unknown move %q (%s)", s.Move, strings.Join(moves, ", "))
 		}
 	}
 	if s.Seed != nil {
@@ -1019,13 +1033,155 @@ func (r *Resolved) freeSpans() map[Quantity]priorSpan {
 }
 
 // WriteTOML writes the resolved configuration (r.Config) as TOML, with a
-// comment line naming the program version.
+// comment line naming the program version. A key whose value a parameter
+// sets shows no placeholder: when the configuration did not give it (the
+// resolved value is a default, a prior's median or a gas added at 0) the
+// line becomes a comment naming the parameter, and reading the file again
+// fills it in the same way; when the configuration gave it, the value is
+// kept with a comment saying the parameter sets it instead.
 func (r *Resolved) WriteTOML(w io.Writer) error {
 	var buf bytes.Buffer
 	fmt.Fprintf(&buf, "# Resolved retrieval configuration written by chord %s: every default explicit.\n", version.Version)
-	if err := toml.NewEncoder(&buf).Encode(r.Config); err != nil {
+	fmt.Fprintf(&buf, "# Keys set by a parameter are marked \"set by parameter ...\"; their values are in the chains.\n")
+	var body bytes.Buffer
+	if err := toml.NewEncoder(&body).Encode(r.Config); err != nil {
 		return fmt.Errorf("writing resolved configuration: %w", err)
 	}
+	buf.WriteString(markSetKeys(body.String(), r.setKeys()))
 	_, err := w.Write(buf.Bytes())
 	return err
+}
+
+// setKey is a key of the model sections that a parameter sets.
+type setKey struct {
+	path  string // dotted key path, e.g. "atmosphere.gases.CH4"
+	param string // the parameter's name
+	fixed bool   // a fixed parameter (its value is its prior's)
+	given bool   // the configuration file gave the key
+}
+
+// setKeys lists the keys of the model sections the parameters set.
+func (r *Resolved) setKeys() []setKey {
+	var out []setKey
+	for i, ps := range [][]Param{r.Free, r.Fixed} {
+		for _, p := range ps {
+			path := quantityKey(p.Sets)
+			if p.Sets == QLog10VMR || p.Sets == QCLR {
+				path = "atmosphere.gases." + p.Gas
+			}
+			if path == "" {
+				continue
+			}
+			out = append(out, setKey{path: path, param: p.Name, fixed: i == 1, given: r.given[path]})
+		}
+	}
+	return out
+}
+
+// quantityKey is the key of the model sections that a quantity sets ("" for
+// none: offsets and error inflation; a gas's key for log10_vmr and clr).
+func quantityKey(q Quantity) string {
+	switch q {
+	case QTemperature, QTIrr, QTInt:
+		return "atmosphere.temperature." + string(q)
+	case QLog10ThermalOpacity:
+		return "atmosphere.temperature.thermal_opacity_m2_kg"
+	case QLog10OpacityRatio:
+		return "atmosphere.temperature.opacity_ratio"
+	case QRadiusRjup, QRadiusRearth, QMassMjup, QMassMearth:
+		return "planet." + string(q)
+	case QLog10CloudTop:
+		return "clouds.cloud_top_bar"
+	case QCloudFraction:
+		return "clouds.cloud_fraction"
+	case QLog10HazeStrength:
+		return "clouds.haze_strength"
+	case QHazeIndex:
+		return "clouds.haze_index"
+	}
+	return ""
+}
+
+// givenKeys records which of the keys the parameters set the configuration
+// c gave (before defaults and priors filled them in).
+func (r *Resolved) givenKeys(c *Config) {
+	r.given = map[string]bool{}
+	root := reflect.ValueOf(c.ModelConfig)
+	for _, ps := range [][]Param{r.Free, r.Fixed} {
+		for _, p := range ps {
+			path := quantityKey(p.Sets)
+			if p.Sets == QLog10VMR || p.Sets == QCLR {
+				_, ok := c.Atmosphere.Gases[p.Gas]
+				r.given["atmosphere.gases."+p.Gas] = ok
+				continue
+			}
+			if path == "" {
+				continue
+			}
+			v := root
+			for _, k := range strings.Split(path, ".") {
+				v = fieldByKey(v, k)
+			}
+			r.given[path] = v.IsValid() && !v.IsNil()
+		}
+	}
+}
+
+// fieldByKey is the field of struct value v with TOML key k (invalid when
+// there is none).
+func fieldByKey(v reflect.Value, k string) reflect.Value {
+	if !v.IsValid() || v.Kind() != reflect.Struct {
+		return reflect.Value{}
+	}
+	for i := range v.NumField() {
+		name, _, _ := strings.Cut(v.Type().Field(i).Tag.Get("toml"), ",")
+		if name == k {
+			return v.Field(i)
+		}
+	}
+	return reflect.Value{}
+}
+
+// markSetKeys marks the lines of the TOML text (as the encoder writes it:
+// one key per line, tables headed [a.b]) of the keys the parameters set.
+func markSetKeys(text string, keys []setKey) string {
+	if len(keys) == 0 {
+		return text
+	}
+	byPath := map[string]setKey{}
+	for _, k := range keys {
+		byPath[k.path] = k
+	}
+	lines := strings.Split(text, "\n")
+	table := ""
+	for i, line := range lines {
+		t := strings.TrimSpace(line)
+		switch {
+		case strings.HasPrefix(t, "[["):
+			table = ""
+			continue
+		case strings.HasPrefix(t, "["):
+			table = strings.Trim(t, "[]")
+			continue
+		}
+		name, _, ok := strings.Cut(t, " = ")
+		if !ok || table == "" {
+			continue
+		}
+		k, ok := byPath[table+"."+name]
+		if !ok {
+			continue
+		}
+		what := "parameter " + k.param
+		if k.fixed {
+			what = "fixed parameter " + k.param
+		}
+		indent := line[:len(line)-len(strings.TrimLeft(line, " \t"))]
+		if k.given {
+			lines[i] = line + "  # set by " + what + "; this value is not used"
+		} else {
+			lines[i] = indent + "# " + name + ": set by " + what
+		}
+	}
+	return strings.Join(lines, "\n")
 }

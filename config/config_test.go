@@ -39,8 +39,8 @@ func TestConfigResolve(t *testing.T) {
 		t.Errorf("sampler resolved to walkers %d seed %d stop %+v move %q workers %d", r.Walkers, r.Seed, r.Stop, r.Move, r.Workers)
 	}
 	c := &r.Config
-	if *c.Atmosphere.Layers != 100 || c.Atmosphere.Fill != "H2+He" || *c.Atmosphere.HeH2Ratio != 0.17 ||
-		*c.Clouds.Fraction != 1 || *c.Spectrum.MinBinPoints != 2 || *c.Planet.ReferencePressureBar != 10 {
+	if *c.Atmosphere.Layers != 100 || c.Atmosphere.BalanceGas != "H2+He" || *c.Atmosphere.BalanceHeH2Ratio != 0.17 ||
+		*c.Clouds.CloudFraction != 1 || *c.Spectrum.MinBinPoints != 2 || *c.Planet.ReferencePressureBar != 10 {
 		t.Errorf("model defaults not resolved: %+v", c.ModelConfig)
 	}
 	if !filepath.IsAbs(c.Observations[0].File) || c.Observations[0].Name != "wide" {

@@ -7,6 +7,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
 	"slices"
 	"sort"
 	"strings"
@@ -35,6 +36,9 @@ type ModelConfig struct {
 	// BaseDir is the directory relative paths are resolved against (the
 	// configuration file's directory); set by the decoder, not a key.
 	BaseDir string `toml:"-"`
+	// Renamed are the warnings of the old key spellings the file used
+	// (Renames); set by the decoder, not a key.
+	Renamed []string `toml:"-"`
 	// free holds the prior ranges of the quantities free parameters set
 	// (Resolve), for the system checks (system.go).
 	free map[Quantity]priorSpan
@@ -66,10 +70,12 @@ type AtmosphereConfig struct {
 	TopPressureBar    *float64 `toml:"top_pressure_bar"`    // default 1e-7
 	BottomPressureBar *float64 `toml:"bottom_pressure_bar"` // default 100
 	Layers            *int     `toml:"layers"`              // default 100
-	// Fill is the gas making up the rest: "H2+He" (default) or one gas.
-	Fill string `toml:"fill"`
-	// HeH2Ratio is the He/H2 number ratio of an H2+He fill; default 0.17.
-	HeH2Ratio *float64 `toml:"he_h2_ratio"`
+	// BalanceGas is the gas making up what the trace gases leave (the
+	// balance): "H2+He" (default) or one gas.
+	BalanceGas string `toml:"balance_gas"`
+	// BalanceHeH2Ratio is the He/H2 number ratio of an H2+He balance;
+	// default forward.DefaultHeH2.
+	BalanceHeH2Ratio *float64 `toml:"balance_he_h2_ratio"`
 	// Gases maps trace-gas names to volume mixing ratios (fractions).
 	Gases       map[string]float64 `toml:"gases"`
 	Temperature TemperatureConfig  `toml:"temperature"`
@@ -82,23 +88,28 @@ type TemperatureConfig struct {
 	// isothermal
 	TemperatureK *float64 `toml:"temperature_k"` // required for isothermal
 	// guillot (Guillot 2010, A&A 520, A27, eq. 29)
-	TIntK          *float64 `toml:"t_int_k"`        // internal temperature, K; default 100
-	TIrrK          *float64 `toml:"t_irr_k"`        // irradiation temperature, K; required
-	KappaIRM2Kg    *float64 `toml:"kappa_ir_m2_kg"` // infrared opacity, m^2/kg; default 0.01
-	Gamma          *float64 `toml:"gamma"`          // visible/infrared opacity ratio; default 0.4
-	Redistribution *float64 `toml:"redistribution"` // f: 1 substellar, 0.5 dayside, 0.25 (default) planet average
+	TIntK              *float64 `toml:"t_int_k"`               // internal temperature, K; default 100
+	TIrrK              *float64 `toml:"t_irr_k"`               // irradiation temperature, K; required
+	ThermalOpacityM2Kg *float64 `toml:"thermal_opacity_m2_kg"` // Guillot's kappa_th, thermal (infrared) mean opacity, m^2/kg; default DefaultThermalOpacityM2Kg
+	OpacityRatio       *float64 `toml:"opacity_ratio"`         // Guillot's gamma = kappa_v / kappa_th, visible-to-thermal opacity ratio; default DefaultOpacityRatio
+	Redistribution     *float64 `toml:"redistribution"`        // f: 1 substellar, 0.5 dayside, 0.25 (default) planet average
 	// table
-	PressureBar   []float64 `toml:"pressure_bar"`   // table pressures, bar
+	PressuresBar  []float64 `toml:"pressures_bar"`  // table pressures, bar
 	TemperaturesK []float64 `toml:"temperatures_k"` // table temperatures, K
 }
 
 // CloudsConfig is [clouds]; an absent section means a clear atmosphere.
 type CloudsConfig struct {
-	TopPressureBar  *float64 `toml:"top_pressure_bar"`  // grey deck top; absent means no deck
-	Fraction        *float64 `toml:"fraction"`          // patchy-cloud fraction in [0, 1]; default 1
-	HazeFactor      *float64 `toml:"haze_factor"`       // A, times the H2 Rayleigh cross-section at the reference; default 0 (no haze)
-	HazeSlope       *float64 `toml:"haze_slope"`        // gamma of (lambda/lambda_ref)^gamma; default -4
-	HazeReferenceUm *float64 `toml:"haze_reference_um"` // lambda_ref, um; default 0.35
+	CloudTopBar   *float64 `toml:"cloud_top_bar"`  // grey deck top pressure, bar; absent means no deck
+	CloudFraction *float64 `toml:"cloud_fraction"` // patchy-cloud fraction in [0, 1]; default 1
+	// Haze: sigma_haze = A sigma_H2(lambda_0) (lambda/lambda_0)^index per
+	// molecule, the strength A times the H2 Rayleigh cross-section at the
+	// pivot wavelength lambda_0 with a free index (MacDonald & Madhusudhan
+	// 2017, MNRAS 469, 1979), the enhanced-Rayleigh form of Lecavelier des
+	// Etangs et al. (2008, A&A 481, L83) when the index is -4.
+	HazeStrength *float64 `toml:"haze_strength"` // A; default 0 (no haze)
+	HazeIndex    *float64 `toml:"haze_index"`    // power-law index; default forward.DefaultHazeSlope (-4, Rayleigh)
+	HazePivotUm  *float64 `toml:"haze_pivot_um"` // lambda_0, um; default forward.DefaultHazeReference (0.35 um)
 }
 
 // OpacityConfig is [opacity].
@@ -155,19 +166,44 @@ func DecodeStrict(path string, v any) (toml.MetaData, error) {
 
 // decodeStrict is DecodeStrict on TOML text; name (a file name) starts
 // every error, with the line of a syntax error.
+//
+// Old spellings of renamed keys (Renames) are rewritten to the new ones;
+// the warnings naming them are kept in v when it is (or embeds) a
+// ModelConfig (ModelConfig.Renamed).
 func decodeStrict(text, name string, v any) (toml.MetaData, error) {
-	md, err := toml.Decode(text, v)
-	if err != nil {
-		var pe toml.ParseError
-		if errors.As(err, &pe) {
-			return md, &KeyError{File: name, Line: pe.Position.Line, Msg: pe.Message}
+	text, renamed, err := renamedText(text)
+	if err == nil {
+		if rn, ok := v.(Renamer); ok {
+			rn.SetRenamed(renamed)
 		}
-		return md, &KeyError{File: name, Err: err}
+		var md toml.MetaData
+		md, err = toml.Decode(text, v)
+		if err == nil {
+			return md, undecoded(md, name, reflect.TypeOf(v))
+		}
 	}
+	var pe toml.ParseError
+	var ke *KeyError
+	switch {
+	case errors.As(err, &pe):
+		return toml.MetaData{}, &KeyError{File: name, Line: pe.Position.Line, Msg: pe.Message}
+	case errors.As(err, &ke):
+		ke.File = name
+		return toml.MetaData{}, ke
+	}
+	return toml.MetaData{}, &KeyError{File: name, Err: err}
+}
+
+// undecoded is the error naming the keys of md that the decoded value does
+// not have, or nil.
+func undecoded(md toml.MetaData, name string, t reflect.Type) error {
 	if und := md.Undecoded(); len(und) > 0 {
 		// The keys inside an unknown table are not listed again.
 		var keys []string
 		for _, k := range und {
+			if freeForm(t, k) {
+				continue // inside a map of any values: decoded as given
+			}
 			if n := len(keys); n == 0 || !strings.HasPrefix(k.String(), keys[n-1]+".") {
 				keys = append(keys, k.String())
 			}
@@ -176,9 +212,54 @@ func decodeStrict(text, name string, v any) (toml.MetaData, error) {
 		if len(keys) > 1 {
 			msg += " (also unknown: " + strings.Join(keys[1:], ", ") + ")"
 		}
-		return md, &KeyError{File: name, Key: keys[0], Msg: msg}
+		if len(keys) > 0 {
+			return &KeyError{File: name, Key: keys[0], Msg: msg}
+		}
 	}
-	return md, nil
+	return nil
+}
+
+// freeForm reports whether the key lies inside a map of any values of the
+// type t (a grid's [set], where "sampler.steps = 600" decodes as nested
+// tables the TOML decoder counts as undecoded).
+func freeForm(t reflect.Type, key toml.Key) bool {
+	for _, k := range key {
+		for t.Kind() == reflect.Pointer || t.Kind() == reflect.Slice {
+			t = t.Elem()
+		}
+		switch t.Kind() {
+		case reflect.Map:
+			return t.Elem().Kind() == reflect.Interface
+		case reflect.Struct:
+			f, ok := tomlField(t, k)
+			if !ok {
+				return false
+			}
+			t = f
+		default:
+			return false
+		}
+	}
+	return false
+}
+
+// tomlField is the type of the field of struct type t with TOML key k,
+// embedded structs included.
+func tomlField(t reflect.Type, k string) (reflect.Type, bool) {
+	for i := range t.NumField() {
+		f := t.Field(i)
+		name, _, _ := strings.Cut(f.Tag.Get("toml"), ",")
+		if f.Anonymous && name == "" && f.Type.Kind() == reflect.Struct {
+			if ft, ok := tomlField(f.Type, k); ok {
+				return ft, true
+			}
+			continue
+		}
+		if name == k || (name == "" && strings.EqualFold(f.Name, k)) {
+			return f.Type, true
+		}
+	}
+	return nil, false
 }
 
 // LoadModel reads and validates a model configuration file.
@@ -255,11 +336,17 @@ func (c *ModelConfig) planetMass() (float64, error) {
 // resolved configuration (run.toml), the forward model's configuration and
 // its state are all made from its result, so nothing restates them.
 const (
-	DefaultResolvingPower           = 1000 // model grid lambda/dlambda
-	DefaultMinBinPoints             = 2    // model points per observed bin
-	DefaultTIntK                    = 100  // Guillot internal temperature, K
-	DefaultKappaIRM2Kg              = 0.01 // Guillot infrared opacity, m^2/kg
-	DefaultGamma                    = 0.4  // Guillot visible/infrared opacity ratio
+	DefaultResolvingPower = 1000 // model grid lambda/dlambda
+	DefaultMinBinPoints   = 2    // model points per observed bin
+	DefaultTIntK          = 100  // Guillot internal temperature, K
+	// DefaultThermalOpacityM2Kg is Guillot's thermal opacity kappa_th in
+	// SI units: 1e-3 m^2/kg = 0.01 cm^2/g, and DefaultOpacityRatio his
+	// gamma = kappa_v/kappa_th = 0.4, the values of Guillot (2010, A&A 520,
+	// A27) for HD 209458b (kappa_th = 1e-2 cm^2/g, kappa_v = 4e-3 cm^2/g;
+	// from memory). Before this release the default was 0.01 m^2/kg
+	// (0.1 cm^2/g), the paper's number taken in the wrong unit.
+	DefaultThermalOpacityM2Kg       = 1e-3
+	DefaultOpacityRatio             = 0.4
 	DefaultRedistribution           = 0.25 // Guillot f: planet average
 	DefaultCloudFraction            = 1    // a deck covers the whole limb
 	DefaultGreyReferencePressureBar = 1    // P_ref of the grey absorber, bar
@@ -273,20 +360,20 @@ func (m ModelConfig) withDefaults() ModelConfig {
 	a.TopPressureBar = orDefault(a.TopPressureBar, forward.DefaultTopPressure/forward.Bar)
 	a.BottomPressureBar = orDefault(a.BottomPressureBar, forward.DefaultBottomPressure/forward.Bar)
 	a.Layers = orDefault(a.Layers, forward.DefaultLayers)
-	if a.Fill == "" {
-		a.Fill = forward.FillH2He
+	if a.BalanceGas == "" {
+		a.BalanceGas = forward.FillH2He
 	}
-	if a.Fill == forward.FillH2He {
-		a.HeH2Ratio = orDefault(a.HeH2Ratio, forward.DefaultHeH2)
+	if a.BalanceGas == forward.FillH2He {
+		a.BalanceHeH2Ratio = orDefault(a.BalanceHeH2Ratio, forward.DefaultHeH2)
 	}
 	a.Temperature = a.Temperature.withDefaults()
 	cl := &m.Clouds
-	if cl.TopPressureBar != nil {
-		cl.Fraction = orDefault(cl.Fraction, DefaultCloudFraction)
+	if cl.CloudTopBar != nil {
+		cl.CloudFraction = orDefault(cl.CloudFraction, DefaultCloudFraction)
 	}
-	cl.HazeFactor = orDefault(cl.HazeFactor, 0)
-	cl.HazeSlope = orDefault(cl.HazeSlope, forward.DefaultHazeSlope)
-	cl.HazeReferenceUm = orDefault(cl.HazeReferenceUm, forward.DefaultHazeReference/forward.Micron)
+	cl.HazeStrength = orDefault(cl.HazeStrength, 0)
+	cl.HazeIndex = orDefault(cl.HazeIndex, forward.DefaultHazeSlope)
+	cl.HazePivotUm = orDefault(cl.HazePivotUm, forward.DefaultHazeReference/forward.Micron)
 	m.Opacity.GreyReferencePressureBar = orDefault(m.Opacity.GreyReferencePressureBar, DefaultGreyReferencePressureBar)
 	s := &m.Spectrum
 	s.ResolvingPower = orDefault(s.ResolvingPower, DefaultResolvingPower)
@@ -301,8 +388,8 @@ func (t TemperatureConfig) withDefaults() TemperatureConfig {
 	}
 	if t.Profile == "guillot" {
 		t.TIntK = orDefault(t.TIntK, DefaultTIntK)
-		t.KappaIRM2Kg = orDefault(t.KappaIRM2Kg, DefaultKappaIRM2Kg)
-		t.Gamma = orDefault(t.Gamma, DefaultGamma)
+		t.ThermalOpacityM2Kg = orDefault(t.ThermalOpacityM2Kg, DefaultThermalOpacityM2Kg)
+		t.OpacityRatio = orDefault(t.OpacityRatio, DefaultOpacityRatio)
 		t.Redistribution = orDefault(t.Redistribution, DefaultRedistribution)
 	}
 	return t
@@ -353,8 +440,8 @@ func (c *ModelConfig) checkPositive() error {
 		{"planet.reference_pressure_bar", c.Planet.ReferencePressureBar},
 		{"atmosphere.top_pressure_bar", a.TopPressureBar},
 		{"atmosphere.bottom_pressure_bar", a.BottomPressureBar},
-		{"clouds.top_pressure_bar", c.Clouds.TopPressureBar},
-		{"clouds.haze_reference_um", c.Clouds.HazeReferenceUm},
+		{"clouds.cloud_top_bar", c.Clouds.CloudTopBar},
+		{"clouds.haze_pivot_um", c.Clouds.HazePivotUm},
 		{"opacity.grey_reference_pressure_bar", c.Opacity.GreyReferencePressureBar},
 		{"spectrum.wavelength_min_um", c.Spectrum.WavelengthMinUm},
 		{"spectrum.wavelength_max_um", c.Spectrum.WavelengthMaxUm},
@@ -369,7 +456,7 @@ func (c *ModelConfig) checkPositive() error {
 }
 
 // checkAtmosphere checks [atmosphere]: the pressure grid, the reference
-// pressure, the fill gas, the trace gases and the temperature profile.
+// pressure, the balance gas, the trace gases and the temperature profile.
 func (c *ModelConfig) checkAtmosphere() error {
 	a := &c.Atmosphere
 	d := c.withDefaults()
@@ -384,19 +471,19 @@ func (c *ModelConfig) checkAtmosphere() error {
 	if ref < top || ref > bot {
 		return keyErr("planet.reference_pressure_bar", "%g bar lies outside the atmosphere (%g to %g bar)", ref, top, bot)
 	}
-	fill := a.Fill
+	fill := a.BalanceGas
 	if fill == "" {
 		fill = forward.FillH2He
 	}
 	if fill != forward.FillH2He {
 		if _, err := forward.MolecularMass(fill); err != nil {
-			return keyErr("atmosphere.fill", "%q is neither %q nor a known gas (known: %s)", fill, forward.FillH2He, strings.Join(forward.KnownGases(), ", "))
+			return keyErr("atmosphere.balance_gas", "%q is neither %q nor a known gas (known: %s)", fill, forward.FillH2He, strings.Join(forward.KnownGases(), ", "))
 		}
-	} else if a.HeH2Ratio != nil && (!(*a.HeH2Ratio >= 0) || math.IsInf(*a.HeH2Ratio, 0)) {
-		return keyErr("atmosphere.he_h2_ratio", "must be finite and non-negative, got %g", *a.HeH2Ratio)
+	} else if a.BalanceHeH2Ratio != nil && (!(*a.BalanceHeH2Ratio >= 0) || math.IsInf(*a.BalanceHeH2Ratio, 0)) {
+		return keyErr("atmosphere.balance_he_h2_ratio", "must be finite and non-negative, got %g", *a.BalanceHeH2Ratio)
 	}
-	if fill != forward.FillH2He && a.HeH2Ratio != nil {
-		return keyErr("atmosphere.he_h2_ratio", "applies only to the fill %q, not %q", forward.FillH2He, fill)
+	if fill != forward.FillH2He && a.BalanceHeH2Ratio != nil {
+		return keyErr("atmosphere.balance_he_h2_ratio", "applies only to the balance gas %q, not %q", forward.FillH2He, fill)
 	}
 	sum := 0.0
 	for _, g := range c.gasNames() {
@@ -409,7 +496,7 @@ func (c *ModelConfig) checkAtmosphere() error {
 			return keyErr(key, "volume mixing ratio must be in [0, 1], got %g", v)
 		}
 		if g == fill || (fill == forward.FillH2He && (g == "H2" || g == "He")) {
-			return keyErr(key, "is part of the fill gas %q; the fill makes up the rest", fill)
+			return keyErr(key, "is part of the balance gas %q, which makes up the rest", fill)
 		}
 		sum += v
 	}
@@ -426,20 +513,20 @@ func (c *ModelConfig) checkAtmosphere() error {
 func (c *ModelConfig) checkClouds() error {
 	bot := *c.withDefaults().Atmosphere.BottomPressureBar
 	cl := &c.Clouds
-	if cl.TopPressureBar != nil && *cl.TopPressureBar > bot {
-		return keyErr("clouds.top_pressure_bar", "%g bar lies below the bottom of the atmosphere (%g bar)", *cl.TopPressureBar, bot)
+	if cl.CloudTopBar != nil && *cl.CloudTopBar > bot {
+		return keyErr("clouds.cloud_top_bar", "%g bar lies below the bottom of the atmosphere (%g bar)", *cl.CloudTopBar, bot)
 	}
-	if cl.Fraction != nil && !(*cl.Fraction >= 0 && *cl.Fraction <= 1) {
-		return keyErr("clouds.fraction", "must be in [0, 1], got %g", *cl.Fraction)
+	if cl.CloudFraction != nil && !(*cl.CloudFraction >= 0 && *cl.CloudFraction <= 1) {
+		return keyErr("clouds.cloud_fraction", "must be in [0, 1], got %g", *cl.CloudFraction)
 	}
-	if cl.Fraction != nil && cl.TopPressureBar == nil {
-		return keyErr("clouds.fraction", "needs clouds.top_pressure_bar")
+	if cl.CloudFraction != nil && cl.CloudTopBar == nil {
+		return keyErr("clouds.cloud_fraction", "needs clouds.cloud_top_bar")
 	}
-	if cl.HazeFactor != nil && (!(*cl.HazeFactor >= 0) || math.IsInf(*cl.HazeFactor, 0)) {
-		return keyErr("clouds.haze_factor", "must be finite and non-negative, got %g", *cl.HazeFactor)
+	if cl.HazeStrength != nil && (!(*cl.HazeStrength >= 0) || math.IsInf(*cl.HazeStrength, 0)) {
+		return keyErr("clouds.haze_strength", "must be finite and non-negative, got %g", *cl.HazeStrength)
 	}
-	if cl.HazeSlope != nil && (math.IsNaN(*cl.HazeSlope) || math.IsInf(*cl.HazeSlope, 0)) {
-		return keyErr("clouds.haze_slope", "must be finite, got %g", *cl.HazeSlope)
+	if cl.HazeIndex != nil && (math.IsNaN(*cl.HazeIndex) || math.IsInf(*cl.HazeIndex, 0)) {
+		return keyErr("clouds.haze_index", "must be finite, got %g", *cl.HazeIndex)
 	}
 	return nil
 }
@@ -542,11 +629,11 @@ func (c *ModelConfig) gasNames() []string {
 }
 
 func (c *ModelConfig) fillSpecies() []string {
-	switch c.Atmosphere.Fill {
+	switch c.Atmosphere.BalanceGas {
 	case "", forward.FillH2He:
 		return []string{"H2", "He"}
 	}
-	return []string{c.Atmosphere.Fill}
+	return []string{c.Atmosphere.BalanceGas}
 }
 
 func (c *ModelConfig) inComposition(g string) bool {
@@ -564,14 +651,14 @@ func (c *ModelConfig) inComposition(g string) bool {
 func (t0 *TemperatureConfig) profile() (forward.Profile, error) {
 	t := t0.withDefaults()
 	has := map[string]bool{
-		"temperature_k":  t.TemperatureK != nil,
-		"t_int_k":        t.TIntK != nil,
-		"t_irr_k":        t.TIrrK != nil,
-		"kappa_ir_m2_kg": t.KappaIRM2Kg != nil,
-		"gamma":          t.Gamma != nil,
-		"redistribution": t.Redistribution != nil,
-		"pressure_bar":   t.PressureBar != nil,
-		"temperatures_k": t.TemperaturesK != nil,
+		"temperature_k":         t.TemperatureK != nil,
+		"t_int_k":               t.TIntK != nil,
+		"t_irr_k":               t.TIrrK != nil,
+		"thermal_opacity_m2_kg": t.ThermalOpacityM2Kg != nil,
+		"opacity_ratio":         t.OpacityRatio != nil,
+		"redistribution":        t.Redistribution != nil,
+		"pressures_bar":         t.PressuresBar != nil,
+		"temperatures_k":        t.TemperaturesK != nil,
 	}
 	kind := t.Profile
 	var allowed []string
@@ -579,9 +666,9 @@ func (t0 *TemperatureConfig) profile() (forward.Profile, error) {
 	case "isothermal":
 		allowed = []string{"temperature_k"}
 	case "guillot":
-		allowed = []string{"t_int_k", "t_irr_k", "kappa_ir_m2_kg", "gamma", "redistribution"}
+		allowed = []string{"t_int_k", "t_irr_k", "thermal_opacity_m2_kg", "opacity_ratio", "redistribution"}
 	case "table":
-		allowed = []string{"pressure_bar", "temperatures_k"}
+		allowed = []string{"pressures_bar", "temperatures_k"}
 	default:
 		return nil, keyErr("atmosphere.temperature.profile", "unknown profile %q (isothermal, guillot, table)", t.Profile)
 	}
@@ -612,7 +699,7 @@ func (t0 *TemperatureConfig) profile() (forward.Profile, error) {
 		for _, kv := range []struct {
 			k string
 			v *float64
-		}{{"t_irr_k", t.TIrrK}, {"kappa_ir_m2_kg", t.KappaIRM2Kg}, {"gamma", t.Gamma}, {"redistribution", t.Redistribution}} {
+		}{{"t_irr_k", t.TIrrK}, {"thermal_opacity_m2_kg", t.ThermalOpacityM2Kg}, {"opacity_ratio", t.OpacityRatio}, {"redistribution", t.Redistribution}} {
 			if err := positive(sec+kv.k, kv.v); err != nil {
 				return nil, err
 			}
@@ -620,18 +707,18 @@ func (t0 *TemperatureConfig) profile() (forward.Profile, error) {
 		if t.TIntK != nil && (!(*t.TIntK >= 0) || math.IsInf(*t.TIntK, 0)) {
 			return nil, keyErr(sec+"t_int_k", "must be finite and non-negative, got %g", *t.TIntK)
 		}
-		return &forward.Guillot{TInt: *t.TIntK, TIrr: *t.TIrrK, KappaIR: *t.KappaIRM2Kg, Gamma: *t.Gamma, F: *t.Redistribution}, nil
+		return &forward.Guillot{TInt: *t.TIntK, TIrr: *t.TIrrK, KappaIR: *t.ThermalOpacityM2Kg, Gamma: *t.OpacityRatio, F: *t.Redistribution}, nil
 	default:
-		if t.PressureBar == nil || t.TemperaturesK == nil {
-			return nil, missingKey(sec+"pressure_bar", sec+"pressure_bar and "+sec+"temperatures_k are both required")
+		if t.PressuresBar == nil || t.TemperaturesK == nil {
+			return nil, missingKey(sec+"pressures_bar", sec+"pressure_bar and "+sec+"temperatures_k are both required")
 		}
-		p := make([]float64, len(t.PressureBar))
-		for i, v := range t.PressureBar {
+		p := make([]float64, len(t.PressuresBar))
+		for i, v := range t.PressuresBar {
 			p[i] = v * forward.Bar
 		}
 		tp, err := forward.NewTableProfile(p, t.TemperaturesK)
 		if err != nil {
-			return nil, keyWrap(sec+"pressure_bar", err)
+			return nil, keyWrap(sec+"pressures_bar", err)
 		}
 		return tp, nil
 	}
@@ -770,13 +857,13 @@ func (c *ModelConfig) ForwardConfig(set *opacity.Set, bins *forward.Bins) (forwa
 		Layers:         *a.Layers,
 		RefPressure:    *d.Planet.ReferencePressureBar * forward.Bar,
 		Gases:          c.gasNames(),
-		Fill:           a.Fill,
+		Fill:           a.BalanceGas,
 		Grey: opacity.Grey{
 			Sigma:       d.Opacity.GreyCrossSectionM2,
 			Exponent:    d.Opacity.GreyPressureExponent,
 			RefPressure: *d.Opacity.GreyReferencePressureBar * forward.Bar,
 		},
-		HazeRefWavelength: *d.Clouds.HazeReferenceUm * forward.Micron,
+		HazeRefWavelength: *d.Clouds.HazePivotUm * forward.Micron,
 		MinBinPoints:      *s.MinBinPoints,
 	}
 	species := append(c.gasNames(), c.fillSpecies()...)
@@ -854,7 +941,7 @@ func tableBins(t *opacity.KTable, lo, hi float64) *forward.Bins {
 }
 
 // inTrace reports whether g is a trace gas of the atmosphere (not the
-// fill).
+// balance gas).
 func (c *ModelConfig) inTrace(g string) bool {
 	_, ok := c.Atmosphere.Gases[g]
 	return ok
@@ -905,8 +992,8 @@ func (c *ModelConfig) State(m *forward.Model) (forward.State, error) {
 	for i, g := range m.Gases() {
 		s.VMR[i] = d.Atmosphere.Gases[g]
 	}
-	if d.Atmosphere.HeH2Ratio != nil { // an H2+He fill
-		s.HeH2 = *d.Atmosphere.HeH2Ratio
+	if d.Atmosphere.BalanceHeH2Ratio != nil { // an H2+He balance gas
+		s.HeH2 = *d.Atmosphere.BalanceHeH2Ratio
 	}
 	if s.RefRadius, err = d.planetRadius(); err != nil {
 		return s, err
@@ -917,12 +1004,12 @@ func (c *ModelConfig) State(m *forward.Model) (forward.State, error) {
 	if s.StarRadius, err = d.starRadius(); err != nil {
 		return s, err
 	}
-	if d.Clouds.TopPressureBar != nil {
-		s.CloudTop = *d.Clouds.TopPressureBar * forward.Bar
-		s.CloudFraction = *d.Clouds.Fraction
+	if d.Clouds.CloudTopBar != nil {
+		s.CloudTop = *d.Clouds.CloudTopBar * forward.Bar
+		s.CloudFraction = *d.Clouds.CloudFraction
 	}
-	s.HazeFactor = *d.Clouds.HazeFactor
-	s.HazeSlope = *d.Clouds.HazeSlope
+	s.HazeFactor = *d.Clouds.HazeStrength
+	s.HazeSlope = *d.Clouds.HazeIndex
 	return s, nil
 }
 

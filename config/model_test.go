@@ -116,12 +116,12 @@ func TestModelConfigErrors(t *testing.T) {
 		{"negative mixing ratio", "H2O = 0.01", "H2O = -0.01", "atmosphere.gases.H2O"},
 		{"sum over 1", "H2O = 0.01", "H2O = 0.6\nCO = 0.6", "atmosphere.gases"},
 		{"fill as trace", "H2O = 0.01", "He = 0.01", "atmosphere.gases.He"},
-		{"bad fill", "layers = 60", "layers = 60\nfill = \"Xq\"", "atmosphere.fill"},
+		{"bad fill", "layers = 60", "layers = 60\nbalance_gas = \"Xq\"", "atmosphere.balance_gas"},
 		{"missing temperature", "temperature_k = 900", "", "atmosphere.temperature.temperature_k"},
 		{"wrong profile key", "temperature_k = 900", "temperature_k = 900\nt_irr_k = 1000", "atmosphere.temperature.t_irr_k"},
 		{"unknown profile", "temperature_k = 900", "profile = \"warm\"", "atmosphere.temperature.profile"},
-		{"cloud below bottom", "[opacity]", "[clouds]\ntop_pressure_bar = 1000\n[opacity]", "clouds.top_pressure_bar"},
-		{"cloud fraction", "[opacity]", "[clouds]\ntop_pressure_bar = 0.1\nfraction = 1.5\n[opacity]", "clouds.fraction"},
+		{"cloud below bottom", "[opacity]", "[clouds]\ncloud_top_bar = 1000\n[opacity]", "clouds.cloud_top_bar"},
+		{"cloud fraction", "[opacity]", "[clouds]\ncloud_top_bar = 0.1\ncloud_fraction = 1.5\n[opacity]", "clouds.cloud_fraction"},
 		{"missing wavelength", "wavelength_min_um = 0.5", "", "spectrum.wavelength_min_um"},
 		{"reversed wavelengths", "wavelength_max_um = 5", "wavelength_max_um = 0.4", "spectrum.wavelength_max_um"},
 		{"too many points", "resolving_power = 300", "resolving_power = 1e6", "spectrum.resolving_power"},
@@ -178,14 +178,16 @@ func TestModelConfigProfilesAndBins(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// The defaults kappa_th = 1e-2 cm^2/g = 1e-3 m^2/kg and gamma = 0.4 are
+	// Guillot (2010, A&A 520, A27)'s HD 209458b values (from memory).
 	g, ok := s.Profile.(*forward.Guillot)
-	if !ok || g.TIrr != 1200 || g.TInt != 200 || g.F != 0.25 || g.Gamma != 0.4 || g.KappaIR != 0.01 {
+	if !ok || g.TIrr != 1200 || g.TInt != 200 || g.F != 0.25 || g.Gamma != 0.4 || g.KappaIR != 1e-2*1e-4/1e-3 {
 		t.Errorf("Guillot profile %+v", s.Profile)
 	}
 	if m.OutputLen() != 2 {
 		t.Errorf("%d bins from centres, want 2", m.OutputLen())
 	}
-	table := strings.Replace(greyConfig, "temperature_k = 900", "profile = \"table\"\npressure_bar = [1e-6, 1, 100]\ntemperatures_k = [700, 1000, 1800]", 1)
+	table := strings.Replace(greyConfig, "temperature_k = 900", "profile = \"table\"\npressures_bar = [1e-6, 1, 100]\ntemperatures_k = [700, 1000, 1800]", 1)
 	table = strings.Replace(table, "bin_edges_um = [0.6, 1.0, 2.0, 4.0]", "bin_resolving_power = 20", 1)
 	c, err = LoadModel(writeConfig(t, table))
 	if err != nil {
@@ -211,7 +213,7 @@ func TestModelConfigProfilesAndBins(t *testing.T) {
 func FuzzModelConfig(f *testing.F) {
 	f.Add(greyConfig)
 	f.Add(strings.Replace(greyConfig, "temperature_k = 900", "profile = \"guillot\"\nt_irr_k = 1200", 1))
-	f.Add(strings.Replace(greyConfig, "[opacity]", "[clouds]\ntop_pressure_bar = 0.01\nfraction = 0.5\nhaze_factor = 3\n[opacity]", 1))
+	f.Add(strings.Replace(greyConfig, "[opacity]", "[clouds]\ncloud_top_bar = 0.01\ncloud_fraction = 0.5\nhaze_strength = 3\n[opacity]", 1))
 	f.Add("[star]\nradius_m = 1\n")
 	dir := f.TempDir()
 	f.Fuzz(func(t *testing.T, text string) {

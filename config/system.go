@@ -136,10 +136,10 @@ func starRadiusKey(c *ModelConfig) string {
 // with a free infrared opacity or opacity ratio).
 func (c *ModelConfig) coolestTemperature(r, m float64) (float64, bool, error) {
 	t := c.Atmosphere.Temperature.withDefaults()
-	if _, free := c.free[QLog10KappaIR]; free {
+	if _, free := c.free[QLog10ThermalOpacity]; free {
 		return 0, false, nil
 	}
-	if _, free := c.free[QLog10Gamma]; free {
+	if _, free := c.free[QLog10OpacityRatio]; free {
 		return 0, false, nil
 	}
 	if t.TemperatureK != nil {
@@ -185,7 +185,7 @@ func (c *ModelConfig) heaviestMeanWeight() float64 {
 	if len(species) == 2 { // H2+He
 		mh2, _ := forward.MolecularMass("H2")
 		mhe, _ := forward.MolecularMass("He")
-		fill = (mh2 + *a.HeH2Ratio*mhe) / (1 + *a.HeH2Ratio)
+		fill = (mh2 + *a.BalanceHeH2Ratio*mhe) / (1 + *a.BalanceHeH2Ratio)
 	} else {
 		fill, _ = forward.MolecularMass(species[0])
 	}

@@ -14,9 +14,10 @@ const (
 	DefaultRefPressure    = 10 * Bar
 )
 
-// Default haze power law (Lecavelier des Etangs et al. 2008, A&A 481, L83):
-// slope gamma = -4, the Rayleigh-like slope, at the reference wavelength
-// 0.35 um.
+// Default haze power law: index gamma = -4, Rayleigh's (the enhanced
+// Rayleigh scattering of Lecavelier des Etangs et al. 2008, A&A 481, L83),
+// at the pivot wavelength 0.35 um of MacDonald & Madhusudhan (2017, MNRAS
+// 469, 1979; from memory).
 const (
 	DefaultHazeSlope     = -4.0
 	DefaultHazeReference = 0.35 * Micron

@@ -225,14 +225,14 @@ func (m *Model) setComposition(cfg Config) error {
 		}
 		for _, f := range fillSp {
 			if f == g {
-				return fmt.Errorf("forward: gas %q is part of the fill gas %q and cannot also be a trace gas", g, m.fill)
+				return fmt.Errorf("forward: gas %q is part of the balance gas %q and cannot also be a trace gas", g, m.fill)
 			}
 		}
 		seen[g] = true
 	}
 	for _, f := range fillSp {
 		if _, err := MolecularMass(f); err != nil {
-			return fmt.Errorf("forward: fill gas: %w (or %q)", err, FillH2He)
+			return fmt.Errorf("forward: balance gas: %w (or %q)", err, FillH2He)
 		}
 	}
 	m.gases = append([]string(nil), cfg.Gases...)

@@ -34,11 +34,13 @@ type State struct {
 	// sets 1.
 	CloudFraction float64
 
-	// HazeFactor A and HazeSlope gamma give a haze cross-section per
-	// molecule A sigma_ref (lambda/lambda_ref)^gamma, with sigma_ref the H2
-	// Rayleigh cross-section at lambda_ref (Lecavelier des Etangs et al.
-	// 2008, A&A 481, L83). A = 0 (default) means no haze; gamma = -4 is
-	// Rayleigh-like.
+	// HazeFactor A (the configuration's haze strength) and HazeSlope
+	// gamma (its haze index) give a haze cross-section per molecule
+	// A sigma_ref (lambda/lambda_ref)^gamma, with sigma_ref the H2 Rayleigh
+	// cross-section at the pivot lambda_ref: the parameterisation of
+	// MacDonald & Madhusudhan (2017, MNRAS 469, 1979), the enhanced
+	// Rayleigh scattering of Lecavelier des Etangs et al. (2008, A&A 481,
+	// L83) at gamma = -4. A = 0 (default) means no haze.
 	HazeFactor float64
 	HazeSlope  float64
 }

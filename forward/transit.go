@@ -614,10 +614,10 @@ func (m *Model) checkState(s *State, w *Workspace) error {
 		return w.fail(ErrInvalidState, "cloud fraction", s.CloudFraction)
 	}
 	if bad(s.HazeFactor) || s.HazeFactor < 0 {
-		return w.fail(ErrInvalidState, "haze factor", s.HazeFactor)
+		return w.fail(ErrInvalidState, "haze strength", s.HazeFactor)
 	}
 	if bad(s.HazeSlope) {
-		return w.fail(ErrInvalidState, "haze slope", s.HazeSlope)
+		return w.fail(ErrInvalidState, "haze index", s.HazeSlope)
 	}
 	return nil
 }

@@ -276,7 +276,7 @@ func TestBadModels(t *testing.T) {
 		{"zero layers", "0 layers", func(c *Config) { c.Layers = 0 }},
 		{"outside tables", "outside the H2O table", func(c *Config) { c.Wavelength = wide }},
 		{"table gas not in composition", `"H2O", a gas not in the composition`, func(c *Config) { c.Gases = nil }},
-		{"fill gas as trace", "part of the fill gas", func(c *Config) { c.Gases = []string{"H2O", "He"} }},
+		{"fill gas as trace", "part of the balance gas", func(c *Config) { c.Gases = []string{"H2O", "He"} }},
 		{"bad Rayleigh gas", `no Rayleigh-scattering formula for gas "H2O2"`, func(c *Config) { c.Rayleigh = []string{"H2O2"} }},
 		{"Rayleigh gas not present", `"N2", a gas not in the composition`, func(c *Config) { c.Rayleigh = []string{"N2"} }},
 		{"reference pressure outside", "reference pressure", func(c *Config) { c.RefPressure = 1e9 }},
@@ -318,7 +318,7 @@ func TestBadStates(t *testing.T) {
 		{"no profile", ErrInvalidState, "temperature profile", func(s *State) { s.Profile = nil }},
 		{"bad temperature", ErrTemperature, "temperature", func(s *State) { s.Profile = &Isothermal{T: 0} }},
 		{"negative He/H2", ErrInvalidState, "He/H2", func(s *State) { s.HeH2 = -1 }},
-		{"negative haze", ErrInvalidState, "haze factor", func(s *State) { s.HazeFactor = -1 }},
+		{"negative haze", ErrInvalidState, "haze strength", func(s *State) { s.HazeFactor = -1 }},
 	} {
 		s := s0
 		s.VMR = append([]float64(nil), s0.VMR...)

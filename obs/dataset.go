@@ -114,6 +114,9 @@ type header struct {
 	// errFactor converts the error columns to fractions of the depth or,
 	// for an Rp/Rs depth, to Rp/Rs.
 	errFactor float64
+	// note is a remark for the data sets' notes: a bare "error" column
+	// beside a depth in ppm (chord's layout before error_ppm).
+	note string
 }
 
 // fromNames finds the quantities of a table by chord's column names,
@@ -191,6 +194,9 @@ func (h *header) fromNames(t *rawTable, nameUnits []unitSource) (bareDepth bool,
 			}
 			return false, fmt.Errorf("%s: header: %w", t.whereHeader(), err)
 		}
+	}
+	if e := h.idx[colError]; e >= 0 && strings.EqualFold(t.names[e], "error") && strings.HasSuffix(depthName, "_ppm") {
+		h.note = fmt.Sprintf("%s: column %q takes the unit of %q (ppm); chord writes and documents it as error_ppm (edge_low_um,edge_high_um,depth_ppm,error_ppm), the old spelling error is accepted", t.whereHeader(), t.names[e], depthName)
 	}
 	return bareDepth, nil
 }

@@ -479,6 +479,9 @@ func (t *rawTable) datasets(h *header, name string, opt *ReadOptions) ([]*Datase
 		}
 		out[i] = g.d
 	}
+	if h.note != "" {
+		out[0].Notes = append(out[0].Notes, h.note)
+	}
 	if ins >= 0 {
 		parts := make([]string, len(out))
 		for i, d := range out {

@@ -19,8 +19,8 @@ type Observation struct {
 }
 
 // WriteObservation writes o as an observation file that ReadDataset
-// reads: CSV with columns edge_low_um, edge_high_um, depth_ppm and error
-// (ppm); edges in their shortest exact form, depths and errors to 12
+// reads: CSV with columns edge_low_um, edge_high_um, depth_ppm and
+// error_ppm, the layout of every table chord writes; edges in their shortest exact form, depths and errors to 12
 // significant digits. An existing file is an
 // error unless overwrite.
 func WriteObservation(path string, o *Observation, overwrite bool) error {
@@ -28,7 +28,7 @@ func WriteObservation(path string, o *Observation, overwrite bool) error {
 	for _, h := range o.Header {
 		b.WriteString("# " + h + "\n")
 	}
-	b.WriteString("edge_low_um,edge_high_um,depth_ppm,error\n")
+	b.WriteString("edge_low_um,edge_high_um,depth_ppm,error_ppm\n")
 	g := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
 	g12 := func(v float64) string { return strconv.FormatFloat(v, 'g', 12, 64) }
 	for i := range o.Depth {

@@ -92,10 +92,13 @@ type Check struct {
 }
 
 // GoodnessOfFit is the goodness-of-fit check's numbers.
+// Its chi-square uses the errors as fitted (named _fitted, as the chain
+// column chi_square_fitted), the best sample's Best.ChiSquare the stated
+// errors.
 type GoodnessOfFit struct {
-	ChiSquare        float64 `json:"chi_square"`
+	ChiSquare        float64 `json:"chi_square_fitted"`
 	DegreesOfFreedom int     `json:"degrees_of_freedom"`
-	ReducedChiSquare Float   `json:"reduced_chi_square"`
+	ReducedChiSquare Float   `json:"reduced_chi_square_fitted"`
 	PValue           Float   `json:"p_value"`
 	// ErrorsInflated is true when the chi-square uses errors inflated by
 	// the fit (error_inflation_ppm parameters).

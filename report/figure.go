@@ -122,10 +122,10 @@ func paramLabel(col chains.Column) string {
 		return "Irradiation temperature [K]"
 	case config.QTInt:
 		return "Internal temperature [K]"
-	case config.QLog10KappaIR:
-		return "log10 infrared opacity [m²/kg]"
-	case config.QLog10Gamma:
-		return "log10 visible/infrared opacity ratio"
+	case config.QLog10ThermalOpacity:
+		return "log10 thermal opacity [m²/kg]"
+	case config.QLog10OpacityRatio:
+		return "log10 visible-to-thermal opacity ratio"
 	case config.QRadiusRjup:
 		return "Radius [Jupiter radii]"
 	case config.QRadiusRearth:
@@ -138,10 +138,10 @@ func paramLabel(col chains.Column) string {
 		return "log10 cloud-top pressure [bar]"
 	case config.QCloudFraction:
 		return "Cloud fraction"
-	case config.QLog10HazeFactor:
-		return "log10 haze factor"
-	case config.QHazeSlope:
-		return "Haze slope"
+	case config.QLog10HazeStrength:
+		return "log10 haze strength"
+	case config.QHazeIndex:
+		return "Haze index"
 	case config.QOffsetPPM:
 		return "Offset of " + of + " [ppm]"
 	case config.QErrorInflationPM:

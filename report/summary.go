@@ -86,14 +86,14 @@ type SummaryOptions struct {
 // Summary is the content of summary.json.
 type Summary struct {
 	Program       string `json:"program"`
-	RunID         string `json:"run_id,omitempty"`
+	RunID         string `json:"run_id"`
 	DemoOpacities bool   `json:"demo_opacities"`
 	// Method is MethodEnsemble or MethodNested (absent in summaries
 	// written before nested sampling: ensemble).
-	Method string `json:"method,omitempty"`
+	Method string `json:"method"`
 	// Evidence is the evidence of a nested-sampling run (nil for the
 	// ensemble).
-	Evidence *Evidence `json:"evidence,omitempty"`
+	Evidence *Evidence `json:"evidence"`
 	// Walkers and Steps are the ensemble's (0 for nested sampling).
 	Walkers  int  `json:"walkers"`
 	Steps    int  `json:"steps"` // total steps of the chain
@@ -109,7 +109,7 @@ type Summary struct {
 	MaxTau    Float  `json:"max_tau"`
 	ChainTaus Float  `json:"chain_taus"`
 	Converged bool   `json:"converged"`
-	Stop      string `json:"stop,omitempty"` // why the sampler stopped
+	Stop      string `json:"stop"` // why the sampler stopped
 
 	Parameters []ColumnSummary `json:"parameters"`
 	Derived    []ColumnSummary `json:"derived"`
@@ -117,21 +117,21 @@ type Summary struct {
 
 	// GoodnessOfFit is the goodness-of-fit check's numbers (nil without
 	// a model or degrees of freedom).
-	GoodnessOfFit *GoodnessOfFit `json:"goodness_of_fit,omitempty"`
+	GoodnessOfFit *GoodnessOfFit `json:"goodness_of_fit"`
 	// Checks are the findings of the checks that say when the fit is not
 	// to be trusted (checks.go), in plain words; empty when none fired.
 	Checks []Check `json:"checks"`
 	// Coverage is what the opacity tables cover of the data (nil when not
 	// known).
-	Coverage *Coverage `json:"coverage,omitempty"`
+	Coverage *Coverage `json:"coverage"`
 
 	// Atmosphere is the context of the cautions (SummaryOptions.Atmosphere),
 	// kept for the cautions of detections made later from this run (chord
 	// detect); nil when not known.
-	Atmosphere *Atmosphere `json:"atmosphere,omitempty"`
+	Atmosphere *Atmosphere `json:"atmosphere"`
 
 	// InvalidStates counts rejected proposals by reason (from the run).
-	InvalidStates map[string]int64 `json:"invalid_states,omitempty"`
+	InvalidStates map[string]int64 `json:"invalid_states"`
 	Warnings      []string         `json:"warnings"`
 	Cautions      []string         `json:"cautions"`
 }
@@ -148,9 +148,9 @@ type Acceptance struct {
 // ColumnSummary summarises one parameter or derived column.
 type ColumnSummary struct {
 	Name     string  `json:"name"`
-	Quantity string  `json:"quantity,omitempty"`
-	Unit     string  `json:"unit,omitempty"`
-	Prior    string  `json:"prior,omitempty"`
+	Quantity string  `json:"quantity"`
+	Unit     string  `json:"unit"`
+	Prior    string  `json:"prior"`
 	Median   float64 `json:"median"`
 	P16      float64 `json:"p16"`
 	P84      float64 `json:"p84"`
@@ -170,7 +170,7 @@ type ColumnSummary struct {
 	// ensemble, whose walkers are not independent chains.
 	RHat    Float       `json:"r_hat"`
 	BulkESS Float       `json:"bulk_ess"`
-	Gas     *GasVerdict `json:"gas,omitempty"`
+	Gas     *GasVerdict `json:"gas"`
 }
 
 // GasVerdict is ClassifyGas's result as stored in summary.json.
@@ -589,7 +589,31 @@ func (f *Float) UnmarshalJSON(b []byte) error {
 }
 
 // WriteJSON writes summary.json.
+//
+// Every field is written, empty or not (docs/formats.md lists them): an
+// absent object is null, an absent list or map empty.
 func (s *Summary) WriteJSON(w io.Writer) error {
+	c := *s
+	if c.InvalidStates == nil {
+		c.InvalidStates = map[string]int64{}
+	}
+	for _, p := range []*[]string{&c.Warnings, &c.Cautions} {
+		if *p == nil {
+			*p = []string{}
+		}
+	}
+	for _, p := range []*[]ColumnSummary{&c.Parameters, &c.Derived} {
+		if *p == nil {
+			*p = []ColumnSummary{}
+		}
+	}
+	if c.Checks == nil {
+		c.Checks = []Check{}
+	}
+	if c.Acceptance.Stuck == nil {
+		c.Acceptance.Stuck = []int{}
+	}
+	s = &c
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
 	enc.SetEscapeHTML(false)

@@ -239,6 +239,11 @@ func truthVector(c *chains.Chain, truth map[string]float64) []float64 {
 	return x
 }
 
+// LegacyColumns are the derived chain columns renamed since chord first
+// wrote them (new name -> old name); runs started before keep the old
+// names.
+var LegacyColumns = map[string]string{"balance_vmr": "fill_vmr", "chi_square_fitted": "chi2"}
+
 // modelPlots records the best sample's chi-square in s and returns the
 // drawing of the spectrum, temperature and gas plots.
 func modelPlots(dir string, c *chains.Chain, s *Summary, opt Options) ([]func() error, error) {
@@ -259,7 +264,11 @@ func modelPlots(dir string, c *chains.Chain, s *Summary, opt Options) ([]func() 
 		n += len(d.Depth)
 	}
 	s.SetChiSquare(chi2, n)
-	if fit := c.Column("chi2"); fit != nil {
+	fit := c.Column("chi_square_fitted")
+	if fit == nil {
+		fit = c.Column(LegacyColumns["chi_square_fitted"]) // a run started before the rename
+	}
+	if fit != nil {
 		chi2 = fit[(s.Best.Step-c.Steps[0])*c.Walkers+s.Best.Walker] // with the errors as fitted
 	}
 	s.setGoodness(chi2, n, opt.ErrorsInflated)

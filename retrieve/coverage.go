@@ -138,7 +138,7 @@ func paramBounds(free []config.Param, bottomBar float64) []report.ParamBounds {
 			b.LowLimit, b.HighLimit = b.Low <= 0, b.High >= 1
 		case config.QErrorInflationPM, config.QTInt:
 			b.LowLimit = b.Low <= 0
-		case config.QLog10HazeFactor:
+		case config.QLog10HazeStrength:
 			b.LowLimit = true // no haze: a limit, like an absent gas
 		case config.QLog10CloudTop:
 			// A cloud top at or below the bottom of the atmosphere is no

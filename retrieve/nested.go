@@ -95,6 +95,9 @@ func continueNested(ctx context.Context, dir string, spec *RunSpec, opt RunOptio
 	}
 	out := &RunOutcome{Recovered: recovered}
 	store := filepath.Join(dir, chains.DirName)
+	if err := matchColumns(dir, store, parts, &spec.Layout); err != nil {
+		return nil, err
+	}
 	st := new(sampler.NestedState)
 	if err := st.UnmarshalBinary(stateBytes); err != nil {
 		return nil, fmt.Errorf("%s: sampler state in the checkpoint: %w", dir, err)

@@ -128,7 +128,7 @@ func OpacityNotes(fc forward.Config, m *forward.Model) []string {
 }
 
 // Extra values stored with every sample, in this order.
-var extraNames = []string{"log_likelihood", "mean_molecular_weight", "fill_vmr", "chi2"}
+var extraNames = []string{"log_likelihood", "mean_molecular_weight", "balance_vmr", "chi_square_fitted"}
 
 // NewProblem prepares the posterior of r with the opacity tables of set
 // (as loaded by r.Config.LoadOpacity). It checks that every bin lies
@@ -385,9 +385,9 @@ func (e *PosteriorEvaluator) set(b *binding, v float64) {
 		e.gui.TIrr = v
 	case config.QTInt:
 		e.gui.TInt = v
-	case config.QLog10KappaIR:
+	case config.QLog10ThermalOpacity:
 		e.gui.KappaIR = math.Pow(10, v)
-	case config.QLog10Gamma:
+	case config.QLog10OpacityRatio:
 		e.gui.Gamma = math.Pow(10, v)
 	case config.QRadiusRjup:
 		s.RefRadius = v * forward.JupiterRadius
@@ -401,9 +401,9 @@ func (e *PosteriorEvaluator) set(b *binding, v float64) {
 		s.CloudTop = math.Pow(10, v) * forward.Bar
 	case config.QCloudFraction:
 		s.CloudFraction = v
-	case config.QLog10HazeFactor:
+	case config.QLog10HazeStrength:
 		s.HazeFactor = math.Pow(10, v)
-	case config.QHazeSlope:
+	case config.QHazeIndex:
 		s.HazeSlope = v
 	case config.QOffsetPPM:
 		e.off[b.index] = v * 1e-6

@@ -169,7 +169,7 @@ func TestInjectionRecovery(t *testing.T) {
 	if len(rows) != 16*steps {
 		t.Errorf("%d rows, want 16 x %d", len(rows), steps)
 	}
-	want := "step,walker,log_posterior,log_likelihood,log10_vmr_H2O,log10_vmr_CH4,temperature_k,radius_rearth,mean_molecular_weight,fill_vmr,chi2"
+	want := "step,walker,log_posterior,log_likelihood,log10_vmr_H2O,log10_vmr_CH4,temperature_k,radius_rearth,mean_molecular_weight,balance_vmr,chi_square_fitted"
 	if got := strings.Join(cols, ","); got != want {
 		t.Errorf("columns %s, want %s", got, want)
 	}
@@ -231,12 +231,15 @@ func TestRunBadInputs(t *testing.T) {
 	if _, err := os.Stat(filepath.Join(runDir, CheckpointFile)); err != nil {
 		t.Errorf("a failed --force fit removed the old run: %v", err)
 	}
-	// The observation changes: resume refuses, naming it.
-	os.WriteFile(obs, append(data, []byte("# edited\n")...), 0o644)
+	// The run's copy of the observation changes: resume refuses, naming
+	// it. (The original file is no longer the run's: the run uses its
+	// copy, inputs/obs.csv.)
+	own := filepath.Join(runDir, InputsDir, "obs.csv")
+	os.WriteFile(own, append(data, []byte("# edited\n")...), 0o644)
 	if _, err := Resume(ctx, runDir, ResumeOptions{Stop: config.StopRule{Steps: 10}, DemoCache: testDemoCache(t)}); err == nil || !strings.Contains(err.Error(), "obs.csv changed since the run started") {
 		t.Errorf("changed observation: %v", err)
 	}
-	os.WriteFile(obs, data, 0o644)
+	os.WriteFile(own, data, 0o644)
 	// run.toml edited (the configuration no longer matches the checkpoint).
 	rt := filepath.Join(runDir, RunFile)
 	text, _ := os.ReadFile(rt)

@@ -89,10 +89,10 @@ func truthValues(r *config.Resolved, m *config.ModelConfig) map[string]float64 {
 			v = f(t.TIrrK)
 		case config.QTInt:
 			v = f(t.TIntK)
-		case config.QLog10KappaIR:
-			v = lg(f(t.KappaIRM2Kg))
-		case config.QLog10Gamma:
-			v = lg(f(t.Gamma))
+		case config.QLog10ThermalOpacity:
+			v = lg(f(t.ThermalOpacityM2Kg))
+		case config.QLog10OpacityRatio:
+			v = lg(f(t.OpacityRatio))
 		case config.QRadiusRjup:
 			v = planetRadius(m) / forward.JupiterRadius
 		case config.QRadiusRearth:
@@ -102,16 +102,16 @@ func truthValues(r *config.Resolved, m *config.ModelConfig) map[string]float64 {
 		case config.QMassMearth:
 			v = planetMass(m) / forward.EarthMass
 		case config.QLog10CloudTop:
-			v = lg(f(m.Clouds.TopPressureBar))
+			v = lg(f(m.Clouds.CloudTopBar))
 		case config.QCloudFraction:
-			v = f(m.Clouds.Fraction)
-			if math.IsNaN(v) && m.Clouds.TopPressureBar != nil {
+			v = f(m.Clouds.CloudFraction)
+			if math.IsNaN(v) && m.Clouds.CloudTopBar != nil {
 				v = 1
 			}
-		case config.QLog10HazeFactor:
-			v = lg(f(m.Clouds.HazeFactor))
-		case config.QHazeSlope:
-			v = f(m.Clouds.HazeSlope)
+		case config.QLog10HazeStrength:
+			v = lg(f(m.Clouds.HazeStrength))
+		case config.QHazeIndex:
+			v = f(m.Clouds.HazeIndex)
 		case config.QOffsetPPM, config.QErrorInflationPM:
 			v = 0 // a simulation has no offset and its errors are the true ones
 		}
@@ -177,7 +177,7 @@ func (j *job) fitted() report.Fitted {
 // the limb temperature (the isothermal temperature, free or fixed).
 func (j *job) atmosphere() *report.Atmosphere {
 	mc := &j.res.Config.ModelConfig
-	a := &report.Atmosphere{HydrogenRich: mc.Atmosphere.Fill == "" || mc.Atmosphere.Fill == forward.FillH2He, TemperatureK: math.NaN()}
+	a := &report.Atmosphere{HydrogenRich: mc.Atmosphere.BalanceGas == "" || mc.Atmosphere.BalanceGas == forward.FillH2He, TemperatureK: math.NaN()}
 	for _, p := range j.res.Free {
 		if p.Sets == config.QTemperature {
 			a.TemperatureColumn = p.Name

@@ -174,6 +174,9 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 	}
 	out := &RunOutcome{Recovered: recovered}
 	store := filepath.Join(dir, chains.DirName)
+	if err := matchColumns(dir, store, parts, &spec.Layout); err != nil {
+		return nil, err
+	}
 	st := new(sampler.State)
 	if err := st.UnmarshalBinary(stateBytes); err != nil {
 		return nil, fmt.Errorf("%s: sampler state in the checkpoint: %w", dir, err)
@@ -299,6 +302,48 @@ func checkOwner(dir string, ck *Checkpoint, spec *RunSpec) error {
 	if ck.Method != "" || ck.Walkers != spec.Layout.Walkers || ck.Dim != spec.Layout.Dim {
 		return fmt.Errorf("%s: the checkpoint holds %d walkers x %d parameters (%s), the configuration gives an ensemble of %d x %d", dir, ck.Walkers, ck.Dim, methodName(ck.Method), spec.Layout.Walkers, spec.Layout.Dim)
 	}
+	return nil
+}
+
+// matchColumns gives the layout l the columns of the chains already
+// stored (the first of parts) when they are the same columns, by name or
+// by an older name (report.LegacyColumns), role and source, so that a run started
+// before a rename continues with the names and descriptions it has; any
+// other difference is refused before anything is written.
+func matchColumns(dir, store string, parts []chains.PartInfo, l *chains.Layout) error {
+	if len(parts) == 0 {
+		return nil
+	}
+	r, err := chains.NewReader(store, parts[:1])
+	if err != nil {
+		return fmt.Errorf("%s: %w", dir, err)
+	}
+	var have []chains.Column // the layout's columns, without the log densities
+	for _, c := range r.Columns() {
+		if c.Role == chains.RoleParameter || c.Role == chains.RoleDerived {
+			have = append(have, c)
+		}
+	}
+	r.Close()
+	names := func(cs []chains.Column) string {
+		n := make([]string, len(cs))
+		for i, c := range cs {
+			n[i] = c.Name
+		}
+		return strings.Join(n, ",")
+	}
+	if len(have) != len(l.Columns) {
+		return fmt.Errorf("%s: the stored chains have the columns %s, this configuration gives %s", dir, names(have), names(l.Columns))
+	}
+	for i, c := range l.Columns {
+		h := have[i]
+		if (h.Name != c.Name && h.Name != report.LegacyColumns[c.Name]) || h.Role != c.Role || h.Source != c.Source {
+			return fmt.Errorf("%s: the stored chains have the columns %s, this configuration gives %s", dir, names(have), names(l.Columns))
+		}
+	}
+	// The same columns, perhaps under older names and descriptions:
+	// continue with those stored.
+	l.Columns = slices.Clone(have)
 	return nil
 }
 
@@ -760,7 +805,8 @@ func (p *progress) finish() {
 // Runs from configuration files: chord fit, resume and report.
 //
 // run.toml is the resolved configuration (Resolved.WriteTOML: every default
-// explicit, paths absolute, the seed included) followed by a [run] table
+// explicit, the seed included, the observations named by their copies in
+// the run directory, inputs.go) followed by a [run] table
 // of our own: program version, run identity, the configuration file it
 // came from and the SHA-256 of every input file (the configuration, the
 // observations, the opacity tables). The checkpoint records a digest of
@@ -846,12 +892,13 @@ func configDigest(r *config.Resolved, inputs []InputFile) (string, error) {
 	if c.Opacity.Dir != "" {
 		c.Opacity.Dir = "(directory)"
 	}
-	var b bytes.Buffer
-	if err := toml.NewEncoder(&b).Encode(c); err != nil {
+	text, err := config.DigestText(c)
+	if err != nil {
 		return "", err
 	}
+	b := bytes.NewBuffer(text)
 	for _, in := range inputs {
-		fmt.Fprintf(&b, "\n%s %s", in.Role, in.SHA256)
+		fmt.Fprintf(b, "\n%s %s", in.Role, in.SHA256)
 	}
 	sum := sha256.Sum256(b.Bytes())
 	return hex.EncodeToString(sum[:]), nil
@@ -873,7 +920,7 @@ type job struct {
 
 // quantityUnit is the unit of each quantity in chains and reports.
 var quantityUnit = map[config.Quantity]string{
-	config.QTemperature: "K", config.QTIrr: "K", config.QTInt: "K", config.QLog10KappaIR: "log10(m^2/kg)",
+	config.QTemperature: "K", config.QTIrr: "K", config.QTInt: "K", config.QLog10ThermalOpacity: "log10(m^2/kg)",
 	config.QRadiusRjup: "R_jup", config.QRadiusRearth: "R_earth", config.QMassMjup: "M_jup", config.QMassMearth: "M_earth",
 	config.QLog10CloudTop: "log10(bar)", config.QOffsetPPM: "ppm", config.QErrorInflationPM: "ppm",
 }
@@ -881,8 +928,8 @@ var quantityUnit = map[config.Quantity]string{
 // derivedInfo describes the Problem's extra values after the first.
 var derivedInfo = map[string][2]string{
 	"mean_molecular_weight": {"mean molecular weight", "u"},
-	"fill_vmr":              {"volume mixing ratio of the fill gas", ""},
-	"chi2":                  {"chi-square with the (inflated) errors", ""},
+	"balance_vmr":           {"volume mixing ratio of the balance gas", ""},
+	"chi_square_fitted":     {"chi-square with the errors as fitted (inflated when error_inflation_ppm is fitted)", ""},
 }
 
 func newJob(r *config.Resolved, set *opacity.Set, runID string) (*job, error) {
@@ -930,9 +977,9 @@ func newJob(r *config.Resolved, set *opacity.Set, runID string) (*job, error) {
 	}
 	var move sampler.Move
 	switch r.Move {
-	case "walk":
+	case config.MoveWalk:
 		move = sampler.Walk{}
-	case "de":
+	case config.MoveDiffEvolution:
 		move = sampler.DiffEvolution{}
 	default:
 		move = sampler.Stretch{A: 2}
@@ -1193,8 +1240,12 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 	info := RunInfo{Version: version.Version, RunID: runID, Created: time.Now().UTC().Format(time.RFC3339), ConfigFile: abs, Demo: set.Demo,
 		Inputs: append([]InputFile{{Role: "configuration", Path: abs, SHA256: cfgHash}}, j.inputs...)}
 	info.RunDir, _ = filepath.Abs(opt.RunDir)
+	copies, err := copyInputs(r, info.Inputs)
+	if err != nil {
+		return nil, err
+	}
 	var buf bytes.Buffer
-	if err := r.WriteTOML(&buf); err != nil {
+	if err := copies.writeTOML(r, &buf); err != nil {
 		return nil, err
 	}
 	buf.WriteString("\n# The run: program version, identity and the SHA-256 of every input file.\n")
@@ -1207,6 +1258,9 @@ func Fit(ctx context.Context, opt FitOptions) (*RunReport, error) {
 		return nil, fmt.Errorf("%s: interrupted before the run started; nothing was written: %w", opt.RunDir, err)
 	}
 	if err := prepareRunDir(opt.RunDir); err != nil {
+		return nil, err
+	}
+	if err := copies.write(opt.RunDir); err != nil {
 		return nil, err
 	}
 	if err := atomicfile.Write(filepath.Join(opt.RunDir, RunFile), buf.Bytes(), true); err != nil {
@@ -1287,6 +1341,9 @@ func loadRun(dir, cache string, set *opacity.Set, log io.Writer) (*job, *RunInfo
 			continue // the run uses run.toml, not the original file
 		}
 		p := in.Path
+		if !filepath.IsAbs(p) {
+			p = filepath.Join(dir, p) // an input copied into the run directory
+		}
 		h, err := fileSHA256(p)
 		if err != nil {
 			return nil, nil, fmt.Errorf("%s: input %s of the run: %w", dir, in.Path, err)

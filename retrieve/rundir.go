@@ -26,15 +26,18 @@ import (
 // in a directory that is a chord run (run.toml present and readable, with
 // a run identity), and then removes only chord's entries (runEntries).
 //
-// run.toml names input files by absolute path and records where the run
-// directory was (RunInfo.RunDir); a run that moved together with files
-// beside it (a plan, a grid, the demo, a run made next to its
-// configuration) finds them where they moved (relocate). The checkpoint's
-// digest covers the inputs' contents, not their paths.
+// The observation files are copied into the run (InputsDir, inputs.go)
+// and run.toml names them relative to the run directory, so a run moved
+// anywhere keeps them. The opacity tables keep their absolute paths, and
+// run.toml records where the run directory was (RunInfo.RunDir): a run
+// that moved together with files beside it (a plan, a grid, a run made
+// next to its tables; runs made before the copies) finds them where they
+// moved (relocate). The checkpoint's digest covers the inputs' contents,
+// not their paths.
 
 // runEntries are the names chord writes in a run directory (their
 // temporary files, atomicfile.TempPattern, too).
-var runEntries = append([]string{RunFile, chains.DirName, CheckpointFile, TruthFile}, report.Files()...)
+var runEntries = append([]string{RunFile, chains.DirName, CheckpointFile, TruthFile, InputsDir}, report.Files()...)
 
 // NotEmptyError refuses a new run in a directory that holds something
 // (FitOptions.Force replaces the run in it). It is an fs.ErrExist.

@@ -45,7 +45,7 @@ func ObserveModel(path string, truth *config.ModelConfig, cache string, log io.W
 	var b bytes.Buffer
 	fmt.Fprintf(&b, "# Simulated observation of %s (invented) made by chord %s with the demo opacities: NOT FOR SCIENCE.\n", truth.Planet.Name, version.Version)
 	fmt.Fprintf(&b, "# Truth: %s; error %g ppm per bin; %s.\n", truth.Planet.Name, errPPM, noise)
-	b.WriteString("edge_low_um,edge_high_um,depth_ppm,error\n")
+	b.WriteString("edge_low_um,edge_high_um,depth_ppm,error_ppm\n")
 	for i := range depth {
 		fmt.Fprintf(&b, "%.8f,%.8f,%.3f,%.3f\n", fc.Bins.Lo[i]/forward.Micron, fc.Bins.Hi[i]/forward.Micron, depth[i]*1e6, sigma[i]*1e6)
 	}

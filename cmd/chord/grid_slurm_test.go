@@ -23,7 +23,7 @@ base = "scenario.toml"
 seed = 7
 [set]
 "sampler.steps" = 1500
-[[axis]]
+[[axes]]
 key = "observe.noise_ppm"
 values = [30, 60, 120]
 [slurm]

@@ -35,7 +35,7 @@ func TestGridCommands(t *testing.T) {
 		}
 	}
 	out, _, err := runCmd(t, "grid", "status", dir)
-	if err != nil || !strings.Contains(out, "12 points: 12 not started") || !strings.Contains(out, "observe.noise_ppm=60 clouds.top_pressure_bar=0.01") {
+	if err != nil || !strings.Contains(out, "12 points: 12 not started") || !strings.Contains(out, "observe.noise_ppm=60 clouds.cloud_top_bar=0.01") {
 		t.Errorf("status: %v\n%s", err, out)
 	}
 	// Resubmitting a fresh grid means every point.
@@ -79,7 +79,7 @@ func TestGridLocalCommand(t *testing.T) {
 		t.Fatal(err)
 	}
 	spec := filepath.Join(t.TempDir(), "small.toml")
-	os.WriteFile(spec, []byte("base = \""+base+"\"\nseed = 3\n[set]\n\"sampler.steps\" = 150\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [40, 80]\n"), 0o644)
+	os.WriteFile(spec, []byte("base = \""+base+"\"\nseed = 3\n[set]\n\"sampler.steps\" = 150\n[[axes]]\nkey = \"observe.noise_ppm\"\nvalues = [40, 80]\n"), 0o644)
 	dir := filepath.Join(t.TempDir(), "grid")
 	if _, errOut, err := runCmd(t, "grid", "-c", spec, "-o", dir, "--local", "--jobs", "2"); err != nil || !strings.Contains(errOut, "2 points done, 0 stopped, 0 failed") {
 		t.Fatalf("%v\n%s", err, errOut)

@@ -53,7 +53,7 @@ func TestKillResumeNestedBinary(t *testing.T) {
 	}
 	refTime := time.Since(start)
 	cols, want := chainRows(t, ref)
-	if got := strings.Join(cols, ","); got != "point,final,log_weight,log_posterior,log_likelihood,radius_rearth,temperature_k,mean_molecular_weight,fill_vmr,chi2" {
+	if got := strings.Join(cols, ","); got != "point,final,log_weight,log_posterior,log_likelihood,radius_rearth,temperature_k,mean_molecular_weight,balance_vmr,chi_square_fitted" {
 		t.Errorf("columns %s", got)
 	}
 	if n := strings.Count(strings.Join(want, "\n"), " true "); n != 200 {

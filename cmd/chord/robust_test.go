@@ -337,7 +337,7 @@ func TestGridLocalSIGTERM(t *testing.T) {
 		t.Fatal(err)
 	}
 	spec := filepath.Join(t.TempDir(), "three.toml")
-	os.WriteFile(spec, []byte("base = \""+base+"\"\nseed = 3\n[set]\n\"sampler.steps\" = 1000000\n[[axis]]\nkey = \"observe.noise_ppm\"\nvalues = [40, 80, 160]\n"), 0o644)
+	os.WriteFile(spec, []byte("base = \""+base+"\"\nseed = 3\n[set]\n\"sampler.steps\" = 1000000\n[[axes]]\nkey = \"observe.noise_ppm\"\nvalues = [40, 80, 160]\n"), 0o644)
 	dir := filepath.Join(t.TempDir(), "grid")
 	g := startChord(t, bin, "grid", "-c", spec, "-o", dir, "--local", "--jobs", "1")
 	g.waitFor(t, filepath.Join(dir, "points", "p0000", "run", retrieve.CheckpointFile), "")

@@ -118,7 +118,7 @@ func TestKillResumeBinary(t *testing.T) {
 	if len(want) != 8*150 {
 		t.Fatalf("reference chain: %d rows, want walkers x steps = %d", len(want), 8*150)
 	}
-	if got := strings.Join(cols, ","); got != "step,walker,log_posterior,log_likelihood,radius_rearth,temperature_k,mean_molecular_weight,fill_vmr,chi2" {
+	if got := strings.Join(cols, ","); got != "step,walker,log_posterior,log_likelihood,radius_rearth,temperature_k,mean_molecular_weight,balance_vmr,chi_square_fitted" {
 		t.Errorf("columns %s", got)
 	}
 

@@ -31,10 +31,10 @@ func simulateCommand() *cli.Command {
 		Usage:     "simulate an observation of a scenario's true spectrum",
 		ArgsUsage: " ",
 		Description: "Computes the scenario's true transmission spectrum on the instrument bins and\n" +
-			"writes it as an observation file that chord fit reads. Bins come from --bins-file, or\n" +
-			"--wavelength-range-um with --resolving-power, or the --noise-file, or else the\n" +
-			"scenario's [spectrum]. The error of each bin is --noise-ppm or the --noise-file's\n" +
-			"error_ppm for one transit, divided by\n" +
+			"writes it as an observation file (edge_low_um, edge_high_um, depth_ppm, error_ppm) that\n" +
+			"chord fit reads. Bins come from --bins-file, or --wavelength-range-um with\n" +
+			"--resolving-power, or the --noise-file, or else the scenario's [spectrum]. The error of\n" +
+			"each bin is --noise-ppm or the --noise-file's error_ppm for one transit, divided by\n" +
 			"sqrt(--transits N).\n\n" +
 			"--no-scatter writes the noise-free spectrum with its error bars: the usual choice\n" +
 			"for forecasts, since the posterior is then centred on the truth and its width is the\n" +
@@ -109,6 +109,9 @@ func runSimulate(c *cli.Context) error {
 	}
 	if err != nil {
 		return err
+	}
+	for _, w := range sc.Config.Renamed {
+		fmt.Fprintf(c.App.ErrWriter, "chord simulate: warning: %s: %s\n", sc.Path, w)
 	}
 	bins, noise, err := spec.Resolve(sc)
 	if err != nil {

@@ -60,6 +60,9 @@ func runSpectrum(c *cli.Context) error {
 	if err != nil {
 		return err
 	}
+	for _, w := range cfg.Renamed {
+		fmt.Fprintf(c.App.ErrWriter, "chord spectrum: warning: %s: %s\n", cfgPath, w)
+	}
 	if c.IsSet("resolved") {
 		return runSpectrumResolved(c, cfgPath, cfg)
 	}

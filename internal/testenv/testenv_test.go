@@ -36,7 +36,7 @@ func TestFixture(t *testing.T) {
 		Set("planet.mass_mearth", "7").
 		Set("opacity.grey_cross_section_m2", "1e-29").
 		Set("parameters[2].high", "1200").
-		Set("clouds.top_pressure_bar", "1.0").
+		Set("clouds.cloud_top_bar", "1.0").
 		Delete("spectrum.bin_resolving_power").
 		DeleteTable("sampler").
 		Append("[[observations]]\nfile = \"obs.csv\"")
@@ -45,7 +45,7 @@ func TestFixture(t *testing.T) {
 		"mass_mearth = 7\n",
 		"rayleigh = [\"H2\", \"He\"]\ngrey_cross_section_m2 = 1e-29\n",
 		"low = 300\nhigh = 1200\n",
-		"[clouds]\ntop_pressure_bar = 1.0\n",
+		"[clouds]\ncloud_top_bar = 1.0\n",
 		"resolving_power = 300\n\n[[parameters]]",
 		"[[observations]]\nfile = \"obs.csv\"\n",
 	} {

@@ -31,7 +31,7 @@ var truth = []float64{
 	1.05,             // radius_rjup
 	-2,               // log10 cloud top (0.01 bar)
 	0.6,              // cloud fraction
-	math.Log10(5),    // log10 haze factor
+	math.Log10(5),    // log10 haze strength
 	120,              // optical offset, ppm
 	0,                // error inflation of the infrared, ppm
 }
