@@ -30,6 +30,12 @@ var (
 
 func demoTestTables(t *testing.T) (*opacity.Set, string) {
 	t.Helper()
+	if testing.Short() {
+		// The race run of CI is -short: this build takes about 35 s, and
+		// six minutes under the race detector; the builder's concurrency
+		// is raced on small tables in package build (two workers).
+		t.Skip("builds the whole demo set (about 35 s); run without -short")
+	}
 	demoTestOnce.Do(func() {
 		dir, err := os.MkdirTemp("", "chord-demo-test-*")
 		if err != nil {
