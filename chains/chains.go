@@ -160,6 +160,14 @@ type PartInfo struct {
 	SHA256    string `json:"sha256"`
 }
 
+// LastStep returns the last step (or point) the parts hold, 0 for none.
+func LastStep(parts []PartInfo) int {
+	if len(parts) == 0 {
+		return 0
+	}
+	return parts[len(parts)-1].LastStep
+}
+
 // partName returns the base name of part number i (1-based).
 func partName(i int) string { return fmt.Sprintf("part-%06d.parquet", i) }
 

@@ -95,17 +95,11 @@ func continueNested(ctx context.Context, dir string, spec *RunSpec, opt RunOptio
 	}
 	out := &RunOutcome{Recovered: recovered}
 	store := filepath.Join(dir, chains.DirName)
-	if err := matchColumns(dir, store, parts, &spec.Layout); err != nil {
-		return nil, err
-	}
 	st := new(sampler.NestedState)
 	if err := st.UnmarshalBinary(stateBytes); err != nil {
 		return nil, fmt.Errorf("%s: sampler state in the checkpoint: %w", dir, err)
 	}
-	last := 0
-	if n := len(parts); n > 0 {
-		last = parts[n-1].LastStep
-	}
+	last := chains.LastStep(parts)
 	if st.Iter != last {
 		return nil, fmt.Errorf("%s: the checkpoint's state has %d dead points but its parts end at point %d", dir, st.Iter, last)
 	}
@@ -239,10 +233,7 @@ func (r *nestedRunner) checkpointStopped(st *sampler.NestedState, stopped string
 		return nil
 	}
 	parts := r.w.Committed()
-	last := 0
-	if n := len(parts); n > 0 {
-		last = parts[n-1].LastStep
-	}
+	last := chains.LastStep(parts)
 	if last != st.Iter {
 		return fmt.Errorf("checkpoint at dead point %d but the committed chain parts end at point %d", st.Iter, last)
 	}

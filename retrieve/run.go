@@ -174,17 +174,11 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 	}
 	out := &RunOutcome{Recovered: recovered}
 	store := filepath.Join(dir, chains.DirName)
-	if err := matchColumns(dir, store, parts, &spec.Layout); err != nil {
-		return nil, err
-	}
 	st := new(sampler.State)
 	if err := st.UnmarshalBinary(stateBytes); err != nil {
 		return nil, fmt.Errorf("%s: sampler state in the checkpoint: %w", dir, err)
 	}
-	last := 0
-	if n := len(parts); n > 0 {
-		last = parts[n-1].LastStep
-	}
+	last := chains.LastStep(parts)
 	if st.Step != last {
 		return nil, fmt.Errorf("%s: the checkpoint's state is at step %d but its parts end at step %d", dir, st.Step, last)
 	}
@@ -263,7 +257,8 @@ func ContinueRun(ctx context.Context, dir string, spec *RunSpec, opt RunOptions)
 // parts and state before that part, with recovered set: the run resumes
 // from there. The checkpoint stays as it is until the next one, so should
 // this session stop before that, the next resume recovers the same way.
-// lost names what a damaged part held, for the error.
+// The parts' columns must be the layout's, or its old spellings
+// (matchColumns). lost names what a damaged part held, for the error.
 func openCheckpoint(dir string, spec *RunSpec, lost string) (ck *Checkpoint, parts []chains.PartInfo, state []byte, recovered bool, err error) {
 	if err := checkSpec(spec); err != nil {
 		return nil, nil, nil, false, err
@@ -283,9 +278,12 @@ func openCheckpoint(dir string, spec *RunSpec, lost string) (ck *Checkpoint, par
 		if !errors.As(err, &pe) || pe.Index != n-1 || ck.Prev == nil || ck.PrevStep != parts[n-1].FirstStep-1 {
 			return nil, nil, nil, false, fmt.Errorf("%s: %w; %s cannot be recovered", dir, err, lost)
 		}
-		return ck, parts[:n-1], ck.Prev, true, nil
+		parts, state, recovered = parts[:n-1], ck.Prev, true
 	}
-	return ck, parts, state, false, nil
+	if err := matchColumns(dir, store, parts, &spec.Layout); err != nil {
+		return nil, nil, nil, false, err
+	}
+	return ck, parts, state, recovered, nil
 }
 
 // ensemble shape.
@@ -528,10 +526,7 @@ func (r *runner) checkpointStopped(st *sampler.State, stopped string) error {
 
 func (r *runner) writeCheckpoint(st *sampler.State, stopped string) error {
 	parts := r.w.Committed()
-	last := 0
-	if n := len(parts); n > 0 {
-		last = parts[n-1].LastStep
-	}
+	last := chains.LastStep(parts)
 	if last != st.Step {
 		return fmt.Errorf("checkpoint at step %d but the committed chain parts end at step %d", st.Step, last)
 	}
