@@ -7,6 +7,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"strconv"
 
 	"chord/sampler"
@@ -134,7 +135,7 @@ func ReadEqualWeight(dir string, parts []PartInfo, more *Points, rng *rand.Rand)
 	if more != nil {
 		if !stored {
 			cols = more.Columns
-		} else if !sameColumns(cols, more.Columns) {
+		} else if !slices.Equal(cols, more.Columns) {
 			return nil, fmt.Errorf("chains: the points added to %s have other columns than its dead points", dir)
 		}
 		for _, row := range more.Rows {
@@ -191,18 +192,6 @@ func ReadEqualWeight(dir string, parts []PartInfo, more *Points, rng *rand.Rand)
 		return nil, fmt.Errorf("chains: %s changed while it was read", dir)
 	}
 	return out, nil
-}
-
-func sameColumns(a, b []Column) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if a[i] != b[i] {
-			return false
-		}
-	}
-	return true
 }
 
 // Reader streams a stored chain one ensemble step at a time, as

@@ -3,6 +3,7 @@ package forward
 import (
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 
 	"chord/forward/opacity"
@@ -322,25 +323,13 @@ func (m *Model) setTables(cfg Config) error {
 // group returns the table group on the grid (log10P, t), making it if new.
 func (m *Model) group(log10P, t []float64, cia bool) *tableGroup {
 	for _, g := range m.groups {
-		if g.cia == cia && equalAxis(g.log10P, log10P) && equalAxis(g.t, t) {
+		if g.cia == cia && slices.Equal(g.log10P, log10P) && slices.Equal(g.t, t) {
 			return g
 		}
 	}
 	g := &tableGroup{log10P: log10P, t: t, nP: max(1, len(log10P)), nT: len(t), cia: cia}
 	m.groups = append(m.groups, g)
 	return g
-}
-
-func equalAxis(a, b []float64) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if a[i] != b[i] {
-			return false
-		}
-	}
-	return true
 }
 
 // reverseRows converts rows of n float32 or float64 values on an ascending wavenumber
