@@ -253,7 +253,8 @@ func (l *List) hitranFile(path string, lo, hi float64, workers int) *streamFile 
 // exomolFile reads an ExoMol transition file's lines in [lo, hi].
 func (l *List) exomolFile(path string, lo, hi float64, workers int) *streamFile {
 	return rangeFile(path, lo, hi, workers, func(r io.Reader, fn func(*lbl.Line) error) error {
-		return l.conv.ScanTrans(r, path, func(ln lbl.Line) error { return fn(&ln) })
+		var cur lbl.Line // one per file: a pointer to the argument would escape, one allocation per line
+		return l.conv.ScanTrans(r, path, func(ln lbl.Line) error { cur = ln; return fn(&cur) })
 	})
 }
 

@@ -28,7 +28,9 @@ import (
 // settings and CIA shapes. Change it whenever any of them changes, so
 // cached demo tables are rebuilt. Callers put it in the cache directory
 // name. Version 3: k-tables (correlated-k) instead of cross-sections.
-const Version = "3"
+// Version 4: line profiles summed on a hierarchy of grids (lbl, the
+// multi-level evaluation), which moves the tables by about 1e-4.
+const Version = "4"
 
 // MetaVersion is the metadata key that carries Version in every
 // demo table.

@@ -350,7 +350,7 @@ func (b *kBuild) meta() map[string]string {
 	c := b.core
 	bs := map[string]any{
 		"method":                    "k-distribution from line-by-line cross-sections",
-		"profile":                   "Voigt; Faddeeva function by Humlicek (1982, JQSRT 27, 437), w4; cores on the fine grid, wings on every 32nd point with cubic interpolation",
+		"profile":                   "Voigt; Faddeeva function by Humlicek (1982, JQSRT 27, 437), w4; summed on a hierarchy of grids (fine, every 4th, 16th, ... point; cores exact on the fine grid, wings on the coarser levels, each interpolated to the next finer by cubic polynomials)",
 		"intensity":                 "HITRAN temperature scaling (Rothman et al. 1998, JQSRT 60, 665); c2 = hc/k, CODATA 2018",
 		"quadrature":                b.q.String(),
 		"bin_weighting":             "box-car in wavelength",

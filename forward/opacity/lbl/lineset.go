@@ -60,8 +60,7 @@ type LineSettings struct {
 	// the cross-section of the lines profiled, at its centre (the local
 	// strong-line absorption): it changes the absorption where it lies by
 	// less than that fraction. The weak lines' intensities are summed on
-	// the coarse grid of the two-level evaluation (every 32nd fine point,
-	// linear shares to the two nearest nodes, so the sum of intensities is
+	// a coarse grid (every 32nd fine point, contStep; linear shares to the two nearest nodes, so the sum of intensities is
 	// kept exactly), spread by one Voigt profile with their
 	// intensity-weighted mean Doppler and Lorentz widths, and interpolated
 	// linearly to the fine grid. 0 computes every line's profile; see
@@ -89,7 +88,8 @@ type LineSettings struct {
 type LineSet struct {
 	Gas   string
 	lines []Line
-	iso   []int // per line: index into isos
+	iso   []int     // per line: index into isos
+	lnu   []float64 // per line: ln(Nu), for its place on a grid uniform in ln(nu)
 	*lineCore
 	// Fallbacks counts, per broadener of the mixture, the lines that lack
 	// its parameters and use the air values in their place.
@@ -191,9 +191,10 @@ func (c *lineCore) set(lines []Line) (*LineSet, error) {
 	fail := func(format string, a ...any) (*LineSet, error) {
 		return nil, fmt.Errorf("opacity: lines of %s: %s", c.gas, fmt.Sprintf(format, a...))
 	}
-	ls := &LineSet{Gas: c.gas, lines: lines, iso: make([]int, len(lines)), lineCore: c}
+	ls := &LineSet{Gas: c.gas, lines: lines, iso: make([]int, len(lines)), lnu: make([]float64, len(lines)), lineCore: c}
 	for i := range lines {
 		l := &lines[i]
+		ls.lnu[i] = math.Log(l.Nu)
 		if err := l.Validate(); err != nil {
 			return fail("line of %v at %g cm^-1: %v", IsoKey{l.Mol, l.Iso}, l.Nu, err)
 		}
@@ -273,43 +274,122 @@ func (c *lineCore) checkTemperature(t float64) error {
 // NuRange returns the wavenumber span (cm^-1) of the lines.
 func (ls *LineSet) NuRange() (lo, hi float64) { return ls.lines[0].Nu, ls.lines[len(ls.lines)-1].Nu }
 
-// Two-level evaluation: line cores exactly on the fine grid; wings on a
-// coarse grid of every coarseStep-th fine point, interpolated to the fine
-// points by cubic Lagrange polynomials, with the interpolant corrected to
-// the exact profile wherever a line's core or cut-off edge lies within its
-// four-point stencil. The core spans coreSteps coarse steps either side of
-// the line centre; beyond it the interpolation error of a Lorentz wing,
-// about 3 (h/x)^4 relative for a coarse step h at distance x, is below
-// 2e-5 (measured: at most 1e-5 of the local cross-section against direct
-// evaluation at every fine point, CO at 1e-6 to 10 atm; TestLineSetTwoLevel).
+// Multi-level evaluation. A line's profile is summed on a hierarchy of
+// grids: level 0 is the fine grid, level l takes every levelRatio^l-th
+// fine point, and each level is interpolated to the next finer one by
+// cubic Lagrange polynomials (four-point stencils), down to the fine grid.
+// A line puts its exact values on the top level's nodes outside its core
+// (the nodes within coreSteps steps of its centre); on each finer level
+// it corrects the interpolant, at the nodes whose stencil on the level
+// above meets that level's core or the line's cut-off edge, to its exact
+// values there (zero within the finer level's own core, which the next
+// level corrects in turn); on the fine grid every point near the centre
+// is exact. Beyond the core of a level of step h, the interpolation error
+// of a Lorentz wing, about 3 (h/x)^4 relative at distance x, is below
+// 2e-4 of the line's own value, and the levels' errors add (measured: at
+// most 8.3e-5 of the local cross-section against direct evaluation at
+// every fine point, CO at 1e-6 to 10 atm with four levels, below the 1e-4
+// accuracy of the Voigt function itself; TestLineSetLevels). A line thus
+// costs some 100 exact fine points, about 80 nodes on each intermediate
+// level, a dozen at each cut-off edge per level and the top level's nodes
+// across its cut-off (about 100), where evaluating every fine point near
+// its centre and every 32nd across its wings cost some 1800 (a k-table
+// build at the line density of a 1e8-line list took twice as long). The
+// number of levels of a chunk is the most whose top core
+// (coreSteps top steps) fits within half the wing cut-off (at least one).
 const (
-	coarseStep = 32
+	levelRatio = 4
 	coreSteps  = 12
+	maxLevels  = 10
 )
 
 // lagrangeW holds the cubic Lagrange weights of nodes -1, 0, 1, 2 at the
-// fractions i/coarseStep.
-var lagrangeW = func() (w [coarseStep][4]float64) {
+// fractions i/levelRatio.
+var lagrangeW = func() (w [levelRatio][4]float64) {
 	for i := range w {
-		t := float64(i) / coarseStep
+		t := float64(i) / levelRatio
 		w[i] = [4]float64{-t * (t - 1) * (t - 2) / 6, (t + 1) * (t - 1) * (t - 2) / 2, -(t + 1) * t * (t - 2) / 2, (t + 1) * t * (t - 1) / 6}
 	}
 	return w
 }()
 
+// level is one grid of the multi-level evaluation of a chunk: nodes
+// first..last (node i at fine point i*step of the chunk), held in vals at
+// i-first; level 0 is the chunk's fine points, held in the caller's dst.
+type level struct {
+	step, first, last int
+	vals              []float64
+}
+
+// floorDiv returns floor(a/b) for b > 0.
+func floorDiv(a, b int) int {
+	q := a / b
+	if a%b != 0 && a < 0 {
+		q--
+	}
+	return q
+}
+
+// setLevels prepares the levels of a chunk of n fine points on grid g
+// for lines cut off at cut cm^-1.
+func (w *lineWork) setLevels(n int, g opacity.LnGrid, k0 int, cut float64) {
+	// Fine step (cm^-1) in the middle of the chunk.
+	dnu := g.Nu(k0+n/2) * (math.Exp(1/g.R) - 1)
+	nl := 1
+	for s := levelRatio * levelRatio; nl < maxLevels && coreSteps*float64(s)*dnu <= cut/2; s *= levelRatio {
+		nl++
+	}
+	w.lv = w.lv[:0]
+	w.lv = append(w.lv, level{step: 1, first: 0, last: n - 1})
+	for l := 1; l <= nl; l++ {
+		up := w.lv[l-1]
+		lv := level{step: up.step * levelRatio, first: floorDiv(up.first, levelRatio) - 1, last: floorDiv(up.last, levelRatio) + 2}
+		if l < len(w.store) {
+			lv.vals = w.store[l]
+		}
+		lv.vals = grow(lv.vals, lv.last-lv.first+1)
+		clear(lv.vals)
+		for len(w.store) <= l {
+			w.store = append(w.store, nil)
+		}
+		w.store[l] = lv.vals
+		w.lv = append(w.lv, lv)
+	}
+}
+
+// assemble interpolates every level down to the fine points (dst) and
+// clears the levels.
+func (w *lineWork) assemble(dst []float64) {
+	w.lv[0].vals = dst
+	for l := len(w.lv) - 1; l > 0; l-- {
+		up, lo := &w.lv[l], &w.lv[l-1]
+		for i := lo.first; i <= lo.last; i++ {
+			j := floorDiv(i, levelRatio)
+			lw := &lagrangeW[i-j*levelRatio]
+			v := up.vals[j-1-up.first:]
+			lo.vals[i-lo.first] += lw[0]*v[0] + lw[1]*v[1] + lw[2]*v[2] + lw[3]*v[3]
+		}
+		clear(up.vals)
+	}
+	w.lv[0].vals = nil
+}
+
 // lineWork is the scratch memory of a cross-section calculation; one per
 // goroutine.
 type lineWork struct {
-	nus    []float64
-	node   []float64
-	coarse []float64
-	q      []float64 // per isotopologue: Q(296)/Q(T)
-	lt     lineT     // the chunk's lines at T, when not given
-	dq     []int     // sliding-maximum deque
-	dep    []float64 // weak lines' intensities on the coarse nodes
-	kern   []float64 // pseudo-continuum profile on the coarse nodes
-	weak   []int     // lines weak next to their neighbours
-	cont   []float64 // pseudo-continuum on the coarse nodes (node c at c+1)
+	nus   []float64
+	node  []float64   // a line's values over a stencil's nodes
+	ev    []float64   // a line's values over a level's nodes
+	lv    []level     // the chunk's levels
+	store [][]float64 // storage of the levels' values
+	q     []float64   // per isotopologue: Q(296)/Q(T)
+	lt    lineT       // the chunk's lines at T, when not given
+	dq    []int       // sliding-maximum deque
+	dep   []float64   // weak lines' intensities on the continuum nodes
+	kern  []float64   // pseudo-continuum profile on the continuum nodes
+	weak  []int       // lines weak next to their neighbours
+	prom  []int       // weak lines whose peaks stand out: profiled
+	cont  []float64   // pseudo-continuum on the continuum nodes (node c at c+1)
 	// profiled and binned count the lines whose profiles were computed
 	// and those moved into the pseudo-continuum.
 	profiled, binned int64
@@ -380,14 +460,12 @@ func (ls *LineSet) crossSectionsT(dst []float64, g opacity.LnGrid, k0 int, p, t 
 	if n == 0 {
 		return
 	}
-	nc := (n-1)/coarseStep + 4 // coarse nodes -1 .. (n-1)/step + 2, stored at +1
 	w.nus = grow(w.nus, n)
-	w.coarse = grow(w.coarse, nc)
-	nus, coarse := w.nus[:n], w.coarse[:nc]
-	clear(coarse)
+	nus := w.nus[:n]
 	for k := range nus {
 		nus[k] = g.Nu(k0 + k)
 	}
+	w.setLevels(n, g, k0, ls.cut)
 	pAtm := p / StandardAtmosphere
 	// Lines whose window meets [nus[0], nus[n-1]].
 	lo := sort.Search(len(ls.lines), func(i int) bool { return ls.lines[i].Nu >= nus[0]-ls.cut })
@@ -413,41 +491,57 @@ func (ls *LineSet) crossSectionsT(dst []float64, g opacity.LnGrid, k0 int, p, t 
 			continue
 		}
 		gL, shift := ls.width.combine(&ls.lines[i], lt.g[j], lt.gs[j], lt.d[j], pAtm)
-		ls.profile(i, S, lt.aD[j], gL, shift, dst, coarse, nus, g, k0, w)
+		ls.profile(i, S, lt.aD[j], gL, shift, dst, nus, g, k0, w)
 	}
+	w.assemble(dst)
 	// A line weak next to its neighbours goes into the pseudo-continuum
 	// only if its peak is also below WeakCut times the cross-section the
-	// profiled lines give at its centre (lines centred outside the chunk
-	// reach it with their wings alone and always go). The Gaussian peak
-	// S sqrt(ln2/pi)/aD bounds the Voigt peak, so lines below the cut
-	// by it need no profile value.
+	// lines profiled so far (those not weak) give at its centre (lines
+	// centred outside the chunk reach it with their wings alone and
+	// always go). The Gaussian peak S sqrt(ln2/pi)/aD bounds the Voigt
+	// peak, so lines below the cut by it need no profile value. Those
+	// that stand out are profiled after all are decided.
+	w.prom = w.prom[:0]
+	lnNu0 := math.Log(g.Nu0)
 	for _, i := range w.weak {
 		j := i - lt.off
 		S, aD := lt.s[j], lt.aD[j]
 		gL, shift := ls.width.combine(&ls.lines[i], lt.g[j], lt.gs[j], lt.d[j], pAtm)
 		nu0 := ls.lines[i].Nu + shift
-		if kk := int(math.Round(g.Index(nu0))) - k0; kk >= 0 && kk < n {
-			c := kk / coarseStep
-			lw := &lagrangeW[kk-c*coarseStep]
-			cut := ls.s.WeakCut * (lw[0]*coarse[c] + lw[1]*coarse[c+1] + lw[2]*coarse[c+2] + lw[3]*coarse[c+3] + dst[kk])
+		// g.Index(nu0) from the line's ln(Nu) and ln(1 + e), e the
+		// relative shift: its series to e^3 is exact to 3e-13 for shifts
+		// below 1e-3 of the wavenumber (always, in practice).
+		e := shift / ls.lines[i].Nu
+		le := e * (1 - e*(0.5-e/3))
+		if math.Abs(e) >= 1e-3 {
+			le = math.Log1p(e)
+		}
+		x0 := g.R*(ls.lnu[i]+le-lnNu0) - float64(k0)
+		if kk := int(math.Round(x0)); kk >= 0 && kk < n {
+			cut := ls.s.WeakCut * dst[kk]
 			if S*sqrtLn2OverPi/aD >= cut {
 				if p := newVoigtLine(S, nu0, aD, gL); p.at(nu0) >= cut {
-					ls.profile(i, S, aD, gL, shift, dst, coarse, nus, g, k0, w)
+					w.prom = append(w.prom, i)
 					continue
 				}
 			}
 		}
-		cont.add(S, nu0, aD, gL, g, k0, w)
+		cont.add(S, x0, aD, gL, w)
 		w.binned++
+	}
+	if len(w.prom) > 0 {
+		for _, i := range w.prom {
+			j := i - lt.off
+			gL, shift := ls.width.combine(&ls.lines[i], lt.g[j], lt.gs[j], lt.d[j], pAtm)
+			ls.profile(i, lt.s[j], lt.aD[j], gL, shift, dst, nus, g, k0, w)
+		}
+		w.assemble(dst)
 	}
 	if cont.sum > 0 {
 		cont.spread(g, k0, n, ls.cut, w)
 	}
 	for k := range dst {
-		c := k / coarseStep
-		lw := &lagrangeW[k-c*coarseStep]
-		v := (lw[0]*coarse[c] + lw[1]*coarse[c+1] + lw[2]*coarse[c+2] + lw[3]*coarse[c+3]) + dst[k]
-		dst[k] = v * 1e-4 // cm^2 -> m^2
+		dst[k] *= 1e-4 // cm^2 -> m^2
 	}
 	if cont.sum > 0 {
 		// The pseudo-continuum is interpolated linearly between the
@@ -455,8 +549,8 @@ func (ls *LineSet) crossSectionsT(dst []float64, g opacity.LnGrid, k0 int, p, t 
 		// a node that holds a narrow weak line).
 		cn := w.cont
 		for k := range dst {
-			c := k / coarseStep
-			f := float64(k-c*coarseStep) / coarseStep
+			c := k / contStep
+			f := float64(k-c*contStep) / contStep
 			dst[k] += ((1-f)*cn[c+1] + f*cn[c+2]) * 1e-4
 		}
 	}
@@ -490,74 +584,113 @@ func (p *voigtLine) at(nu float64) float64 {
 	if math.Abs(d) >= p.inner {
 		return p.ay * wingRe(d*p.r, p.q, p.y2)
 	}
-	return p.amp * voigtRe(d*p.r, p.y)
+	return p.voigtCore(d)
+}
+
+// voigtCore is the profile at d = nu - nu0 within the region |x| + y < 15.
+func (p *voigtLine) voigtCore(d float64) float64 { return p.amp * voigtRe(d*p.r, p.y) }
+
+// nodes sets ev[i-i0] to the line's value at node i of a level of step
+// s, for i from i0 on (len(ev) nodes): zero outside the nodes na..nb of
+// its cut-off window and strictly between lo and hi (the level's core).
+// Node i is at fine point i*s of the chunk whose n fine points from grid
+// point k0 of g have the wavenumbers nus.
+func (p *voigtLine) nodes(ev []float64, i0, s, na, nb, lo, hi int, nus []float64, g opacity.LnGrid, k0 int) {
+	n := len(nus)
+	for e := range ev {
+		i := i0 + e
+		if i < na || i > nb || (i > lo && i < hi) {
+			ev[e] = 0
+			continue
+		}
+		var nu float64
+		if k := i * s; k >= 0 && k < n {
+			nu = nus[k]
+		} else {
+			nu = g.Nu(k0 + k)
+		}
+		// p.at(nu), written out: the compiler does not inline it.
+		d := nu - p.nu0
+		if math.Abs(d) >= p.inner {
+			x := d * p.r
+			x2 := x * x
+			dd := p.q - x2
+			ev[e] = p.ay * (x2 + p.q) / (dd*dd + 4*x2*p.y2)
+		} else {
+			ev[e] = p.voigtCore(d)
+		}
+	}
 }
 
 // addLine adds one line's profile within [wl, wh] cm^-1 (its cut-off
-// window) to the fine points (dst, corrections) and coarse nodes (coarse,
-// node c at coarse[c+1]) of a chunk starting at grid point k0.
-func (ls *LineSet) addLine(dst, coarse, nus []float64, g opacity.LnGrid, k0 int, wl, wh float64, p *voigtLine, w *lineWork) {
-	n := len(dst)
-	cLast := (n-1)/coarseStep + 2
-	nodeNu := func(c int) float64 {
-		if k := c * coarseStep; k >= 0 && k < n {
-			return nus[k]
-		}
-		return g.Nu(k0 + c*coarseStep)
-	}
-	// Coarse nodes inside the cut-off window, and the core's nodes.
-	na := max(int(math.Ceil((g.Index(wl)-float64(k0))/coarseStep)), -1)
-	nb := min(int(math.Floor((g.Index(wh)-float64(k0))/coarseStep)), cLast)
-	h := p.nu0 * (math.Exp(coarseStep/g.R) - 1)
-	cLo := int(math.Floor((g.Index(p.nu0-coreSteps*h) - float64(k0)) / coarseStep))
-	cHi := int(math.Ceil((g.Index(p.nu0+coreSteps*h) - float64(k0)) / coarseStep))
-	inWing := func(c int) bool { return c >= na && c <= nb && (c <= cLo || c >= cHi) }
-	for c := max(na, -1); c <= min(nb, cLast); c++ {
-		if c <= cLo || c >= cHi {
-			coarse[c+1] += p.at(nodeNu(c))
+// window) to the levels of the chunk (w.lv, set by setLevels; level 0 is
+// dst) starting at grid point k0 (the fine points' wavenumbers in nus).
+func (ls *LineSet) addLine(dst, nus []float64, g opacity.LnGrid, k0 int, wl, wh float64, p *voigtLine, w *lineWork) {
+	w.lv[0].vals = dst
+	xl, xh := g.Index(wl)-float64(k0), g.Index(wh)-float64(k0)
+	x0 := g.Index(p.nu0) - float64(k0)
+	// Per level: the nodes within the window, na..nb, and the core,
+	// strictly between cLo and cHi (none on the fine grid).
+	var na, nb, cLo, cHi [maxLevels + 1]int
+	for l := range w.lv {
+		s := float64(w.lv[l].step)
+		na[l] = int(math.Ceil(xl / s))
+		nb[l] = int(math.Floor(xh / s))
+		cLo[l], cHi[l] = math.MinInt, math.MinInt
+		if l > 0 {
+			cLo[l] = int(math.Floor(x0/s - coreSteps))
+			cHi[l] = int(math.Ceil(x0/s + coreSteps))
 		}
 	}
-	// Correct the interpolant on the intervals whose stencil meets the
-	// core or a cut-off edge (ascending, merged), with the line's node
-	// values over the stencils kept in w.node.
-	done := math.MinInt
-	correct := func(c0, c1 int) {
-		c0 = max(c0, done, 0)
-		c1 = min(c1, (n-1)/coarseStep+1)
-		if c0 >= c1 {
-			return
-		}
-		w.node = grow(w.node, c1-c0+3)
-		for c := c0 - 1; c <= c1+1; c++ {
-			v := 0.0
-			if inWing(c) {
-				v = p.at(nodeNu(c))
+	top := len(w.lv) - 1
+	if lt := &w.lv[top]; true {
+		i0, i1 := max(na[top], lt.first), min(nb[top], lt.last)+1
+		if i0 < i1 {
+			w.ev = grow(w.ev, i1-i0)
+			p.nodes(w.ev, i0, lt.step, na[top], nb[top], cLo[top], cHi[top], nus, g, k0)
+			for i, v := range w.ev {
+				lt.vals[i0+i-lt.first] += v
 			}
-			w.node[c-c0+1] = v
 		}
-		for c := c0; c < c1; c++ {
-			v := w.node[c-c0 : c-c0+4]
-			k1 := min((c+1)*coarseStep, n)
-			for k := c * coarseStep; k < k1; k++ {
-				lw := &lagrangeW[k-c*coarseStep]
-				exact := 0.0
-				if nu := nus[k]; nu >= wl && nu <= wh {
-					exact = p.at(nu)
+	}
+	for l := top - 1; l >= 0; l-- {
+		lv, up := &w.lv[l], &w.lv[l+1]
+		// Nodes of level l in the intervals [j0, j1) of level l+1 whose
+		// stencils meet its core or a cut-off edge (ascending, merged),
+		// take the exact value less the interpolant of level l+1's
+		// exact values (w.node, over the stencils).
+		done := math.MinInt
+		for _, z := range [3][2]int{{na[l+1] - 2, na[l+1] + 1}, {cLo[l+1] - 1, cHi[l+1] + 1}, {nb[l+1] - 1, nb[l+1] + 2}} {
+			i0 := max(z[0]*levelRatio, lv.first, done)
+			i1 := min(z[1]*levelRatio, lv.last+1)
+			if i0 >= i1 {
+				continue
+			}
+			done = i1
+			c0, c1 := floorDiv(i0, levelRatio)-1, floorDiv(i1-1, levelRatio)+2
+			w.node = grow(w.node, c1-c0+1)
+			p.nodes(w.node, c0, up.step, na[l+1], nb[l+1], cLo[l+1], cHi[l+1], nus, g, k0)
+			w.ev = grow(w.ev, i1-i0)
+			p.nodes(w.ev, i0, lv.step, na[l], nb[l], cLo[l], cHi[l], nus, g, k0)
+			out, ev := lv.vals[i0-lv.first:i1-lv.first], w.ev
+			// Interval j of level l+1 holds nodes levelRatio*j .. +3.
+			for j := c0 + 1; j <= c1-2; j++ {
+				v0, v1, v2, v3 := w.node[j-1-c0], w.node[j-c0], w.node[j+1-c0], w.node[j+2-c0]
+				a, b := max(j*levelRatio, i0), min((j+1)*levelRatio, i1)
+				for i := a; i < b; i++ {
+					lw := &lagrangeW[i-j*levelRatio]
+					out[i-i0] += ev[i-i0] - (lw[0]*v0 + lw[1]*v1 + lw[2]*v2 + lw[3]*v3)
 				}
-				dst[k] += exact - (lw[0]*v[0] + lw[1]*v[1] + lw[2]*v[2] + lw[3]*v[3])
 			}
 		}
-		done = max(done, c1)
 	}
-	correct(na-2, na+1)
-	correct(cLo-1, cHi+1)
-	correct(nb-1, nb+2)
+	w.lv[0].vals = nil
 }
 
 // profile adds line i (intensity S, Doppler and Lorentz half-widths aD
 // and gL, shift) to the chunk with its own Voigt profile, cut at the wing
 // cut-off (or the adaptive one).
-func (ls *LineSet) profile(i int, S, aD, gL, shift float64, dst, coarse, nus []float64, g opacity.LnGrid, k0 int, w *lineWork) {
+func (ls *LineSet) profile(i int, S, aD, gL, shift float64, dst, nus []float64, g opacity.LnGrid, k0 int, w *lineWork) {
 	l := &ls.lines[i]
 	w.profiled++
 	p := newVoigtLine(S, l.Nu+shift, aD, gL)
@@ -565,7 +698,7 @@ func (ls *LineSet) profile(i int, S, aD, gL, shift float64, dst, coarse, nus []f
 	if ls.s.WingWidths > 0 {
 		cut = min(cut, ls.s.WingWidths*voigtHWHM(aD, gL))
 	}
-	ls.addLine(dst, coarse, nus, g, k0, l.Nu-cut, l.Nu+cut, &p, w)
+	ls.addLine(dst, nus, g, k0, l.Nu-cut, l.Nu+cut, &p, w)
 }
 
 // voigtHWHM is the half-width at half maximum of a Voigt profile of
@@ -602,6 +735,9 @@ func (ls *LineSet) strongest(lo, hi int, s, ref []float64, w *lineWork) {
 	w.dq = dq[:0]
 }
 
+// contStep is the spacing of the pseudo-continuum's nodes, in fine points.
+const contStep = 32
+
 // continuum gathers the weak lines of a chunk: their intensities on the
 // coarse nodes and the sums for their mean widths.
 type continuum struct {
@@ -609,11 +745,12 @@ type continuum struct {
 	c0              int     // coarse node of w.dep[0]
 }
 
-// add puts a weak line of intensity S at nu0 (cm^-1) with half-widths aD
-// and gL on the two coarse nodes around it, in shares that keep its
-// intensity and its mean position.
-func (c *continuum) add(S, nu0, aD, gL float64, g opacity.LnGrid, k0 int, w *lineWork) {
-	x := (g.Index(nu0) - float64(k0)) / coarseStep
+// add puts a weak line of intensity S at fine-grid position x0 (from the
+// chunk's first point) with half-widths aD and gL on the two continuum
+// nodes around it, in shares that keep its intensity and its mean
+// position.
+func (c *continuum) add(S, x0, aD, gL float64, w *lineWork) {
+	x := x0 / contStep
 	j := int(math.Floor(x))
 	f := x - float64(j)
 	if len(w.dep) == 0 {
@@ -646,7 +783,7 @@ func (c *continuum) spread(g opacity.LnGrid, k0, n int, cut float64, w *lineWork
 	aD, gL := c.sumD/c.sum, c.sumL/c.sum
 	// Node spacing (cm^-1) at the middle of the chunk.
 	mid := g.Nu(k0 + n/2)
-	h := mid * (math.Exp(coarseStep/g.R) - 1)
+	h := mid * (math.Exp(contStep/g.R) - 1)
 	reach := max(min(cut, 50*voigtHWHM(aD, gL)), 3*h)
 	m := int(math.Ceil(reach / h))
 	w.kern = grow(w.kern, 2*m+1)
@@ -660,7 +797,7 @@ func (c *continuum) spread(g opacity.LnGrid, k0, n int, cut float64, w *lineWork
 	for i := range w.kern {
 		w.kern[i] /= tot * h // sum of kernel x h = 1
 	}
-	cLast := (n-1)/coarseStep + 2
+	cLast := (n-1)/contStep + 2
 	w.cont = grow(w.cont, cLast+2)
 	clear(w.cont)
 	coarse := w.cont

@@ -37,8 +37,8 @@ func Faddeeva(z complex128) complex128 {
 }
 
 // voigtRe returns Re w(x + i y) for y >= 0, the Voigt function K(x, y),
-// as Faddeeva does; regions I and II, where most points of a line's wings
-// fall, are written out in real arithmetic for speed.
+// as Faddeeva does, with every region written out in real arithmetic for
+// speed (the same rational functions; TestVoigtReFaddeeva).
 func voigtRe(x, y float64) float64 {
 	ax := math.Abs(x)
 	s := ax + y
@@ -57,8 +57,49 @@ func voigtRe(x, y float64) float64 {
 		dr := 0.75 + ur*br - ui*bi
 		di := ur*bi + ui*br
 		return (nr*dr + ni*di) / (dr*dr + di*di)
+	case y >= 0.195*ax-0.176: // region III: a rational function of t = y - i x
+		// Numerator and denominator by Horner's rule in real arithmetic:
+		// p <- c + t p with t = (y, -x).
+		nr, ni := 0.5642236, 0.0
+		for _, c := range [...]float64{3.778987, 11.96482, 20.20933, 16.4955} {
+			nr, ni = c+y*nr+x*ni, y*ni-x*nr
+		}
+		dr, di := 1.0, 0.0
+		for _, c := range [...]float64{6.699398, 21.69274, 39.27121, 38.82363, 16.4955} {
+			dr, di = c+y*dr+x*di, y*di-x*dr
+		}
+		return (nr*dr + ni*di) / (dr*dr + di*di)
 	}
-	return real(Faddeeva(complex(x, y)))
+	// Region IV: exp(u) - t N(u)/D(u), u = t^2 = (y^2 - x^2, -2 x y); the
+	// polynomials by Horner's rule p <- c - u p in real arithmetic, and
+	// only the real part of the exponential.
+	ur, ui := y*y-x*x, -2*x*y
+	// The two polynomials advance together (independent chains).
+	nr, ni := 1.320522-0.56419*ur, -0.56419*ui
+	dr, di := 1.841439-ur, -ui
+	nr, ni = 35.76683-(ur*nr-ui*ni), -(ur*ni + ui*nr)
+	dr, di = 61.57037-(ur*dr-ui*di), -(ur*di + ui*dr)
+	nr, ni = 219.0313-(ur*nr-ui*ni), -(ur*ni + ui*nr)
+	dr, di = 364.2191-(ur*dr-ui*di), -(ur*di + ui*dr)
+	nr, ni = 1540.787-(ur*nr-ui*ni), -(ur*ni + ui*nr)
+	dr, di = 2186.181-(ur*dr-ui*di), -(ur*di + ui*dr)
+	nr, ni = 3321.9905-(ur*nr-ui*ni), -(ur*ni + ui*nr)
+	dr, di = 9022.228-(ur*dr-ui*di), -(ur*di + ui*dr)
+	nr, ni = 36183.31-(ur*nr-ui*ni), -(ur*ni + ui*nr)
+	dr, di = 24322.84-(ur*dr-ui*di), -(ur*di + ui*dr)
+	dr, di = 32066.6-(ur*dr-ui*di), -(ur*di + ui*dr)
+	// t N = (y nr + x ni, y ni - x nr).
+	tr, ti := y*nr+x*ni, y*ni-x*nr
+	// cos(ui) by its series where ui is small (y small, as at low
+	// pressure): the first omitted term, ui^6/720, is below 1e-21.
+	var c float64
+	if a := math.Abs(ui); a < 1e-3 {
+		u2 := ui * ui
+		c = 1 - u2*(0.5-u2/24)
+	} else {
+		c = math.Cos(ui)
+	}
+	return math.Exp(ur)*c - (tr*dr+ti*di)/(dr*dr+di*di)
 }
 
 // wingRe is Re w(x + i y) / (0.5641896 y) in Humlicek's region I, with
