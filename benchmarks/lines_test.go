@@ -46,6 +46,9 @@ import (
 // (writing 1e8 lines takes about ten minutes), else in a temporary
 // directory. It reports the peak heap in use (MB) sampled during the
 // build, and lines/s.
+//
+// BenchmarkKTableDensity is a few bins of that table at the line density
+// of a long list (below).
 
 func BenchmarkBzip2(b *testing.B) {
 	path := filepath.Join(testenv.SharedData(b, "exomol"), "12C-16O__Li2015.trans.bz2")
@@ -168,22 +171,51 @@ func BenchmarkKTableLines(b *testing.B) {
 	}
 	nuLo, nuHi := 1e4/5.5, 1e4/0.6
 	lo, hi := opacity.AnchoredBins(0.6, 5.5, 100)
-	logP := make([]float64, 20)
-	for i := range logP {
-		logP[i] = -2 + 9*float64(i)/19
-	}
-	temps := []float64{300, 500, 700, 900, 1100, 1400, 1700, 2000, 2500, 3000}
 	// Peak memory is what the build holds live: a low GC target keeps the
 	// heap in use near it.
 	defer debug.SetGCPercent(debug.SetGCPercent(25))
 	for _, n := range sizes {
 		b.Run(fmt.Sprintf("lines=%.0e", float64(n)), func(b *testing.B) {
 			def := synthList(b, n, nuLo, nuHi, 100)
-			s := lbl.KSettings{Log10P: logP, T: temps, Lo: lo, Hi: hi,
-				Lines: lbl.LineSettings{WeakCut: lbl.DefaultWeakCut}}
-			buildK(b, def, s, n)
+			buildK(b, def, ktableSettings(lo, hi), n)
 		})
 	}
+}
+
+// BenchmarkKTableDensity builds a few bins of BenchmarkKTableLines'
+// table (2.44-2.56 um, R = 100, 4 bins, on the same 20 x 10 grid with the
+// same settings) from a synthetic list at the line density of a full list
+// of CHORD_BENCH_DENSITY lines over 0.6-5.5 um (default 1e8), written over
+// the bins and the wing cut-off either side (3850-4150 cm^-1; 2e6 lines
+// for the default). It does about a seventieth of the full build's work
+// (the full 1e7-line build took 71 times the CPU time of this one at the
+// 1e7 density), so the cost of a dense list is measured in a minute.
+func BenchmarkKTableDensity(b *testing.B) {
+	full := 1e8
+	if v := os.Getenv("CHORD_BENCH_DENSITY"); v != "" {
+		var err error
+		if full, err = strconv.ParseFloat(v, 64); err != nil || !(full > 0) {
+			b.Fatalf("CHORD_BENCH_DENSITY %q: want a positive number of lines", v)
+		}
+	}
+	const nuLo, nuHi = 3850.0, 4150.0
+	n := int64(full / (1e4/0.6 - 1e4/5.5) * (nuHi - nuLo))
+	def := synthList(b, n, nuLo, nuHi, 100)
+	lo, hi := opacity.AnchoredBins(1e4/4100, 1e4/3900, 100)
+	defer debug.SetGCPercent(debug.SetGCPercent(25))
+	buildK(b, def, ktableSettings(lo, hi), n)
+}
+
+// ktableSettings is the table of issue 18's workload on bins lo, hi: 20
+// pressures (1e-7 to 100 bar) x 10 temperatures (300 to 3000 K), 16 g,
+// the default weak-line cut.
+func ktableSettings(lo, hi []float64) lbl.KSettings {
+	logP := make([]float64, 20)
+	for i := range logP {
+		logP[i] = -2 + 9*float64(i)/19
+	}
+	temps := []float64{300, 500, 700, 900, 1100, 1400, 1700, 2000, 2500, 3000}
+	return lbl.KSettings{Log10P: logP, T: temps, Lo: lo, Hi: hi, Lines: lbl.LineSettings{WeakCut: lbl.DefaultWeakCut}}
 }
 
 // cpuSeconds returns the CPU time (user and system) of the process.
