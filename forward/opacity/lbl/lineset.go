@@ -342,17 +342,14 @@ func (w *lineWork) setLevels(n int, g opacity.LnGrid, k0 int, cut float64) {
 	}
 	w.lv = w.lv[:0]
 	w.lv = append(w.lv, level{step: 1, first: 0, last: n - 1})
+	for len(w.store) <= nl {
+		w.store = append(w.store, nil)
+	}
 	for l := 1; l <= nl; l++ {
 		up := w.lv[l-1]
 		lv := level{step: up.step * levelRatio, first: floorDiv(up.first, levelRatio) - 1, last: floorDiv(up.last, levelRatio) + 2}
-		if l < len(w.store) {
-			lv.vals = w.store[l]
-		}
-		lv.vals = grow(lv.vals, lv.last-lv.first+1)
+		lv.vals = grow(w.store[l], lv.last-lv.first+1)
 		clear(lv.vals)
-		for len(w.store) <= l {
-			w.store = append(w.store, nil)
-		}
 		w.store[l] = lv.vals
 		w.lv = append(w.lv, lv)
 	}
@@ -644,14 +641,12 @@ func (ls *LineSet) addLine(dst, nus []float64, g opacity.LnGrid, k0 int, wl, wh 
 		}
 	}
 	top := len(w.lv) - 1
-	if lt := &w.lv[top]; true {
-		i0, i1 := max(na[top], lt.first), min(nb[top], lt.last)+1
-		if i0 < i1 {
-			w.ev = grow(w.ev, i1-i0)
-			p.nodes(w.ev, i0, lt.step, na[top], nb[top], cLo[top], cHi[top], nus, g, k0)
-			for i, v := range w.ev {
-				lt.vals[i0+i-lt.first] += v
-			}
+	lt := &w.lv[top]
+	if i0, i1 := max(na[top], lt.first), min(nb[top], lt.last)+1; i0 < i1 {
+		w.ev = grow(w.ev, i1-i0)
+		p.nodes(w.ev, i0, lt.step, na[top], nb[top], cLo[top], cHi[top], nus, g, k0)
+		for i, v := range w.ev {
+			lt.vals[i0+i-lt.first] += v
 		}
 	}
 	for l := top - 1; l >= 0; l-- {
